@@ -1,0 +1,158 @@
+"""``analyze()``: estimate every requested statistic over its tau grid.
+
+This is the library's main entry point after reading a log::
+
+    m = stability.read_log("counter.csv")
+    table = stability.analyze(m, stats=["oadev", "mdev"], taus="octave")
+    table.to_frame()
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+
+from .deviations.registry import Statistic, get_statistic
+from .errors import AnalysisError, InputError
+from .measurement import Measurement
+from .table import StabilityTable, StatisticResult
+from .taus import GRIDS, tau_grid
+
+__all__ = ["analyze", "estimate", "DEFAULT_STATS", "validate_analysis_args"]
+
+DEFAULT_STATS = ("oadev", "mdev")
+
+
+def _stat_list(stats: str | Sequence[str]) -> list[Statistic]:
+    names = [s.strip() for s in stats.split(",")] if isinstance(stats, str) else list(stats)
+    names = [n for n in names if n]
+    if not names:
+        raise InputError("no statistic asked for", hint="pass stats such as 'oadev,mdev'")
+    out: list[Statistic] = []
+    for name in names:
+        stat = get_statistic(name)
+        if stat not in out:
+            out.append(stat)
+    return out
+
+
+def validate_analysis_args(
+    measurement: Any, stats: str | Sequence[str], taus: Any, confidence: Any
+) -> tuple[list[Statistic], float]:
+    """Check the arguments of :func:`analyze`; raise :class:`InputError` naming the bad one."""
+    if not isinstance(measurement, Measurement):
+        raise InputError(
+            f"measurement must be a stability.Measurement, got {type(measurement).__name__}",
+            hint="build one with Measurement.from_phase, Measurement.from_frequency or read_log",
+        )
+    try:
+        level = float(confidence)
+    except (TypeError, ValueError):
+        raise InputError(f"confidence must be a number in (0, 1), got {confidence!r}") from None
+    if not (0.0 < level < 1.0):
+        raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
+    if isinstance(taus, str) and taus.strip().lower() not in GRIDS:
+        raise InputError(
+            f"unknown tau grid {taus!r}", hint="choose octave, decade, all or a list of taus"
+        )
+    return _stat_list(stats), level
+
+
+def estimate(measurement: Measurement, stat: Statistic, taus: Any = "octave") -> StatisticResult:
+    """Raw estimates of one statistic over its tau grid (no qualification)."""
+    n = measurement.n
+    finite = int(np.isfinite(measurement.phase).sum())
+    max_m = stat.allowed_m(n)
+    if max_m < 1 or finite < stat.min_points:
+        raise AnalysisError(
+            f"{stat.name} needs at least {stat.min_points} phase samples; "
+            f"the record has {finite} usable of {n}",
+        )
+    ms = tau_grid(taus, max_m, measurement.tau0, step=stat.m_step)
+    if not isinstance(taus, str):
+        asked = tau_grid(taus, 10**18, measurement.tau0, step=stat.m_step)
+        too_long = asked[asked > max_m]
+        if too_long.size:
+            tau = too_long[0] * measurement.tau0 * stat.tau_factor
+            raise AnalysisError(
+                f"tau {tau:g} s is too long for {stat.name} on a record of {n} samples "
+                f"(largest tau {max_m * measurement.tau0 * stat.tau_factor:g} s)",
+                hint="drop the longer taus or use --taus octave",
+            )
+    if ms.size == 0:
+        raise AnalysisError(f"no tau of the requested grid fits {stat.name} on {n} samples")
+    x = measurement.phase_with_offset() if stat.family == "time_error" else measurement.phase
+    seg = measurement.segments
+    tau0 = measurement.tau0
+    if stat.multi is not None:
+        values = stat.multi(x, tau0, [int(m) for m in ms], seg)
+    else:
+        values = [stat.func(x, tau0, int(m), seg) for m in ms]
+    dev = np.array([v for v, _ in values], dtype=float)
+    used = np.array([k for _, k in values], dtype=np.int64)
+    keep = used > 0
+    if not keep.any():
+        raise AnalysisError(f"{stat.name}: every term touches a gap; nothing can be computed")
+    result = StatisticResult(
+        statistic=stat.name,
+        tau=ms[keep] * tau0 * stat.tau_factor,
+        m=ms[keep],
+        n_terms=used[keep],
+        deviation=dev[keep],
+    )
+    dropped = ms[~keep]
+    if dropped.size:
+        result.notes.append(
+            f"{stat.name}: no usable term at m = {', '.join(str(int(m)) for m in dropped)} "
+            "(every term touches a gap)"
+        )
+    return result
+
+
+def analyze(
+    measurement: Measurement,
+    stats: str | Sequence[str] = DEFAULT_STATS,
+    taus: str | Sequence[float] = "octave",
+    confidence: float = 0.683,
+    **options: Any,
+) -> StabilityTable:
+    """Estimate the requested statistics of a measurement.
+
+    Parameters
+    ----------
+    measurement
+        The data, from :func:`stability.read_log` or the ``Measurement`` constructors.
+    stats
+        Statistic identifiers (a list or a comma string), e.g. ``"oadev,mdev"``.
+    taus
+        ``"octave"``, ``"decade"``, ``"all"`` or a list of taus in seconds.
+    confidence
+        Two-sided confidence level of the intervals (default 0.683).
+    options
+        Settings of the qualification layer (passed through).
+
+    Returns
+    -------
+    StabilityTable
+    """
+    stat_list, level = validate_analysis_args(measurement, stats, taus, confidence)
+    results = {}
+    for stat in stat_list:
+        results[stat.name] = estimate(measurement, stat, taus)
+    settings = {
+        "stats": [s.name for s in stat_list],
+        "taus": taus if isinstance(taus, str) else [float(t) for t in taus],
+        "confidence": level,
+        **options,
+    }
+    table = StabilityTable(
+        results=results, confidence=level, settings=settings, measurement=measurement
+    )
+    for r in table:
+        r.confidence = level
+    if not math.isfinite(sum(float(np.nansum(r.deviation)) for r in table)):
+        raise AnalysisError("the estimates are not finite; check the data for huge values")
+    return table

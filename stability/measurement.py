@@ -1,0 +1,270 @@
+"""The canonical measurement: phase in seconds on a uniform grid, plus provenance.
+
+Inside ``stability`` every log becomes a :class:`Measurement`: the phase (time
+error) ``x`` in seconds, float64, uniformly spaced by ``tau0`` seconds, with NaN
+marking a missing phase sample; and the metadata needed to say where it came
+from and what was done to it.
+
+Fractional frequency ``y`` enters through ``x = tau0 * cumsum(y)`` (NIST SP 1065,
+section 5.2.1). A missing ``y`` leaves the phase after it unknown by a constant,
+so the phase after a frequency gap starts a new *segment*: ``segments[i]`` counts
+the frequency gaps before phase sample ``i``. A term of any estimator is used
+only when every phase sample it touches is finite and all of them lie in one
+segment; terms inside one unbroken stretch are kept (NIST SP 1065, section 5.14:
+drop every term that touches a gap and normalise by the terms used).
+
+Numerical care: a large mean frequency offset makes the integrated phase a steep
+ramp whose rounding error swamps picosecond changes. ``from_frequency`` removes
+the mean fractional frequency before integrating and keeps it in
+``frequency_offset``; the Allan family is blind to it, and
+:meth:`Measurement.phase_with_offset` adds it back for time-error statistics
+(MTIE, TIE), which are not.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass, field
+from datetime import datetime
+from typing import Any
+
+import numpy as np
+
+from .errors import InputError
+
+__all__ = ["Measurement", "Provenance"]
+
+
+@dataclass(frozen=True)
+class Provenance:
+    """Where a measurement came from.
+
+    Attributes
+    ----------
+    path
+        The input file as given, or None for data made in memory.
+    sha256
+        Hex SHA-256 of the input file's bytes.
+    rows
+        Data rows read from the file.
+    reader
+        A short description of what was detected (format, dialect).
+    details
+        Anything else the reader reports (dialect, columns, units ...).
+    """
+
+    path: str | None = None
+    sha256: str | None = None
+    rows: int | None = None
+    reader: str | None = None
+    details: dict[str, Any] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        return dataclasses.asdict(self)
+
+
+def _as_float_array(values: Any, name: str) -> np.ndarray:
+    try:
+        arr = np.asarray(values, dtype=np.float64)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{name} must be numbers: {exc}") from None
+    if arr.ndim != 1:
+        raise InputError(f"{name} must be one-dimensional, got shape {arr.shape}")
+    if arr.size == 0:
+        raise InputError(f"{name} is empty: at least 2 samples are needed")
+    if np.isinf(arr).any():
+        where = int(np.flatnonzero(np.isinf(arr))[0])
+        raise InputError(
+            f"{name} holds an infinite value at index {where}",
+            hint="mark missing samples with NaN",
+        )
+    return arr
+
+
+def _check_tau0(tau0: Any) -> float:
+    try:
+        value = float(tau0)
+    except (TypeError, ValueError):
+        raise InputError(f"tau0 must be a positive number of seconds, got {tau0!r}") from None
+    if not math.isfinite(value) or value <= 0:
+        raise InputError(f"tau0 must be a positive, finite number of seconds, got {tau0!r}")
+    return value
+
+
+@dataclass(eq=False)
+class Measurement:
+    """Phase data in seconds on a uniform grid, with provenance.
+
+    Build one with :meth:`from_phase` or :meth:`from_frequency` rather than
+    the constructor, which takes the canonical arrays as they are.
+
+    Attributes
+    ----------
+    phase
+        Time error x in seconds (float64, read-only), NaN where a sample is
+        missing. The first finite sample is zero.
+    tau0
+        Sample interval in seconds.
+    segments
+        None when the phase is one unbroken record; otherwise an int64 array
+        of the same length counting the frequency gaps before each sample.
+    frequency_offset
+        Mean fractional frequency removed from ``phase`` for numerical care
+        (0 for phase input); see :meth:`phase_with_offset`.
+    nominal
+        Nominal frequency in Hz, when known.
+    start
+        Time of the first sample, when the log has time stamps.
+    kind
+        What the source values were: ``"phase"`` or ``"frequency"``.
+    lines
+        Optional source line number of each source value (phase samples for
+        phase input, frequency samples for frequency input); 0 where a sample
+        was inserted for a gap.
+    provenance
+        Where the data came from.
+    notes
+        What reading and preparation did, in plain sentences.
+    """
+
+    phase: np.ndarray
+    tau0: float
+    segments: np.ndarray | None = None
+    frequency_offset: float = 0.0
+    nominal: float | None = None
+    start: datetime | None = None
+    kind: str = "phase"
+    lines: np.ndarray | None = None
+    provenance: Provenance = field(default_factory=Provenance)
+    notes: list[str] = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        phase = _as_float_array(self.phase, "phase")
+        self.tau0 = _check_tau0(self.tau0)
+        if self.kind not in ("phase", "frequency"):
+            raise InputError(f"kind must be 'phase' or 'frequency', got {self.kind!r}")
+        if self.segments is not None:
+            seg = np.asarray(self.segments, dtype=np.int64)
+            if seg.shape != phase.shape:
+                raise InputError("segments must have the same length as phase")
+            if seg.size and (np.diff(seg) < 0).any():
+                raise InputError("segments must never decrease")
+            if seg.size and seg[0] == seg[-1]:
+                seg = None
+            else:
+                seg = seg.copy()
+                seg.flags.writeable = False
+            self.segments = seg
+        if not math.isfinite(float(self.frequency_offset)):
+            raise InputError("frequency_offset must be finite")
+        self.frequency_offset = float(self.frequency_offset)
+        if self.nominal is not None:
+            nominal = float(self.nominal)
+            if not math.isfinite(nominal) or nominal <= 0:
+                raise InputError(f"nominal frequency must be positive, got {self.nominal!r}")
+            self.nominal = nominal
+        finite = np.isfinite(phase)
+        if not finite.any():
+            raise InputError("phase holds no finite sample: every value is missing")
+        phase = phase - phase[np.argmax(finite)]
+        phase.flags.writeable = False
+        self.phase = phase
+        if self.lines is not None:
+            lines = np.asarray(self.lines, dtype=np.int64).copy()
+            lines.flags.writeable = False
+            self.lines = lines
+
+    # ------------------------------------------------------------------ constructors
+    @classmethod
+    def from_phase(cls, x: Any, tau0: Any, **meta: Any) -> Measurement:
+        """Measurement from phase (time error) samples in seconds.
+
+        NaN marks a missing sample; the first finite sample is subtracted.
+        ``meta`` sets the other attributes (nominal, start, provenance, notes,
+        lines).
+        """
+        arr = _as_float_array(x, "phase")
+        if arr.size < 2:
+            raise InputError("phase needs at least 2 samples")
+        return cls(phase=arr, tau0=tau0, kind="phase", **meta)
+
+    @classmethod
+    def from_frequency(cls, y: Any, tau0: Any, **meta: Any) -> Measurement:
+        """Measurement from fractional-frequency samples (dimensionless).
+
+        Phase is the running sum ``x[k+1] = x[k] + tau0 * (y[k] - mean(y))``;
+        the mean goes to ``frequency_offset``. A NaN in ``y`` starts a new
+        segment: the terms spanning it are dropped, those on either side kept.
+        """
+        arr = _as_float_array(y, "frequency")
+        tau0 = _check_tau0(tau0)
+        good = np.isfinite(arr)
+        if not good.any():
+            raise InputError("frequency holds no finite sample: every value is missing")
+        offset = float(np.mean(arr[good]))
+        steps = np.where(good, arr - offset, 0.0) * tau0
+        x = np.empty(arr.size + 1)
+        x[0] = 0.0
+        np.cumsum(steps, out=x[1:])
+        segments = None
+        if not good.all():
+            segments = np.zeros(arr.size + 1, dtype=np.int64)
+            np.cumsum(~good, out=segments[1:])
+        return cls(
+            phase=x,
+            tau0=tau0,
+            segments=segments,
+            frequency_offset=offset,
+            kind="frequency",
+            **meta,
+        )
+
+    # ------------------------------------------------------------------ views
+    @property
+    def n(self) -> int:
+        """Number of phase samples (gaps included)."""
+        return int(self.phase.size)
+
+    @property
+    def span(self) -> float:
+        """Record length in seconds, (n - 1) * tau0."""
+        return (self.n - 1) * self.tau0
+
+    @property
+    def has_gaps(self) -> bool:
+        """True when any term of an estimator may have to be dropped."""
+        return self.segments is not None or bool(np.isnan(self.phase).any())
+
+    def frequency(self) -> np.ndarray:
+        """Fractional frequency y[k] = (x[k+1] - x[k]) / tau0 + offset, NaN across gaps."""
+        y = np.diff(self.phase) / self.tau0 + self.frequency_offset
+        if self.segments is not None:
+            y[np.diff(self.segments) != 0] = np.nan
+        return y
+
+    def phase_with_offset(self) -> np.ndarray:
+        """Phase with the removed mean frequency offset added back (for MTIE, TIE)."""
+        if self.frequency_offset == 0.0:
+            return self.phase
+        ramp = self.frequency_offset * self.tau0 * np.arange(self.n, dtype=np.float64)
+        return self.phase + ramp
+
+    def gap_count(self) -> int:
+        """Missing samples: NaN phase samples plus frequency gaps."""
+        count = int(np.isnan(self.phase).sum())
+        if self.segments is not None:
+            count += int(self.segments[-1] - self.segments[0])
+        return count
+
+    def replace(self, **changes: Any) -> Measurement:
+        """A copy with some attributes changed (notes are copied, not shared)."""
+        changes.setdefault("notes", list(self.notes))
+        return dataclasses.replace(self, **changes)
+
+    def __repr__(self) -> str:
+        src = self.provenance.path or "memory"
+        return (
+            f"Measurement(n={self.n}, tau0={self.tau0:g} s, kind={self.kind!r}, "
+            f"gaps={self.gap_count()}, source={src!r})"
+        )
