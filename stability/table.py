@@ -101,9 +101,7 @@ class StatisticResult:
 
     def to_frame(self) -> pd.DataFrame:
         """The rows of this statistic with the columns of :data:`COLUMNS`."""
-        alpha = pd.array(
-            [None if np.isnan(a) else int(a) for a in self.alpha], dtype="Int64"
-        )
+        alpha = pd.array([None if np.isnan(a) else int(a) for a in self.alpha], dtype="Int64")
         return pd.DataFrame(
             {
                 "statistic": [self.statistic] * len(self),

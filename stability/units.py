@@ -25,20 +25,45 @@ __all__ = [
 
 #: Seconds per unit (common practice; "us" and "µs" both accepted).
 TIME_UNITS: dict[str, float] = {
-    "s": 1.0, "sec": 1.0, "second": 1.0, "seconds": 1.0,
-    "ms": 1e-3, "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "ns": 1e-9, "ps": 1e-12, "fs": 1e-15,
-    "min": 60.0, "m": 60.0, "h": 3600.0, "hr": 3600.0, "hour": 3600.0, "hours": 3600.0,
-    "d": 86400.0, "day": 86400.0, "days": 86400.0,
+    "s": 1.0,
+    "sec": 1.0,
+    "second": 1.0,
+    "seconds": 1.0,
+    "ms": 1e-3,
+    "us": 1e-6,
+    "µs": 1e-6,
+    "μs": 1e-6,
+    "ns": 1e-9,
+    "ps": 1e-12,
+    "fs": 1e-15,
+    "min": 60.0,
+    "m": 60.0,
+    "h": 3600.0,
+    "hr": 3600.0,
+    "hour": 3600.0,
+    "hours": 3600.0,
+    "d": 86400.0,
+    "day": 86400.0,
+    "days": 86400.0,
 }
 
 #: Hertz per unit.
 FREQUENCY_UNITS: dict[str, float] = {
-    "hz": 1.0, "khz": 1e3, "mhz": 1e6, "ghz": 1e9, "thz": 1e12,
+    "hz": 1.0,
+    "khz": 1e3,
+    "mhz": 1e6,
+    "ghz": 1e9,
+    "thz": 1e12,
 }
 
 #: Fractional-frequency scale factors.
 FRACTION_UNITS: dict[str, float] = {
-    "": 1.0, "ppm": 1e-6, "ppb": 1e-9, "ppt": 1e-12, "e-6": 1e-6, "%": 1e-2,
+    "": 1.0,
+    "ppm": 1e-6,
+    "ppb": 1e-9,
+    "ppt": 1e-12,
+    "e-6": 1e-6,
+    "%": 1e-2,
 }
 
 _NUMBER = r"[-+]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][-+]?\d+)?"
@@ -94,7 +119,9 @@ def parse_frequency(text: str | float, what: str = "frequency") -> float:
         else:
             factor = {"": 1.0, "hz": 1.0, "khz": 1e3, "mhz": 1e6, "ghz": 1e9}.get(key)
         if factor is None:
-            raise InputError(f"unknown unit {unit!r} in {what} {text!r}", hint="use Hz, kHz, MHz or GHz")
+            raise InputError(
+                f"unknown unit {unit!r} in {what} {text!r}", hint="use Hz, kHz, MHz or GHz"
+            )
         value = number * factor
     if not math.isfinite(value) or value <= 0:
         raise InputError(f"{what} must be a positive frequency, got {text!r}")

@@ -36,11 +36,18 @@ def is_unbroken(x: np.ndarray, seg: np.ndarray | None) -> bool:
     return seg is None and not np.isnan(x).any()
 
 
-def _fill(out: np.ndarray, x: np.ndarray, start: int, stop: int,
-          offsets: Sequence[int], coefs: Sequence[float], tmp: np.ndarray) -> None:
+def _fill(
+    out: np.ndarray,
+    x: np.ndarray,
+    start: int,
+    stop: int,
+    offsets: Sequence[int],
+    coefs: Sequence[float],
+    tmp: np.ndarray,
+) -> None:
     """out = sum_k coefs[k] * x[start+offsets[k] : stop+offsets[k]]."""
     o0, c0 = offsets[0], coefs[0]
-    first = x[start + o0: stop + o0]
+    first = x[start + o0 : stop + o0]
     if c0 == 1.0:
         out[:] = first
     elif c0 == -1.0:
@@ -48,7 +55,7 @@ def _fill(out: np.ndarray, x: np.ndarray, start: int, stop: int,
     else:
         np.multiply(first, c0, out=out)
     for o, c in zip(offsets[1:], coefs[1:], strict=True):
-        seg = x[start + o: stop + o]
+        seg = x[start + o : stop + o]
         if c == 1.0:
             np.add(out, seg, out=out)
         elif c == -1.0:
@@ -58,8 +65,14 @@ def _fill(out: np.ndarray, x: np.ndarray, start: int, stop: int,
             np.add(out, tmp, out=out)
 
 
-def comb_sum_squares(x: np.ndarray, offsets: Sequence[int], coefs: Sequence[float],
-                     count: int, start: int = 0, block: int = BLOCK) -> float:
+def comb_sum_squares(
+    x: np.ndarray,
+    offsets: Sequence[int],
+    coefs: Sequence[float],
+    count: int,
+    start: int = 0,
+    block: int = BLOCK,
+) -> float:
     """Sum over i in [start, start+count) of (sum_k coefs[k] x[i + offsets[k]])**2.
 
     Unbroken path only (no NaN in the touched samples).
@@ -78,8 +91,14 @@ def comb_sum_squares(x: np.ndarray, offsets: Sequence[int], coefs: Sequence[floa
     return total
 
 
-def comb_terms(x: np.ndarray, seg: np.ndarray | None, offsets: Sequence[int],
-               coefs: Sequence[float], count: int, start: int = 0) -> np.ndarray:
+def comb_terms(
+    x: np.ndarray,
+    seg: np.ndarray | None,
+    offsets: Sequence[int],
+    coefs: Sequence[float],
+    count: int,
+    start: int = 0,
+) -> np.ndarray:
     """The terms sum_k coefs[k] x[i + offsets[k]], i in [start, start+count), NaN when invalid.
 
     A term is invalid when it touches a NaN sample or when its first and last
@@ -89,10 +108,10 @@ def comb_terms(x: np.ndarray, seg: np.ndarray | None, offsets: Sequence[int],
         return np.empty(0)
     out = np.zeros(count)
     for o, c in zip(offsets, coefs, strict=True):
-        out += c * x[start + o: start + o + count]
+        out += c * x[start + o : start + o + count]
     if seg is not None:
         lo, hi = min(offsets), max(offsets)
-        broken = seg[start + lo: start + lo + count] != seg[start + hi: start + hi + count]
+        broken = seg[start + lo : start + lo + count] != seg[start + hi : start + hi + count]
         out[broken] = np.nan
     return out
 

@@ -76,7 +76,7 @@ def mdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
         d2 = comb_terms(x, seg, (0, m, 2 * m), _D2, x.size - 2 * m)
         total, n = window_sums_squares(d2, m)
         return _finish(total, n, scale)
-    v0 = float(np.sum(x[2 * m: 3 * m]) - 2.0 * np.sum(x[m: 2 * m]) + np.sum(x[:m]))
+    v0 = float(np.sum(x[2 * m : 3 * m]) - 2.0 * np.sum(x[m : 2 * m]) + np.sum(x[:m]))
     total = v0 * v0
     rest = count - 1
     if rest > 0:
@@ -89,8 +89,8 @@ def mdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
             b = buf[: hi - lo]
             t = tmp[: hi - lo]
             # d3 = (x_{j+3m} - x_j) - 3 (x_{j+2m} - x_{j+m})
-            np.subtract(x[lo + 3 * m: hi + 3 * m], x[lo:hi], out=b)
-            np.subtract(x[lo + 2 * m: hi + 2 * m], x[lo + m: hi + m], out=t)
+            np.subtract(x[lo + 3 * m : hi + 3 * m], x[lo:hi], out=b)
+            np.subtract(x[lo + 2 * m : hi + 2 * m], x[lo + m : hi + m], out=t)
             t *= -3.0
             b += t
             np.cumsum(b, out=b)

@@ -46,21 +46,22 @@ class _WindowExtremes:
             self.level += 1
 
     def spans(self, length: int) -> np.ndarray:
-        """Peak-to-peak over every window of ``length`` samples, NaN where a window touches a gap."""
+        """Peak-to-peak over every window of ``length`` samples; NaN where a gap is touched."""
         k = length.bit_length() - 1
         self._raise_to(k)
         count = self.x.size - length + 1
         shift = length - (1 << k)
-        hi = np.maximum(self.hi[:count], self.hi[shift: shift + count])
-        lo = np.minimum(self.lo[:count], self.lo[shift: shift + count])
+        hi = np.maximum(self.hi[:count], self.hi[shift : shift + count])
+        lo = np.minimum(self.lo[:count], self.lo[shift : shift + count])
         out = hi - lo
         if self.seg is not None:
-            out[self.seg[:count] != self.seg[length - 1: length - 1 + count]] = np.nan
+            out[self.seg[:count] != self.seg[length - 1 : length - 1 + count]] = np.nan
         return out
 
 
-def mtie_many(x: np.ndarray, tau0: float, ms: Iterable[int],
-              seg: np.ndarray | None = None) -> list[tuple[float, int]]:
+def mtie_many(
+    x: np.ndarray, tau0: float, ms: Iterable[int], seg: np.ndarray | None = None
+) -> list[tuple[float, int]]:
     """MTIE for several observation intervals m*tau0 at once (ascending m is cheapest)."""
     ms = list(ms)
     order = sorted(range(len(ms)), key=lambda k: ms[k])
@@ -77,7 +78,7 @@ def mtie_many(x: np.ndarray, tau0: float, ms: Iterable[int],
 
 
 def mtie(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
-    """MTIE at observation interval m*tau0 (windows of m + 1 samples); returns (seconds, windows)."""
+    """MTIE at interval m*tau0 (windows of m + 1 samples); returns (seconds, windows)."""
     return mtie_many(x, tau0, [m], seg)[0]
 
 

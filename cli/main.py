@@ -1,0 +1,42 @@
+"""The ``stability`` command line: one thin function per command.
+
+Commands call the library and format its results; no computation lives here.
+Exit codes are in :mod:`cli.common`.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import typer
+
+import stability
+
+app = typer.Typer(
+    name="stability",
+    help="Frequency-stability analysis of oscillator logs: Allan-family deviations "
+    "with noise types and confidence intervals.",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"stability {stability.__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def main(
+    version: Annotated[
+        bool,
+        typer.Option("--version", callback=_version, is_eager=True, help="Print the version."),
+    ] = False,
+) -> None:
+    """Frequency-stability analysis of oscillator logs."""
+
+
+# Commands register themselves on ``app`` when their module is imported.
+from . import analyze_cmd  # noqa: E402,F401
