@@ -94,3 +94,17 @@ def handle_errors(func: F) -> F:
             fail(f"{type(exc).__name__}: {exc}")
 
     return wrapper  # type: ignore[return-value]
+
+
+def outliers_value(text: str) -> float | None:
+    """``--outliers``: a threshold in robust sigmas, or ``off``."""
+    word = str(text).strip().lower()
+    if word in ("off", "none", "no"):
+        return None
+    try:
+        value = float(word)
+    except ValueError:
+        raise StabilityError(
+            f"--outliers takes a number of robust sigmas or 'off', got {text!r}"
+        ) from None
+    return value

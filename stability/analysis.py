@@ -117,7 +117,10 @@ def analyze(
     stats: str | Sequence[str] = DEFAULT_STATS,
     taus: str | Sequence[float] = "octave",
     confidence: float = 0.683,
-    **options: Any,
+    *,
+    qualify: bool = True,
+    f_h: float | None = None,
+    offset_frequency: Any = None,
 ) -> StabilityTable:
     """Estimate the requested statistics of a measurement.
 
@@ -131,8 +134,14 @@ def analyze(
         ``"octave"``, ``"decade"``, ``"all"`` or a list of taus in seconds.
     confidence
         Two-sided confidence level of the intervals (default 0.683).
-    options
-        Settings of the qualification layer (passed through).
+    qualify
+        Identify noise types and fill EDF, bias corrections, intervals, the
+        power-law model and the offset and drift (default True).
+    f_h
+        High cut-off frequency of the power-law model in Hz (default 1/(2 tau0)).
+    offset_frequency
+        Fractional frequency whose offset and drift are reported (default:
+        the measurement's own); pass the data before drift removal.
 
     Returns
     -------
@@ -146,7 +155,7 @@ def analyze(
         "stats": [s.name for s in stat_list],
         "taus": taus if isinstance(taus, str) else [float(t) for t in taus],
         "confidence": level,
-        **options,
+        "f_h_hz": float(f_h) if f_h is not None else 1.0 / (2.0 * measurement.tau0),
     }
     table = StabilityTable(
         results=results, confidence=level, settings=settings, measurement=measurement
@@ -155,4 +164,8 @@ def analyze(
         r.confidence = level
     if not math.isfinite(sum(float(np.nansum(r.deviation)) for r in table)):
         raise AnalysisError("the estimates are not finite; check the data for huge values")
+    if qualify:
+        from .qualify import qualify as qualify_table
+
+        qualify_table(table, f_h=f_h, frequency=offset_frequency)
     return table

@@ -1,0 +1,134 @@
+"""Qualification: noise type, degrees of freedom, bias correction and interval for every row.
+
+For each statistic and tau of a :class:`~stability.table.StabilityTable`:
+
+1. identify the power-law noise type at that tau (:mod:`stability.noise`);
+2. compute the equivalent degrees of freedom for that statistic, tau, record
+   length and noise type (:mod:`stability.confidence`);
+3. correct the bias of the statistics that have a published correction
+   (total and Theo families) and say so;
+4. set the chi-squared confidence interval at the requested level.
+
+Then fit the power-law model to the overlapping Allan deviation (computed for
+the purpose when the table does not hold it) and derive the frequency offset
+and drift with noise-aware uncertainties (:mod:`stability.powerlaw`).
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+
+import numpy as np
+
+from .confidence import bias_factor, chi2_interval, edf_for
+from .deviations.registry import get_statistic
+from .errors import StabilityError, StabilityWarning
+from .measurement import Measurement
+from .noise import identify
+from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift
+from .table import StabilityTable, StatisticResult
+
+__all__ = ["qualify", "qualify_result", "effective_points", "model_curve"]
+
+#: The statistic whose identified noise is shared by its sibling (same data, same m).
+_NOISE_SOURCE = {"tdev": "mdev", "ttot": "mtot"}
+
+
+def effective_points(measurement: Measurement) -> int:
+    """Phase samples that carry information: finite samples less the frequency gaps."""
+    finite = int(np.isfinite(measurement.phase).sum())
+    breaks = 0 if measurement.segments is None else int(measurement.segments[-1])
+    return max(finite - breaks, 0)
+
+
+def qualify_result(
+    result: StatisticResult, measurement: Measurement, confidence: float
+) -> StatisticResult:
+    """Fill the noise, EDF, bias and interval columns of one statistic (in place)."""
+    stat = get_statistic(result.statistic)
+    n_eff = effective_points(measurement)
+    if stat.family == "time_error":
+        result.confidence = confidence
+        result.notes.append(
+            f"{stat.name}: no chi-squared model applies to a maximum or rms time error; "
+            "no interval is given"
+        )
+        return result
+    noise = identify(measurement, _NOISE_SOURCE.get(stat.name, stat.name), result.m)
+    result.alpha = np.asarray(noise.alpha, dtype=float)
+    result.noise = list(noise.noise)
+    result.noise_method = list(noise.method)
+    edf = np.empty(len(result))
+    factors = np.ones(len(result))
+    for k, m in enumerate(result.m):
+        a = None if math.isnan(result.alpha[k]) else int(result.alpha[k])
+        edf[k] = edf_for(stat.name, a, int(m), n_eff)
+        factors[k] = bias_factor(stat.name, a, int(m), n_eff)
+    result.edf = edf
+    if np.any(factors != 1.0):
+        result.raw_deviation = result.deviation.copy()
+        result.deviation = result.deviation / np.sqrt(factors)
+        result.bias_corrected = True
+        result.notes.append(f"{stat.name}: bias-corrected for the identified noise type")
+    low, high = chi2_interval(result.deviation, result.edf, confidence)
+    result.ci_low = np.asarray(low, dtype=float)
+    result.ci_high = np.asarray(high, dtype=float)
+    result.confidence = confidence
+    return result
+
+
+def _model_curve(
+    table: StabilityTable, measurement: Measurement, f_h: float
+) -> PowerLawModel | None:
+    """Fit the power-law model to the table's OADEV, or to an OADEV made for the purpose."""
+    source = table.results.get("oadev")
+    if source is None:
+        from .analysis import estimate
+
+        stat = get_statistic("oadev")
+        if stat.allowed_m(measurement.n) < 1:
+            return None
+        try:
+            source = estimate(measurement, stat, "octave")
+            qualify_result(source, measurement, table.confidence)
+        except StabilityError:
+            return None
+    return fit_power_law(source.tau, source.deviation, source.edf, f_h=f_h)
+
+
+def qualify(
+    table: StabilityTable, *, f_h: float | None = None, frequency: np.ndarray | None = None
+) -> StabilityTable:
+    """Qualify every statistic of ``table`` and add the model, offset and drift (in place).
+
+    ``frequency`` is the fractional frequency whose offset and drift are
+    reported (default: the measurement's own, i.e. after any drift removal).
+    """
+    measurement = table.measurement
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        for result in table:
+            qualify_result(result, measurement, table.confidence)
+        f_h = 1.0 / (2.0 * measurement.tau0) if f_h is None else float(f_h)
+        model = _model_curve(table, measurement, f_h)
+    if model is None:
+        warnings.warn(
+            "too few Allan deviation points to fit a power-law noise model",
+            StabilityWarning,
+            stacklevel=2,
+        )
+    table.extras["power_law_model"] = model
+    y = measurement.frequency() if frequency is None else np.asarray(frequency, dtype=float)
+    table.extras["offset_drift"] = offset_and_drift(y, measurement.tau0, model)
+    table.extras["bias_corrected"] = [r.statistic for r in table if r.bias_corrected]
+    table.settings.setdefault("f_h_hz", f_h)
+    return table
+
+
+def model_curve(model: PowerLawModel | None, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Dense (tau, sigma) of the model over the span of ``tau`` for plotting."""
+    if model is None or tau.size == 0:
+        return np.zeros(0), np.zeros(0)
+    grid = np.geomspace(float(np.min(tau)), float(np.max(tau)), 200)
+    return grid, model.deviation(grid)

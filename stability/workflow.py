@@ -1,0 +1,194 @@
+"""The whole job in one call: read, prepare, analyse, qualify, and write the outputs.
+
+``run_analysis`` is what ``stability analyze`` does, as a library function::
+
+    run = stability.run_analysis("counter.csv", nominal="10MHz", stats="oadev,mdev")
+    run.table.to_frame()          # the qualified results table
+    run.summary()                 # everything summary.json holds
+    write_analysis(run, "out/")   # table.csv, table.md, summary.json, sigma_tau.png, series.png
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .analysis import analyze
+from .errors import InputError
+from .ingest import read_log
+from .measurement import Measurement
+from .prepare import PreparationReport, prepare
+from .qualify import model_curve
+from .taus import parse_taus
+
+__all__ = ["AnalysisRun", "run_analysis", "write_analysis", "PLOT_FORMATS", "OUTPUT_NAMES"]
+
+PLOT_FORMATS = ("png", "svg", "pdf")
+OUTPUT_NAMES = ("table.csv", "table.md", "summary.json", "sigma_tau", "series")
+
+_READ_KEYS = ("kind", "column", "time_column", "tau0", "nominal", "wrap", "strict")
+
+
+@dataclass
+class AnalysisRun:
+    """One analysis, from the data as read to the qualified table.
+
+    Attributes
+    ----------
+    source
+        The measurement as read (before preparation).
+    measurement
+        The prepared measurement the statistics were computed from.
+    preparation
+        What preparation did.
+    table
+        The qualified results table.
+    settings
+        Every setting of the run (reading, preparation and analysis).
+    analysis_time
+        When the analysis ran (UTC).
+    """
+
+    source: Measurement
+    measurement: Measurement
+    preparation: PreparationReport
+    table: Any
+    settings: dict[str, Any]
+    analysis_time: datetime = field(default_factory=lambda: datetime.now(UTC))
+
+    @property
+    def sha256(self) -> str | None:
+        return self.source.provenance.sha256
+
+    def summary(self) -> dict[str, Any]:
+        """The summary (the content of summary.json)."""
+        from .reports.summary import build_summary
+
+        return build_summary(
+            self.table,
+            preparation=self.preparation.to_dict(),
+            input_report=self.source.provenance.details or None,
+            analysis_time=self.analysis_time,
+        )
+
+    def model_curves(self) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+        """The fitted power-law model as (tau, sigma) for the Allan-type statistics."""
+        model = self.table.extras.get("power_law_model")
+        out = {}
+        for name in ("oadev", "adev"):
+            if name in self.table.results:
+                out[name] = model_curve(model, self.table[name].tau)
+        return {k: v for k, v in out.items() if v[0].size}
+
+    def series_inputs(self) -> tuple[Measurement, np.ndarray | None, np.ndarray]:
+        """Measurement, drift curve and outlier indices to draw the data over time."""
+        prep = self.preparation
+        if prep.average_factor == 1:
+            shown = self.source
+            outliers = np.array([o.index for o in prep.outliers.samples], dtype=np.int64)
+        else:
+            shown = self.measurement
+            outliers = np.empty(0, dtype=np.int64)
+        fit = prep.removed_drift if prep.removed_drift is not None else prep.linear_drift
+        drift = None
+        if fit is not None and fit.y_model.shape == (shown.n - 1,):
+            drift = fit.y_model + (shown.frequency_offset if fit.model == "none" else 0.0)
+        return shown, drift, outliers
+
+
+def _split_options(options: dict[str, Any]) -> tuple[dict, dict, dict]:
+    unknown = set(options) - set(_READ_KEYS) - {
+        "stats", "taus", "confidence", "outliers", "drift", "average", "f_h", "progress",
+    }
+    if unknown:
+        raise InputError(f"unknown option(s) {', '.join(sorted(unknown))} for run_analysis")
+    read = {k: options[k] for k in _READ_KEYS if k in options and options[k] is not None}
+    prep = {k: options[k] for k in ("outliers", "drift", "average") if k in options}
+    rest = {k: options[k] for k in ("stats", "taus", "confidence", "f_h") if k in options}
+    return read, prep, rest
+
+
+def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> AnalysisRun:
+    """Read (unless given a Measurement), prepare, analyse and qualify.
+
+    Options: the reading hints of :func:`stability.read_log` (kind, column,
+    time_column, tau0, nominal, wrap, strict), the preparation settings of
+    :func:`stability.prepare.prepare` (outliers, drift, average), and the
+    analysis settings of :func:`stability.analyze` (stats, taus, confidence,
+    f_h).
+    """
+    read_opts, prep_opts, ana_opts = _split_options(options)
+    if isinstance(log, Measurement):
+        source = log
+    else:
+        source = read_log(log, progress=bool(options.get("progress", False)), **read_opts)
+    prepared, report = prepare(source, **prep_opts)
+    taus = ana_opts.get("taus", "octave")
+    taus = parse_taus(taus) if isinstance(taus, str) else taus
+    # Offset and drift are reported for the data before any drift removal.
+    before = source if report.average_factor == 1 else None
+    table = analyze(
+        prepared,
+        stats=ana_opts.get("stats", "oadev,mdev"),
+        taus=taus,
+        confidence=ana_opts.get("confidence", 0.683),
+        f_h=ana_opts.get("f_h"),
+        offset_frequency=None if before is None else before.frequency(),
+    )
+    settings = {
+        **{k: (str(v) if v is not None else None) for k, v in read_opts.items()},
+        "outliers": prep_opts.get("outliers", 5.0),
+        "drift": prep_opts.get("drift", "none"),
+        "average": prep_opts.get("average", 1),
+        **table.settings,
+    }
+    table.settings = settings
+    return AnalysisRun(
+        source=source, measurement=prepared, preparation=report, table=table, settings=settings
+    )
+
+
+def write_analysis(
+    run: AnalysisRun,
+    folder: str | os.PathLike[str],
+    *,
+    plot_format: str = "png",
+    limits: Any = None,
+    limits_statistic: str | None = None,
+) -> dict[str, Path]:
+    """Write table.csv, table.md, summary.json and both plots into ``folder`` (atomically)."""
+    from .plots import save_figure, series_figure, stability_figure
+    from .reports.files import atomic_write_text, ensure_folder
+    from .reports.summary import summary_json
+    from .reports.tables import table_csv, table_markdown
+
+    fmt = str(plot_format).lower()
+    if fmt not in PLOT_FORMATS:
+        raise InputError(
+            f"unknown plot format {plot_format!r}", hint=f"choose {', '.join(PLOT_FORMATS)}"
+        )
+    out = ensure_folder(folder)
+    written = {
+        "table.csv": atomic_write_text(out / "table.csv", table_csv(run.table)),
+        "table.md": atomic_write_text(out / "table.md", table_markdown(run.table)),
+        "summary.json": atomic_write_text(out / "summary.json", summary_json(run.summary())),
+    }
+    fig = stability_figure(
+        run.table,
+        model_curve=run.model_curves(),
+        limits=limits,
+        limits_statistic=limits_statistic,
+        analysis_time=run.analysis_time,
+    )
+    written["sigma_tau"] = save_figure(fig, out / f"sigma_tau.{fmt}", fmt)
+    shown, drift, outliers = run.series_inputs()
+    fig = series_figure(
+        shown, drift_curve=drift, outlier_indices=outliers, analysis_time=run.analysis_time
+    )
+    written["series"] = save_figure(fig, out / f"series.{fmt}", fmt)
+    return written
