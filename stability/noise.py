@@ -1,0 +1,556 @@
+"""Power-law noise identification at each averaging time.
+
+The dominant power-law noise S_y(f) ~ f^alpha (alpha = 2 WPM, 1 FPM, 0 WFM,
+-1 FFM, -2 RWFM) at averaging factor m selects the confidence model and the
+bias correction of a stability estimate. Three published methods are used,
+in the order of the usual practice [2]_:
+
+1. **Lag-1 autocorrelation** (Riley & Greenhall [1]_), where at least 30
+   points are available at that m. The series z (phase decimated by m, or
+   m-averages of frequency) has its drift removed (a quadratic fit for phase,
+   a linear fit for frequency); then, with r1 its lag-1 autocorrelation and
+   d the number of differences taken so far::
+
+       delta = r1 / (1 + r1)
+       if d >= dmin and (delta < 0.25 or d >= dmax):  p = -2 (delta + d), stop
+       else:  z = diff(z), d += 1
+
+   alpha = round(p) for frequency data and round(p) + 2 for phase data. The
+   fractionally integrated noise (2 sin(pi f))^(-2 delta) is stationary for
+   delta < 0.25, where delta = r1/(1 + r1) estimates its exponent [1]_.
+   dmax = 2 for the Allan, modified, total and time statistics on phase
+   (alpha down to -2) and 3 for the Hadamard family, one less on frequency.
+   :func:`lag1_acf_noise_id` is the published method as it stands. In
+   :func:`identify` the final rounding of p is replaced by the nearest of
+   the values p is expected to take for each noise type at that m and number
+   of differences (:func:`expected_acf_estimate`, integrated from the
+   Kasdin-Walter spectrum [4]_): decimation makes flicker phase look whiter
+   and averaging makes flicker frequency look redder (p for FPM drifts from 1
+   towards 1.6, for FFM from -1 towards -1.45 as m grows from 1 to a few
+   hundred), so plain rounding calls FPM "WPM" at long tau about half of the
+   time. White and random-walk noises are unaffected (their expectation is
+   the integer alpha at every m).
+2. **B1 bias ratio** (Barnes [3]_; SP 1065 section 5.6 [2]_) where fewer
+   points are available: B1 = (sample variance of the K m-averaged
+   frequencies) / AVAR(m tau0). Its expectation for AVAR ~ tau^mu is
+
+       B1(K, mu) = K (1 - K^mu) / [2 (K - 1) (1 - 2^mu)],
+       B1(K, 0)  = K ln K / [2 (K - 1) ln 2]            (the mu -> 0 limit),
+
+   with mu = -2 (WPM and FPM), -1 (WFM), 0 (FFM), 1 (RWFM), i.e.
+   alpha = -mu - 1 for alpha <= 0. The nearest expectation in the log domain
+   is taken (the boundaries lie at the geometric means of neighbouring
+   expectations). At least 4 averages are required (with K = 2 every mu
+   gives B1 = 1).
+3. **R(n) = MVAR / AVAR** at n = m (SP 1065 section 5.6 [2]_) splits the
+   B1 answer mu = -2: R(n) = 1/n for WPM and about 3.374 / (1.038 + 3 ln(pi n))
+   for FPM, compared in the log domain.
+
+Gaps: when the phase has NaN samples or frequency gaps (segments), the lag-1
+method uses the m-averaged frequencies, dropping every block that touches a
+gap; B1 uses the same blocks and the gap-aware AVAR and MVAR estimators. The
+blocks on either side of a dropped block are joined, which is harmless for a
+noise type but not for a level.
+
+References
+----------
+.. [1] W. J. Riley, C. A. Greenhall, "Power law noise identification using
+   the lag 1 autocorrelation", Proc. 18th European Frequency and Time Forum
+   (EFTF 2004), Guildford, pp. 576-580.
+.. [2] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST Special
+   Publication 1065 (2008), section 5.6 (power-law noise identification,
+   B1 and R(n) ratios, lag-1 autocorrelation).
+.. [3] J. A. Barnes, "Tables of bias functions, B1 and B2, for variances based
+   on finite samples of processes with power law spectral densities", NBS
+   Technical Note 375 (1969).
+.. [4] N. J. Kasdin, T. Walter, "Discrete simulation of power law noise",
+   Proc. 1992 IEEE Frequency Control Symposium, pp. 274-283.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from functools import lru_cache
+from typing import Any, Literal
+
+import numpy as np
+import pandas as pd
+
+from .deviations.allan import mdev, oadev
+from .deviations.registry import STATISTICS
+from .errors import InputError
+from .measurement import Measurement
+from .table import NOISE_LABELS
+
+__all__ = [
+    "NoiseResult",
+    "identify",
+    "lag1_acf",
+    "lag1_acf_noise_id",
+    "expected_acf_estimate",
+    "b1_expected",
+    "b1_noise_id",
+    "rn_expected",
+    "rn_noise_id",
+    "ACF_MIN_POINTS",
+    "B1_MIN_AVERAGES",
+]
+
+#: Fewest points (decimated phase or averaged frequency) for the lag-1 method
+#: (Riley & Greenhall 2004 recommend about 30).
+ACF_MIN_POINTS = 30
+
+#: Fewest m-averages for the B1 ratio (with 2 averages B1 = 1 for every noise).
+B1_MIN_AVERAGES = 4
+
+#: Residual rms below this fraction of the data's scale counts as "no noise".
+_DEGENERATE_RTOL = 1e-12
+
+#: Statistics whose noise model reaches alpha = -4 on phase (third differences).
+_HADAMARD = ("hdev", "ohdev", "htot")
+
+#: Statistic identifiers known to the tool, registered or not yet registered.
+_KNOWN = (
+    "adev", "oadev", "mdev", "tdev", "hdev", "ohdev", "totdev", "mtot", "ttot", "htot",
+    "theo1", "theobr", "theoh", "pdev", "mtie", "tie_rms",
+)  # fmt: skip
+
+#: B1 exponents mu (AVAR ~ tau^mu) considered, and the alpha each stands for
+#: (mu = -2 is WPM or FPM, resolved by R(n)).
+_B1_MUS = (-2, -1, 0, 1)
+
+
+# ---------------------------------------------------------------------- result
+@dataclass
+class NoiseResult:
+    """Noise type identified at each averaging factor of one statistic.
+
+    Attributes
+    ----------
+    statistic
+        The statistic identifier the identification was made for.
+    m
+        Averaging factors (int64).
+    alpha
+        Power-law exponent of S_y(f) (float; NaN where not identified).
+    noise
+        Labels WPM, FPM, WFM, FFM, RWFM; ``""`` where not identified.
+    method
+        ``"acf"`` (lag-1 autocorrelation), ``"b1"`` (B1 ratio), ``"rn"``
+        (B1 then R(n)), ``"carried"`` (copied from the nearest identified m,
+        only with ``carry=True``) or ``""``.
+    estimate
+        The unrounded alpha of the lag-1 method (p, or p + 2 for phase); NaN otherwise.
+    notes
+        Plain sentences about what was done.
+    """
+
+    statistic: str
+    m: np.ndarray
+    alpha: np.ndarray
+    noise: list[str]
+    method: list[str]
+    estimate: np.ndarray
+    notes: list[str] = field(default_factory=list)
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per averaging factor: m, alpha, noise, noise_method, alpha_estimate."""
+        return pd.DataFrame(
+            {
+                "m": self.m,
+                "alpha": self.alpha,
+                "noise": self.noise,
+                "noise_method": self.method,
+                "alpha_estimate": self.estimate,
+            }
+        )
+
+
+# ---------------------------------------------------------------------- lag-1 method
+def _detrend(z: np.ndarray, degree: int) -> np.ndarray:
+    """Residuals of a least-squares polynomial of ``degree`` in a centred, scaled time.
+
+    Gram-Schmidt on 1, t, t^2 with elementwise sums (no BLAS call, whose thread
+    pool can stall on a busy machine for arrays of this size).
+    """
+    n = z.size
+    if n <= degree + 1:
+        return z - z.mean()
+    t = np.linspace(-1.0, 1.0, n)
+    basis: list[np.ndarray] = []
+    resid = z.astype(np.float64, copy=True)
+    for k in range(degree + 1):
+        b = t**k
+        for q in basis:
+            b = b - np.sum(b * q) * q
+        b = b / math.sqrt(float(np.sum(b * b)))
+        basis.append(b)
+        resid -= np.sum(resid * b) * b
+    return resid
+
+
+def lag1_acf(z: np.ndarray) -> float | None:
+    """Lag-1 autocorrelation r1 = sum (z_t - mean)(z_{t+1} - mean) / sum (z_t - mean)^2.
+
+    Riley & Greenhall (2004), eq. 1. None for fewer than 3 points or zero variance.
+    """
+    z = np.asarray(z, dtype=np.float64)
+    if z.size < 3:
+        return None
+    c = z - z.mean()
+    den = float(np.sum(c * c))
+    if not math.isfinite(den) or den <= 0.0:
+        return None
+    return float(np.sum(c[:-1] * c[1:])) / den
+
+
+def _validate_acf(z: Any, data: Any, dmin: Any, dmax: Any, min_points: Any) -> np.ndarray:
+    try:
+        arr = np.asarray(z, dtype=np.float64)
+    except (TypeError, ValueError):
+        raise InputError(f"z must be an array of numbers, got {type(z).__name__}") from None
+    if arr.ndim != 1:
+        raise InputError(f"z must be one-dimensional, got shape {arr.shape}")
+    if data not in ("phase", "frequency"):
+        raise InputError(f"data must be 'phase' or 'frequency', got {data!r}")
+    for name, value in (("dmin", dmin), ("dmax", dmax), ("min_points", min_points)):
+        if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 0:
+            raise InputError(f"{name} must be a non-negative integer, got {value!r}")
+    if dmax < dmin:
+        raise InputError(f"dmax must be >= dmin, got dmin={dmin!r}, dmax={dmax!r}")
+    return arr
+
+
+def _lag1_loop(
+    arr: np.ndarray, data: str, dmin: int, dmax: int, min_points: int
+) -> tuple[float, int] | None:
+    """The Riley-Greenhall loop on validated data: (p on the alpha scale, differences d)."""
+    arr = arr[np.isfinite(arr)]
+    if arr.size < max(min_points, 3):
+        return None
+    with np.errstate(all="ignore"):
+        scale = float(np.max(np.abs(arr - arr.mean())))
+        if not math.isfinite(scale) or scale == 0.0:
+            return None
+        work = _detrend(arr, 2 if data == "phase" else 1)
+        if float(np.sqrt(np.mean(work * work))) <= _DEGENERATE_RTOL * scale:
+            return None
+        d = 0
+        while True:
+            r1 = lag1_acf(work)
+            if r1 is None:
+                return None
+            delta = r1 / (1.0 + r1) if r1 > -1.0 else -math.inf
+            if d >= dmin and (delta < 0.25 or d >= dmax):
+                p = -2.0 * (delta + d)
+                break
+            work = np.diff(work)
+            d += 1
+    if data == "phase":
+        p += 2.0
+    if not math.isfinite(p):
+        return None
+    return float(p), d
+
+
+def lag1_acf_noise_id(
+    z: np.ndarray,
+    *,
+    data: Literal["phase", "frequency"],
+    dmin: int = 0,
+    dmax: int = 2,
+    min_points: int = ACF_MIN_POINTS,
+) -> tuple[int, float] | None:
+    """Identify the power-law noise of a series by its lag-1 autocorrelation.
+
+    Parameters
+    ----------
+    z
+        Phase decimated by m, or m-averaged frequency (NaN samples are dropped).
+    data
+        ``"phase"`` or ``"frequency"``: what ``z`` holds.
+    dmin, dmax
+        Fewest and most differences taken (Riley & Greenhall 2004: dmax = 2 for
+        the Allan family on phase, 3 for the Hadamard family).
+    min_points
+        Fewest finite points accepted (default 30).
+
+    Returns
+    -------
+    tuple of (int, float) or None
+        ``(alpha, p)``: alpha of S_y(f), ``round(p)`` clipped to -2..2, and the
+        unrounded estimate p = -2 (delta + d) (+ 2 for phase data). None when
+        the type cannot be told: too few points, constant or exactly polynomial data.
+    """
+    arr = _validate_acf(z, data, dmin, dmax, min_points)
+    found = _lag1_loop(arr, data, dmin, dmax, min_points)
+    if found is None:
+        return None
+    p = found[0]
+    return int(min(2, max(-2, round(p)))), p
+
+
+#: Largest averaging factor for which the expected lag-1 estimate is integrated
+#: exactly; beyond it the value at this factor is used (it changes only
+#: logarithmically with m, and only for the flicker noises).
+_EXPECT_MAX_M = 1024
+
+
+@lru_cache(maxsize=4096)
+def expected_acf_estimate(alpha: int, d: int, m: int, span: int) -> float:
+    """Expected lag-1 estimate p (alpha scale) for noise ``alpha`` seen at averaging factor m.
+
+    The phase of Kasdin-Walter power-law noise has the spectrum
+    S_x(f) ~ |2 sin(pi f tau0)|^-(2 - alpha) (Kasdin & Walter 1992). Decimated by
+    m and differenced d times it has the spectrum S_x(f) |2 sin(pi f m tau0)|^(2d)
+    and the lag-1 autocovariance (one step = m samples)
+    R(1) = integral S_x(f) |2 sin(pi f m tau0)|^(2d) cos(2 pi f m tau0) df, taken
+    from 1/span (the record length, in samples) to the Nyquist frequency. Then
+    r1 = R(1)/R(0), delta = r1/(1 + r1) and p = 2 - 2 (delta + d), the value of
+    the Riley-Greenhall estimate p for phase data (the m-averaged frequency gives
+    the same p with one difference fewer).
+
+    For white and random-walk noises p is the integer alpha at every m; for the
+    flicker noises decimation and averaging move it (flicker phase looks whiter,
+    flicker frequency redder as m grows), which is why :func:`identify` picks the
+    type whose expected p is nearest instead of rounding.
+    """
+    if m > _EXPECT_MAX_M:
+        span = max(2, (span * _EXPECT_MAX_M) // m)
+        m = _EXPECT_MAX_M
+    beta = 2.0 - alpha
+    f_low = 1.0 / max(span, 2 * m)
+    f_mid = min(0.5, 1.0 / (8.0 * m))
+    low = np.geomspace(f_low, f_mid, 2000) if f_mid > f_low else np.empty(0)
+    high = np.linspace(f_mid, 0.5, int(64 * m * (d + 1)) + 2)
+    f = np.concatenate([low, high[1:] if low.size else high])
+    with np.errstate(all="ignore"):
+        s = np.abs(2.0 * np.sin(np.pi * f)) ** (-beta) * np.abs(2.0 * np.sin(np.pi * f * m)) ** (
+            2 * d
+        )
+        r0 = float(np.trapezoid(s, f))
+        r1 = float(np.trapezoid(s * np.cos(2.0 * np.pi * f * m), f)) / r0
+    delta = r1 / (1.0 + r1) if r1 > -1.0 else -math.inf
+    return 2.0 - 2.0 * (delta + d)
+
+
+def _nearest_alpha(p: float, d_phase: int, m: int, span: int, dmax_phase: int) -> int:
+    """The candidate alpha whose expected lag-1 estimate at (d, m) is nearest to p, clipped."""
+    lowest = 2 - 2 * dmax_phase
+    candidates = range(2, lowest - 1, -1)
+    dist = [abs(p - expected_acf_estimate(a, d_phase, m, span)) for a in candidates]
+    best = list(candidates)[int(np.argmin(dist))]
+    return int(min(2, max(-2, best)))
+
+
+# ---------------------------------------------------------------------- B1 and R(n)
+def b1_expected(k: int, mu: float) -> float:
+    """Expected B1 = standard variance / Allan variance of K averages for AVAR ~ tau^mu.
+
+    Barnes, NBS TN 375 (1969): B1(K, mu) = K (1 - K^mu) / [2 (K - 1)(1 - 2^mu)];
+    the mu = 0 limit is K ln K / [2 (K - 1) ln 2].
+    """
+    k = float(k)
+    if k < 2:
+        return math.nan
+    if mu == 0:
+        return k * math.log(k) / (2.0 * (k - 1.0) * math.log(2.0))
+    return k * (1.0 - k**mu) / (2.0 * (k - 1.0) * (1.0 - 2.0**mu))
+
+
+def rn_expected(n: int, alpha: int) -> float:
+    """Expected R(n) = MVAR / AVAR at averaging factor n for WPM (1/n) and FPM (SP 1065 5.6)."""
+    if alpha == 2:
+        return 1.0 / n
+    if alpha == 1:
+        return 3.374 / (1.038 + 3.0 * math.log(math.pi * n))
+    raise InputError(f"alpha must be 2 or 1 for R(n), got {alpha!r}")
+
+
+def b1_noise_id(b1: float, k: int) -> int | None:
+    """The mu of AVAR ~ tau^mu (-2, -1, 0 or 1) whose expected B1 is nearest in log to ``b1``.
+
+    ``k`` is the number of averages. None when ``b1`` is not a positive finite
+    number or k < 4.
+    """
+    if not (math.isfinite(b1) and b1 > 0.0) or k < B1_MIN_AVERAGES:
+        return None
+    logs = [abs(math.log(b1) - math.log(b1_expected(k, mu))) for mu in _B1_MUS]
+    return _B1_MUS[int(np.argmin(logs))]
+
+
+def rn_noise_id(rn: float, n: int) -> int | None:
+    """WPM (2) or FPM (1), whichever expected R(n) is nearer in log to ``rn``; None if unusable."""
+    if not (math.isfinite(rn) and rn > 0.0) or n < 1:
+        return None
+    wpm = abs(math.log(rn) - math.log(rn_expected(n, 2)))
+    fpm = abs(math.log(rn) - math.log(rn_expected(n, 1)))
+    return 2 if wpm <= fpm else 1
+
+
+# ---------------------------------------------------------------------- identify
+def _dmax_for(statistic: Any) -> tuple[str, int]:
+    if not isinstance(statistic, str):
+        raise InputError(f"statistic must be a name such as 'oadev', got {statistic!r}")
+    name = statistic.strip().lower()
+    if name in STATISTICS:
+        family = STATISTICS[name].family
+        return name, 3 if (family == "hadamard" or name in _HADAMARD) else 2
+    if name in _KNOWN:
+        return name, 3 if name in _HADAMARD else 2
+    raise InputError(
+        f"unknown statistic {statistic!r}",
+        hint=f"choose from {', '.join(sorted(set(_KNOWN) | set(STATISTICS)))}",
+    )
+
+
+def _validate_identify(measurement: Any, statistic: Any, ms: Any) -> tuple[str, int, np.ndarray]:
+    if not isinstance(measurement, Measurement):
+        raise InputError(
+            f"measurement must be a stability.Measurement, got {type(measurement).__name__}"
+        )
+    name, dmax = _dmax_for(statistic)
+    try:
+        arr = np.atleast_1d(np.asarray(ms, dtype=np.float64))
+    except (TypeError, ValueError):
+        raise InputError(f"ms must be positive whole averaging factors, got {ms!r}") from None
+    if arr.ndim != 1 or not np.all(np.isfinite(arr)) or np.any(arr < 1):
+        raise InputError(f"ms must be positive whole averaging factors, got {ms!r}")
+    if np.any(arr != np.round(arr)):
+        raise InputError(f"ms must be whole numbers, got {ms!r}")
+    return name, dmax, arr.astype(np.int64)
+
+
+def _block_means(y: np.ndarray, m: int) -> np.ndarray:
+    """Means of consecutive blocks of m frequency samples; blocks touching a gap dropped."""
+    k = y.size // m
+    if k == 0:
+        return np.empty(0)
+    means = y[: k * m].reshape(k, m).mean(axis=1)
+    return means[np.isfinite(means)]
+
+
+def _b1_rn(
+    x: np.ndarray, seg: np.ndarray | None, tau0: float, m: int, yb: np.ndarray
+) -> tuple[int, str] | None:
+    """B1 (and R(n) for mu = -2) at averaging factor m; None when it cannot be told."""
+    k = yb.size
+    if k < B1_MIN_AVERAGES:
+        return None
+    scale = float(np.max(np.abs(yb)))
+    var = float(np.var(yb, ddof=1))
+    if not (math.isfinite(var) and scale > 0.0) or math.sqrt(var) <= _DEGENERATE_RTOL * scale:
+        return None
+    resid = _detrend(yb, 1)
+    if float(np.sqrt(np.mean(resid * resid))) <= _DEGENERATE_RTOL * scale:
+        return None  # exactly linear frequency (pure drift): no noise to identify
+    adev_value, used = oadev(x, tau0, m, seg)
+    if used == 0 or not math.isfinite(adev_value) or adev_value <= 0.0:
+        return None
+    avar = adev_value * adev_value
+    mu = b1_noise_id(var / avar, k)
+    if mu is None:
+        return None
+    if mu != -2:
+        return -mu - 1, "b1"
+    mdev_value, used = mdev(x, tau0, m, seg)
+    if used == 0 or not math.isfinite(mdev_value):
+        return None
+    alpha = rn_noise_id(mdev_value * mdev_value / avar, m)
+    return None if alpha is None else (alpha, "rn")
+
+
+def _carry(alpha: np.ndarray, method: list[str]) -> None:
+    """Fill unidentified entries with the nearest identified one (smaller m preferred)."""
+    known = np.flatnonzero(np.isfinite(alpha))
+    if known.size == 0:
+        return
+    for i in np.flatnonzero(~np.isfinite(alpha)):
+        before = known[known < i]
+        src = before[-1] if before.size else known[known > i][0]
+        alpha[i] = alpha[src]
+        method[i] = "carried"
+
+
+def identify(
+    measurement: Measurement,
+    statistic: str,
+    ms: Sequence[int] | np.ndarray,
+    *,
+    carry: bool = False,
+) -> NoiseResult:
+    """Identify the dominant power-law noise at each averaging factor.
+
+    Parameters
+    ----------
+    measurement
+        The data.
+    statistic
+        Statistic identifier (``oadev``, ``mdev``, ``hdev`` ...): sets dmax of
+        the lag-1 method (3 for the Hadamard family, 2 otherwise). The modified
+        and time deviations use the noise type of the data at that tau.
+    ms
+        Averaging factors.
+    carry
+        Give an unidentified m the type of the nearest identified m (method
+        ``"carried"``); off by default.
+
+    Returns
+    -------
+    NoiseResult
+        Never raises on short, constant or gappy data: unidentified entries are
+        NaN / ``""``. Bad arguments raise :class:`~stability.InputError`.
+    """
+    name, dmax, m_arr = _validate_identify(measurement, statistic, ms)
+    x = measurement.phase
+    seg = measurement.segments
+    tau0 = measurement.tau0
+    count = m_arr.size
+    alpha = np.full(count, np.nan)
+    estimate = np.full(count, np.nan)
+    method = [""] * count
+    unbroken = seg is None and not bool(np.isnan(x).any())
+    notes: list[str] = []
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        y = np.diff(x) / tau0
+        if seg is not None:
+            y[np.diff(seg) != 0] = np.nan
+        for i, m in enumerate(int(v) for v in m_arr):
+            yb = _block_means(y, m)
+            if unbroken:
+                z, data, dm = x[::m], "phase", dmax
+            else:
+                z, data, dm = yb, "frequency", dmax - 1
+            if z.size >= ACF_MIN_POINTS:
+                found = _lag1_loop(z, data, 0, dm, ACF_MIN_POINTS)
+                if found is None:
+                    continue  # enough points but no noise left after drift removal
+                p, d = found
+                d_phase = d if data == "phase" else d + 1
+                alpha[i] = _nearest_alpha(p, d_phase, m, z.size * m, dmax)
+                estimate[i] = p
+                method[i] = "acf"
+                continue
+            b1 = _b1_rn(x, seg, tau0, m, yb)
+            if b1 is not None:
+                alpha[i], method[i] = float(b1[0]), b1[1]
+    if not unbroken:
+        notes.append(
+            "noise identification used m-averaged frequencies, dropping blocks that touch a gap"
+        )
+    if carry:
+        _carry(alpha, method)
+    labels = [NOISE_LABELS[int(a)] if np.isfinite(a) else "" for a in alpha]
+    return NoiseResult(
+        statistic=name,
+        m=m_arr,
+        alpha=alpha,
+        noise=labels,
+        method=method,
+        estimate=estimate,
+        notes=notes,
+    )
