@@ -1,0 +1,954 @@
+"""Figures: the sigma-tau plot and the data over time (matplotlib, no pyplot state).
+
+:func:`stability_figure` draws the stability plot: deviation against averaging
+time on log-log axes [1]_, one series per statistic with its confidence
+interval as asymmetric error bars, the fitted power-law model as a thin line,
+the identified noise type written where it changes, and a faint key of the
+slopes each power-law noise type gives [1]_ [2]_:
+
+=====================  =====  =====  =====  =====  =====
+statistic              WPM    FPM    WFM    FFM    RWFM
+=====================  =====  =====  =====  =====  =====
+ADEV, OADEV, HDEV ...  -1     -1     -1/2   0      +1/2
+MDEV                   -3/2   -1     -1/2   0      +1/2
+TDEV                   -1/2   0      +1/2   +1     +3/2
+MTIE, TIE rms          0      0      +1/2   +1     +3/2
+=====================  =====  =====  =====  =====  =====
+
+TDEV = tau * MDEV / sqrt(3) [3]_, so its slopes are those of MDEV plus one.
+TIE rms is the rms phase difference over tau: a constant for white phase noise,
+tau^(1/2) for the random-walk phase of white FM, and tau and tau^(3/2) for the
+phases of flicker and random-walk FM (common practice; MTIE follows the same
+growth). A panel holding statistics of different slopes (OADEV with MDEV,
+TDEV with MTIE) shows the key of its first such statistic and names it.
+Fractional-frequency statistics and time statistics (seconds) never
+share an axis: when both are asked for, the figure has two panels side by side.
+
+:func:`series_figure` draws the record over time: fractional frequency with an
+optional drift model, and the phase residual (the phase with its own
+least-squares line removed) in two panels sharing the time axis; gaps are
+shaded and removed outliers marked. Records longer than a few thousand samples
+are drawn through the minimum and maximum of each pixel column, in time order,
+so that every excursion stays visible while the figure stays light [4]_.
+
+Figures are built with the object-oriented API (``Figure`` plus
+``FigureCanvasAgg``) so that nothing touches pyplot's global state and the code
+works headless. :func:`save_figure` writes PNG, SVG or PDF atomically.
+
+References
+----------
+.. [1] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065
+   (2008), section 5.2 (sigma-tau plots) and table 4 (slopes of the power-law noises).
+.. [2] IEEE Std 1139-2008, *Definitions of Physical Quantities for Fundamental
+   Frequency and Time Metrology - Random Instabilities*, annex (slopes of
+   sigma_y(tau) and mod sigma_y(tau)).
+.. [3] ITU-T Recommendation G.810 (1996), *Definitions and terminology for
+   synchronization networks*, appendix II (TDEV).
+.. [4] S. Steinarsson, *Downsampling Time Series for Visual Representation*,
+   MSc thesis, University of Iceland (2013), section 3 (min-max per bucket).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import warnings
+from collections.abc import Mapping, Sequence
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from matplotlib import dates as mdates
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.collections import PolyCollection
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+from matplotlib.transforms import blended_transform_factory
+
+from .errors import InputError
+from .measurement import Measurement
+from .reports.files import atomic_output
+from .table import StabilityTable
+
+__all__ = [
+    "stability_figure",
+    "series_figure",
+    "save_figure",
+    "stability_series",
+    "slope_key",
+    "default_footer",
+    "envelope",
+    "FORMATS",
+    "VERDICT_COLORS",
+]
+
+#: Output formats of :func:`save_figure`.
+FORMATS = ("png", "svg", "pdf")
+
+#: Calm, colour-blind-aware series colours (dark blue, burnt orange, green, purple, ...).
+SERIES_COLORS = (
+    "#1f5f8b",
+    "#c2571a",
+    "#3b7d3b",
+    "#7a4e9c",
+    "#8c6d1f",
+    "#2a8a8a",
+    "#a33b5b",
+    "#555555",
+)
+
+#: Marker colours of specification limits by verdict.
+VERDICT_COLORS = {
+    "pass": "#2e7d4f",
+    "fail": "#b23a3a",
+    "inconclusive": "#d08c2a",
+    "not measured": "#9a9a9a",
+}
+
+_GAP_COLOR = "#d9d9d9"
+_OUTLIER_COLOR = "#b23a3a"
+_GUIDE_COLOR = "#9a9a9a"
+_DPI = 150
+
+#: Symbols for axis labels (mathtext).
+_SYMBOLS = {
+    "adev": r"$\sigma_y(\tau)$",
+    "oadev": r"$\sigma_y(\tau)$",
+    "mdev": r"$\mathrm{mod}\,\sigma_y(\tau)$",
+    "tdev": r"$\sigma_x(\tau)$",
+    "hdev": r"$\mathrm{H}\sigma_y(\tau)$",
+    "ohdev": r"$\mathrm{H}\sigma_y(\tau)$",
+    "totdev": r"$\sigma_{\mathrm{total}}(\tau)$",
+    "mtie": r"$\mathrm{MTIE}(\tau)$",
+    "tie_rms": r"$\mathrm{TIE}_{\mathrm{rms}}(\tau)$",
+}
+
+#: Slope key per kind of statistic: (slope of deviation vs tau on log-log, noise label).
+SLOPES = {
+    "allan": ((-1.0, "WPM/FPM"), (-0.5, "WFM"), (0.0, "FFM"), (0.5, "RWFM")),
+    "modified": ((-1.5, "WPM"), (-1.0, "FPM"), (-0.5, "WFM"), (0.0, "FFM"), (0.5, "RWFM")),
+    "tdev": ((-0.5, "WPM"), (0.0, "FPM"), (0.5, "WFM"), (1.0, "FFM"), (1.5, "RWFM")),
+    "time_error": ((0.0, "WPM/FPM"), (0.5, "WFM"), (1.0, "FFM"), (1.5, "RWFM")),
+}
+
+
+# ---------------------------------------------------------------------- helpers
+def _stat_info(name: str) -> tuple[str, str, str]:
+    """(title, unit, family) of a statistic; unknown names get their upper-case form."""
+    from .deviations import get_statistic
+
+    try:
+        stat = get_statistic(name)
+    except InputError:
+        return name.upper(), "", ""
+    return stat.title, stat.unit, stat.family
+
+
+def _short(name: str) -> str:
+    return name.upper().replace("_", " ")
+
+
+def _new_figure(width: float, height: float) -> Figure:
+    fig = Figure(figsize=(width, height), dpi=_DPI, layout="constrained")
+    FigureCanvasAgg(fig)
+    # leave a strip at the bottom for the footer
+    fig.get_layout_engine().set(rect=(0.0, 0.035, 1.0, 0.965))
+    return fig
+
+
+def _style_axes(ax: Any) -> None:
+    ax.grid(True, which="major", color="#cccccc", linewidth=0.5, alpha=0.8)
+    ax.grid(True, which="minor", color="#e6e6e6", linewidth=0.4, alpha=0.6)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    ax.tick_params(labelsize=8)
+
+
+def _analysis_date(moment: datetime | None) -> str:
+    moment = moment or datetime.now(UTC)
+    if moment.tzinfo is None:
+        moment = moment.astimezone()
+    return moment.astimezone(UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+
+def default_footer(
+    source: StabilityTable | Measurement | None, *, analysis_time: datetime | None = None
+) -> str:
+    """Footer text: input SHA-256 prefix (12 hex), tool version and analysis date."""
+    from . import __version__
+
+    measurement = source.measurement if isinstance(source, StabilityTable) else source
+    sha = None
+    if isinstance(measurement, Measurement):
+        sha = measurement.provenance.sha256
+    where = f"input SHA-256 {sha[:12]}" if sha else "input from memory (no file hash)"
+    return f"{where} · stability {__version__} · analysed {_analysis_date(analysis_time)}"
+
+
+def _default_title(measurement: Any, fallback: str) -> str:
+    if isinstance(measurement, Measurement) and measurement.provenance.path:
+        return Path(measurement.provenance.path).name
+    return fallback
+
+
+def _put_footer(fig: Figure, text: str) -> None:
+    fig.text(0.01, 0.008, text, fontsize=6.5, color="#777777", ha="left", va="bottom")
+
+
+def _normal_verdict(verdict: Any) -> str:
+    if verdict is None:
+        return "not measured"
+    word = str(verdict).strip().lower().replace("_", " ").replace("-", " ")
+    if word in ("", "none", "untested", "not tested", "not measured", "n/a"):
+        return "not measured"
+    if word in ("pass", "passed", "ok"):
+        return "pass"
+    if word in ("fail", "failed"):
+        return "fail"
+    if word in ("inconclusive", "undecided", "marginal"):
+        return "inconclusive"
+    raise InputError(
+        f"unknown verdict {verdict!r} in limits",
+        hint="use pass, fail, inconclusive or None (not measured)",
+    )
+
+
+# ---------------------------------------------------------------------- stability plot
+def stability_series(
+    table: StabilityTable,
+) -> dict[str, tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]]:
+    """What :func:`stability_figure` draws: statistic -> (tau, deviation, ci_low, ci_high).
+
+    Only rows with a finite, positive deviation are drawn on log axes; the
+    interval bounds are NaN where the row has none.
+    """
+    out = {}
+    for result in table:
+        keep = np.isfinite(result.deviation) & (result.deviation > 0)
+        keep &= np.isfinite(result.tau) & (result.tau > 0)
+        out[result.statistic] = (
+            result.tau[keep].copy(),
+            result.deviation[keep].copy(),
+            result.ci_low[keep].copy(),
+            result.ci_high[keep].copy(),
+        )
+    return out
+
+
+def _slope_set(names: Sequence[str]) -> str:
+    families = {_stat_info(n)[2] for n in names}
+    if "s" in {_stat_info(n)[1] for n in names}:
+        return "tdev" if "tdev" in names else "time_error"
+    return "modified" if families == {"modified"} else "allan"
+
+
+def slope_key(names: Sequence[str]) -> tuple[str, tuple[tuple[float, str], ...]]:
+    """The slope key drawn for a panel holding these statistics: (kind, ((slope, label), ...))."""
+    kind = _slope_set(list(names))
+    return kind, SLOPES[kind]
+
+
+def _validate_stability_args(
+    table: Any, title: Any, model_curve: Any, limits: Any, limits_statistic: Any, footer: Any
+) -> list[tuple[float, float, str]]:
+    if not isinstance(table, StabilityTable):
+        raise InputError(
+            f"table must be a stability.StabilityTable, got {type(table).__name__}",
+            hint="build one with stability.analyze",
+        )
+    if len(table) == 0:
+        raise InputError("the table holds no results to plot")
+    for name, value in (("title", title), ("footer", footer)):
+        if value is not None and not isinstance(value, str):
+            raise InputError(f"{name} must be a str or None, got {type(value).__name__}")
+    if model_curve is not None:
+        if not isinstance(model_curve, Mapping):
+            raise InputError(
+                "model_curve must map a statistic to (tau, sigma) arrays, "
+                f"got {type(model_curve).__name__}"
+            )
+        for stat, curve in model_curve.items():
+            if stat not in table.results:
+                raise InputError(
+                    f"model_curve names {stat!r}, which is not in the table",
+                    hint=f"use one of {', '.join(table.results)}",
+                )
+            try:
+                tau, sigma = (np.asarray(c, dtype=float) for c in curve)
+            except (TypeError, ValueError):
+                raise InputError(
+                    f"model_curve[{stat!r}] must be a pair (tau, sigma) of number arrays"
+                ) from None
+            if tau.shape != sigma.shape or tau.ndim != 1:
+                raise InputError(
+                    f"model_curve[{stat!r}]: tau and sigma must be 1-D of one length, "
+                    f"got shapes {tau.shape} and {sigma.shape}"
+                )
+    if limits_statistic is not None and limits_statistic not in table.results:
+        raise InputError(
+            f"limits_statistic {limits_statistic!r} is not in the table",
+            hint=f"use one of {', '.join(table.results)}",
+        )
+    rows: list[tuple[float, float, str]] = []
+    if limits is not None:
+        try:
+            items = list(limits)
+        except TypeError:
+            raise InputError(
+                f"limits must be a list of (tau_s, max, verdict) rows, got {type(limits).__name__}"
+            ) from None
+        for i, item in enumerate(items):
+            try:
+                tau, top, *rest = item
+                tau, top = float(tau), float(top)
+            except (TypeError, ValueError):
+                raise InputError(
+                    f"limits row {i} must be (tau_s, max, verdict), got {item!r}"
+                ) from None
+            if len(rest) > 1:
+                raise InputError(f"limits row {i} must be (tau_s, max, verdict), got {item!r}")
+            if not (tau > 0 and top > 0 and math.isfinite(tau) and math.isfinite(top)):
+                raise InputError(
+                    f"limits row {i}: tau and max must be positive and finite, got {item!r}"
+                )
+            rows.append((tau, top, _normal_verdict(rest[0] if rest else None)))
+    return rows
+
+
+def _draw_slope_key(ax: Any, names: Sequence[str], points: np.ndarray) -> None:
+    """A faint fan of slope guides in the emptiest corner of a log-log panel."""
+    kind, slopes = slope_key(names)
+    heading = "slopes"
+    if len({_slope_set([n]) for n in names}) > 1:  # mixed kinds: say whose slopes these are
+        owner = next((n for n in names if _slope_set([n]) == kind), names[0])
+        heading = f"slopes ({_short(owner)})"
+    ax.autoscale_view()
+    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
+    lx0, lx1, ly0, ly1 = math.log10(x0), math.log10(x1), math.log10(y0), math.log10(y1)
+    # give the key a little room: at least ~2 decades tall so the slopes are legible
+    if ly1 - ly0 < 2.0:
+        pad = (2.0 - (ly1 - ly0)) / 2
+        ly0, ly1 = ly0 - pad, ly1 + pad
+    if lx1 - lx0 < 1.0:
+        pad = (1.0 - (lx1 - lx0)) / 2
+        lx0, lx1 = lx0 - pad, lx1 + pad
+    ax.set_xlim(10**lx0, 10**lx1)
+    ax.set_ylim(10**ly0, 10**ly1)
+    wx, wy = lx1 - lx0, ly1 - ly0
+    max_slope = max(abs(s) for s, _ in slopes)
+    length = min(0.14 * wx, 0.18 * wy / max(max_slope, 0.5))  # decades of tau
+    box_w = length / wx + 0.1  # axes fraction, room for the labels
+    box_h = 2 * max_slope * length / wy + 0.06
+    # count the drawn points in each candidate corner (axes fraction)
+    if points.size:
+        fx = (np.log10(points[:, 0]) - lx0) / wx
+        fy = (np.log10(points[:, 1]) - ly0) / wy
+    else:
+        fx = fy = np.empty(0)
+    margin = 0.03
+    corners = {
+        "lower left": (margin, margin),
+        "upper right": (1 - margin - box_w, 1 - margin - box_h),
+        "lower right": (1 - margin - box_w, margin),
+        "upper left": (margin, 1 - margin - box_h),
+    }
+    best, best_count = "lower left", None
+    for name, (cx, cy) in corners.items():
+        inside = (fx >= cx - 0.02) & (fx <= cx + box_w + 0.02)
+        inside &= (fy >= cy - 0.02) & (fy <= cy + box_h + 0.02)
+        count = int(inside.sum())
+        if best_count is None or count < best_count:
+            best, best_count = name, count
+    cx, cy = corners[best]
+    origin_lx = lx0 + (cx + 0.01) * wx
+    origin_ly = ly0 + (cy + box_h / 2) * wy
+    for slope, label in slopes:
+        xs = np.array([origin_lx, origin_lx + length])
+        ys = origin_ly + slope * (xs - origin_lx)
+        ax.plot(
+            10**xs,
+            10**ys,
+            color=_GUIDE_COLOR,
+            linewidth=0.8,
+            alpha=0.8,
+            zorder=1,
+            solid_capstyle="round",
+            gid="slope-key",
+        )
+        ax.annotate(
+            label,
+            (10 ** xs[1], 10 ** ys[1]),
+            xytext=(2, 0),
+            textcoords="offset points",
+            fontsize=6,
+            color="#808080",
+            va="center",
+            ha="left",
+            zorder=1,
+            gid="slope-key",
+        )
+    ax.text(
+        10**origin_lx,
+        10 ** (origin_ly + max(max(s for s, _ in slopes), 0.0) * length + 0.02 * wy),
+        heading,
+        fontsize=6,
+        color="#808080",
+        va="bottom",
+        ha="left",
+        style="italic",
+        zorder=1,
+        gid="slope-key",
+    )
+    ax.set_xlim(10**lx0, 10**lx1)
+    ax.set_ylim(10**ly0, 10**ly1)
+
+
+def _panel_label(names: Sequence[str], unit: str) -> str:
+    if len(names) == 1:
+        title, _, _ = _stat_info(names[0])
+        label = f"{title} {_SYMBOLS.get(names[0], _short(names[0]))}"
+    else:
+        label = "time statistic" if unit == "s" else "fractional frequency deviation"
+    return f"{label} (s)" if unit == "s" else label
+
+
+def stability_figure(
+    table: StabilityTable,
+    *,
+    title: str | None = None,
+    model_curve: Mapping[str, tuple[Any, Any]] | None = None,
+    limits: Sequence[tuple[float, float, str | None]] | None = None,
+    limits_statistic: str | None = None,
+    footer: str | None = None,
+    analysis_time: datetime | None = None,
+) -> Figure:
+    """The sigma-tau plot of an analysis.
+
+    Parameters
+    ----------
+    table
+        The results, from :func:`stability.analyze`.
+    title
+        Figure title (default: the log's file name).
+    model_curve
+        Statistic -> (tau, sigma) of the fitted power-law model, drawn as a thin line.
+    limits
+        Specification limits as ``(tau_s, max, verdict)`` rows; verdict is
+        ``"pass"``, ``"fail"``, ``"inconclusive"`` or None (not measured).
+    limits_statistic
+        The statistic the limits apply to (default: the table's first); they
+        are drawn on its panel.
+    footer
+        Footer text (default: input SHA-256 prefix, tool version, analysis date).
+    analysis_time
+        Date for the default footer (default: now).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        With the drawn data as ``fig.stability_series`` (see :func:`stability_series`),
+        the panel of each statistic as ``fig.stability_axes`` and the limits as
+        ``fig.stability_limits``.
+    """
+    limit_rows = _validate_stability_args(
+        table, title, model_curve, limits, limits_statistic, footer
+    )
+    series = stability_series(table)
+    fractional = [s for s in table.results if _stat_info(s)[1] != "s"]
+    timed = [s for s in table.results if _stat_info(s)[1] == "s"]
+    panels = [(names, unit) for names, unit in ((fractional, ""), (timed, "s")) if names]
+    width = 8.0 if len(panels) == 1 else 12.5
+    fig = _new_figure(width, 5.4)
+    axes = fig.subplots(1, len(panels), squeeze=False)[0]
+    colors = {name: SERIES_COLORS[i % len(SERIES_COLORS)] for i, name in enumerate(table.results)}
+    target = limits_statistic or next(iter(table.results))
+    axes_of: dict[str, Any] = {}
+    for ax, (names, unit) in zip(axes, panels, strict=True):
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        _style_axes(ax)
+        drawn: list[np.ndarray] = []
+        entries = 0
+        for j, name in enumerate(names):
+            axes_of[name] = ax
+            tau, dev, low, high = series[name]
+            color = colors[name]
+            stat_title, _, _ = _stat_info(name)
+            ax.plot(
+                tau,
+                dev,
+                marker="o",
+                markersize=3.5,
+                linewidth=1.0,
+                color=color,
+                label=f"{stat_title} ({_short(name)})",
+                zorder=3,
+            )
+            entries += 1
+            drawn.append(np.column_stack([tau, dev]))
+            ok = np.isfinite(low) & np.isfinite(high) & (low > 0) & (high >= dev) & (low <= dev)
+            if ok.any():
+                yerr = np.vstack([dev[ok] - low[ok], high[ok] - dev[ok]])
+                ax.errorbar(
+                    tau[ok],
+                    dev[ok],
+                    yerr=yerr,
+                    fmt="none",
+                    ecolor=color,
+                    elinewidth=0.8,
+                    capsize=2.0,
+                    alpha=0.9,
+                    zorder=2,
+                )
+                drawn.append(np.column_stack([tau[ok], low[ok]]))
+                drawn.append(np.column_stack([tau[ok], high[ok]]))
+            # noise type where it changes (small text beside the points)
+            noise = np.asarray(table.results[name].noise, dtype=object)
+            keep = np.isfinite(table.results[name].deviation) & (table.results[name].deviation > 0)
+            keep &= np.isfinite(table.results[name].tau) & (table.results[name].tau > 0)
+            noise = noise[keep]
+            if noise.size:
+                labelled = noise != ""
+                change = labelled & np.concatenate([[True], noise[1:] != noise[:-1]])
+                dy = -9 if j % 2 == 0 else 6
+                for i in np.flatnonzero(change):
+                    ax.annotate(
+                        str(noise[i]),
+                        (tau[i], dev[i]),
+                        xytext=(3, dy),
+                        textcoords="offset points",
+                        fontsize=6.5,
+                        color=color,
+                        zorder=4,
+                        gid="noise-label",
+                    )
+            if model_curve is not None and name in model_curve:
+                m_tau, m_sigma = (np.asarray(c, dtype=float) for c in model_curve[name])
+                good = np.isfinite(m_tau) & np.isfinite(m_sigma) & (m_tau > 0) & (m_sigma > 0)
+                if good.any():
+                    ax.plot(
+                        m_tau[good],
+                        m_sigma[good],
+                        color=color,
+                        linewidth=0.7,
+                        alpha=0.75,
+                        linestyle="-",
+                        label=f"{_short(name)} power-law model",
+                        zorder=2,
+                    )
+                    entries += 1
+        if limit_rows and target in names:
+            l_tau = np.array([r[0] for r in limit_rows])
+            l_max = np.array([r[1] for r in limit_rows])
+            verdicts = [r[2] for r in limit_rows]
+            order = np.argsort(l_tau, kind="stable")
+            ax.plot(
+                l_tau[order],
+                l_max[order],
+                color="#444444",
+                linewidth=1.0,
+                linestyle="--",
+                label=f"limit ({_short(target)})",
+                zorder=2,
+            )
+            entries += 1
+            for verdict, color in VERDICT_COLORS.items():
+                sel = np.array([v == verdict for v in verdicts], dtype=bool)
+                if sel.any():
+                    ax.plot(
+                        l_tau[sel],
+                        l_max[sel],
+                        linestyle="none",
+                        marker="s",
+                        markersize=5,
+                        markerfacecolor=color,
+                        markeredgecolor="#333333",
+                        markeredgewidth=0.5,
+                        label=verdict,
+                        zorder=5,
+                    )
+                    entries += 1
+            drawn.append(np.column_stack([l_tau, l_max]))
+        points = np.concatenate(drawn) if drawn else np.empty((0, 2))
+        ax.set_xlabel(r"averaging time $\tau$ (s)", fontsize=9)
+        ax.set_ylabel(_panel_label(names, unit), fontsize=9)
+        if points.size:
+            _draw_slope_key(ax, names, points)
+        if entries > 1:
+            ax.legend(fontsize=7, frameon=False, loc="best")
+    fig.suptitle(title or _default_title(table.measurement, "stability"), fontsize=11)
+    if footer is None:
+        footer = default_footer(table, analysis_time=analysis_time)
+    _put_footer(fig, footer)
+    fig.stability_series = series
+    fig.stability_axes = axes_of
+    fig.stability_limits = limit_rows
+    return fig
+
+
+# ---------------------------------------------------------------------- data over time
+def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
+    """Indices and values of a min/max decimation of ``values`` into ``columns`` buckets.
+
+    Each bucket of consecutive samples contributes its minimum and its maximum,
+    in the order they occur, followed by a NaN break when the bucket or the
+    next one holds a missing sample, so the drawn line never bridges a gap.
+    The result is a subsequence of the data (plus NaN breaks): every drawn
+    point is a real sample, and every bucket's full range is drawn.
+
+    Returns
+    -------
+    index, value
+        Float sample indices (NaN at breaks) and values, ready for plotting.
+    """
+    values = np.asarray(values, dtype=float)
+    n = values.size
+    columns = max(1, int(columns))
+    block = max(1, math.ceil(n / columns))
+    n_blocks = math.ceil(n / block)
+    padded = np.full(n_blocks * block, np.nan)
+    padded[:n] = values
+    blocks = padded.reshape(n_blocks, block)
+    missing = np.isnan(blocks)
+    any_missing = missing.any(axis=1)
+    any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
+    all_missing = missing.all(axis=1)
+    i_min = np.argmin(np.where(missing, np.inf, blocks), axis=1)
+    i_max = np.argmax(np.where(missing, -np.inf, blocks), axis=1)
+    rows = np.arange(n_blocks)
+    first = np.minimum(i_min, i_max)
+    second = np.maximum(i_min, i_max)
+    base = rows * block
+    idx = np.empty((n_blocks, 3))
+    val = np.empty((n_blocks, 3))
+    idx[:, 0] = base + first
+    idx[:, 1] = base + second
+    val[:, 0] = blocks[rows, first]
+    val[:, 1] = blocks[rows, second]
+    brk = any_missing | np.concatenate([any_missing[1:], [False]])
+    idx[:, 2] = np.where(brk, np.nan, idx[:, 1])
+    val[:, 2] = np.where(brk, np.nan, val[:, 1])
+    val[all_missing, :2] = np.nan
+    return idx.ravel(), val.ravel()
+
+
+def _gap_runs(mask: np.ndarray, max_runs: int) -> np.ndarray:
+    """(k, 2) array of [start, stop) sample ranges where ``mask`` is true."""
+    if not mask.any():
+        return np.empty((0, 2), dtype=np.int64)
+    edges = np.diff(np.concatenate([[0], mask.astype(np.int8), [0]]))
+    runs = np.column_stack([np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)])
+    if len(runs) > max_runs:  # too many to draw: merge per bucket of samples
+        block = math.ceil(mask.size / max_runs)
+        n_blocks = math.ceil(mask.size / block)
+        padded = np.zeros(n_blocks * block, dtype=bool)
+        padded[: mask.size] = mask
+        coarse = padded.reshape(n_blocks, block).any(axis=1)
+        edges = np.diff(np.concatenate([[0], coarse.astype(np.int8), [0]]))
+        runs = np.column_stack([np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)])
+        runs = np.minimum(runs * block, mask.size)
+    return runs
+
+
+def _time_axis(measurement: Measurement) -> tuple[float, float, str, bool]:
+    """(origin, scale, label, is_date): axis value = origin + scale * seconds from start."""
+    if measurement.start is not None:
+        start = measurement.start
+        origin = float(mdates.date2num(start))
+        if start.tzinfo is None:
+            zone = "local time"
+        elif start.utcoffset() == UTC.utcoffset(None):
+            zone = "UTC"
+        else:
+            zone = str(start.tzinfo)
+        return origin, 1.0 / 86400.0, f"time ({zone})", True
+    span = measurement.span
+    for limit, unit, factor in (
+        (2 * 86400, "d", 86400.0),
+        (2 * 3600, "h", 3600.0),
+        (120, "min", 60.0),
+    ):
+        if span >= limit:
+            return 0.0, 1.0 / factor, f"elapsed time ({unit})", False
+    return 0.0, 1.0, "elapsed time (s)", False
+
+
+def _phase_scale(values: np.ndarray) -> tuple[float, str]:
+    finite = values[np.isfinite(values)]
+    top = float(np.max(np.abs(finite))) if finite.size else 0.0
+    for factor, unit in ((1.0, "s"), (1e-3, "ms"), (1e-6, "µs"), (1e-9, "ns"), (1e-12, "ps")):
+        if top >= factor:
+            return factor, unit
+    return 1e-15 if top > 0 else 1.0, "fs" if top > 0 else "s"
+
+
+def _phase_residual(phase: np.ndarray) -> np.ndarray:
+    """Phase minus its own least-squares line (the linear frequency offset removed)."""
+    k = np.arange(phase.size, dtype=float)
+    good = np.isfinite(phase)
+    if good.sum() < 2:
+        return phase - np.nanmean(phase)
+    km = k[good].mean()
+    xm = phase[good].mean()
+    dk = k[good] - km
+    slope = float(np.dot(dk, phase[good] - xm) / np.dot(dk, dk))
+    return phase - (xm + slope * (k - km))
+
+
+def _validate_series_args(
+    measurement: Any,
+    drift_curve: Any,
+    outlier_indices: Any,
+    title: Any,
+    footer: Any,
+    max_columns: Any,
+) -> tuple[np.ndarray | None, np.ndarray]:
+    if not isinstance(measurement, Measurement):
+        raise InputError(
+            f"measurement must be a stability.Measurement, got {type(measurement).__name__}",
+            hint="build one with Measurement.from_phase, Measurement.from_frequency or read_log",
+        )
+    for name, value in (("title", title), ("footer", footer)):
+        if value is not None and not isinstance(value, str):
+            raise InputError(f"{name} must be a str or None, got {type(value).__name__}")
+    if not isinstance(max_columns, int) or max_columns < 10:
+        raise InputError(f"max_columns must be an integer of at least 10, got {max_columns!r}")
+    drift = None
+    if drift_curve is not None:
+        try:
+            drift = np.asarray(drift_curve, dtype=float)
+        except (TypeError, ValueError):
+            raise InputError("drift_curve must be an array of numbers") from None
+        if drift.shape != (measurement.n - 1,):
+            raise InputError(
+                "drift_curve must hold one value per frequency sample "
+                f"({measurement.n - 1}), got shape {drift.shape}"
+            )
+    n_source = measurement.n - 1 if measurement.kind == "frequency" else measurement.n
+    if outlier_indices is None:
+        outliers = np.empty(0, dtype=np.int64)
+    else:
+        try:
+            outliers = np.asarray(outlier_indices).astype(np.int64, casting="safe").ravel()
+        except (TypeError, ValueError):
+            raise InputError("outlier_indices must be whole sample indices") from None
+        if outliers.size and (outliers.min() < 0 or outliers.max() >= n_source):
+            raise InputError(
+                f"outlier_indices must lie in 0..{n_source - 1} (source samples), "
+                f"got {int(outliers.min())}..{int(outliers.max())}"
+            )
+    return drift, outliers
+
+
+def series_figure(
+    measurement: Measurement,
+    *,
+    drift_curve: Any = None,
+    outlier_indices: Any = None,
+    title: str | None = None,
+    footer: str | None = None,
+    analysis_time: datetime | None = None,
+    max_columns: int = 2000,
+) -> Figure:
+    """The record over time: fractional frequency and phase residual, gaps and outliers.
+
+    Parameters
+    ----------
+    measurement
+        The data.
+    drift_curve
+        The drift model, one fractional-frequency value per frequency sample
+        (``measurement.n - 1`` values), drawn over the frequency.
+    outlier_indices
+        Indices of removed outliers among the source samples (frequency
+        samples for frequency input, phase samples for phase input), marked
+        along the top of the panel of that quantity.
+    title, footer
+        Figure title (default: the log's file name) and footer text (default:
+        input SHA-256 prefix, tool version, analysis date).
+    analysis_time
+        Date for the default footer (default: now).
+    max_columns
+        Longer records are drawn as a min/max envelope over this many buckets
+        (:func:`envelope`).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        With what was drawn as ``fig.series_data``: ``frequency`` and
+        ``phase_residual`` (x, y as drawn, in axis units), ``drift`` (or None),
+        ``gaps`` ((k, 2) axis-unit spans), ``outliers`` (axis positions),
+        ``decimated`` (bool) and ``phase_unit`` (scale factor, unit).
+    """
+    drift, outliers = _validate_series_args(
+        measurement, drift_curve, outlier_indices, title, footer, max_columns
+    )
+    y = measurement.frequency()
+    residual = _phase_residual(np.asarray(measurement.phase, dtype=float))
+    p_factor, p_unit = _phase_scale(residual)
+    origin, scale, x_label, is_date = _time_axis(measurement)
+    tau0 = measurement.tau0
+
+    def axis(index: np.ndarray) -> np.ndarray:
+        return origin + scale * tau0 * index
+
+    decimate = max(y.size, residual.size) > 4 * max_columns
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        if decimate:
+            y_idx, y_val = envelope(y, max_columns)
+            p_idx, p_val = envelope(residual, max_columns)
+        else:
+            y_idx, y_val = np.arange(y.size, dtype=float), y
+            p_idx, p_val = np.arange(residual.size, dtype=float), residual
+    y_x, p_x = axis(y_idx), axis(p_idx)
+    p_val = p_val / p_factor
+
+    fig = _new_figure(10.0, 6.0)
+    ax_y, ax_p = fig.subplots(2, 1, sharex=True)
+    for ax in (ax_y, ax_p):
+        _style_axes(ax)
+        ax.grid(False, which="minor")
+    ax_y.plot(y_x, y_val, color=SERIES_COLORS[0], linewidth=0.6, label="fractional frequency")
+    ax_p.plot(p_x, p_val, color=SERIES_COLORS[2], linewidth=0.6, label="phase residual")
+
+    drift_drawn = None
+    if drift is not None:
+        if decimate:
+            d_idx = np.unique(np.linspace(0, drift.size - 1, 2 * max_columns).round()).astype(int)
+        else:
+            d_idx = np.arange(drift.size)
+        drift_drawn = (axis(d_idx.astype(float)), drift[d_idx])
+        ax_y.plot(*drift_drawn, color=SERIES_COLORS[1], linewidth=1.2, label="drift model")
+
+    # gaps: missing frequency samples (NaN runs and segment breaks) shaded on both panels
+    gap_mask = ~np.isfinite(y)
+    runs = _gap_runs(gap_mask, max_columns)
+    gaps = np.column_stack([axis(runs[:, 0].astype(float)), axis(runs[:, 1].astype(float))])
+    if len(gaps):
+        for ax in (ax_y, ax_p):
+            trans = blended_transform_factory(ax.transData, ax.transAxes)
+            verts = np.stack(
+                [
+                    np.column_stack([gaps[:, 0], np.zeros(len(gaps))]),
+                    np.column_stack([gaps[:, 1], np.zeros(len(gaps))]),
+                    np.column_stack([gaps[:, 1], np.ones(len(gaps))]),
+                    np.column_stack([gaps[:, 0], np.ones(len(gaps))]),
+                ],
+                axis=1,
+            )
+            ax.add_collection(
+                PolyCollection(
+                    verts,
+                    transform=trans,
+                    facecolors=_GAP_COLOR,
+                    edgecolors=_GAP_COLOR,
+                    linewidths=0.3,
+                    alpha=0.7,
+                    zorder=0,
+                ),
+                autolim=False,
+            )
+
+    # removed outliers: a rug along the top of the panel of the source quantity
+    out_x = axis(outliers.astype(float))
+    if outliers.size:
+        ax_out = ax_y if measurement.kind == "frequency" else ax_p
+        trans = blended_transform_factory(ax_out.transData, ax_out.transAxes)
+        ax_out.plot(
+            out_x,
+            np.full(out_x.size, 0.97),
+            linestyle="none",
+            marker="v",
+            markersize=4,
+            color=_OUTLIER_COLOR,
+            transform=trans,
+            label=f"removed outliers ({outliers.size})",
+            zorder=5,
+        )
+
+    ax_y.set_ylabel("fractional frequency", fontsize=9)
+    ax_p.set_ylabel(f"phase residual ({p_unit})", fontsize=9)
+    ax_p.set_xlabel(x_label, fontsize=9)
+    for ax in (ax_y, ax_p):
+        ax.ticklabel_format(axis="y", style="sci", scilimits=(-3, 4), useMathText=True)
+    if is_date:
+        locator = mdates.AutoDateLocator()
+        ax_p.xaxis.set_major_locator(locator)
+        ax_p.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
+    x_end = axis(np.array([0.0, float(measurement.n - 1)]))
+    ax_p.set_xlim(x_end[0], x_end[1] if x_end[1] > x_end[0] else x_end[0] + scale * tau0)
+    legend = {"fontsize": 7, "frameon": False, "loc": "lower right", "bbox_to_anchor": (1, 1)}
+    handles, labels = ax_y.get_legend_handles_labels()
+    if len(gaps):
+        handles.append(Line2D([], [], color=_GAP_COLOR, linewidth=6, alpha=0.7))
+        labels.append(f"gaps ({int(gap_mask.sum())} samples)")
+    if len(handles) > 1:
+        ax_y.legend(handles, labels, ncols=len(handles), **legend)
+    if outliers.size and measurement.kind != "frequency":
+        ax_p.legend(**legend)
+    fig.suptitle(title or _default_title(measurement, "data over time"), fontsize=11)
+    if footer is None:
+        footer = default_footer(measurement, analysis_time=analysis_time)
+    _put_footer(fig, footer)
+    fig.series_data = {
+        "frequency": (y_x, y_val),
+        "phase_residual": (p_x, p_val),
+        "drift": drift_drawn,
+        "gaps": gaps,
+        "outliers": out_x,
+        "decimated": decimate,
+        "phase_unit": (p_factor, p_unit),
+    }
+    return fig
+
+
+# ---------------------------------------------------------------------- saving
+def save_figure(
+    fig: Figure, path: str | os.PathLike[str], fmt: str | None = None, *, dpi: int = _DPI
+) -> Path:
+    """Write a figure as PNG (default), SVG or PDF, atomically.
+
+    Parameters
+    ----------
+    fig
+        The figure.
+    path
+        Destination file; its folder must exist.
+    fmt
+        ``"png"``, ``"svg"`` or ``"pdf"``; by default taken from the file
+        suffix, PNG when the suffix is none of these.
+    dpi
+        Resolution of PNG output.
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    if not isinstance(fig, Figure):
+        raise InputError(f"fig must be a matplotlib Figure, got {type(fig).__name__}")
+    target = Path(path)
+    if fmt is None:
+        suffix = target.suffix.lower().lstrip(".")
+        fmt = suffix if suffix in FORMATS else "png"
+    fmt = str(fmt).lower().lstrip(".")
+    if fmt not in FORMATS:
+        raise InputError(
+            f"unknown figure format {fmt!r}", hint=f"choose one of {', '.join(FORMATS)}"
+        )
+    if not isinstance(dpi, (int, float)) or not 10 <= dpi <= 1200:
+        raise InputError(f"dpi must be a number between 10 and 1200, got {dpi!r}")
+    from . import __version__
+
+    software = f"stability {__version__}"
+    metadata = {
+        "png": {"Software": software},
+        "svg": {"Creator": software},
+        "pdf": {"Creator": software},
+    }[fmt]
+    if fig.canvas is None or not isinstance(fig.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(fig)
+    with atomic_output(target, "wb") as handle:
+        fig.savefig(handle, format=fmt, dpi=dpi, metadata=metadata)
+    return target
