@@ -27,7 +27,7 @@ from .errors import StabilityError, StabilityWarning
 from .measurement import Measurement
 from .noise import identify
 from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift
-from .table import StabilityTable, StatisticResult
+from .table import NOISE_LABELS, StabilityTable, StatisticResult
 
 __all__ = ["qualify", "qualify_result", "effective_points", "model_curve"]
 
@@ -40,6 +40,34 @@ def effective_points(measurement: Measurement) -> int:
     finite = int(np.isfinite(measurement.phase).sum())
     breaks = 0 if measurement.segments is None else int(measurement.segments[-1])
     return max(finite - breaks, 0)
+
+
+def _never_whiter(result: StatisticResult) -> None:
+    """Keep the identified alpha from rising with tau (in place).
+
+    In a sum of power laws S_y(f) = sum h_alpha f^alpha the term with the
+    smaller exponent dominates ever more as f falls, so the dominant type at
+    a longer tau is never whiter than at a shorter one. An identification that
+    says otherwise is a statistical miss (most often B1 or R(n) on a few
+    averages) and would give too many degrees of freedom, i.e. an interval
+    that is too narrow; the shorter tau's type is kept instead, and said.
+    """
+    lowest = math.inf
+    changed = []
+    for k, a in enumerate(result.alpha):
+        if math.isnan(a):
+            continue
+        if a > lowest:
+            result.alpha[k] = lowest
+            result.noise[k] = NOISE_LABELS[int(lowest)]
+            changed.append(f"{result.tau[k]:g} s")
+        lowest = min(lowest, result.alpha[k])
+    if changed:
+        result.notes.append(
+            f"{result.statistic}: at tau {', '.join(changed)} the identification said a whiter "
+            "noise than at a shorter tau; the shorter tau's type was kept (a sum of power "
+            "laws never gets whiter at longer tau)"
+        )
 
 
 def qualify_result(
@@ -59,6 +87,7 @@ def qualify_result(
     result.alpha = np.asarray(noise.alpha, dtype=float)
     result.noise = list(noise.noise)
     result.noise_method = list(noise.method)
+    _never_whiter(result)
     edf = np.empty(len(result))
     factors = np.ones(len(result))
     for k, m in enumerate(result.m):
