@@ -1,0 +1,515 @@
+"""Frequency drift: estimate it, describe it, and remove it from a measurement.
+
+Models fitted to fractional frequency y(t), t in days from the first sample [1]_:
+
+``"none"``
+    y = c (the mean frequency; nothing is removed).
+``"linear"``
+    y = c + a t, least squares (equivalent to a quadratic fit to phase).
+``"quadratic"``
+    y = c + a t + q t^2, least squares.
+``"log"``
+    y = a ln(b t + 1) + c, the usual model of a quartz oscillator settling
+    after turn-on [1]_, fitted with a Levenberg-Marquardt / trust-region
+    least-squares search [2]_ started from the best of a grid of ``b`` values
+    (for fixed ``b`` the model is linear in ``a`` and ``c``).
+
+Drift estimators from phase, as cross-checks [1]_: the three-point estimate
+(second divided difference of the phase at the start, middle and end of the
+longest unbroken stretch) and the mean second difference of the phase.
+
+Standard errors assume white residuals (white FM); with flicker or random-walk
+FM they are optimistic, as the references point out for every least-squares
+drift fit. ``per_day`` is the mean drift rate over the record,
+``(y(T) - y(0)) / T``: the slope for the linear model.
+
+Removing a model works on the phase: the integral of the model minus its
+record mean is subtracted from every phase sample, so the gaps (NaN samples)
+and segments (frequency gaps) stay exactly where they were, and the mean
+frequency offset is kept.
+
+References
+----------
+.. [1] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST Special
+   Publication 1065 (2008), data preprocessing: frequency drift (drift from
+   phase: quadratic fit, three-point, mean second difference; from frequency:
+   linear fit, bisection, log model, diffusion model).
+.. [2] P. Virtanen et al., *SciPy 1.0: fundamental algorithms for scientific
+   computing in Python*, Nature Methods 17 (2020): ``scipy.optimize.curve_fit``.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+import numpy as np
+from scipy.optimize import OptimizeWarning, curve_fit
+
+from ..errors import AnalysisError, InputError, StabilityWarning
+from ..measurement import Measurement
+from ._common import SECONDS_PER_DAY, centred_frequency, check_measurement
+
+__all__ = [
+    "DRIFT_MODELS",
+    "DriftFit",
+    "fit_drift",
+    "remove_drift",
+    "three_point_drift",
+    "mean_second_difference_drift",
+    "check_drift_model",
+]
+
+DriftModel = Literal["none", "linear", "quadratic", "log"]
+#: Names of the drift models and what they are.
+DRIFT_MODELS: dict[str, str] = {
+    "none": "no drift model (mean frequency only)",
+    "linear": "linear frequency drift y = c + a t",
+    "quadratic": "quadratic frequency drift y = c + a t + q t^2",
+    "log": "logarithmic frequency drift y = a ln(b t + 1) + c",
+}
+
+_POLY_DEGREE = {"none": 0, "linear": 1, "quadratic": 2}
+_POLY_NAMES = ("offset", "drift_per_day", "curvature_per_day2")
+
+
+def check_drift_model(model: Any, name: str = "drift") -> str:
+    """Validate a drift model name; raise :class:`InputError` listing the choices."""
+    if isinstance(model, str) and model.strip().lower() in DRIFT_MODELS:
+        return model.strip().lower()
+    raise InputError(
+        f"{name} must be one of {', '.join(DRIFT_MODELS)}, got {model!r}",
+        hint="pass --drift none, linear, quadratic or log",
+    )
+
+
+def _plain(value: float) -> float | None:
+    return float(value) if math.isfinite(value) else None
+
+
+def _h(z: np.ndarray) -> np.ndarray:
+    """(1 + z) ln(1 + z) - z, with its series where z is small (no cancellation)."""
+    z = np.asarray(z, dtype=float)
+    small = np.abs(z) < 1e-3
+    zs = np.where(small, z, 0.0)
+    series = zs**2 / 2 - zs**3 / 6 + zs**4 / 12 - zs**5 / 20
+    zl = np.where(small, 0.0, z)
+    direct = (1 + zl) * np.log1p(zl) - zl
+    return np.where(small, series, direct)
+
+
+@dataclass(frozen=True, eq=False)
+class DriftFit:
+    """A fitted drift model.
+
+    Attributes
+    ----------
+    model
+        ``"none"``, ``"linear"``, ``"quadratic"`` or ``"log"``.
+    method
+        How it was estimated (e.g. least squares on frequency, three-point).
+    coefficients
+        Model coefficients, time in days: ``offset`` (fractional frequency at
+        the first sample), ``drift_per_day``, ``curvature_per_day2`` for the
+        polynomials; ``a``, ``b_per_day``, ``c`` for the log model.
+    errors
+        Standard error of each coefficient (NaN where the method gives none).
+    per_day
+        Mean drift rate over the record, fractional frequency per day.
+    per_day_error
+        Its standard error.
+    n_used
+        Frequency samples used.
+    residual_rms
+        RMS of the frequency residuals from the model.
+    span_days
+        Record length in days.
+    t
+        Mid-time of each frequency sample, seconds from the first phase sample.
+    y_model
+        Model fractional frequency at ``t``.
+    """
+
+    model: str
+    method: str
+    coefficients: dict[str, float]
+    errors: dict[str, float]
+    per_day: float
+    per_day_error: float
+    n_used: int
+    residual_rms: float
+    span_days: float
+    t: np.ndarray = field(repr=False)
+    y_model: np.ndarray = field(repr=False)
+
+    def frequency_at(self, t: Any) -> np.ndarray:
+        """Model fractional frequency at times ``t`` (seconds from the first sample)."""
+        days = np.asarray(t, dtype=float) / SECONDS_PER_DAY
+        return _evaluate(self.model, self.coefficients, days)
+
+    def phase_at(self, t: Any) -> np.ndarray:
+        """Integral of the model from the first sample to ``t``, in seconds."""
+        days = np.asarray(t, dtype=float) / SECONDS_PER_DAY
+        offset = self.coefficients.get("offset", self.coefficients.get("c", 0.0))
+        varying = _drift_integral(self.model, self.coefficients, days)
+        return (varying + offset * days) * SECONDS_PER_DAY
+
+    @property
+    def description(self) -> str:
+        """The fit in one plain sentence."""
+        rate = f"{self.per_day:.3g}"
+        if math.isfinite(self.per_day_error):
+            rate += f" +/- {self.per_day_error:.2g}"
+        if self.model == "none":
+            return (
+                f"no drift model; mean fractional frequency "
+                f"{self.coefficients['offset']:.6g} over {self.n_used} samples"
+            )
+        what = {
+            "linear": "linear drift",
+            "quadratic": "quadratic drift, mean rate",
+            "log": "log-model drift, mean rate",
+        }[self.model]
+        extra = ""
+        if self.model == "log":
+            extra = (
+                f"; y = {self.coefficients['a']:.3g} ln({self.coefficients['b_per_day']:.3g} t + 1)"
+                f" {'-' if self.coefficients['c'] < 0 else '+'} {abs(self.coefficients['c']):.3g}"
+                ", t in days"
+            )
+        return (
+            f"{what} {rate} per day ({self.method}, {self.n_used} frequency samples "
+            f"over {self.span_days:.3g} days){extra}"
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready summary (the model curve itself is left out)."""
+        return {
+            "model": self.model,
+            "method": self.method,
+            "coefficients": {k: _plain(v) for k, v in self.coefficients.items()},
+            "errors": {k: _plain(v) for k, v in self.errors.items()},
+            "per_day": _plain(self.per_day),
+            "per_day_error": _plain(self.per_day_error),
+            "n_used": int(self.n_used),
+            "residual_rms": _plain(self.residual_rms),
+            "span_days": _plain(self.span_days),
+            "description": self.description,
+        }
+
+
+def _evaluate(model: str, coef: dict[str, float], days: np.ndarray) -> np.ndarray:
+    if model == "log":
+        return coef["a"] * np.log1p(coef["b_per_day"] * days) + coef["c"]
+    out = np.full(np.shape(days), coef["offset"], dtype=float)
+    for p, name in enumerate(_POLY_NAMES[1 : _POLY_DEGREE[model] + 1], start=1):
+        out = out + coef[name] * days**p
+    return out
+
+
+def _drift_integral(model: str, coef: dict[str, float], days: np.ndarray) -> np.ndarray:
+    """Integral (fractional frequency x days) of the model without its constant term."""
+    if model == "log":
+        a, b = coef["a"], coef["b_per_day"]
+        return a * _h(b * days) / b
+    out = np.zeros(np.shape(days), dtype=float)
+    for p, name in enumerate(_POLY_NAMES[1 : _POLY_DEGREE[model] + 1], start=1):
+        out = out + coef[name] * days ** (p + 1) / (p + 1)
+    return out
+
+
+def _times(measurement: Measurement) -> tuple[np.ndarray, float]:
+    """Mid-times of the frequency samples (s) and the record length (s)."""
+    t = (np.arange(measurement.n - 1, dtype=float) + 0.5) * measurement.tau0
+    return t, measurement.span
+
+
+def _validate_fit_args(measurement: Any, model: Any, function: str) -> tuple[Measurement, str]:
+    m = check_measurement(measurement, function)
+    return m, check_drift_model(model, "model")
+
+
+def _finish(
+    m: Measurement,
+    model: str,
+    method: str,
+    coef: dict[str, float],
+    errors: dict[str, float],
+    per_day: float,
+    per_day_error: float,
+    y: np.ndarray,
+) -> DriftFit:
+    t, span = _times(m)
+    y_model = _evaluate(model, coef, t / SECONDS_PER_DAY)
+    good = np.isfinite(y)
+    resid = y[good] + m.frequency_offset - y_model[good]
+    rms = float(np.sqrt(np.mean(resid**2))) if resid.size else math.nan
+    return DriftFit(
+        model=model,
+        method=method,
+        coefficients=coef,
+        errors=errors,
+        per_day=per_day,
+        per_day_error=per_day_error,
+        n_used=int(good.sum()),
+        residual_rms=rms,
+        span_days=span / SECONDS_PER_DAY,
+        t=t,
+        y_model=y_model,
+    )
+
+
+def _fit_polynomial(m: Measurement, model: str) -> DriftFit:
+    degree = _POLY_DEGREE[model]
+    names = _POLY_NAMES[: degree + 1]
+    y = centred_frequency(m)
+    t, span = _times(m)
+    good = np.isfinite(y)
+    n_used = int(good.sum())
+    span_days = span / SECONDS_PER_DAY
+    nan_fit = (
+        {k: math.nan for k in names},
+        {k: math.nan for k in names},
+    )
+    if n_used < degree + 1:
+        warnings.warn(
+            f"{model} drift needs at least {degree + 1} frequency samples, the record has "
+            f"{n_used}; the fit is NaN",
+            StabilityWarning,
+            stacklevel=3,
+        )
+        coef, errors = nan_fit
+        return _finish(m, model, "least squares on frequency", coef, errors, *([math.nan] * 2), y)
+    # Scaled time u in [0, 1] and scaled values keep the normal equations well conditioned.
+    u = t[good] / span
+    values = y[good]
+    centre = float(np.mean(values))
+    scale = float(np.std(values)) or 1.0
+    design = np.vander(u, degree + 1, increasing=True)
+    target = (values - centre) / scale
+    beta, *_ = np.linalg.lstsq(design, target, rcond=None)
+    dof = n_used - (degree + 1)
+    if dof > 0:
+        sse = float(np.sum((target - design @ beta) ** 2))
+        cov_u = sse / dof * np.linalg.inv(design.T @ design)
+    else:
+        cov_u = np.full((degree + 1, degree + 1), np.nan)
+    # Back to natural units: coefficient p is per day^p.
+    factor = scale / span_days ** np.arange(degree + 1)
+    natural = beta * factor
+    natural[0] += centre + m.frequency_offset
+    cov = cov_u * np.outer(factor, factor)
+    coef = {k: float(v) for k, v in zip(names, natural, strict=True)}
+    variances = np.diag(cov)
+    errors = {
+        k: float(math.sqrt(v)) if v >= 0 else math.nan
+        for k, v in zip(names, variances, strict=True)
+    }
+    if degree == 0:
+        per_day, per_day_error = 0.0, 0.0
+    else:
+        grad = np.zeros(degree + 1)
+        grad[1] = 1.0
+        if degree == 2:
+            grad[2] = span_days
+        per_day = float(grad @ natural)
+        var = float(grad @ cov @ grad)
+        per_day_error = math.sqrt(var) if var >= 0 else math.nan
+    return _finish(m, model, "least squares on frequency", coef, errors, per_day, per_day_error, y)
+
+
+def _log_curve(u: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
+    return a * np.log1p(b * u) + c
+
+
+def _fit_log(m: Measurement) -> DriftFit:
+    hint = "the data may not follow a log model; use --drift linear"
+    y = centred_frequency(m)
+    t, span = _times(m)
+    good = np.isfinite(y)
+    if int(good.sum()) < 4:
+        raise AnalysisError(
+            f"the log drift model needs at least 4 frequency samples, got {int(good.sum())}",
+            hint=hint,
+        )
+    u = t[good] / span
+    values = y[good]
+    centre = float(np.mean(values))
+    scale = float(np.std(values)) or 1.0
+    target = (values - centre) / scale
+    # Start values: for a fixed b the model is linear in (a, c); take the best b of a grid.
+    best: tuple[float, float, float, float] | None = None
+    for b in np.logspace(-1, 4, 26):
+        basis = np.column_stack([np.log1p(b * u), np.ones_like(u)])
+        (a, c), *_ = np.linalg.lstsq(basis, target, rcond=None)
+        sse = float(np.sum((target - basis @ np.array([a, c])) ** 2))
+        if best is None or sse < best[0]:
+            best = (sse, float(a), float(b), float(c))
+    assert best is not None
+    _, a0, b0, c0 = best
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", OptimizeWarning)
+            popt, pcov = curve_fit(
+                _log_curve,
+                u,
+                target,
+                p0=[a0, b0, c0],
+                bounds=([-np.inf, 1e-9, -np.inf], [np.inf, np.inf, np.inf]),
+                max_nfev=2000,
+            )
+    except (RuntimeError, OptimizeWarning, ValueError) as exc:
+        raise AnalysisError(f"the log drift model did not converge: {exc}", hint=hint) from None
+    # The curvature must be identified: b T not vanishing (else the model is a straight
+    # line over the record) and b known to better than 100 %.
+    if (
+        not np.all(np.isfinite(pcov))
+        or popt[1] < 1e-3
+        or not (math.sqrt(max(pcov[1, 1], 0.0)) < popt[1])
+    ):
+        raise AnalysisError(
+            "the log drift model did not converge: the data show no identifiable "
+            "logarithmic curvature",
+            hint=hint,
+        )
+    span_days = span / SECONDS_PER_DAY
+    factor = np.array([scale, 1.0 / span_days, scale])
+    natural = popt * factor
+    natural[2] += centre + m.frequency_offset
+    cov = pcov * np.outer(factor, factor)
+    names = ("a", "b_per_day", "c")
+    coef = {k: float(v) for k, v in zip(names, natural, strict=True)}
+    errors = {k: float(math.sqrt(max(v, 0.0))) for k, v in zip(names, np.diag(cov), strict=True)}
+    a, b = natural[0], natural[1]
+    per_day = float(a * np.log1p(b * span_days) / span_days)
+    grad = np.array(
+        [np.log1p(b * span_days) / span_days, a / (1.0 + b * span_days), 0.0], dtype=float
+    )
+    var = float(grad @ cov @ grad)
+    per_day_error = math.sqrt(var) if var >= 0 else math.nan
+    return _finish(m, "log", "least squares on frequency", coef, errors, per_day, per_day_error, y)
+
+
+def fit_drift(measurement: Measurement, model: DriftModel = "linear") -> DriftFit:
+    """Fit a drift model to the fractional frequency of a measurement.
+
+    Parameters
+    ----------
+    measurement
+        The data; gaps are skipped.
+    model
+        ``"none"``, ``"linear"``, ``"quadratic"`` or ``"log"``.
+
+    Returns
+    -------
+    DriftFit
+        Coefficients with standard errors, the model curve and the mean rate per day.
+
+    Raises
+    ------
+    InputError
+        Unknown model.
+    AnalysisError
+        The log model does not converge (use ``"linear"``).
+    """
+    m, model = _validate_fit_args(measurement, model, "fit_drift")
+    if model == "log":
+        return _fit_log(m)
+    return _fit_polynomial(m, model)
+
+
+def remove_drift(
+    measurement: Measurement, model: DriftModel = "linear"
+) -> tuple[Measurement, DriftFit]:
+    """Fit a drift model and remove it, keeping gaps, segments and the mean offset.
+
+    The integral of ``y_model - mean(y_model)`` is subtracted from the phase,
+    so the frequency loses the drift but keeps its mean; NaN samples and
+    segment breaks are untouched. ``"none"`` returns an unchanged copy.
+
+    Returns
+    -------
+    (Measurement, DriftFit)
+        The new measurement (with a note) and the fit that was removed.
+    """
+    m, model = _validate_fit_args(measurement, model, "remove_drift")
+    fit = _fit_log(m) if model == "log" else _fit_polynomial(m, model)
+    if model == "none":
+        return m.replace(), fit
+    if not all(math.isfinite(v) for v in fit.coefficients.values()):
+        raise AnalysisError(
+            f"the {model} drift could not be fitted ({fit.n_used} usable frequency samples)",
+            hint="use --drift none on so short a record",
+        )
+    days = np.arange(m.n, dtype=float) * m.tau0 / SECONDS_PER_DAY
+    integral = _drift_integral(model, fit.coefficients, days)
+    # Remove the drift minus its record mean: zero at both ends of the record.
+    correction = (integral - integral[-1] * days / days[-1]) * SECONDS_PER_DAY
+    new = m.replace(phase=m.phase - correction)
+    new.notes.append(f"Removed {fit.description}; the mean frequency offset was kept.")
+    return new, fit
+
+
+def _stretch(m: Measurement) -> np.ndarray:
+    """Indices of the finite phase samples of the longest segment."""
+    finite = np.isfinite(m.phase)
+    seg = m.segments if m.segments is not None else np.zeros(m.n, dtype=np.int64)
+    counts = np.bincount(seg[finite] - seg[0])
+    label = int(np.argmax(counts)) + int(seg[0])
+    return np.flatnonzero(finite & (seg == label))
+
+
+def three_point_drift(measurement: Measurement) -> DriftFit:
+    """Linear frequency drift from three phase samples.
+
+    Uses the first, middle and last finite phase samples of the longest
+    unbroken stretch: drift = 2 x (second divided difference of the phase),
+    which for equally spaced points is ``4 (x_end - 2 x_mid + x_start) / T^2``
+    [1]_. Exact on a noiseless quadratic phase; no standard error is given
+    (it depends on the noise type).
+    """
+    m = check_measurement(measurement, "three_point_drift")
+    idx = _stretch(m)
+    if idx.size < 3:
+        raise AnalysisError(
+            f"three-point drift needs 3 phase samples in one unbroken stretch, got {idx.size}"
+        )
+    i0, i2 = int(idx[0]), int(idx[-1])
+    i1 = int(idx[1:-1][np.argmin(np.abs(idx[1:-1] - 0.5 * (i0 + i2)))])
+    t0, t1, t2 = (np.array([i0, i1, i2], dtype=float) * m.tau0).tolist()
+    x0, x1, x2 = m.phase[[i0, i1, i2]].tolist()
+    slope01 = (x1 - x0) / (t1 - t0)
+    slope12 = (x2 - x1) / (t2 - t1)
+    rate = 2.0 * (slope12 - slope01) / (t2 - t0)  # per second
+    offset = slope01 - rate * 0.5 * (t0 + t1) + m.frequency_offset
+    return _phase_estimate(m, "three-point estimate from phase", rate, offset)
+
+
+def mean_second_difference_drift(measurement: Measurement) -> DriftFit:
+    """Linear frequency drift from the mean second difference of the phase.
+
+    drift = mean(x[i+2] - 2 x[i+1] + x[i]) / tau0^2 over the second
+    differences that touch no gap [1]_. Exact on a noiseless quadratic phase;
+    efficient for random-walk FM. No standard error is given (the second
+    differences are correlated in a way that depends on the noise type).
+    """
+    m = check_measurement(measurement, "mean_second_difference_drift")
+    y = centred_frequency(m)
+    d2 = np.diff(y)
+    good = np.isfinite(d2)
+    if not good.any():
+        raise AnalysisError("mean second difference drift needs 3 phase samples without a gap")
+    rate = float(np.mean(d2[good])) / m.tau0  # per second
+    t, _ = _times(m)
+    yg = np.isfinite(y)
+    offset = float(np.mean(y[yg]) - rate * np.mean(t[yg])) + m.frequency_offset
+    return _phase_estimate(m, "mean second difference of phase", rate, offset)
+
+
+def _phase_estimate(m: Measurement, method: str, rate: float, offset: float) -> DriftFit:
+    per_day = rate * SECONDS_PER_DAY
+    coef = {"offset": offset, "drift_per_day": per_day}
+    errors = {"offset": math.nan, "drift_per_day": math.nan}
+    return _finish(m, "linear", method, coef, errors, per_day, math.nan, centred_frequency(m))

@@ -1,0 +1,318 @@
+"""Outlier screening of fractional frequency with the median-absolute-deviation rule.
+
+The rule [1]_: with the robust sigma ``s = median(|r - median(r)|) / 0.6745``,
+a sample whose residual satisfies ``|r - median(r)| > k s`` is an outlier
+(k = 5 by default) and becomes a gap.
+
+Which residuals. The rule is applied to frequency residuals, not to the raw
+frequency [1]_: first the chosen drift model is fitted and subtracted, then
+each sample is compared with the median of its ``window - 1`` nearest
+neighbours (three on each side by default), itself left out [2]_. A global fit
+alone leaves the slow wander of flicker and random-walk FM, whose excursions
+would be taken for outliers; the local median follows that wander, while one
+glitch, two opposite samples (a phase glitch) or two alike cannot move the
+median of six neighbours. Leaving the sample out of its own median keeps the
+residuals' tails close to Gaussian, so the 5-sigma rule does not flag ordinary
+noise; the residuals are stationary for all the power-law noises, so one
+robust sigma serves the whole record.
+
+What is removed.
+
+* Frequency data: each flagged frequency sample becomes a gap (the record is
+  rebuilt with :meth:`Measurement.from_frequency`, so the phase after it is a
+  new segment).
+* Phase data: a run of adjacent flagged frequency samples touches the phase
+  samples at its ends and inside it. The phase samples inside the run are bad
+  readings and are set missing (NaN): a single glitch in phase shows as two
+  adjacent, opposite frequency outliers, and setting that one phase sample
+  missing removes both without breaking the record, so statistics spanning it
+  keep their terms. When the run also changes the phase for good (an isolated
+  flagged sample, or a run whose sum is itself an outlier) the phase has
+  stepped: the record is split there (a segment break), which removes exactly
+  the offending frequency sample(s) and nothing more.
+
+References
+----------
+.. [1] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST Special
+   Publication 1065 (2008), data preprocessing: outlier recognition with the
+   median absolute deviation; remove drift before screening.
+.. [2] J. W. Tukey, *Exploratory Data Analysis*, Addison-Wesley (1977):
+   running medians as resistant smoothers.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from ..errors import StabilityWarning
+from ..measurement import Measurement
+from ._common import (
+    carry_meta,
+    centred_frequency,
+    check_measurement,
+    check_threshold,
+    check_window,
+    line_of,
+    local_residuals,
+    robust_spread,
+)
+from .drift import check_drift_model, fit_drift
+
+__all__ = ["Outlier", "OutlierReport", "screen_outliers"]
+
+
+def _plain(value: float) -> float | None:
+    return float(value) if math.isfinite(value) else None
+
+
+@dataclass(frozen=True)
+class Outlier:
+    """One source sample taken out by the screening.
+
+    Attributes
+    ----------
+    index
+        Index of the source sample: frequency sample for frequency data,
+        phase sample for phase data.
+    line
+        Its source line, when the measurement knows it.
+    value
+        The source value as held by the measurement: fractional frequency for
+        frequency data, phase in seconds (relative to the first sample) for
+        phase data.
+    frequency
+        The flagged fractional frequency (for a phase sample, the adjacent
+        one with the larger residual).
+    sigmas
+        Its residual in robust sigmas.
+    action
+        ``"removed"`` (frequency sample made a gap), ``"set missing"`` (phase
+        sample made NaN) or ``"record split"`` (segment break before this
+        phase sample).
+    """
+
+    index: int
+    line: int | None
+    value: float
+    frequency: float
+    sigmas: float
+    action: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "index": int(self.index),
+            "line": self.line,
+            "value": _plain(self.value),
+            "frequency": _plain(self.frequency),
+            "sigmas": _plain(self.sigmas),
+            "action": self.action,
+        }
+
+
+@dataclass(frozen=True)
+class OutlierReport:
+    """What the outlier screening did.
+
+    Attributes
+    ----------
+    threshold
+        Threshold in robust sigmas (None: screening off).
+    sigma
+        Robust sigma of the frequency residuals (fractional frequency).
+    centre
+        Median of the residuals.
+    window
+        Local-median window (samples, the screened one in the middle).
+    drift
+        Drift model removed before screening.
+    screened
+        Frequency samples screened.
+    samples
+        The samples taken out, in index order.
+    """
+
+    threshold: float | None
+    sigma: float
+    centre: float
+    window: int
+    drift: str
+    screened: int
+    samples: list[Outlier] = field(default_factory=list)
+
+    @property
+    def count(self) -> int:
+        """Number of samples taken out."""
+        return len(self.samples)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "threshold": self.threshold,
+            "sigma": _plain(self.sigma),
+            "centre": _plain(self.centre),
+            "window": self.window,
+            "drift": self.drift,
+            "screened": int(self.screened),
+            "count": self.count,
+            "samples": [s.to_dict() for s in self.samples],
+        }
+
+
+def _validate_screen_args(
+    measurement: Any, threshold: Any, drift: Any, window: Any
+) -> tuple[Measurement, float | None, str, int]:
+    m = check_measurement(measurement, "screen_outliers")
+    k = check_threshold(threshold, "threshold", allow_off=True)
+    return m, k, check_drift_model(drift, "drift"), check_window(window)
+
+
+def screen_outliers(
+    measurement: Measurement,
+    *,
+    threshold: float | str | None = 5.0,
+    drift: str = "linear",
+    window: int = 7,
+) -> tuple[Measurement, OutlierReport]:
+    """Find frequency outliers with the MAD rule and turn them into gaps.
+
+    Parameters
+    ----------
+    measurement
+        The data.
+    threshold
+        Robust sigmas beyond which a residual is an outlier (default 5);
+        None or ``"off"`` screens nothing.
+    drift
+        Drift model subtracted before screening (the data keep their drift).
+    window
+        Local-median window in samples, the sample itself included (odd, >= 3).
+
+    Returns
+    -------
+    (Measurement, OutlierReport)
+        The screened measurement (with a note) and what was removed.
+    """
+    m, k, drift, window = _validate_screen_args(measurement, threshold, drift, window)
+    if k is None:
+        new = m.replace()
+        new.notes.append("Outlier screening was off.")
+        return new, OutlierReport(None, math.nan, math.nan, window, drift, 0)
+    y = centred_frequency(m)
+    fit = fit_drift(m, drift)
+    resid = local_residuals(y + m.frequency_offset - fit.y_model, window)
+    centre, sigma = robust_spread(resid)
+    screened = int(np.isfinite(resid).sum())
+    if not (sigma > 0):
+        warnings.warn(
+            "outlier screening skipped: the robust spread of the frequency residuals is zero "
+            "(quantised or constant data)",
+            StabilityWarning,
+            stacklevel=2,
+        )
+        new = m.replace()
+        new.notes.append(
+            "Outlier screening was skipped: the robust spread of the frequency is zero."
+        )
+        return new, OutlierReport(k, sigma, centre, window, drift, screened)
+    dev = resid - centre
+    with np.errstate(invalid="ignore"):
+        flagged = np.abs(dev) > k * sigma
+    if m.kind == "frequency":
+        new, samples = _remove_frequency(m, y, flagged, dev / sigma)
+    else:
+        new, samples = _remove_phase(m, y, flagged, dev, sigma, k)
+    report = OutlierReport(k, sigma, centre, window, drift, screened, samples)
+    if samples:
+        lines = [s.line for s in samples if s.line is not None]
+        word = "line" if len(lines) == 1 else "lines"
+        where = f" ({word} {', '.join(map(str, lines[:10]))}{' ...' if len(lines) > 10 else ''})"
+        new.notes.append(
+            f"Outlier screening (median absolute deviation, {k:g} robust sigmas of "
+            f"{sigma:.3g} after {drift} drift removal) took out {len(samples)} "
+            f"sample{'s' if len(samples) != 1 else ''}{where if lines else ''}."
+        )
+    else:
+        new.notes.append(
+            f"Outlier screening ({k:g} robust sigmas of {sigma:.3g}) found no outlier."
+        )
+    return new, report
+
+
+def _remove_frequency(
+    m: Measurement, y: np.ndarray, flagged: np.ndarray, z: np.ndarray
+) -> tuple[Measurement, list[Outlier]]:
+    idx = np.flatnonzero(flagged)
+    if idx.size == 0:
+        return m.replace(), []
+    full = y + m.frequency_offset
+    samples = [
+        Outlier(
+            int(i), line_of(m, int(i)), float(full[i]), float(full[i]), abs(float(z[i])), "removed"
+        )
+        for i in idx.tolist()
+    ]
+    cleaned = full.copy()
+    cleaned[idx] = np.nan
+    new = Measurement.from_frequency(cleaned, m.tau0, lines=m.lines, **carry_meta(m))
+    return new, samples
+
+
+def _remove_phase(
+    m: Measurement,
+    y: np.ndarray,
+    flagged: np.ndarray,
+    dev: np.ndarray,
+    sigma: float,
+    k: float,
+) -> tuple[Measurement, list[Outlier]]:
+    if not flagged.any():
+        return m.replace(), []
+    n = m.n
+    full = y + m.frequency_offset
+    absdev = np.abs(np.nan_to_num(dev))
+    # Runs of adjacent flagged frequency samples: [start, end) in frequency index.
+    edges = np.diff(np.concatenate([[0], flagged.astype(np.int8), [0]]))
+    starts = np.flatnonzero(edges == 1)
+    ends = np.flatnonzero(edges == -1)
+    lengths = ends - starts
+    # Phase samples inside a run (both neighbouring frequencies flagged) are bad readings.
+    inner = np.zeros(n, dtype=bool)
+    inner[1:-1] = flagged[:-1] & flagged[1:]
+    # A run whose summed residual is itself an outlier changed the phase for good: split.
+    csum = np.concatenate([[0.0], np.cumsum(np.nan_to_num(dev))])
+    net = np.abs(csum[ends] - csum[starts]) / np.sqrt(lengths)
+    split = (lengths == 1) | (net > k * sigma)
+    samples: list[Outlier] = []
+    for i in np.flatnonzero(inner):
+        j = i - 1 + int(absdev[i] > absdev[i - 1])
+        samples.append(
+            Outlier(
+                int(i),
+                line_of(m, int(i)),
+                float(m.phase[i]),
+                float(full[j]),
+                float(absdev[j] / sigma),
+                "set missing",
+            )
+        )
+    for s, e, size in zip(starts[split], ends[split], net[split], strict=True):
+        samples.append(
+            Outlier(
+                int(e),
+                line_of(m, int(e)),
+                float(m.phase[e]),
+                float(np.mean(full[s:e])),
+                float(size / sigma),
+                "record split",
+            )
+        )
+    samples.sort(key=lambda o: (o.index, o.action))
+    phase = m.phase.copy()
+    phase[inner] = np.nan
+    segments = np.zeros(n, dtype=np.int64) if m.segments is None else m.segments.copy()
+    segments += np.cumsum(np.bincount(ends[split], minlength=n)[:n])
+    return m.replace(phase=phase, segments=segments), samples
