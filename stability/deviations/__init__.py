@@ -2,9 +2,11 @@
 
 from .allan import adev, mdev, oadev, tdev
 from .hadamard import hdev, ohdev
+from .parabolic import pdev
 from .registry import STATISTICS, Statistic, get_statistic, register, statistic_names
+from .theo import theo1, theobr, theoh
 from .time_error import mtie, mtie_many, tie_rms
-from .total import totdev
+from .total import htot, mtot, totdev, ttot
 
 __all__ = [
     "adev",
@@ -14,6 +16,13 @@ __all__ = [
     "hdev",
     "ohdev",
     "totdev",
+    "mtot",
+    "ttot",
+    "htot",
+    "theo1",
+    "theobr",
+    "theoh",
+    "pdev",
     "mtie",
     "mtie_many",
     "tie_rms",

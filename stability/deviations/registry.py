@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from . import allan, hadamard, time_error, total
+from . import allan, hadamard, parabolic, theo, time_error, total
 
 __all__ = ["Statistic", "STATISTICS", "get_statistic", "register", "statistic_names"]
 
@@ -119,3 +119,19 @@ register(Statistic("mtie", "maximum time interval error", time_error.mtie, 2,
                    lambda n: n - 1, "time_error", unit="s", multi=time_error.mtie_many))
 register(Statistic("tie_rms", "TIE rms", time_error.tie_rms, 2, lambda n: n - 1,
                    "time_error", unit="s"))
+register(Statistic("mtot", "modified total deviation", total.mtot, 3, lambda n: n // 3,
+                   "total_modified"))
+register(Statistic("ttot", "time total deviation", total.ttot, 3, lambda n: n // 3,
+                   "total_modified", unit="s"))
+register(Statistic("htot", "Hadamard total deviation", total.htot, 4, lambda n: (n - 1) // 3,
+                   "hadamard_total"))
+register(Statistic("theo1", "Theo1 deviation", theo.theo1, 3, lambda n: n - 1, "theo",
+                   tau_factor=0.75, m_step=2))
+register(Statistic("theobr", "bias-removed Theo1 deviation", theo.theobr, 90, lambda n: n - 1,
+                   "theo", tau_factor=0.75, m_step=2))
+register(Statistic("theoh",
+                   "hybrid Theo deviation (overlapping Allan deviation up to 10% of the record, "
+                   "bias-removed Theo1 beyond)",
+                   theo.theoh, 90, lambda n: n - 1, "theo", tau_factor=0.75, m_step=2))
+register(Statistic("pdev", "parabolic deviation", parabolic.pdev, 3, lambda n: (n - 1) // 2,
+                   "parabolic"))

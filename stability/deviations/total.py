@@ -1,8 +1,29 @@
-"""Total deviation (TOTDEV).
+"""Total deviation (TOTDEV) and the modified, time and Hadamard total deviations.
 
-The phase record is extended at both ends by odd reflection, so that every
-tau up to half the record uses N - 2 second differences; this improves the
-confidence at long tau over the overlapping Allan deviation.
+TOTDEV: the phase record is extended at both ends by odd reflection, so that
+every tau up to half the record uses N - 2 second differences; this improves
+the confidence at long tau over the overlapping Allan deviation.
+
+MTOT, TTOT and HTOT work on every subsequence of 3m samples (phase for MTOT
+and TTOT, fractional frequency for HTOT): the linear trend found by the
+half-average method is removed, the subsequence is extended to 9m samples by
+uninverted (even) reflection at both ends, and the squared second differences
+of m-sample averages are averaged over the 6m positions of the extended
+sequence; those averages are then averaged over the subsequences
+(SP 1065 eqs. 26-29).
+
+Fast evaluation. The even reflection of a 3m-sample subsequence u0 is periodic
+with period 6m, so the 6m second differences form one full period of a
+circular filter output, and their sum of squares is a quadratic form
+v0' K v0 in the first differences v0 = diff(u0) whose matrix is a Toeplitz
+part plus a Hankel part: K(a, b) = 2 G(a - b) - 2 Gp(a + b + 2), with G the
+autocorrelation of the running sum of the filter and Gp its 6m-periodic
+continuation. Summed over all subsequences, the Toeplitz and Hankel sums
+reduce to the lagged products of the whole record (one FFT) plus corrections
+from the first and last 3m samples, and the half-average trend enters through
+two sliding correlations. Each tau costs O(N log N) instead of the O(N m) of
+the definition, and working on first differences keeps the rounding error
+small for every power-law noise.
 
 References
 ----------
@@ -11,6 +32,14 @@ References
 2. W. J. Riley, NIST SP 1065 (2008), section 5.2.11, eq. 25:
    x*_{1-j} = 2x_1 - x_{1+j},  x*_{N+j} = 2x_N - x_{N-j},
    TOTVAR = sum_{i=2}^{N-1} (x*_{i-m} - 2x*_i + x*_{i+m})^2 / (2 tau^2 (N - 2)).
+3. D. A. Howe, F. Vernotte, "Generalization of the total variance approach to
+   the modified Allan variance", Proc. 31st PTTI Meeting (1999) 267-276 (MTOT).
+4. D. A. Howe, R. L. Beard, C. A. Greenhall, F. Vernotte, W. J. Riley,
+   T. K. Peppler, "Enhancements to GPS operations and clock evaluations using a
+   total Hadamard deviation", IEEE Trans. UFFC 52 (2005) 1253-1261 (HTOT).
+5. W. J. Riley, NIST SP 1065 (2008), sections 5.2.12 (MTOT, eq. 26), 5.2.13
+   (TTOT, eq. 28: TTOT = tau MTOT / sqrt(3)) and 5.2.14 (HTOT, eq. 29; the
+   overlapping Hadamard deviation is used at m = 1).
 """
 
 from __future__ import annotations
@@ -18,10 +47,13 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy import fft as _fft
+from scipy import signal as _signal
 
 from ._kernels import comb_sum_squares, is_unbroken
+from .hadamard import ohdev
 
-__all__ = ["totdev"]
+__all__ = ["totdev", "mtot", "ttot", "htot"]
 
 
 def _edge_terms(x: np.ndarray, seg: np.ndarray | None, m: int) -> np.ndarray:
@@ -54,12 +86,237 @@ def totdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) ->
         total += float(np.dot(edges, edges))
         used = n - 2
     else:
-        terms = x[2 * m:] - 2.0 * x[m:-m] + x[: n - 2 * m]
+        terms = x[2 * m :] - 2.0 * x[m:-m] + x[: n - 2 * m]
         if seg is not None:
-            terms[seg[: n - 2 * m] != seg[2 * m:]] = np.nan
+            terms[seg[: n - 2 * m] != seg[2 * m :]] = np.nan
         terms = np.concatenate((terms, edges))
         good = terms[~np.isnan(terms)]
         total, used = float(np.dot(good, good)), int(good.size)
     if used == 0:
         return math.nan, 0
     return math.sqrt(total / (2.0 * tau * tau * used)), used
+
+
+# --------------------------------------------------------------------- MTOT/HTOT
+#: Below this many lags the lagged products are plain dot products (exact);
+#: above it one FFT gives them all.
+_DIRECT_LAGS = 8
+
+
+def _lag_products(v: np.ndarray, lags: int) -> np.ndarray:
+    """r[L] = sum_t v[t] v[t+L] for L = 0 .. lags-1."""
+    n = v.size
+    lags = min(lags, n)
+    if lags <= _DIRECT_LAGS:
+        return np.array([float(np.dot(v[: n - k], v[k:])) for k in range(lags)])
+    size = _fft.next_fast_len(n + lags, real=True)
+    spec = _fft.rfft(v, size)
+    return _fft.irfft(spec.real**2 + spec.imag**2, size)[:lags]
+
+
+def _cross_lags(a: np.ndarray, b: np.ndarray, lags: int) -> np.ndarray:
+    """r[L] = sum_t a[t] b[t+L] for L = 0 .. lags-1 (a and b of one length)."""
+    if a.size == 0 or lags <= 0:
+        return np.zeros(max(lags, 0))
+    full = _signal.correlate(b, a, mode="full")
+    out = full[a.size - 1 : a.size - 1 + lags]
+    if out.size < lags:
+        out = np.concatenate((out, np.zeros(lags - out.size)))
+    return out
+
+
+def _sliding_dot(v: np.ndarray, kernel: np.ndarray) -> np.ndarray:
+    """sum_a kernel[a] v[s + a] for every s (valid positions)."""
+    return _signal.oaconvolve(v, kernel[::-1], mode="valid")
+
+
+def _stride2_cumsum(h: np.ndarray, top: int) -> np.ndarray:
+    """c[k] = sum of h[s] over s <= k with s = k (mod 2), k = 0 .. top (h is zero past its end)."""
+    hh = np.zeros(top + 1)
+    hh[: min(h.size, top + 1)] = h[: top + 1]
+    out = np.empty(top + 1)
+    out[0::2] = np.cumsum(hh[0::2])
+    out[1::2] = np.cumsum(hh[1::2])
+    return out
+
+
+class _ReflectedForm:
+    """The quadratic form of the 6m reflected second differences, for one m.
+
+    For a subsequence of 3m samples with first differences v0 (3m - 1 values),
+    sum_j z_j^2 = v0' K v0 with K(a, b) = T(|a - b|) + H(a + b), where z_j are
+    the second differences of m-sample sums over the 9m-sample even
+    reflection. ``slope`` holds the weights of the half-average slope on the
+    first differences of the raw subsequence.
+    """
+
+    def __init__(self, m: int) -> None:
+        n = 3 * m
+        self.m = m
+        self.width = n - 1  # n' = 3m - 1 first differences per subsequence
+        h = np.concatenate((np.ones(m), np.full(m, -2.0), np.ones(m)))
+        g = np.cumsum(h)[: n - 1]
+        if g.size <= _DIRECT_LAGS:
+            gam = np.array([float(np.dot(g[: g.size - k], g[k:])) for k in range(g.size)])
+        else:
+            gam = _lag_products(g, g.size)
+            if float(np.dot(g, g)) < 2.0**52:
+                gam = np.rint(gam)  # the exact values are integers
+        # gam[d], d = 0 .. 3m-2: autocorrelation of the running sum of the filter.
+        self.toe = 2.0 * gam
+        sig = np.arange(2 * self.width - 1)  # a + b = 0 .. 2n'-2
+        d = sig + 2
+        per = np.zeros(sig.size)
+        low = d <= n - 2
+        per[low] = gam[d[low]]
+        high = d >= n + 2
+        per[high] = gam[2 * n - d[high]]
+        self.han = -2.0 * per
+        # Half-average slope on the raw subsequence, as weights on its first differences.
+        k1, k2 = n // 2, (n + 1) // 2
+        a = np.arange(self.width)
+        above2 = np.clip(n - np.maximum(k2, a + 1), 0, None)
+        above1 = np.clip(k1 - np.maximum(0, a + 1), 0, None)
+        self.slope = (above2 - above1) / (k1 * float(k2))
+        # w = K 1 and gamma = 1' K 1 (for the slope terms).
+        ct = np.cumsum(self.toe)
+        idx = np.arange(self.width)
+        row_t = ct[idx] + ct[self.width - 1 - idx] - self.toe[0]
+        ch = np.concatenate(([0.0], np.cumsum(self.han)))
+        row_h = ch[idx + self.width] - ch[idx]
+        self.row = row_t + row_h
+        self.total = float(np.sum(self.row))
+
+    def sliding_sum(self, v: np.ndarray) -> float:
+        """Sum over every subsequence s of v0_s' K v0_s, for one unbroken run of differences."""
+        w = self.width
+        count = v.size - w + 1  # subsequences
+        if count <= 0:
+            return 0.0
+        v = v - float(np.mean(v))  # the form is blind to a constant frequency offset
+        r = _lag_products(v, w)
+        mult = np.full(w, 2.0)
+        mult[0] = 1.0
+        top = 2 * w - 2
+        h2 = _stride2_cumsum(self.han, top)
+
+        def h2_at(k: np.ndarray) -> np.ndarray:
+            out = np.zeros(k.shape)
+            ok = k >= 0
+            out[ok] = h2[np.minimum(k[ok], top - ((top - k[ok]) % 2 != 0))]
+            return out
+
+        lag = np.arange(w)
+        head = v[: w - 1]
+        tail = v[count:]
+        r_head = _cross_lags(head, head, w)
+        r_tail = _cross_lags(tail, tail, w)
+        # Toeplitz part: interior count (n' - L), then the first and last 3m-1 samples.
+        toe = float(np.sum(mult * self.toe * (w - lag) * r))
+        pos = np.arange(w - 1, dtype=float)
+        toe += float(np.sum(mult * self.toe * _cross_lags(head, head * (pos - w + 1), w)))
+        toe += float(np.sum(mult * self.toe * _cross_lags(tail * (-1.0 - pos), tail, w)))
+        # Hankel part: interior weight depends on the lag only, then corrections.
+        upper = h2_at(2 * w - 2 - lag)
+        lower = h2_at(lag - 2)
+        han = float(np.sum(mult * r * (upper - lower)))
+        sig = np.arange(2 * w - 3)
+        h2s = h2_at(sig)
+        if head.size:
+            han += float(np.dot(h2s, _signal.fftconvolve(head, head)))
+            han -= float(np.sum(mult * upper * r_head))
+            han -= float(np.dot(h2s, _signal.fftconvolve(tail, tail)))
+            han += float(np.sum(mult * lower * r_tail))
+        # Trend removal: v0_s = v_s - b_s, b_s = slope . v_s.
+        b = _sliding_dot(v, self.slope)
+        wv = _sliding_dot(v, self.row)
+        quad = toe + han - 2.0 * float(np.dot(b, wv)) + self.total * float(np.dot(b, b))
+        return max(quad, 0.0)
+
+
+def _runs(valid: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Starts and stops of the maximal runs of True."""
+    edges = np.diff(np.concatenate(([0], valid.astype(np.int8), [0])))
+    return np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+
+
+def _split_valid(x: np.ndarray, seg: np.ndarray | None) -> list[tuple[int, int]]:
+    """Maximal stretches [a, b) of finite phase inside one segment."""
+    ok = np.isfinite(x)
+    starts, stops = _runs(ok)
+    if seg is None:
+        return list(zip(starts.tolist(), stops.tolist(), strict=True))
+    cut = np.flatnonzero(np.diff(seg) != 0) + 1  # first sample of each new segment
+    bounds = np.union1d(np.union1d(starts, stops), cut)
+    out = []
+    for a, b in zip(bounds[:-1], bounds[1:], strict=True):
+        if ok[a]:
+            out.append((int(a), int(b)))
+    return out
+
+
+def _stretch_sum(u: np.ndarray, stretches: list[tuple[int, int]], m: int) -> tuple[float, int]:
+    n = 3 * m
+    usable = [(a, b) for a, b in stretches if b - a >= n]
+    if not usable:
+        return 0.0, 0
+    form = _ReflectedForm(m)
+    total, count = 0.0, 0
+    for a, b in usable:  # loop over unbroken stretches
+        total += form.sliding_sum(np.diff(u[a:b]))
+        count += b - a - n + 1
+    return total, count
+
+
+def mtot(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
+    """Modified total deviation (Howe & Vernotte 1999; SP 1065 eq. 26), 1 <= m <= N/3.
+
+    Mod Totvar = 1/(2 m^2 tau^2 (N - 3m + 1)) sum_{n=1}^{N-3m+1} (1/(6m))
+    sum_{i=n-3m}^{n+3m-1} [sum_{j=i}^{i+m-1} (x#_{j+2m} - 2x#_{j+m} + x#_j)]^2,
+    x# the half-average-detrended, even-reflected 9m-sample extension of each
+    3m-sample subsequence. Returns (deviation, subsequences used); no bias
+    correction is applied.
+    """
+    tau = m * tau0
+    if m < 1 or 3 * m > x.size:
+        return math.nan, 0
+    if is_unbroken(x, seg):
+        total, count = _stretch_sum(x, [(0, x.size)], m)
+    else:
+        total, count = _stretch_sum(x, _split_valid(x, seg), m)
+    if count == 0:
+        return math.nan, 0
+    var = total / (2.0 * m * m * tau * tau * 6.0 * m * count)
+    return math.sqrt(var), count
+
+
+def ttot(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
+    """Time total deviation, TTOT = tau * MTOT / sqrt(3) (SP 1065 eq. 28), in seconds."""
+    dev, n = mtot(x, tau0, m, seg)
+    return m * tau0 * dev / math.sqrt(3.0), n
+
+
+def htot(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
+    """Hadamard total deviation (Howe et al. 2005; SP 1065 eq. 29), 1 <= m <= (N-1)/3.
+
+    On the fractional frequency y (N - 1 values): Htotvar = 1/(6 (M - 3m + 1))
+    sum_n (1/(6m)) sum_i [m-average second differences of the detrended,
+    even-reflected 9m-sample extension]^2. At m = 1 the overlapping Hadamard
+    deviation is returned, as SP 1065 recommends.
+    """
+    if m < 1 or 3 * m > x.size - 1:
+        return math.nan, 0
+    if m == 1:
+        return ohdev(x, tau0, 1, seg)
+    y = np.diff(x) / tau0
+    if is_unbroken(x, seg):
+        stretches = [(0, y.size)]
+    else:
+        # y[k] is usable when both phase samples are finite and in one segment;
+        # a phase stretch [a, b) gives the frequency stretch [a, b - 1).
+        stretches = [(a, b - 1) for a, b in _split_valid(x, seg) if b - a >= 2]
+    total, count = _stretch_sum(y, stretches, m)
+    if count == 0:
+        return math.nan, 0
+    var = total / (6.0 * m * m * 6.0 * m * count)
+    return math.sqrt(var), count
