@@ -11,12 +11,20 @@ of deviations with noise identification and confidence intervals::
 
 from importlib.metadata import PackageNotFoundError, version
 
+from . import simulate
 from .analysis import analyze, estimate
 from .deviations import STATISTICS, get_statistic, statistic_names
+from .dynamic import dynamic_stability
 from .errors import AnalysisError, InputError, SpecError, StabilityError, StabilityWarning
+from .hat import separate
+from .ingest import LogReport, inspect_log, read_log
 from .measurement import Measurement, Provenance
+from .noise import identify
+from .phase_noise import phase_noise_to_stability
+from .prepare import PreparationReport, prepare
 from .table import COLUMNS, ConfidenceInterval, StabilityTable, StatisticResult
 from .taus import tau_grid
+from .workflow import AnalysisRun, run_analysis, write_analysis
 
 try:
     __version__ = version("stability")
@@ -25,8 +33,21 @@ except PackageNotFoundError:  # running from a source tree that is not installed
 
 __all__ = [
     "__version__",
+    "read_log",
+    "inspect_log",
+    "LogReport",
+    "prepare",
+    "PreparationReport",
     "analyze",
     "estimate",
+    "run_analysis",
+    "write_analysis",
+    "AnalysisRun",
+    "identify",
+    "separate",
+    "phase_noise_to_stability",
+    "dynamic_stability",
+    "simulate",
     "Measurement",
     "Provenance",
     "StabilityTable",

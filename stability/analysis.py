@@ -27,7 +27,15 @@ DEFAULT_STATS = ("oadev", "mdev")
 
 
 def _stat_list(stats: str | Sequence[str]) -> list[Statistic]:
-    names = [s.strip() for s in stats.split(",")] if isinstance(stats, str) else list(stats)
+    if isinstance(stats, str):
+        names = [s.strip() for s in stats.split(",")]
+    elif isinstance(stats, Sequence) and all(isinstance(s, str) for s in stats):
+        names = [s.strip() for s in stats]
+    else:
+        raise InputError(
+            f"stats must be a comma string or a list of statistic names, got {stats!r}",
+            hint="pass stats such as 'oadev,mdev'",
+        )
     names = [n for n in names if n]
     if not names:
         raise InputError("no statistic asked for", hint="pass stats such as 'oadev,mdev'")
@@ -37,6 +45,22 @@ def _stat_list(stats: str | Sequence[str]) -> list[Statistic]:
         if stat not in out:
             out.append(stat)
     return out
+
+
+def _check_taus(taus: Any) -> None:
+    hint = "choose octave, decade, all or a list of taus in seconds"
+    if isinstance(taus, str):
+        if taus.strip().lower() not in GRIDS:
+            raise InputError(f"unknown tau grid {taus!r}", hint=hint)
+        return
+    try:
+        values = [float(t) for t in taus]
+    except (TypeError, ValueError):
+        raise InputError(
+            f"taus must be a grid name or a list of seconds, got {taus!r}", hint=hint
+        ) from None
+    if not values:
+        raise InputError("taus is an empty list", hint=hint)
 
 
 def validate_analysis_args(
@@ -54,15 +78,27 @@ def validate_analysis_args(
         raise InputError(f"confidence must be a number in (0, 1), got {confidence!r}") from None
     if not (0.0 < level < 1.0):
         raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
-    if isinstance(taus, str) and taus.strip().lower() not in GRIDS:
-        raise InputError(
-            f"unknown tau grid {taus!r}", hint="choose octave, decade, all or a list of taus"
-        )
+    _check_taus(taus)
     return _stat_list(stats), level
 
 
-def estimate(measurement: Measurement, stat: Statistic, taus: Any = "octave") -> StatisticResult:
-    """Raw estimates of one statistic over its tau grid (no qualification)."""
+def estimate(
+    measurement: Measurement, stat: Statistic | str, taus: Any = "octave"
+) -> StatisticResult:
+    """Raw estimates of one statistic over its tau grid (no qualification).
+
+    ``stat`` is a registry entry or its identifier.
+    """
+    if not isinstance(measurement, Measurement):
+        raise InputError(
+            f"measurement must be a stability.Measurement, got {type(measurement).__name__}",
+            hint="build one with Measurement.from_phase, Measurement.from_frequency or read_log",
+        )
+    if isinstance(stat, str):
+        stat = get_statistic(stat)
+    elif not isinstance(stat, Statistic):
+        raise InputError(f"stat must be a statistic name, got {stat!r}")
+    _check_taus(taus)
     n = measurement.n
     finite = int(np.isfinite(measurement.phase).sum())
     max_m = stat.allowed_m(n)
@@ -103,6 +139,16 @@ def estimate(measurement: Measurement, stat: Statistic, taus: Any = "octave") ->
         n_terms=used[keep],
         deviation=dev[keep],
     )
+    if stat.name == "theoh":
+        from .deviations.theo import theoh_uses_allan
+
+        allan = [int(m) for m in result.m if theoh_uses_allan(n, tau0, int(m))]
+        if allan:
+            result.notes.append(
+                "theoh: the overlapping Allan deviation at tau = "
+                + ", ".join(f"{0.75 * m * tau0:g}" for m in allan)
+                + " s, TheoBR at the other taus"
+            )
     dropped = ms[~keep]
     if dropped.size:
         result.notes.append(

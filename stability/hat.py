@@ -476,7 +476,10 @@ def _combine(
     pair_cap = np.where(np.isfinite(pair_high), pair_high, np.sqrt(variances))  # (pair, tau)
     member_cap = np.where(members[:, :, None], pair_cap[None, :, :], np.inf)
     cap = member_cap.min(axis=1)
-    high = np.where(ok, np.minimum(high, cap), high)
+    # The cap tightens an interval but never below the estimate itself: an oscillator
+    # estimate above a pair's bound means inconsistent pairs, and hiding that inside
+    # an interval that excludes the estimate would mislead.
+    high = np.where(ok, np.maximum(np.minimum(high, cap), deviation), high)
     below_bound = np.where(np.isfinite(resolution) & (resolution > 0), resolution, cap)
     below_bound = np.minimum(below_bound, cap)
     upper = np.where(ok, np.where(np.isnan(high), cap, high), below_bound)

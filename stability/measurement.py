@@ -92,6 +92,18 @@ def _check_tau0(tau0: Any) -> float:
     return value
 
 
+_META = ("nominal", "start", "lines", "provenance", "notes")
+
+
+def _check_meta(meta: dict[str, Any]) -> None:
+    unknown = sorted(set(meta) - set(_META))
+    if unknown:
+        raise InputError(
+            f"unknown measurement attribute(s) {', '.join(unknown)}",
+            hint=f"the constructors take {', '.join(_META)}",
+        )
+
+
 @dataclass(eq=False)
 class Measurement:
     """Phase data in seconds on a uniform grid, with provenance.
@@ -184,6 +196,7 @@ class Measurement:
         ``meta`` sets the other attributes (nominal, start, provenance, notes,
         lines).
         """
+        _check_meta(meta)
         arr = _as_float_array(x, "phase")
         if arr.size < 2:
             raise InputError("phase needs at least 2 samples")
@@ -197,6 +210,7 @@ class Measurement:
         the mean goes to ``frequency_offset``. A NaN in ``y`` starts a new
         segment: the terms spanning it are dropped, those on either side kept.
         """
+        _check_meta(meta)
         arr = _as_float_array(y, "frequency")
         tau0 = _check_tau0(tau0)
         good = np.isfinite(arr)

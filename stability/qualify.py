@@ -70,6 +70,16 @@ def _never_whiter(result: StatisticResult) -> None:
         )
 
 
+def _row_edf(name: str, alpha: int | None, m: int, n: int, tau0: float) -> float:
+    """EDF of one row; ThêoH rows computed as OADEV (at 0.75 m) take OADEV's model."""
+    if name == "theoh":
+        from .deviations.theo import theoh_uses_allan
+
+        if theoh_uses_allan(n, tau0, m):
+            return edf_for("oadev", alpha, (3 * m) // 4, n)
+    return edf_for(name, alpha, m, n)
+
+
 def qualify_result(
     result: StatisticResult, measurement: Measurement, confidence: float
 ) -> StatisticResult:
@@ -92,7 +102,7 @@ def qualify_result(
     factors = np.ones(len(result))
     for k, m in enumerate(result.m):
         a = None if math.isnan(result.alpha[k]) else int(result.alpha[k])
-        edf[k] = edf_for(stat.name, a, int(m), n_eff)
+        edf[k] = _row_edf(stat.name, a, int(m), n_eff, measurement.tau0)
         factors[k] = bias_factor(stat.name, a, int(m), n_eff)
     result.edf = edf
     if np.any(factors != 1.0):

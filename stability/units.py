@@ -70,10 +70,12 @@ _NUMBER = r"[-+]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][-+]?\d+)?"
 _QUANTITY = re.compile(rf"^\s*({_NUMBER})\s*([^\s\d].*?)?\s*$")
 
 
-def _split(text: str, what: str) -> tuple[float, str]:
+def _split(text: str, what: str, example: str = "1s") -> tuple[float, str]:
     match = _QUANTITY.match(str(text))
     if not match:
-        raise InputError(f"cannot read {what} {text!r}", hint="write a number with a unit, e.g. 1s")
+        raise InputError(
+            f"cannot read {what} {text!r}", hint=f"write a number with a unit, e.g. {example}"
+        )
     number = float(match.group(1).replace(",", "."))
     return number, (match.group(2) or "").strip()
 
@@ -112,7 +114,7 @@ def parse_frequency(text: str | float, what: str = "frequency") -> float:
     if isinstance(text, (int, float)):
         value = float(text)
     else:
-        number, unit = _split(text, what)
+        number, unit = _split(text, what, "10MHz")
         key = unit.lower()
         if unit == "mHz":  # millihertz, the one case where case matters
             factor = 1e-3

@@ -20,6 +20,7 @@ import numpy as np
 
 __all__ = [
     "BLOCK",
+    "dot",
     "is_unbroken",
     "comb_sum_squares",
     "comb_terms",
@@ -29,6 +30,16 @@ __all__ = [
 #: Elements per block: 2**15 float64 values (256 KiB) keep a handful of
 #: buffers inside a typical L2 cache.
 BLOCK = 1 << 15
+
+
+def dot(a: np.ndarray, b: np.ndarray) -> float:
+    """Inner product of two 1-D arrays without BLAS.
+
+    numpy's ``dot`` hands 1-D products to the BLAS library, whose thread pool
+    can stall for milliseconds per call on a busy machine; ``einsum`` runs its
+    own vectorised loop in the calling thread.
+    """
+    return float(np.einsum("i,i->", a, b))
 
 
 def is_unbroken(x: np.ndarray, seg: np.ndarray | None) -> bool:
@@ -87,7 +98,7 @@ def comb_sum_squares(
         hi = min(lo + size, start + count)
         b = buf[: hi - lo]
         _fill(b, x, lo, hi, offsets, coefs, tmp[: hi - lo])
-        total += float(np.dot(b, b))
+        total += dot(b, b)
     return total
 
 
@@ -131,4 +142,4 @@ def window_sums_squares(terms: np.ndarray, width: int) -> tuple[float, int]:
     sums = csum[width:] - csum[:-width]
     ok = (cbad[width:] - cbad[:-width]) == 0
     used = sums[ok]
-    return float(np.dot(used, used)), int(used.size)
+    return dot(used, used), int(used.size)

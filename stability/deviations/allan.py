@@ -20,7 +20,7 @@ import math
 
 import numpy as np
 
-from ._kernels import BLOCK, comb_sum_squares, comb_terms, is_unbroken, window_sums_squares
+from ._kernels import BLOCK, comb_sum_squares, comb_terms, dot, is_unbroken, window_sums_squares
 
 __all__ = ["adev", "oadev", "mdev", "tdev"]
 
@@ -47,7 +47,7 @@ def oadev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> 
         return _finish(comb_sum_squares(x, offsets, _D2, count), count, 2 * tau * tau)
     terms = comb_terms(x, seg, offsets, _D2, count)
     used = terms[~np.isnan(terms)]
-    return _finish(float(np.dot(used, used)), used.size, 2 * tau * tau)
+    return _finish(dot(used, used), used.size, 2 * tau * tau)
 
 
 def adev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
@@ -96,7 +96,7 @@ def mdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
             np.cumsum(b, out=b)
             b += carry
             carry = float(b[-1])
-            total += float(np.dot(b, b))
+            total += dot(b, b)
     return _finish(total, count, scale)
 
 

@@ -18,7 +18,7 @@ import math
 
 import numpy as np
 
-from ._kernels import comb_sum_squares, comb_terms, is_unbroken
+from ._kernels import comb_sum_squares, comb_terms, dot, is_unbroken
 
 __all__ = ["hdev", "ohdev"]
 
@@ -37,7 +37,7 @@ def ohdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> 
     else:
         terms = comb_terms(x, seg, offsets, _D3, count)
         used = terms[~np.isnan(terms)]
-        total, n = float(np.dot(used, used)), int(used.size)
+        total, n = dot(used, used), int(used.size)
     if n == 0:
         return math.nan, 0
     return math.sqrt(total / (6.0 * tau * tau * n)), n

@@ -31,7 +31,7 @@ import math
 import numpy as np
 from scipy import signal as _signal
 
-from ._kernels import is_unbroken
+from ._kernels import dot, is_unbroken
 from .allan import oadev
 
 __all__ = ["pdev"]
@@ -50,7 +50,7 @@ def pdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
     weights = (m - 1) / 2.0 - np.arange(m)
     if is_unbroken(x, seg):
         inner = _signal.oaconvolve(d, weights[::-1], mode="valid")[:count]
-        total, used = float(np.dot(inner, inner)), count
+        total, used = dot(inner, inner), count
     else:
         # Term i touches x_i .. x_{i+2m-1}: usable when all are finite and in one segment.
         bad = ~np.isfinite(x)
@@ -62,7 +62,7 @@ def pdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
             :count
         ]
         good = inner[ok]
-        total, used = float(np.dot(good, good)), int(good.size)
+        total, used = dot(good, good), int(good.size)
     if used == 0:
         return math.nan, 0
     return math.sqrt(72.0 * total / (used * m**4 * tau * tau)), used

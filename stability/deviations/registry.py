@@ -101,37 +101,105 @@ def get_statistic(name: str) -> Statistic:
         ) from None
 
 
-register(Statistic("adev", "Allan deviation", allan.adev, 3, lambda n: (n - 1) // 2,
-                   "allan", overlapping=False))
-register(Statistic("oadev", "overlapping Allan deviation", allan.oadev, 3,
-                   lambda n: (n - 1) // 2, "allan"))
-register(Statistic("mdev", "modified Allan deviation", allan.mdev, 3, lambda n: n // 3,
-                   "modified"))
-register(Statistic("tdev", "time deviation", allan.tdev, 3, lambda n: n // 3, "modified",
-                   unit="s"))
-register(Statistic("hdev", "Hadamard deviation", hadamard.hdev, 4, lambda n: (n - 1) // 3,
-                   "hadamard", overlapping=False))
-register(Statistic("ohdev", "overlapping Hadamard deviation", hadamard.ohdev, 4,
-                   lambda n: (n - 1) // 3, "hadamard"))
-register(Statistic("totdev", "total deviation", total.totdev, 3, lambda n: (n - 1) // 2,
-                   "total"))
-register(Statistic("mtie", "maximum time interval error", time_error.mtie, 2,
-                   lambda n: n - 1, "time_error", unit="s", multi=time_error.mtie_many))
-register(Statistic("tie_rms", "TIE rms", time_error.tie_rms, 2, lambda n: n - 1,
-                   "time_error", unit="s"))
-register(Statistic("mtot", "modified total deviation", total.mtot, 3, lambda n: n // 3,
-                   "total_modified"))
-register(Statistic("ttot", "time total deviation", total.ttot, 3, lambda n: n // 3,
-                   "total_modified", unit="s"))
-register(Statistic("htot", "Hadamard total deviation", total.htot, 4, lambda n: (n - 1) // 3,
-                   "hadamard_total"))
-register(Statistic("theo1", "Theo1 deviation", theo.theo1, 3, lambda n: n - 1, "theo",
-                   tau_factor=0.75, m_step=2))
-register(Statistic("theobr", "bias-removed Theo1 deviation", theo.theobr, 90, lambda n: n - 1,
-                   "theo", tau_factor=0.75, m_step=2))
-register(Statistic("theoh",
-                   "hybrid Theo deviation (overlapping Allan deviation up to 10% of the record, "
-                   "bias-removed Theo1 beyond)",
-                   theo.theoh, 90, lambda n: n - 1, "theo", tau_factor=0.75, m_step=2))
-register(Statistic("pdev", "parabolic deviation", parabolic.pdev, 3, lambda n: (n - 1) // 2,
-                   "parabolic"))
+register(
+    Statistic(
+        "adev", "Allan deviation", allan.adev, 3, lambda n: (n - 1) // 2, "allan", overlapping=False
+    )
+)
+register(
+    Statistic(
+        "oadev", "overlapping Allan deviation", allan.oadev, 3, lambda n: (n - 1) // 2, "allan"
+    )
+)
+register(Statistic("mdev", "modified Allan deviation", allan.mdev, 3, lambda n: n // 3, "modified"))
+register(Statistic("tdev", "time deviation", allan.tdev, 3, lambda n: n // 3, "modified", unit="s"))
+register(
+    Statistic(
+        "hdev",
+        "Hadamard deviation",
+        hadamard.hdev,
+        4,
+        lambda n: (n - 1) // 3,
+        "hadamard",
+        overlapping=False,
+    )
+)
+register(
+    Statistic(
+        "ohdev",
+        "overlapping Hadamard deviation",
+        hadamard.ohdev,
+        4,
+        lambda n: (n - 1) // 3,
+        "hadamard",
+    )
+)
+register(Statistic("totdev", "total deviation", total.totdev, 3, lambda n: (n - 1) // 2, "total"))
+register(
+    Statistic(
+        "mtie",
+        "maximum time interval error",
+        time_error.mtie,
+        2,
+        lambda n: n - 1,
+        "time_error",
+        unit="s",
+        multi=time_error.mtie_many,
+    )
+)
+register(
+    Statistic("tie_rms", "TIE rms", time_error.tie_rms, 2, lambda n: n - 1, "time_error", unit="s")
+)
+register(
+    Statistic("mtot", "modified total deviation", total.mtot, 3, lambda n: n // 3, "total_modified")
+)
+register(
+    Statistic(
+        "ttot", "time total deviation", total.ttot, 3, lambda n: n // 3, "total_modified", unit="s"
+    )
+)
+register(
+    Statistic(
+        "htot", "Hadamard total deviation", total.htot, 4, lambda n: (n - 1) // 3, "hadamard_total"
+    )
+)
+register(
+    Statistic(
+        "theo1",
+        "Theo1 deviation",
+        theo.theo1,
+        3,
+        lambda n: n - 1,
+        "theo",
+        tau_factor=0.75,
+        m_step=2,
+    )
+)
+register(
+    Statistic(
+        "theobr",
+        "bias-removed Theo1 deviation",
+        theo.theobr,
+        90,
+        lambda n: n - 1,
+        "theo",
+        tau_factor=0.75,
+        m_step=2,
+    )
+)
+register(
+    Statistic(
+        "theoh",
+        "hybrid Theo deviation (overlapping Allan deviation up to 10% of the record, "
+        "bias-removed Theo1 beyond)",
+        theo.theoh,
+        90,
+        lambda n: n - 1,
+        "theo",
+        tau_factor=0.75,
+        m_step=2,
+    )
+)
+register(
+    Statistic("pdev", "parabolic deviation", parabolic.pdev, 3, lambda n: (n - 1) // 2, "parabolic")
+)

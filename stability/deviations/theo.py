@@ -38,7 +38,7 @@ import math
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
-from ._kernels import is_unbroken
+from ._kernels import dot, is_unbroken
 from .allan import oadev
 
 __all__ = ["theo1", "theobr", "theoh", "theo1_variance", "theobr_ratio", "theoh_uses_allan"]
@@ -77,7 +77,7 @@ def theo1_variance(
         weight = 1.0 / (h - d)
         if unbroken:
             sq = np.einsum("ij,ij->i", diff, diff)
-            total += float(np.dot(sq, weight))
+            total += dot(sq, weight)
             used += count * d.size
         else:
             good = ~np.isnan(diff)
@@ -86,7 +86,7 @@ def theo1_variance(
                 return math.nan, 0
             diff[~good] = 0.0
             sq = np.einsum("ij,ij->i", diff, diff)
-            total += float(np.dot(sq / kept, weight)) * count
+            total += dot(sq / kept, weight) * count
             used += int(kept.sum())
     return total / (0.75 * count * tau_m * tau_m), used
 

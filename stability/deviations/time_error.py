@@ -25,6 +25,8 @@ from collections.abc import Iterable
 
 import numpy as np
 
+from ._kernels import dot
+
 __all__ = ["mtie", "tie_rms", "mtie_many"]
 
 
@@ -92,4 +94,4 @@ def tie_rms(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -
     good = d[~np.isnan(d)]
     if good.size == 0:
         return math.nan, 0
-    return math.sqrt(float(np.dot(good, good)) / good.size), int(good.size)
+    return math.sqrt(dot(good, good) / good.size), int(good.size)

@@ -50,7 +50,7 @@ import numpy as np
 from scipy import fft as _fft
 from scipy import signal as _signal
 
-from ._kernels import comb_sum_squares, is_unbroken
+from ._kernels import comb_sum_squares, dot, is_unbroken
 from .hadamard import ohdev
 
 __all__ = ["totdev", "mtot", "ttot", "htot"]
@@ -83,7 +83,7 @@ def totdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) ->
     edges = _edge_terms(x, seg, m)
     if is_unbroken(x, seg):
         total = comb_sum_squares(x, (0, m, 2 * m), (1.0, -2.0, 1.0), core)
-        total += float(np.dot(edges, edges))
+        total += dot(edges, edges)
         used = n - 2
     else:
         terms = x[2 * m :] - 2.0 * x[m:-m] + x[: n - 2 * m]
@@ -91,7 +91,7 @@ def totdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) ->
             terms[seg[: n - 2 * m] != seg[2 * m :]] = np.nan
         terms = np.concatenate((terms, edges))
         good = terms[~np.isnan(terms)]
-        total, used = float(np.dot(good, good)), int(good.size)
+        total, used = dot(good, good), int(good.size)
     if used == 0:
         return math.nan, 0
     return math.sqrt(total / (2.0 * tau * tau * used)), used
@@ -108,7 +108,7 @@ def _lag_products(v: np.ndarray, lags: int) -> np.ndarray:
     n = v.size
     lags = min(lags, n)
     if lags <= _DIRECT_LAGS:
-        return np.array([float(np.dot(v[: n - k], v[k:])) for k in range(lags)])
+        return np.array([dot(v[: n - k], v[k:]) for k in range(lags)])
     size = _fft.next_fast_len(n + lags, real=True)
     spec = _fft.rfft(v, size)
     return _fft.irfft(spec.real**2 + spec.imag**2, size)[:lags]
@@ -157,10 +157,10 @@ class _ReflectedForm:
         h = np.concatenate((np.ones(m), np.full(m, -2.0), np.ones(m)))
         g = np.cumsum(h)[: n - 1]
         if g.size <= _DIRECT_LAGS:
-            gam = np.array([float(np.dot(g[: g.size - k], g[k:])) for k in range(g.size)])
+            gam = np.array([dot(g[: g.size - k], g[k:]) for k in range(g.size)])
         else:
             gam = _lag_products(g, g.size)
-            if float(np.dot(g, g)) < 2.0**52:
+            if dot(g, g) < 2.0**52:
                 gam = np.rint(gam)  # the exact values are integers
         # gam[d], d = 0 .. 3m-2: autocorrelation of the running sum of the filter.
         self.toe = 2.0 * gam
@@ -223,14 +223,14 @@ class _ReflectedForm:
         sig = np.arange(2 * w - 3)
         h2s = h2_at(sig)
         if head.size:
-            han += float(np.dot(h2s, _signal.fftconvolve(head, head)))
+            han += dot(h2s, _signal.fftconvolve(head, head))
             han -= float(np.sum(mult * upper * r_head))
-            han -= float(np.dot(h2s, _signal.fftconvolve(tail, tail)))
+            han -= dot(h2s, _signal.fftconvolve(tail, tail))
             han += float(np.sum(mult * lower * r_tail))
         # Trend removal: v0_s = v_s - b_s, b_s = slope . v_s.
         b = _sliding_dot(v, self.slope)
         wv = _sliding_dot(v, self.row)
-        quad = toe + han - 2.0 * float(np.dot(b, wv)) + self.total * float(np.dot(b, b))
+        quad = toe + han - 2.0 * dot(b, wv) + self.total * dot(b, b)
         return max(quad, 0.0)
 
 
