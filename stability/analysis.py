@@ -123,10 +123,11 @@ def estimate(
     x = measurement.phase_with_offset() if stat.family == "time_error" else measurement.phase
     seg = measurement.segments
     tau0 = measurement.tau0
-    if stat.multi is not None:
-        values = stat.multi(x, tau0, [int(m) for m in ms], seg)
-    else:
-        values = [stat.func(x, tau0, int(m), seg) for m in ms]
+    with np.errstate(over="ignore", invalid="ignore"):
+        if stat.multi is not None:
+            values = stat.multi(x, tau0, [int(m) for m in ms], seg)
+        else:
+            values = [stat.func(x, tau0, int(m), seg) for m in ms]
     dev = np.array([v for v, _ in values], dtype=float)
     used = np.array([k for _, k in values], dtype=np.int64)
     keep = used > 0
