@@ -36,9 +36,7 @@ OutliersOpt = Annotated[
 ]
 DriftOpt = Annotated[
     str,
-    typer.Option(
-        "--drift", help="Drift model removed first: none, linear, quadratic or log."
-    ),
+    typer.Option("--drift", help="Drift model removed first: none, linear, quadratic or log."),
 ]
 AverageOpt = Annotated[
     int, typer.Option("--average", help="Average N adjacent samples first (longer tau0).")

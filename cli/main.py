@@ -39,4 +39,14 @@ def main(
 
 
 # Commands register themselves on ``app`` when their module is imported.
-from . import analyze_cmd  # noqa: E402,F401
+from . import (  # noqa: E402
+    analyze_cmd,  # noqa: F401
+    demo_cmd,  # noqa: F401
+    inspect_cmd,  # noqa: F401
+    overlay_cmd,  # noqa: F401
+    phase_noise_cmd,  # noqa: F401
+    record_cmd,  # noqa: F401
+    separate_cmd,  # noqa: F401
+    simulate_cmd,  # noqa: F401
+    timeline_cmd,  # noqa: F401
+)

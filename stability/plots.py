@@ -74,6 +74,11 @@ from .table import StabilityTable
 __all__ = [
     "stability_figure",
     "series_figure",
+    "hat_figure",
+    "phase_noise_figure",
+    "timeline_figure",
+    "overlay_figure",
+    "overlay_footer",
     "save_figure",
     "stability_series",
     "slope_key",
@@ -904,6 +909,566 @@ def series_figure(
     return fig
 
 
+# ---------------------------------------------------------------------- footers without one input
+def _tool_footer(analysis_time: datetime | None) -> str:
+    """Footer of a figure drawn from several inputs or none: tool version and analysis date."""
+    from . import __version__
+
+    return f"stability {__version__} · analysed {_analysis_date(analysis_time)}"
+
+
+# ---------------------------------------------------------------------- three-cornered hat
+def _validate_hat_args(results: Any, title: Any, footer: Any) -> list[Any]:
+    from .hat import HatResult
+
+    items = [results] if isinstance(results, HatResult) else results
+    try:
+        if isinstance(items, (str, bytes, Mapping)):
+            raise TypeError
+        items = list(items)
+    except TypeError:
+        raise InputError(
+            f"result must be a stability.hat.HatResult or a list of them, "
+            f"got {type(results).__name__}",
+            hint="build one with stability.hat.separate",
+        ) from None
+    if not items:
+        raise InputError("result holds no HatResult to plot")
+    for item in items:
+        if not isinstance(item, HatResult):
+            raise InputError(
+                f"result must hold stability.hat.HatResult objects, got {type(item).__name__}",
+                hint="build one with stability.hat.separate",
+            )
+    for name, value in (("title", title), ("footer", footer)):
+        if value is not None and not isinstance(value, str):
+            raise InputError(f"{name} must be a str or None, got {type(value).__name__}")
+    return items
+
+
+def hat_figure(
+    result: Any,
+    *,
+    title: str | None = None,
+    footer: str | None = None,
+    analysis_time: datetime | None = None,
+) -> Figure:
+    """The separated stability of each oscillator (three-cornered hat) on a sigma-tau plot.
+
+    Each oscillator's curve is drawn with its confidence interval as asymmetric
+    error bars; a point below the resolution of the hat (a negative variance
+    estimate, see :mod:`stability.hat`) is drawn as a downward-pointing
+    triangle at its upper bound, the trade's way of showing "at most this".
+    The pair curves (A - B, ...) the separation came from are drawn faint and
+    dashed behind them: no oscillator can be noisier than a pair it is in.
+
+    Parameters
+    ----------
+    result
+        A :class:`stability.hat.HatResult`, or a list of them (one panel per
+        statistic, side by side).
+    title
+        Figure title (default: "three-cornered hat: <names>").
+    footer
+        Footer text (default: tool version and analysis date).
+    analysis_time
+        Date for the default footer (default: now).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        With what was drawn as ``fig.hat_series``: statistic -> oscillator ->
+        dict of ``tau``, ``deviation``, ``ci_low``, ``ci_high`` (points with
+        status ``ok``) and ``below_tau``, ``below_bound`` (points below
+        resolution, at their upper bound); and ``fig.hat_pairs``: statistic ->
+        pair label (``A-B``) -> (tau, deviation) of the pair curve.
+    """
+    from .hat import STATUS_OK
+
+    items = _validate_hat_args(result, title, footer)
+    fig = _new_figure(4.6 + 4.0 * len(items), 5.4)
+    axes = fig.subplots(1, len(items), squeeze=False)[0]
+    series: dict[str, dict[str, dict[str, np.ndarray]]] = {}
+    pairs_drawn: dict[str, dict[str, tuple[np.ndarray, np.ndarray]]] = {}
+    names: list[str] = []
+    for ax, item in zip(axes, items, strict=True):
+        _style_axes(ax)
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        stat = item.statistic
+        drawn: dict[str, dict[str, np.ndarray]] = {}
+        drawn_pairs: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+        for key, pair in item.pairs.items():
+            keep = np.isfinite(pair.deviation) & (pair.deviation > 0)
+            label = f"{key[0]}-{key[1]}"
+            drawn_pairs[label] = (pair.tau[keep].copy(), pair.deviation[keep].copy())
+            ax.plot(
+                *drawn_pairs[label],
+                color=_GUIDE_COLOR,
+                linewidth=0.9,
+                linestyle="--",
+                alpha=0.55,
+                zorder=1,
+                gid="hat-pair",
+            )
+            if keep.any():
+                ax.annotate(
+                    label,
+                    (drawn_pairs[label][0][-1], drawn_pairs[label][1][-1]),
+                    xytext=(3, 0),
+                    textcoords="offset points",
+                    fontsize=6,
+                    color="#808080",
+                    va="center",
+                )
+        for name, osc in item.oscillators.items():
+            if name not in names:
+                names.append(name)
+            color = SERIES_COLORS[names.index(name) % len(SERIES_COLORS)]
+            status = np.array(osc.status, dtype=object)
+            ok = (status == STATUS_OK) & np.isfinite(osc.deviation) & (osc.deviation > 0)
+            below = (status != STATUS_OK) & np.isfinite(osc.upper_bound) & (osc.upper_bound > 0)
+            tau, dev = osc.tau[ok], osc.deviation[ok]
+            low, high = osc.ci_low[ok], osc.ci_high[ok]
+            lower = np.where(np.isfinite(low), dev - low, 0.0)
+            upper = np.where(np.isfinite(high), high - dev, 0.0)
+            # the line breaks where a point is below resolution (NaN there)
+            ax.plot(
+                osc.tau, np.where(ok, osc.deviation, np.nan), color=color, linewidth=1.2, zorder=3
+            )
+            ax.errorbar(
+                tau,
+                dev,
+                yerr=np.vstack([np.clip(lower, 0.0, None), np.clip(upper, 0.0, None)]),
+                color=color,
+                linestyle="none",
+                marker="o",
+                markersize=4,
+                elinewidth=0.8,
+                capsize=2,
+                label=name,
+                zorder=3,
+            )
+            if below.any():
+                ax.plot(
+                    osc.tau[below],
+                    osc.upper_bound[below],
+                    linestyle="none",
+                    marker="v",
+                    markersize=6,
+                    markerfacecolor="white",
+                    markeredgecolor=color,
+                    zorder=4,
+                    gid="hat-below",
+                )
+            drawn[name] = {
+                "tau": tau.copy(),
+                "deviation": dev.copy(),
+                "ci_low": low.copy(),
+                "ci_high": high.copy(),
+                "below_tau": osc.tau[below].copy(),
+                "below_bound": osc.upper_bound[below].copy(),
+            }
+        series[stat] = drawn
+        pairs_drawn[stat] = drawn_pairs
+        symbol = _SYMBOLS.get(stat, _short(stat))
+        ax.set_xlabel(r"averaging time $\tau$ (s)", fontsize=9)
+        ax.set_ylabel(f"{_stat_info(stat)[0]} {symbol}", fontsize=9)
+        handles, labels = ax.get_legend_handles_labels()
+        handles.append(Line2D([], [], color=_GUIDE_COLOR, linestyle="--", alpha=0.55))
+        labels.append("pair curves")
+        if any(d["below_tau"].size for d in drawn.values()):
+            handles.append(
+                Line2D(
+                    [],
+                    [],
+                    linestyle="none",
+                    marker="v",
+                    markerfacecolor="white",
+                    markeredgecolor="#555555",
+                )
+            )
+            labels.append("below resolution (upper bound)")
+        ax.legend(handles, labels, fontsize=7, frameon=False)
+        level = 100.0 * float(item.confidence)
+        ax.set_title(f"{_short(stat)}, {level:.3g} % intervals", fontsize=9)
+    fig.suptitle(title or f"three-cornered hat: {', '.join(names)}", fontsize=11)
+    if footer is None:
+        footer = _tool_footer(analysis_time)
+    _put_footer(fig, footer)
+    fig.hat_series = series
+    fig.hat_pairs = pairs_drawn
+    return fig
+
+
+# ---------------------------------------------------------------------- phase noise
+def _validate_phase_noise_args(
+    conversion: Any, table: Any, measured: Any, model: Any, title: Any, footer: Any
+) -> tuple[tuple[np.ndarray, np.ndarray] | None, tuple[np.ndarray, np.ndarray] | None]:
+    from .phase_noise import PhaseNoiseStability
+
+    if not isinstance(conversion, PhaseNoiseStability):
+        raise InputError(
+            "conversion must be a stability.phase_noise.PhaseNoiseStability, "
+            f"got {type(conversion).__name__}",
+            hint="build one with stability.phase_noise.phase_noise_to_stability",
+        )
+    if measured is not None and not isinstance(measured, StabilityTable):
+        raise InputError(
+            f"measured must be a stability.StabilityTable or None, got {type(measured).__name__}",
+            hint="build one with stability.analyze",
+        )
+    for name, value in (("title", title), ("footer", footer)):
+        if value is not None and not isinstance(value, str):
+            raise InputError(f"{name} must be a str or None, got {type(value).__name__}")
+    curves = []
+    for name, value in (("table", table), ("model", model)):
+        if value is None:
+            curves.append(None)
+            continue
+        try:
+            f, level = (np.asarray(v, dtype=float) for v in value)
+        except (TypeError, ValueError):
+            raise InputError(
+                f"{name} must be a pair (offsets in Hz, L(f) in dBc/Hz) of number arrays"
+            ) from None
+        if f.ndim != 1 or f.shape != level.shape:
+            raise InputError(
+                f"{name}: offsets and L(f) must be 1-D of one length, "
+                f"got shapes {f.shape} and {level.shape}"
+            )
+        curves.append((f, level))
+    return curves[0], curves[1]
+
+
+def phase_noise_figure(
+    conversion: Any,
+    *,
+    table: tuple[Any, Any] | None = None,
+    measured: StabilityTable | None = None,
+    model: tuple[Any, Any] | None = None,
+    title: str | None = None,
+    footer: str | None = None,
+    analysis_time: datetime | None = None,
+) -> Figure:
+    """Stability implied by a phase-noise table, beside the table itself.
+
+    The left panel holds the deviations converted from L(f) (one line per
+    statistic) and, when ``measured`` is given, the measured curves of a log
+    with their confidence intervals, so the two can be compared on one
+    sigma-tau plot. The right panel holds the L(f) table in dBc/Hz against
+    offset frequency and, when given, the L(f) sketch of a power-law model
+    (from :func:`stability.phase_noise.model_to_phase_noise`), dashed.
+
+    Parameters
+    ----------
+    conversion
+        A :class:`stability.phase_noise.PhaseNoiseStability`.
+    table
+        (offsets in Hz, L(f) in dBc/Hz) of the input table.
+    measured
+        A measured results table to draw beside the converted curves.
+    model
+        (offsets in Hz, L(f) in dBc/Hz) of a fitted power-law model.
+    title, footer
+        Figure title (default: "stability from phase noise") and footer text
+        (default: tool version and analysis date).
+    analysis_time
+        Date for the default footer (default: now).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        With what was drawn as ``fig.phase_noise_series``: ``converted``
+        (statistic -> (tau, deviation)), ``measured`` (statistic -> (tau,
+        deviation, ci_low, ci_high), see :func:`stability_series`, or None),
+        ``table`` and ``model`` ((offsets, L) or None).
+    """
+    from .units import format_frequency
+
+    table_curve, model_curve_ = _validate_phase_noise_args(
+        conversion, table, measured, model, title, footer
+    )
+    has_spectrum = table_curve is not None or model_curve_ is not None
+    fig = _new_figure(10.0 if has_spectrum else 6.4, 5.2)
+    axes = fig.subplots(1, 2 if has_spectrum else 1, squeeze=False)[0]
+    ax = axes[0]
+    _style_axes(ax)
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    converted: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+    for i, (stat, dev) in enumerate(conversion.deviations.items()):
+        keep = np.isfinite(dev) & (dev > 0)
+        converted[stat] = (conversion.tau[keep].copy(), dev[keep].copy())
+        ax.plot(
+            *converted[stat],
+            color=SERIES_COLORS[i % len(SERIES_COLORS)],
+            linewidth=1.4,
+            marker=".",
+            markersize=4,
+            label=f"{_short(stat)} from L(f)",
+            zorder=3,
+        )
+    drawn_measured = None
+    if measured is not None:
+        drawn_measured = stability_series(measured)
+        offset = len(converted)
+        for j, (stat, (tau, dev, low, high)) in enumerate(drawn_measured.items()):
+            color = SERIES_COLORS[(offset + j) % len(SERIES_COLORS)]
+            lower = np.where(np.isfinite(low), dev - low, 0.0)
+            upper = np.where(np.isfinite(high), high - dev, 0.0)
+            ax.errorbar(
+                tau,
+                dev,
+                yerr=np.vstack([np.clip(lower, 0.0, None), np.clip(upper, 0.0, None)]),
+                color=color,
+                marker="s",
+                markersize=3.5,
+                linewidth=0.9,
+                elinewidth=0.8,
+                capsize=2,
+                label=f"{_short(stat)} measured",
+                zorder=4,
+            )
+    ax.set_xlabel(r"averaging time $\tau$ (s)", fontsize=9)
+    ax.set_ylabel("fractional frequency deviation", fontsize=9)
+    if any(_stat_info(s)[1] == "s" for s in converted):
+        ax.set_ylabel("deviation (TDEV in s)", fontsize=9)
+    ax.legend(fontsize=7, frameon=False)
+    ax.set_title(
+        f"carrier {format_frequency(conversion.nominal)}, f_h {format_frequency(conversion.f_h)}",
+        fontsize=9,
+    )
+    if has_spectrum:
+        ax2 = axes[1]
+        _style_axes(ax2)
+        ax2.set_xscale("log")
+        if table_curve is not None:
+            ax2.plot(
+                *table_curve,
+                color="#333333",
+                marker="o",
+                markersize=3,
+                linewidth=1.2,
+                label="L(f) table",
+                zorder=3,
+            )
+        if model_curve_ is not None:
+            ax2.plot(
+                *model_curve_,
+                color=SERIES_COLORS[1],
+                linestyle="--",
+                linewidth=1.2,
+                label="L(f) of the fitted model (measured log)",
+                zorder=2,
+            )
+        ax2.axvline(conversion.f_h, color=_GUIDE_COLOR, linewidth=0.8, linestyle=":")
+        ax2.annotate(
+            "f_h",
+            (conversion.f_h, 1.0),
+            xycoords=("data", "axes fraction"),
+            xytext=(2, -10),
+            textcoords="offset points",
+            fontsize=7,
+            color="#808080",
+        )
+        ax2.set_xlabel("offset frequency f (Hz)", fontsize=9)
+        ax2.set_ylabel(r"$\mathcal{L}(f)$ (dBc/Hz)", fontsize=9)
+        ax2.legend(fontsize=7, frameon=False)
+    fig.suptitle(title or "stability from phase noise", fontsize=11)
+    if footer is None:
+        footer = _tool_footer(analysis_time)
+    _put_footer(fig, footer)
+    fig.phase_noise_series = {
+        "converted": converted,
+        "measured": drawn_measured,
+        "table": table_curve,
+        "model": model_curve_,
+    }
+    return fig
+
+
+# ---------------------------------------------------------------------- dynamic stability
+def _edges(centres: np.ndarray, *, log: bool, half_width: float) -> np.ndarray:
+    """Cell edges around sorted centres: midpoints (geometric on a log axis), ends mirrored."""
+    values = np.log(centres) if log else centres
+    if values.size == 1:
+        width = math.log(2.0) / 2.0 if log else half_width
+        edges = np.array([values[0] - width, values[0] + width])
+    else:
+        mid = (values[1:] + values[:-1]) / 2.0
+        edges = np.concatenate(
+            ([values[0] - (mid[0] - values[0])], mid, [values[-1] + (values[-1] - mid[-1])])
+        )
+    return np.exp(edges) if log else edges
+
+
+def timeline_figure(
+    result: Any,
+    *,
+    title: str | None = None,
+    footer: str | None = None,
+    analysis_time: datetime | None = None,
+) -> Figure:
+    """Stability over time: a map of the dynamic deviation and its shortest-tau trace.
+
+    The upper panel is a heat map over (window centre time, tau) of
+    log10 of the deviation in each window (the dynamic Allan deviation of
+    Galleani and Tavella [5]_ when the statistic is OADEV), tau on a log axis
+    and clock time when the record has time stamps; a window with no usable
+    term is left blank. The lower panel traces the deviation at the shortest
+    tau over the window centres with its confidence interval as a band, so a
+    warm-up transient or a change of noise level shows at the time it happened.
+
+    Parameters
+    ----------
+    result
+        A :class:`stability.dynamic.DynamicResult`.
+    title, footer
+        Figure title (default: "stability over time") and footer text
+        (default: tool version and analysis date).
+    analysis_time
+        Date for the default footer (default: now).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        With what was drawn as ``fig.timeline_data``: ``x`` (window centres in
+        axis units: matplotlib date numbers or elapsed time), ``x_edges``,
+        ``tau``, ``tau_edges``, ``log10_deviation`` (windows x taus, NaN where
+        blank), ``shortest`` (x, deviation, ci_low, ci_high at the shortest
+        tau), ``is_date`` and ``x_label``.
+
+    References
+    ----------
+    .. [5] L. Galleani, P. Tavella, "The dynamic Allan variance", IEEE Trans.
+       UFFC 56(3), 450-464 (2009).
+    """
+    from .dynamic import DynamicResult
+    from .units import format_duration, format_seconds
+
+    if not isinstance(result, DynamicResult):
+        raise InputError(
+            f"result must be a stability.dynamic.DynamicResult, got {type(result).__name__}",
+            hint="build one with stability.dynamic.dynamic_stability",
+        )
+    for name, value in (("title", title), ("footer", footer)):
+        if value is not None and not isinstance(value, str):
+            raise InputError(f"{name} must be a str or None, got {type(value).__name__}")
+    windows, taus = result.deviation.shape
+    if windows == 0 or taus == 0:
+        raise InputError("the dynamic result holds no window or no tau to plot")
+    tau0 = float(result.tau[0] / result.m[0])
+    window_s = result.window_points * tau0
+    if result.time is not None:
+        start = result.time[0]
+        x = np.array([mdates.date2num(t) for t in result.time], dtype=float)
+        half = window_s / 2.0 / 86400.0
+        if start.tzinfo is None:
+            zone = "local time"
+        elif start.utcoffset() == UTC.utcoffset(None):
+            zone = "UTC"
+        else:
+            zone = str(start.tzinfo)
+        x_label, is_date = f"window centre ({zone})", True
+    else:
+        span = float(result.time_s[-1])
+        factor, unit = 1.0, "s"
+        if span >= 2 * 86400:
+            factor, unit = 86400.0, "d"
+        elif span >= 2 * 3600:
+            factor, unit = 3600.0, "h"
+        elif span >= 120:
+            factor, unit = 60.0, "min"
+        x = np.asarray(result.time_s, dtype=float) / factor
+        half = window_s / 2.0 / factor
+        x_label, is_date = f"window centre, elapsed time ({unit})", False
+    x_edges = _edges(x, log=False, half_width=half)
+    tau_edges = _edges(np.asarray(result.tau, dtype=float), log=True, half_width=0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logdev = np.where(result.deviation > 0, np.log10(result.deviation), np.nan)
+
+    fig = _new_figure(10.0, 6.8)
+    grid = fig.add_gridspec(2, 2, height_ratios=(2.3, 1.0), width_ratios=(1.0, 0.025))
+    ax_map = fig.add_subplot(grid[0, 0])
+    ax_cb = fig.add_subplot(grid[0, 1])
+    ax_line = fig.add_subplot(grid[1, 0], sharex=ax_map)
+    ax_pad = fig.add_subplot(grid[1, 1])
+    ax_pad.set_axis_off()
+    mesh = ax_map.pcolormesh(
+        x_edges,
+        tau_edges,
+        np.ma.masked_invalid(logdev.T),
+        cmap="viridis",
+        shading="flat",
+    )
+    ax_map.set_yscale("log")
+    ax_map.set_ylabel(r"averaging time $\tau$ (s)", fontsize=9)
+    ax_map.tick_params(labelsize=8)
+    ax_map.tick_params(axis="x", labelbottom=False)
+    stat_title = _stat_info(result.statistic)[0]
+    unit = _stat_info(result.statistic)[1]
+    colorbar = fig.colorbar(mesh, cax=ax_cb)
+    colorbar.set_label(
+        f"log10 {_short(result.statistic)}" + (" (s)" if unit == "s" else ""), fontsize=9
+    )
+    colorbar.ax.tick_params(labelsize=8)
+    ax_map.set_title(
+        f"{stat_title} in {format_duration(window_s)} windows every "
+        f"{format_duration(result.step_points * tau0)}",
+        fontsize=9,
+    )
+
+    _style_axes(ax_line)
+    dev = result.deviation[:, 0]
+    low, high = result.ci_low[:, 0], result.ci_high[:, 0]
+    band = np.isfinite(low) & np.isfinite(high)
+    if band.any():
+        ax_line.fill_between(
+            x,
+            np.where(band, low, np.nan),
+            np.where(band, high, np.nan),
+            color=SERIES_COLORS[0],
+            alpha=0.25,
+            linewidth=0,
+            label=f"{100.0 * result.confidence:.3g} % interval",
+        )
+    ax_line.plot(
+        x,
+        dev,
+        color=SERIES_COLORS[0],
+        linewidth=1.1,
+        marker=".",
+        markersize=3,
+        label=f"{_short(result.statistic)} at tau = {format_seconds(float(result.tau[0]))}",
+    )
+    if np.isfinite(dev).any() and (dev[np.isfinite(dev)] > 0).all():
+        ax_line.set_yscale("log")
+    ax_line.set_xlabel(x_label, fontsize=9)
+    ax_line.set_ylabel(_short(result.statistic), fontsize=9)
+    ax_line.legend(fontsize=7, frameon=False, loc="upper left")
+    if is_date:
+        locator = mdates.AutoDateLocator()
+        ax_line.xaxis.set_major_locator(locator)
+        ax_line.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
+    ax_line.set_xlim(x_edges[0], x_edges[-1])
+    fig.suptitle(title or "stability over time", fontsize=11)
+    if footer is None:
+        footer = _tool_footer(analysis_time)
+    _put_footer(fig, footer)
+    fig.timeline_data = {
+        "x": x,
+        "x_edges": x_edges,
+        "tau": np.asarray(result.tau, dtype=float).copy(),
+        "tau_edges": tau_edges,
+        "log10_deviation": logdev,
+        "shortest": (x, dev.copy(), low.copy(), high.copy()),
+        "is_date": is_date,
+        "x_label": x_label,
+    }
+    return fig
+
+
 # ---------------------------------------------------------------------- saving
 def save_figure(
     fig: Figure, path: str | os.PathLike[str], fmt: str | None = None, *, dpi: int = _DPI
@@ -952,3 +1517,177 @@ def save_figure(
     with atomic_output(target, "wb") as handle:
         fig.savefig(handle, format=fmt, dpi=dpi, metadata=metadata)
     return target
+
+
+# ---------------------------------------------------------------------- overlay of several logs
+#: Marker of each statistic in an overlay (one per statistic, in the order drawn).
+OVERLAY_MARKERS = ("o", "s", "^", "D", "v", "P", "X", "*")
+
+
+def _validate_overlay_args(
+    tables: Any, stats: Any, title: Any, footer: Any
+) -> tuple[dict[str, StabilityTable], list[str]]:
+    if not isinstance(tables, Mapping) or len(tables) == 0:
+        raise InputError(
+            "tables must be a non-empty mapping label -> StabilityTable, "
+            f"got {type(tables).__name__}"
+        )
+    checked: dict[str, StabilityTable] = {}
+    for label, table in tables.items():
+        if not isinstance(label, str) or not label.strip():
+            raise InputError(f"overlay labels must be non-empty strings, got {label!r}")
+        if not isinstance(table, StabilityTable):
+            raise InputError(
+                f"tables[{label!r}] must be a stability.StabilityTable, got {type(table).__name__}",
+                hint="build one with stability.analyze",
+            )
+        checked[label] = table
+    for name, value in (("title", title), ("footer", footer)):
+        if value is not None and not isinstance(value, str):
+            raise InputError(f"{name} must be a str or None, got {type(value).__name__}")
+    present: list[str] = []
+    for table in checked.values():
+        present.extend(s for s in table.results if s not in present)
+    if stats is None:
+        names = present
+    else:
+        if isinstance(stats, str):
+            stats = [s for s in stats.split(",") if s.strip()]
+        try:
+            names = [str(s).strip().lower() for s in stats]
+        except TypeError:
+            raise InputError(
+                f"stats must be a list of statistic names, got {type(stats).__name__}"
+            ) from None
+        missing = [s for s in names if s not in present]
+        if missing:
+            raise InputError(
+                f"statistic(s) {', '.join(missing)} are in none of the tables",
+                hint=f"the tables hold {', '.join(present) or 'nothing'}",
+            )
+    if not names:
+        raise InputError("the tables hold no results to plot")
+    return checked, list(dict.fromkeys(names))
+
+
+def overlay_footer(
+    tables: Mapping[str, StabilityTable], *, analysis_time: datetime | None = None
+) -> str:
+    """Footer of an overlay: each input's SHA-256 prefix (12 hex), tool version, date."""
+    from . import __version__
+
+    parts = []
+    for label, table in tables.items():
+        measurement = table.measurement
+        sha = measurement.provenance.sha256 if isinstance(measurement, Measurement) else None
+        parts.append(f"{label} {sha[:12]}" if sha else f"{label} (no file hash)")
+    return (
+        f"input SHA-256: {'; '.join(parts)} · stability {__version__} · "
+        f"analysed {_analysis_date(analysis_time)}"
+    )
+
+
+def overlay_figure(
+    tables: Mapping[str, StabilityTable],
+    *,
+    stats: Sequence[str] | str | None = None,
+    title: str | None = None,
+    footer: str | None = None,
+    analysis_time: datetime | None = None,
+) -> Figure:
+    """Several analyses on one stability plot: one series per (label, statistic).
+
+    Each label keeps one colour and each statistic one marker, so a reader can
+    follow either across the plot; every point carries its confidence interval
+    as asymmetric error bars [1]_. Fractional-frequency statistics and time
+    statistics (seconds) are drawn on two panels side by side, as in
+    :func:`stability_figure`.
+
+    Parameters
+    ----------
+    tables
+        Label -> results table (from :func:`stability.analyze`), in drawing order.
+    stats
+        Statistics to draw (a list or a comma list); default: every statistic
+        of any table. A statistic missing from one table is skipped there.
+    title
+        Figure title (default: the labels joined by "vs").
+    footer
+        Footer text (default: :func:`overlay_footer`, each input's SHA-256 prefix).
+    analysis_time
+        Date for the default footer (default: now).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        With what was drawn as ``fig.overlay_series``: (label, statistic) ->
+        (tau, deviation, ci_low, ci_high) as :func:`stability_series` gives
+        them, ``fig.overlay_axes`` (label, statistic) -> panel,
+        ``fig.overlay_colors`` label -> colour and ``fig.overlay_markers``
+        statistic -> marker.
+    """
+    checked, names = _validate_overlay_args(tables, stats, title, footer)
+    colors = {label: SERIES_COLORS[i % len(SERIES_COLORS)] for i, label in enumerate(checked)}
+    markers = {name: OVERLAY_MARKERS[i % len(OVERLAY_MARKERS)] for i, name in enumerate(names)}
+    fractional = [s for s in names if _stat_info(s)[1] != "s"]
+    timed = [s for s in names if _stat_info(s)[1] == "s"]
+    panels = [(group, unit) for group, unit in ((fractional, ""), (timed, "s")) if group]
+    fig = _new_figure(8.5 if len(panels) == 1 else 13.0, 5.6)
+    axes = fig.subplots(1, len(panels), squeeze=False)[0]
+    drawn_series: dict[tuple[str, str], tuple[np.ndarray, ...]] = {}
+    axes_of: dict[tuple[str, str], Any] = {}
+    for ax, (group, unit) in zip(axes, panels, strict=True):
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        _style_axes(ax)
+        for label, table in checked.items():
+            series = stability_series(table)
+            for name in group:
+                if name not in series:
+                    continue
+                tau, dev, low, high = series[name]
+                drawn_series[(label, name)] = (tau, dev, low, high)
+                axes_of[(label, name)] = ax
+                color = colors[label]
+                ax.plot(
+                    tau,
+                    dev,
+                    marker=markers[name],
+                    markersize=4,
+                    linewidth=1.0,
+                    linestyle="-" if markers[name] == OVERLAY_MARKERS[0] else "--",
+                    color=color,
+                    label=f"{label}: {_short(name)}" if len(names) > 1 else label,
+                    zorder=3,
+                )
+                ok = np.isfinite(low) & np.isfinite(high) & (low > 0) & (low <= dev)
+                ok &= high >= dev
+                if ok.any():
+                    ax.errorbar(
+                        tau[ok],
+                        dev[ok],
+                        yerr=np.vstack([dev[ok] - low[ok], high[ok] - dev[ok]]),
+                        fmt="none",
+                        ecolor=color,
+                        elinewidth=0.8,
+                        capsize=2.0,
+                        alpha=0.85,
+                        zorder=2,
+                    )
+        ax.set_xlabel(r"averaging time $\tau$ (s)", fontsize=9)
+        if len(group) == 1:
+            ax.set_ylabel(_panel_label(group, unit), fontsize=9)
+        else:
+            titles = ", ".join(f"{_stat_info(s)[0]} ({_short(s)})" for s in group)
+            ax.set_ylabel(f"{titles} (s)" if unit == "s" else titles, fontsize=8)
+        if any(ax is a for a in axes_of.values()):
+            ax.legend(fontsize=7, frameon=False, loc="best")
+    fig.suptitle(title or " vs ".join(checked), fontsize=11)
+    if footer is None:
+        footer = overlay_footer(checked, analysis_time=analysis_time)
+    _put_footer(fig, footer)
+    fig.overlay_series = drawn_series
+    fig.overlay_axes = axes_of
+    fig.overlay_colors = colors
+    fig.overlay_markers = markers
+    return fig

@@ -29,7 +29,7 @@ from .noise import identify
 from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift
 from .table import NOISE_LABELS, StabilityTable, StatisticResult
 
-__all__ = ["qualify", "qualify_result", "effective_points", "model_curve"]
+__all__ = ["qualify", "qualify_result", "effective_points", "model_curve", "row_points"]
 
 #: The statistic whose identified noise is shared by its sibling (same data, same m).
 _NOISE_SOURCE = {"tdev": "mdev", "ttot": "mtot"}
@@ -70,6 +70,28 @@ def _never_whiter(result: StatisticResult) -> None:
         )
 
 
+#: Record length N that gives ``terms`` terms at averaging factor m, per statistic
+#: (the inverse of each estimator's term count). With gaps, fewer terms are used
+#: than the record length suggests, and the EDF must follow the terms actually used.
+_POINTS_FROM_TERMS = {
+    "adev": lambda t, m: (t + 1) * m + 1,
+    "oadev": lambda t, m: t + 2 * m,
+    "mdev": lambda t, m: t + 3 * m - 1,
+    "tdev": lambda t, m: t + 3 * m - 1,
+    "hdev": lambda t, m: (t + 2) * m + 1,
+    "ohdev": lambda t, m: t + 3 * m,
+    "totdev": lambda t, m: t + 2,
+}
+
+
+def row_points(name: str, m: int, terms: int, n_eff: int) -> int:
+    """Record length to use in the EDF model of one row: never more than the terms support."""
+    inverse = _POINTS_FROM_TERMS.get(name)
+    if inverse is None:
+        return n_eff
+    return int(min(n_eff, inverse(int(terms), int(m))))
+
+
 def _row_edf(name: str, alpha: int | None, m: int, n: int, tau0: float) -> float:
     """EDF of one row; ThêoH rows computed as OADEV (at 0.75 m) take OADEV's model."""
     if name == "theoh":
@@ -102,7 +124,8 @@ def qualify_result(
     factors = np.ones(len(result))
     for k, m in enumerate(result.m):
         a = None if math.isnan(result.alpha[k]) else int(result.alpha[k])
-        edf[k] = _row_edf(stat.name, a, int(m), n_eff, measurement.tau0)
+        n_row = row_points(stat.name, int(m), int(result.n_terms[k]), n_eff)
+        edf[k] = _row_edf(stat.name, a, int(m), n_row, measurement.tau0)
         factors[k] = bias_factor(stat.name, a, int(m), n_eff)
     result.edf = edf
     if np.any(factors != 1.0):

@@ -102,9 +102,20 @@ class AnalysisRun:
 
 
 def _split_options(options: dict[str, Any]) -> tuple[dict, dict, dict]:
-    unknown = set(options) - set(_READ_KEYS) - {
-        "stats", "taus", "confidence", "outliers", "drift", "average", "f_h", "progress",
-    }
+    unknown = (
+        set(options)
+        - set(_READ_KEYS)
+        - {
+            "stats",
+            "taus",
+            "confidence",
+            "outliers",
+            "drift",
+            "average",
+            "f_h",
+            "progress",
+        }
+    )
     if unknown:
         raise InputError(f"unknown option(s) {', '.join(sorted(unknown))} for run_analysis")
     read = {k: options[k] for k in _READ_KEYS if k in options and options[k] is not None}

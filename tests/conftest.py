@@ -10,6 +10,7 @@ References
 
 from __future__ import annotations
 
+import sys
 from collections.abc import Callable
 from pathlib import Path
 
@@ -77,3 +78,12 @@ def sp1065_1000pt_frequency() -> np.ndarray:
 def power_law_frequency() -> Callable[[float, int, int], np.ndarray]:
     """``make(alpha, n, seed)``: seeded fractional frequency with S_y ~ f**alpha."""
     return _kasdin_walter
+
+
+@pytest.fixture(scope="session")
+def stability_command() -> list[str]:
+    """The installed ``stability`` console script (beside the interpreter), as an argv prefix."""
+    script = Path(sys.executable).parent / "stability"
+    if script.is_file():
+        return [str(script)]
+    return [sys.executable, "-c", "from cli.main import app; app()"]

@@ -227,3 +227,17 @@ def test_one_huge_tau_is_a_clear_error():
     y = simulate(100, 1.0, levels={0: 1.0}, seed=1)
     with pytest.raises(stability.AnalysisError, match="too long"):
         _analyze(y, stats="oadev", taus=[1e6])
+
+
+def test_gaps_reduce_the_degrees_of_freedom_to_the_terms_used():
+    # The EDF models take the record length N; with gaps the estimator uses fewer
+    # terms, and the EDF must follow the terms actually used (common practice).
+    y = simulate(4096, 1.0, levels={0: 1.0}, seed=21)
+    whole = _analyze(y, stats="adev,oadev,hdev", taus=[64.0])
+    holed = y.copy()
+    holed[1000:1800] = np.nan
+    gappy = _analyze(holed, stats="adev,oadev,hdev", taus=[64.0])
+    for name in ("adev", "oadev", "hdev"):
+        assert gappy[name].noise == whole[name].noise  # same model, fewer terms
+        assert gappy[name].n_terms[0] < whole[name].n_terms[0]
+        assert gappy[name].edf[0] < whole[name].edf[0]

@@ -3,10 +3,8 @@
 from __future__ import annotations
 
 import json
-import shutil
 import subprocess
 
-import pytest
 from typer.testing import CliRunner
 
 from cli.main import app
@@ -56,10 +54,9 @@ def test_inspect_help_has_example():
     assert "stability inspect counter.csv" in result.output and "--wrap" in result.output
 
 
-@pytest.mark.skipif(shutil.which("stability") is None, reason="command not installed")
-def test_inspect_subprocess(tmp_path):
+def test_inspect_subprocess(tmp_path, stability_command):
     proc = subprocess.run(
-        ["stability", "inspect", str(_log(tmp_path)), "--json"],
+        [*stability_command, "inspect", str(_log(tmp_path)), "--json"],
         capture_output=True,
         text=True,
         timeout=120,

@@ -1,0 +1,242 @@
+"""``stability timeline LOG --window 4h --step 15min``: stability over time (dynamic deviation).
+
+Reads and prepares the log as ``analyze`` does, computes the deviation in a
+window sliding along the record with :func:`stability.dynamic.dynamic_stability`
+(the dynamic Allan deviation of Galleani & Tavella, IEEE UFFC 56(3), 2009),
+and writes ``timeline.csv`` (one row per window and tau) and ``timeline.png``
+(a map over time and tau, and the shortest tau over time with its interval).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import warnings
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Annotated, Any
+
+import numpy as np
+import typer
+
+import stability
+from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
+from stability.errors import InputError, StabilityWarning
+from stability.ingest import read_log
+from stability.plots import save_figure, timeline_figure
+from stability.prepare import prepare
+from stability.reports.files import atomic_write_text, ensure_folder, jsonable
+from stability.reports.tables import format_tau, format_value
+from stability.taus import parse_taus
+from stability.units import format_duration, parse_duration
+
+from .common import (
+    ColumnOpt,
+    ConfidenceOpt,
+    DebugOpt,
+    JsonOpt,
+    KindOpt,
+    LogArg,
+    NominalOpt,
+    OutOpt,
+    StrictOpt,
+    Tau0Opt,
+    TausOpt,
+    TimeColumnOpt,
+    handle_errors,
+    outliers_value,
+)
+from .main import app
+
+__all__ = ["timeline_command", "timeline_csv", "timeline_summary"]
+
+WindowOpt = Annotated[
+    str, typer.Option("--window", help="Window length, e.g. 4h or 3600s.", show_default=False)
+]
+StepOpt = Annotated[
+    str | None,
+    typer.Option("--step", help="Distance between windows, e.g. 15min (default: window/4)."),
+]
+OneStatOpt = Annotated[
+    str, typer.Option("--stats", help=f"One statistic: {', '.join(DYNAMIC_STATS)}.")
+]
+NoiseOpt = Annotated[
+    str,
+    typer.Option(
+        "--noise",
+        help="Identify the noise type in each window (window) or once for the record (record).",
+    ),
+]
+OutliersOpt = Annotated[
+    str, typer.Option("--outliers", help="Outlier threshold in robust sigmas, or 'off'.")
+]
+DriftOpt = Annotated[
+    str,
+    typer.Option("--drift", help="Drift model removed first: none, linear, quadratic or log."),
+]
+AverageOpt = Annotated[
+    int, typer.Option("--average", help="Average N adjacent samples first (longer tau0).")
+]
+
+
+def _statistic(text: str) -> str:
+    names = [part.strip().lower() for part in str(text).split(",") if part.strip()]
+    if len(names) != 1:
+        raise InputError(
+            f"--stats: timeline draws one statistic, got {text!r}",
+            hint=f"pass one of {', '.join(DYNAMIC_STATS)}",
+        )
+    return names[0]
+
+
+def timeline_csv(result: DynamicResult) -> str:
+    """The long table (one row per window and tau) as CSV: full-precision floats, ISO times."""
+    frame = result.to_frame()
+    times = [t.isoformat() if t is not None else "" for t in (result.time or [])]
+    if times:
+        frame["time"] = np.repeat(np.array(times, dtype=object), result.deviation.shape[1])
+    else:
+        frame["time"] = ""
+    lines = [",".join(frame.columns)]
+    for row in frame.itertuples(index=False):
+        cells = []
+        for value in row:
+            if isinstance(value, (float, np.floating)):
+                cells.append(repr(float(value)) if math.isfinite(value) else "")
+            else:
+                cells.append(str(value))
+        lines.append(",".join(cells))
+    return "\n".join(lines) + "\n"
+
+
+def _when(result: DynamicResult, index: int) -> str:
+    if result.time is not None:
+        return result.time[index].isoformat(sep=" ", timespec="seconds")
+    return f"{format_duration(float(result.time_s[index]))} from the start"
+
+
+def timeline_summary(result: DynamicResult) -> list[str]:
+    """A short text summary: windows, taus, smallest and largest deviation at the shortest tau."""
+    tau0 = float(result.tau[0] / result.m[0])
+    lines = [
+        f"statistic   {result.statistic}",
+        f"windows     {result.deviation.shape[0]} of {format_duration(result.window_points * tau0)}"
+        f", every {format_duration(result.step_points * tau0)}",
+        f"taus        {', '.join(format_tau(float(t)) for t in result.tau)}",
+    ]
+    dev = result.deviation[:, 0]
+    good = np.isfinite(dev)
+    if good.any():
+        unit = "s" if result.statistic == "tdev" else ""
+        lo = int(np.nanargmin(dev))
+        hi = int(np.nanargmax(dev))
+        shortest = format_tau(float(result.tau[0]))
+        lines.append(
+            f"at {shortest:<8} min {format_value(float(dev[lo]), unit)} at {_when(result, lo)}"
+        )
+        lines.append(
+            f"{'':11} max {format_value(float(dev[hi]), unit)} at {_when(result, hi)}"
+            f"  (max/min {dev[hi] / dev[lo]:.3g})"
+        )
+    else:
+        lines.append("no window has a usable term at the shortest tau")
+    return lines
+
+
+@app.command("timeline")
+@handle_errors
+def timeline_command(
+    log: LogArg,
+    window: WindowOpt,
+    step: StepOpt = None,
+    kind: KindOpt = "auto",
+    column: ColumnOpt = None,
+    time_column: TimeColumnOpt = None,
+    tau0: Tau0Opt = None,
+    nominal: NominalOpt = None,
+    stats: OneStatOpt = "oadev",
+    taus: TausOpt = "octave",
+    confidence: ConfidenceOpt = 0.683,
+    noise: NoiseOpt = "window",
+    outliers: OutliersOpt = "5",
+    drift: DriftOpt = "none",
+    average: AverageOpt = 1,
+    out: OutOpt = None,
+    strict: StrictOpt = False,
+    json_out: JsonOpt = False,
+    debug: DebugOpt = False,
+) -> None:
+    """Stability over time: the deviation in a sliding window (dynamic Allan deviation).
+
+    Example: stability timeline counter.csv --nominal 10MHz --window 4h --step 15min
+    """
+    name = _statistic(stats)
+    window_s = parse_duration(window, what="--window")
+    step_s = window_s / 4.0 if step is None else parse_duration(step, what="--step")
+    source = read_log(
+        log,
+        kind=kind,
+        column=column,
+        time_column=time_column,
+        tau0=tau0,
+        nominal=nominal,
+        strict=strict,
+    )
+    prepared, report = prepare(
+        source, outliers=outliers_value(outliers), drift=drift, average=average
+    )
+    if step is None:
+        step_s = max(step_s, prepared.tau0)
+    with warnings.catch_warnings():
+        # the result's notes carry every warning; they are printed below
+        warnings.simplefilter("ignore", StabilityWarning)
+        result = dynamic_stability(
+            prepared,
+            window=window_s,
+            step=step_s,
+            taus=parse_taus(taus),
+            stat=name,
+            confidence=confidence,
+            noise=noise,
+        )
+    moment = datetime.now(UTC)
+    folder = ensure_folder(out if out is not None else Path.cwd() / f"{log.name}-stability")
+    sha = source.provenance.sha256
+    footer = (
+        f"input SHA-256 {sha[:12] if sha else 'n/a'} · stability {stability.__version__} · "
+        f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
+    )
+    written = [atomic_write_text(folder / "timeline.csv", timeline_csv(result))]
+    fig = timeline_figure(result, title=f"stability over time: {log.name}", footer=footer)
+    written.append(save_figure(fig, folder / "timeline.png", "png"))
+    summary = timeline_summary(result)
+    removed = "no drift removed" if drift == "none" else f"{report.drift_model} drift removed"
+    summary.append(
+        f"prepared    {len(report.outliers.samples)} outliers removed, {removed}, "
+        f"{report.gaps_after} gap samples"
+    )
+    if json_out:
+        document: dict[str, Any] = {
+            "input": {"path": str(log), "sha256": sha},
+            "settings": {
+                "stat": name,
+                "window_s": result.window_points * prepared.tau0,
+                "step_s": result.step_points * prepared.tau0,
+                "taus": str(taus),
+                "confidence": confidence,
+                "noise": noise,
+                "preparation": report.to_dict(),
+            },
+            "tool": f"stability {stability.__version__}",
+            "analysis_time": moment,
+            "summary": summary,
+            "notes": result.notes,
+        }
+        typer.echo(json.dumps(jsonable(document), indent=2))
+        return
+    for line in summary:
+        typer.echo(line)
+    for note in result.notes:
+        typer.echo(f"note: {note}")
+    typer.echo("")
+    typer.echo(f"wrote {len(written)} files into {folder}")

@@ -1,0 +1,211 @@
+"""``stability analyze`` through typer's CliRunner and one real subprocess run.
+
+Exit codes (common practice for command lines, written down in cli/common.py):
+0 success, 1 input or analysis error (one ``error:`` line, no traceback),
+2 usage error.
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+from typer.testing import CliRunner
+
+from cli.main import app
+from stability.reports.summary import SUMMARY_FIELDS
+from stability.table import COLUMNS
+
+runner = CliRunner()
+
+COMMANDS = (
+    "analyze",
+    "inspect",
+    "overlay",
+    "simulate",
+    "demo",
+    "record",
+)
+
+
+@pytest.fixture(scope="module")
+def log(tmp_path_factory) -> Path:
+    """An invented 10 MHz counter log: 600 s of white FM around a small offset."""
+    folder = tmp_path_factory.mktemp("analyze")
+    rng = np.random.default_rng(7)
+    y = 1e-9 + 1e-11 * rng.standard_normal(600)
+    stamps = np.datetime64("2026-01-01T00:00:00", "s") + np.arange(600).astype("timedelta64[s]")
+    rows = np.char.add(
+        np.char.add(np.datetime_as_string(stamps, unit="s"), "Z,"),
+        np.char.mod("%.6f", 10e6 * (1 + y)),
+    )
+    path = folder / "counter.csv"
+    path.write_text("time,frequency_hz\n" + "\n".join(rows.tolist()) + "\n")
+    return path
+
+
+def _invoke(args: list[str]):
+    return runner.invoke(app, args)
+
+
+def _one_error_line(result) -> str:
+    assert result.exit_code == 1, result.output
+    assert "Traceback" not in result.output, result.output
+    lines = [ln for ln in result.output.splitlines() if ln.strip()]
+    errors = [ln for ln in lines if ln.startswith("error: ")]
+    assert len(errors) == 1, result.output
+    return errors[0]
+
+
+def test_writes_every_output(log, tmp_path):
+    out = tmp_path / "out"
+    result = _invoke(["analyze", str(log), "--out", str(out)])
+    assert result.exit_code == 0, result.output
+    for name in ("table.csv", "table.md", "summary.json", "sigma_tau.png", "series.png"):
+        assert (out / name).is_file() and (out / name).stat().st_size > 0, name
+    header = (out / "table.csv").read_text().splitlines()[0]
+    assert header == ",".join(COLUMNS)  # DESIGN "The results table"
+    assert "oadev" in result.output and "mdev" in result.output
+    assert "wrote 5 files" in result.output
+    assert (out / "sigma_tau.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature
+
+
+def test_svg_plots(log, tmp_path):
+    out = tmp_path / "svg"
+    result = _invoke(["analyze", str(log), "--out", str(out), "--plot-format", "svg"])
+    assert result.exit_code == 0, result.output
+    assert (out / "sigma_tau.svg").read_text().lstrip().startswith("<?xml")
+    assert (out / "series.svg").is_file()
+
+
+def test_json_is_strict_and_complete(log, tmp_path):
+    result = _invoke(["analyze", str(log), "--out", str(tmp_path / "j"), "--json"])
+    assert result.exit_code == 0, result.output
+
+    def no_constants(name):
+        raise ValueError(f"non-strict JSON constant {name}")
+
+    data = json.loads(result.stdout, parse_constant=no_constants)
+    for name in (
+        "tool",
+        "analysis_time",
+        "input",
+        "preparation",
+        "settings",
+        "settings_hash",
+        "offset_drift",
+        "power_law_model",
+        "statistics",
+        "table",
+    ):
+        assert name in data, name
+    assert set(SUMMARY_FIELDS) <= set(data)
+    assert data["tool"]["name"] == "stability"
+    assert len(data["input"]["sha256"]) == 64
+    assert {row["statistic"] for row in data["table"]} == {"oadev", "mdev"}
+    assert set(data["table"][0]) == set(COLUMNS)
+    # the written summary is the printed one
+    written = json.loads((tmp_path / "j" / "summary.json").read_text())
+    assert written["settings_hash"] == data["settings_hash"]
+
+
+def test_settings_hash_follows_settings(log, tmp_path):
+    def hash_of(*extra):
+        result = _invoke(["analyze", str(log), "--out", str(tmp_path / "h"), "--json", *extra])
+        assert result.exit_code == 0, result.output
+        return json.loads(result.stdout)["settings_hash"]
+
+    first = hash_of()
+    assert hash_of() == first
+    assert hash_of("--confidence", "0.95") != first
+
+
+def test_bad_inputs_exit_1_with_one_line(log, tmp_path):
+    empty = tmp_path / "empty.csv"
+    empty.write_text("")
+    header_only = tmp_path / "header.csv"
+    header_only.write_text("time,frequency_hz\n")
+    single = tmp_path / "single.csv"
+    single.write_text("time,frequency_hz\n2026-01-01T00:00:00Z,10000000.001\n")
+    junk = tmp_path / "junk.bin"
+    junk.write_bytes(bytes(np.random.default_rng(3).integers(0, 256, 4096, dtype=np.uint8)))
+    cases = {
+        "missing file": [str(tmp_path / "missing.csv")],
+        "folder": [str(tmp_path)],
+        "empty file": [str(empty)],
+        "header only": [str(header_only)],
+        "single row": [str(single)],
+        "binary junk": [str(junk)],
+        "unknown statistic": [str(log), "--stats", "oadev,nosuchdev"],
+        "bad taus": [str(log), "--taus", "1,ten"],
+        "tau not multiple": [str(log), "--taus", "1.5"],
+        "bad confidence": [str(log), "--confidence", "1.5"],
+        "bad outliers": [str(log), "--outliers", "many"],
+        "bad drift": [str(log), "--drift", "cubic"],
+        "bad plot format": [str(log), "--plot-format", "gif"],
+    }
+    for what, args in cases.items():
+        result = _invoke(["analyze", *args, "--out", str(tmp_path / "o")])
+        line = _one_error_line(result)
+        assert len(line) < 400, (what, line)
+    # the message names the problem
+    result = _invoke(["analyze", str(log), "--stats", "nosuchdev", "--out", str(tmp_path / "o")])
+    assert "nosuchdev" in _one_error_line(result)
+    result = _invoke(["analyze", str(tmp_path / "missing.csv")])
+    assert "missing.csv" in _one_error_line(result)
+
+
+def test_usage_errors_exit_2(log):
+    result = _invoke(["analyze", str(log), "--no-such-option"])
+    assert result.exit_code == 2, result.output
+    result = _invoke(["analyze"])
+    assert result.exit_code == 2, result.output
+    result = _invoke(["analyze", str(log), "--confidence", "high"])
+    assert result.exit_code == 2, result.output
+
+
+def test_debug_shows_traceback(tmp_path):
+    result = _invoke(["analyze", str(tmp_path / "missing.csv"), "--debug"])
+    assert result.exit_code == 1
+    assert "Traceback" in result.output
+    assert "error: " in result.output
+
+
+def test_version():
+    import stability
+
+    result = _invoke(["--version"])
+    assert result.exit_code == 0, result.output
+    assert result.output.strip() == f"stability {stability.__version__}"
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_help_has_an_example(command):
+    result = _invoke([command, "--help"])
+    assert result.exit_code == 0, result.output
+    assert "Example:" in result.output
+    assert f"stability {command}" in result.output
+
+
+def _installed_command() -> list[str]:
+    script = Path(sys.executable).parent / "stability"
+    if script.is_file():
+        return [str(script)]
+    return [sys.executable, "-c", "from cli.main import app; app()"]
+
+
+def test_subprocess_run(log, tmp_path):
+    out = tmp_path / "sub"
+    done = subprocess.run(
+        [*_installed_command(), "analyze", str(log), "--out", str(out), "--stats", "oadev"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert done.returncode == 0, done.stderr
+    assert "oadev" in done.stdout
+    assert (out / "table.csv").is_file()
