@@ -167,7 +167,7 @@ def analyze(
     *,
     qualify: bool = True,
     f_h: float | None = None,
-    offset_frequency: Any = None,
+    offset_source: Measurement | None = None,
 ) -> StabilityTable:
     """Estimate the requested statistics of a measurement.
 
@@ -186,9 +186,9 @@ def analyze(
         power-law model and the offset and drift (default True).
     f_h
         High cut-off frequency of the power-law model in Hz (default 1/(2 tau0)).
-    offset_frequency
-        Fractional frequency whose offset and drift are reported (default:
-        the measurement's own); pass the data before drift removal.
+    offset_source
+        The measurement whose frequency offset and drift are reported
+        (default: the analysed one); pass the data before drift removal.
 
     Returns
     -------
@@ -214,5 +214,5 @@ def analyze(
     if qualify:
         from .qualify import qualify as qualify_table
 
-        qualify_table(table, f_h=f_h, frequency=offset_frequency)
+        qualify_table(table, f_h=f_h, offset_source=offset_source)
     return table

@@ -71,6 +71,7 @@ from __future__ import annotations
 
 import math
 import warnings
+import weakref
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -97,6 +98,7 @@ __all__ = [
     "rn_noise_id",
     "ACF_MIN_POINTS",
     "ACF_MAX_POINTS",
+    "remember",
     "B1_MIN_AVERAGES",
 ]
 
@@ -305,6 +307,55 @@ def lag1_acf_noise_id(
 _EXPECT_MAX_M = 1024
 
 
+#: Per phase array (by identity, dropped when the array dies): its frequency and
+#: the Allan / modified Allan variances already computed, so that qualifying
+#: several statistics of one record does each only once.
+_MEMO: dict[int, tuple[weakref.ref, dict[Any, Any]]] = {}
+
+
+def _memo(x: np.ndarray) -> dict[Any, Any]:
+    key = id(x)
+    entry = _MEMO.get(key)
+    if entry is not None and entry[0]() is x:
+        return entry[1]
+    memo: dict[Any, Any] = {}
+    try:
+        ref = weakref.ref(x, lambda _r, key=key: _MEMO.pop(key, None))
+    except TypeError:  # cannot be weakly referenced: no memo
+        return memo
+    _MEMO[key] = (ref, memo)
+    return memo
+
+
+def _memo_stat(x: np.ndarray, seg: np.ndarray | None, tau0: float, m: int, func: Any) -> tuple:
+    memo = _memo(x)
+    key = (func.__name__, id(seg), tau0, m)
+    if key not in memo:
+        memo[key] = func(x, tau0, m, seg)
+    return memo[key]
+
+
+def remember(measurement: Measurement, statistic: str, m: int, value: float, terms: int) -> None:
+    """Record an OADEV or MDEV already computed for ``measurement`` so B1 and R(n) reuse it."""
+    func = {"oadev": oadev, "mdev": mdev}.get(statistic)
+    if func is None:
+        return
+    key = (func.__name__, id(measurement.segments), measurement.tau0, int(m))
+    _memo(measurement.phase)[key] = (float(value), int(terms))
+
+
+def _frequency(x: np.ndarray, seg: np.ndarray | None, tau0: float) -> np.ndarray:
+    memo = _memo(x)
+    key = ("frequency", id(seg), tau0)
+    if key not in memo:
+        y = np.diff(x) / tau0
+        if seg is not None:
+            y[np.diff(seg) != 0] = np.nan
+        y.flags.writeable = False
+        memo[key] = y
+    return memo[key]
+
+
 @lru_cache(maxsize=4096)
 def expected_acf_estimate(alpha: int, d: int, m: int, span: int) -> float:
     """Expected lag-1 estimate p (alpha scale) for noise ``alpha`` seen at averaging factor m.
@@ -453,7 +504,7 @@ def _b1_rn(
     resid = _detrend(yb, 1)
     if float(np.sqrt(np.mean(resid * resid))) <= _DEGENERATE_RTOL * scale:
         return None  # exactly linear frequency (pure drift): no noise to identify
-    adev_value, used = oadev(x, tau0, m, seg)
+    adev_value, used = _memo_stat(x, seg, tau0, m, oadev)
     if used == 0 or not math.isfinite(adev_value) or adev_value <= 0.0:
         return None
     avar = adev_value * adev_value
@@ -462,7 +513,7 @@ def _b1_rn(
         return None
     if mu != -2:
         return -mu - 1, "b1"
-    mdev_value, used = mdev(x, tau0, m, seg)
+    mdev_value, used = _memo_stat(x, seg, tau0, m, mdev)
     if used == 0 or not math.isfinite(mdev_value):
         return None
     alpha = rn_noise_id(mdev_value * mdev_value / avar, m)
@@ -522,9 +573,7 @@ def identify(
     notes: list[str] = []
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        y = np.diff(x) / tau0
-        if seg is not None:
-            y[np.diff(seg) != 0] = np.nan
+        y = _frequency(x, seg, tau0)
         for i, m in enumerate(int(v) for v in m_arr):
             yb = None
             if unbroken:

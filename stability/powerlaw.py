@@ -56,6 +56,7 @@ __all__ = [
     "fit_power_law",
     "OffsetDrift",
     "offset_and_drift",
+    "offset_and_drift_of",
     "model_from_levels",
 ]
 
@@ -288,16 +289,27 @@ def offset_and_drift(y: np.ndarray, tau0: float, model: PowerLawModel | None) ->
     white frequency noise.
     """
     y = np.asarray(y, dtype=float)
-    t = np.arange(y.size, dtype=float) * tau0
     ok = np.isfinite(y)
-    if ok.sum() < 3:
+    count = int(ok.sum())
+    if count < 3:
         return OffsetDrift(math.nan, math.nan, math.nan, math.nan, 0.0, "too few samples")
-    t, yy = t[ok], y[ok]
-    span = float(t[-1] - t[0]) + tau0
-    offset = float(np.mean(yy))
-    tc = t - t.mean()
-    sxx = float(tc @ tc)
-    slope = float(tc @ (yy - offset)) / sxx if sxx > 0 else math.nan
+    # Sums over the sample index k (time t = k tau0) without building a time array
+    # per sample beyond one index vector: offset = mean(y), slope from the centred
+    # cross sum (ordinary least squares).
+    k = np.arange(y.size, dtype=np.float64)
+    if count == y.size:
+        yy, kk = y, k
+    else:
+        yy, kk = y[ok], k[ok]
+    offset = float(yy.mean())
+    k_mean = float(kk.mean())
+    skk = float(np.einsum("i,i->", kk, kk)) - count * k_mean * k_mean
+    # sum k (y - mean) equals the centred cross sum and keeps its digits under a
+    # large offset.
+    sky = float(np.einsum("i,i->", kk, yy - offset))
+    sxx = skk * tau0 * tau0
+    slope = sky / skk / tau0 if skk > 0 else math.nan
+    span = float(kk[-1] - kk[0]) * tau0 + tau0
     if model is not None and any(v > 0 for v in model.h.values()):
         u_offset = float(model.deviation(span))
         u_slope = math.sqrt(max(_slope_variance(model, span), 0.0))
@@ -306,9 +318,9 @@ def offset_and_drift(y: np.ndarray, tau0: float, model: PowerLawModel | None) ->
             "drift: least-squares slope, variance integrated over the noise-model spectrum"
         )
     else:
-        resid = yy - offset - slope * tc
+        resid = yy - offset - slope * tau0 * (kk - k_mean)
         dof = max(1, yy.size - 2)
-        s2 = float(resid @ resid) / dof
+        s2 = float(np.einsum("i,i->", resid, resid)) / dof
         u_offset = math.sqrt(s2 / yy.size)
         u_slope = math.sqrt(s2 / sxx) if sxx > 0 else math.nan
         method = "ordinary least squares (assumes white frequency noise; no noise model)"
@@ -332,3 +344,39 @@ def model_from_levels(levels: Mapping[int, float], f_h: float) -> PowerLawModel:
             raise InputError(f"h_{a} must be a non-negative number, got {v!r}")
         h[int(a)] = float(v)
     return PowerLawModel(h=h, u_h=dict.fromkeys(ALPHAS, math.nan), f_h=f_h, tau_range=(0.0, 0.0))
+
+
+def offset_and_drift_of(measurement: Any, model: PowerLawModel | None) -> OffsetDrift:
+    """:func:`offset_and_drift` of a measurement's fractional frequency.
+
+    For an unbroken record the sums come from the phase directly, in one pass
+    and without forming the frequency: with y_k = (x_{k+1} - x_k)/tau0 for
+    k = 0..M-1, summation by parts gives
+    sum k y_k = [(M - 1) x_M - sum_{j=1}^{M-1} x_j] / tau0 and mean(y) =
+    (x_M - x_0) / (M tau0), to which the removed offset is added back.
+    """
+    x = measurement.phase
+    tau0 = measurement.tau0
+    if measurement.has_gaps or x.size < 4:
+        return offset_and_drift(measurement.frequency(), tau0, model)
+    count = x.size - 1
+    offset = float(x[-1] - x[0]) / (count * tau0) + measurement.frequency_offset
+    k_mean = (count - 1) / 2.0
+    skk = count * (count * count - 1) / 12.0  # sum (k - mean)^2 over k = 0..M-1
+    sum_ky = ((count - 1) * float(x[-1]) - float(np.sum(x[1:-1]))) / tau0
+    sky = sum_ky - k_mean * (float(x[-1] - x[0]) / tau0)
+    slope = sky / skk / tau0
+    span = count * tau0
+    if model is not None and any(v > 0 for v in model.h.values()):
+        return OffsetDrift(
+            offset=offset,
+            u_offset=float(model.deviation(span)),
+            drift_per_day=slope * _DAY,
+            u_drift_per_day=math.sqrt(max(_slope_variance(model, span), 0.0)) * _DAY,
+            span_s=span,
+            method=(
+                "offset: Allan deviation of the noise model at the record length; "
+                "drift: least-squares slope, variance integrated over the noise-model spectrum"
+            ),
+        )
+    return offset_and_drift(measurement.frequency(), tau0, model)

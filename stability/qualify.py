@@ -25,8 +25,8 @@ from .confidence import bias_factor, chi2_interval, edf_for
 from .deviations.registry import get_statistic
 from .errors import StabilityError, StabilityWarning
 from .measurement import Measurement
-from .noise import identify
-from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift
+from .noise import identify, remember
+from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift_of
 from .table import NOISE_LABELS, StabilityTable, StatisticResult
 
 __all__ = ["qualify", "qualify_result", "effective_points", "model_curve", "row_points"]
@@ -160,16 +160,22 @@ def _model_curve(
 
 
 def qualify(
-    table: StabilityTable, *, f_h: float | None = None, frequency: np.ndarray | None = None
+    table: StabilityTable,
+    *,
+    f_h: float | None = None,
+    offset_source: Measurement | None = None,
 ) -> StabilityTable:
     """Qualify every statistic of ``table`` and add the model, offset and drift (in place).
 
-    ``frequency`` is the fractional frequency whose offset and drift are
-    reported (default: the measurement's own, i.e. after any drift removal).
+    ``offset_source`` is the measurement whose frequency offset and drift are
+    reported (default: the analysed one, i.e. after any drift removal).
     """
     measurement = table.measurement
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
+        for result in table:
+            for m, dev, terms in zip(result.m, result.deviation, result.n_terms, strict=True):
+                remember(measurement, result.statistic, int(m), float(dev), int(terms))
         for result in table:
             qualify_result(result, measurement, table.confidence)
         f_h = 1.0 / (2.0 * measurement.tau0) if f_h is None else float(f_h)
@@ -181,8 +187,8 @@ def qualify(
             stacklevel=2,
         )
     table.extras["power_law_model"] = model
-    y = measurement.frequency() if frequency is None else np.asarray(frequency, dtype=float)
-    table.extras["offset_drift"] = offset_and_drift(y, measurement.tau0, model)
+    source = measurement if offset_source is None else offset_source
+    table.extras["offset_drift"] = offset_and_drift_of(source, model)
     table.extras["bias_corrected"] = [r.statistic for r in table if r.bias_corrected]
     table.settings.setdefault("f_h_hz", f_h)
     return table

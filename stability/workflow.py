@@ -149,7 +149,7 @@ def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> A
         taus=taus,
         confidence=ana_opts.get("confidence", 0.683),
         f_h=ana_opts.get("f_h"),
-        offset_frequency=None if before is None else before.frequency(),
+        offset_source=before,
     )
     settings = {
         **{k: (str(v) if v is not None else None) for k, v in read_opts.items()},
