@@ -79,8 +79,7 @@ from numbers import Integral, Real
 from typing import Any
 
 import numpy as np
-from scipy.special import comb
-from scipy.stats import chi2
+from scipy.special import chdtri, comb
 
 from .errors import InputError
 from .table import ConfidenceInterval
@@ -613,8 +612,10 @@ def chi2_interval(deviation: Any, edf: Any, confidence: float = 0.683) -> Confid
     p = 1.0 - level
     good = np.isfinite(s) & (s >= 0) & np.isfinite(nu) & (nu > 0)
     nu_ok = np.where(good, nu, 1.0)
-    upper_q = chi2.ppf(1.0 - p / 2.0, nu_ok)
-    lower_q = chi2.ppf(p / 2.0, nu_ok)
+    # chdtri(nu, q) is the chi-squared quantile with upper-tail probability q,
+    # i.e. chi2.ppf(1 - q, nu), without importing scipy.stats.
+    upper_q = chdtri(nu_ok, p / 2.0)
+    lower_q = chdtri(nu_ok, 1.0 - p / 2.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         low = s * np.sqrt(nu_ok / upper_q)
         high = s * np.sqrt(nu_ok / lower_q)

@@ -447,7 +447,7 @@ def _combine(
     confidence: float,
 ) -> tuple[np.ndarray, ...]:
     """Satterthwaite EDF, interval and status of every oscillator at every tau."""
-    from scipy.stats import norm
+    from scipy.special import ndtri
 
     estimate = coefs @ variances  # (osc, tau)
     parts = coefs[:, :, None] * variances[None, :, :]  # c_k v_k: (osc, pair, tau)
@@ -469,7 +469,7 @@ def _combine(
             lo, hi = chi2_interval(deviation[good], edf[good], confidence)
             low[good] = np.asarray(lo, dtype=float)
             high[good] = np.asarray(hi, dtype=float)
-    z = float(norm.ppf(0.5 + confidence / 2.0))
+    z = float(ndtri(0.5 + confidence / 2.0))
     resolution = np.sqrt(z * spread)
     # No oscillator is noisier than a difference it takes part in: the smallest upper
     # bound (or, without intervals, deviation) of its pairs caps every upper bound.

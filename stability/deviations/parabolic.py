@@ -29,12 +29,18 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import signal as _signal
 
 from ._kernels import dot, is_unbroken
 from .allan import oadev
 
 __all__ = ["pdev"]
+
+
+def _scipy_signal():
+    """scipy.signal, imported on first use (its import costs about a second)."""
+    from scipy import signal
+
+    return signal
 
 
 def pdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
@@ -49,7 +55,7 @@ def pdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
     d = x[: n - m] - x[m:]  # d_t = x_t - x_{t+m}
     weights = (m - 1) / 2.0 - np.arange(m)
     if is_unbroken(x, seg):
-        inner = _signal.oaconvolve(d, weights[::-1], mode="valid")[:count]
+        inner = _scipy_signal().oaconvolve(d, weights[::-1], mode="valid")[:count]
         total, used = dot(inner, inner), count
     else:
         # Term i touches x_i .. x_{i+2m-1}: usable when all are finite and in one segment.
@@ -58,9 +64,9 @@ def pdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
         ok = (cbad[2 * m : 2 * m + count] - cbad[:count]) == 0
         if seg is not None:
             ok &= seg[:count] == seg[2 * m - 1 : 2 * m - 1 + count]
-        inner = _signal.oaconvolve(np.where(np.isfinite(d), d, 0.0), weights[::-1], mode="valid")[
-            :count
-        ]
+        inner = _scipy_signal().oaconvolve(
+            np.where(np.isfinite(d), d, 0.0), weights[::-1], mode="valid"
+        )[:count]
         good = inner[ok]
         total, used = dot(good, good), int(good.size)
     if used == 0:

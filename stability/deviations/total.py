@@ -48,12 +48,18 @@ import math
 
 import numpy as np
 from scipy import fft as _fft
-from scipy import signal as _signal
 
 from ._kernels import comb_sum_squares, dot, is_unbroken
 from .hadamard import ohdev
 
 __all__ = ["totdev", "mtot", "ttot", "htot"]
+
+
+def _scipy_signal():
+    """scipy.signal, imported on first use (its import costs about a second)."""
+    from scipy import signal
+
+    return signal
 
 
 def _edge_terms(x: np.ndarray, seg: np.ndarray | None, m: int) -> np.ndarray:
@@ -118,7 +124,7 @@ def _cross_lags(a: np.ndarray, b: np.ndarray, lags: int) -> np.ndarray:
     """r[L] = sum_t a[t] b[t+L] for L = 0 .. lags-1 (a and b of one length)."""
     if a.size == 0 or lags <= 0:
         return np.zeros(max(lags, 0))
-    full = _signal.correlate(b, a, mode="full")
+    full = _scipy_signal().correlate(b, a, mode="full")
     out = full[a.size - 1 : a.size - 1 + lags]
     if out.size < lags:
         out = np.concatenate((out, np.zeros(lags - out.size)))
@@ -127,7 +133,7 @@ def _cross_lags(a: np.ndarray, b: np.ndarray, lags: int) -> np.ndarray:
 
 def _sliding_dot(v: np.ndarray, kernel: np.ndarray) -> np.ndarray:
     """sum_a kernel[a] v[s + a] for every s (valid positions)."""
-    return _signal.oaconvolve(v, kernel[::-1], mode="valid")
+    return _scipy_signal().oaconvolve(v, kernel[::-1], mode="valid")
 
 
 def _stride2_cumsum(h: np.ndarray, top: int) -> np.ndarray:
@@ -223,9 +229,9 @@ class _ReflectedForm:
         sig = np.arange(2 * w - 3)
         h2s = h2_at(sig)
         if head.size:
-            han += dot(h2s, _signal.fftconvolve(head, head))
+            han += dot(h2s, _scipy_signal().fftconvolve(head, head))
             han -= float(np.sum(mult * upper * r_head))
-            han -= dot(h2s, _signal.fftconvolve(tail, tail))
+            han -= dot(h2s, _scipy_signal().fftconvolve(tail, tail))
             han += float(np.sum(mult * lower * r_tail))
         # Trend removal: v0_s = v_s - b_s, b_s = slope . v_s.
         b = _sliding_dot(v, self.slope)
