@@ -22,6 +22,7 @@ import hashlib
 import math
 import os
 import re
+import threading
 import warnings
 from dataclasses import dataclass, field
 from typing import Any
@@ -375,10 +376,34 @@ def _progress(src: RawSource, hints: _Hints):
     return Progress(transient=True)
 
 
+class _Hasher(threading.Thread):
+    """SHA-256 of a file on a second thread: hashlib releases the GIL on large
+    blocks, so hashing overlaps with parsing instead of adding a pass."""
+
+    def __init__(self, path: str) -> None:
+        super().__init__(daemon=True)
+        self.path = path
+        self.digest: str | None = None
+        self.error: OSError | None = None
+        self.start()
+
+    def run(self) -> None:
+        try:
+            self.digest = _sha256(self.path)
+        except OSError as exc:  # reported when the digest is asked for
+            self.error = exc
+
+    def result(self) -> str:
+        self.join()
+        if self.error is not None:
+            raise self.error
+        return str(self.digest)
+
+
 def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, LogReport]:
     src = open_source(path)
     rep = LogReport(path=str(path), size_bytes=src.size)
-    rep.sha256 = _sha256(str(path))
+    hasher = _Hasher(str(path))
     rep.container, rep.member = src.container, src.member
     rep.encoding, rep.line_endings = src.encoding, src.line_endings
     d = sniff_dialect(src)
@@ -571,10 +596,12 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
         )
     rep.rows_read = data_rows
     # ---------------------------------------------------------------- keep data rows only
+    all_rows = bool(keep_rows.all())
     rows = np.flatnonzero(keep_rows)
-    lines = lines[rows]
-    values = values[rows]
-    bad = bad[rows]
+    if not all_rows:
+        lines = lines[rows]
+        values = values[rows]
+        bad = bad[rows]
     delta = None
     ref_text = None
     if exact:
@@ -594,7 +621,8 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
     n_grid = values.size
     position = np.arange(values.size)
     if plan.time_fmt is not None:
-        ticks = ticks[rows]
+        if not all_rows:
+            ticks = ticks[rows]
         first = 0
         seconds, start = ts.to_seconds(ticks, plan.time_fmt, first)
         rep.time_column = " + ".join(display[c] for c in plan.time_cols)
@@ -627,10 +655,11 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
         if oi.size:
             rep.note(f"{oi.size} sample(s) lie off the grid by more than 10% of tau0.")
         keep = grid.keep
-        lines, values, bad = lines[keep], values[keep], bad[keep]
-        if delta is not None:
-            delta = delta[keep]
-        seconds = seconds[keep]
+        if grid.duplicates.size:  # otherwise every row is kept
+            lines, values, bad = lines[keep], values[keep], bad[keep]
+            if delta is not None:
+                delta = delta[keep]
+            seconds = seconds[keep]
         position = grid.position
         n_grid = grid.size
         rep.gaps_inserted = [
@@ -739,6 +768,7 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
     if rep.junk_line_count:
         rep.note(f"{rep.junk_line_count} line(s) that are not data rows skipped.")
     rep.note(f"Values read as {vk.kind} in {vk.unit or 'no unit'} ({vk.reason}).")
+    rep.sha256 = hasher.result()
     meta = dict(
         nominal=nominal,
         start=start,
