@@ -45,7 +45,6 @@ from typing import IO, Any
 import matplotlib
 import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
-from matplotlib.backends.backend_pdf import PdfPages
 from matplotlib.figure import Figure
 
 from ..errors import InputError
@@ -502,6 +501,9 @@ def _save_pdf(pages: list[Figure], handle: IO[bytes], record: dict[str, Any]) ->
         "CreationDate": when,
     }
     # TrueType fonts keep the text extractable and searchable.
+    # The PDF backend is imported here: it costs a noticeable part of start-up.
+    from matplotlib.backends.backend_pdf import PdfPages
+
     with matplotlib.rc_context({"pdf.fonttype": 42}):
         with PdfPages(handle, metadata=metadata) as pdf:
             for fig in pages:
