@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
 
 import typer
 
@@ -12,42 +11,28 @@ from stability.reports.tables import terminal_table
 from stability.workflow import AnalysisRun, run_analysis, write_analysis
 
 from .common import (
+    AverageOpt,
     ColumnOpt,
     ConfidenceOpt,
     DebugOpt,
+    DriftOpt,
     JsonOpt,
     KindOpt,
     LogArg,
     NominalOpt,
+    OutliersOpt,
     OutOpt,
+    PlotFormatOpt,
     StatsOpt,
     StrictOpt,
     Tau0Opt,
     TausOpt,
     TimeColumnOpt,
+    WrapOpt,
     handle_errors,
     outliers_value,
 )
 from .main import app
-
-OutliersOpt = Annotated[
-    str,
-    typer.Option("--outliers", help="Outlier threshold in robust sigmas, or 'off'."),
-]
-DriftOpt = Annotated[
-    str,
-    typer.Option("--drift", help="Drift model removed first: none, linear, quadratic or log."),
-]
-AverageOpt = Annotated[
-    int, typer.Option("--average", help="Average N adjacent samples first (longer tau0).")
-]
-WrapOpt = Annotated[
-    str | None,
-    typer.Option("--wrap", help="Unwrap time-interval readings that jump by this period."),
-]
-PlotFormatOpt = Annotated[
-    str, typer.Option("--plot-format", help="Plot file format: png, svg or pdf.")
-]
 
 
 def summary_block(run: AnalysisRun) -> str:

@@ -65,6 +65,23 @@ JsonOpt = Annotated[
     bool, typer.Option("--json", help="Print the machine-readable summary to standard output.")
 ]
 DebugOpt = Annotated[bool, typer.Option("--debug", help="Show the full traceback of an error.")]
+OutliersOpt = Annotated[
+    str, typer.Option("--outliers", help="Outlier threshold in robust sigmas, or 'off'.")
+]
+DriftOpt = Annotated[
+    str,
+    typer.Option("--drift", help="Drift model removed first: none, linear, quadratic or log."),
+]
+AverageOpt = Annotated[
+    int, typer.Option("--average", help="Average N adjacent samples first (longer tau0).")
+]
+WrapOpt = Annotated[
+    str | None,
+    typer.Option("--wrap", help="Unwrap time-interval readings that jump by this period."),
+]
+PlotFormatOpt = Annotated[
+    str, typer.Option("--plot-format", help="Plot file format: png, svg or pdf.")
+]
 
 
 def fail(message: str) -> None:

@@ -6,7 +6,6 @@ The command only calls :func:`stability.ingest.inspect_log` and prints its repor
 from __future__ import annotations
 
 import json
-from typing import Annotated
 
 import typer
 
@@ -22,18 +21,12 @@ from .common import (
     StrictOpt,
     Tau0Opt,
     TimeColumnOpt,
+    WrapOpt,
     handle_errors,
 )
 from .main import app
 
 __all__ = ["inspect"]
-
-WrapOpt = Annotated[
-    str | None,
-    typer.Option(
-        "--wrap", help="Wrap-around period of time-interval readings, e.g. 1s (default 1 s)."
-    ),
-]
 
 
 @app.command("inspect")

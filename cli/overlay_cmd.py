@@ -41,18 +41,22 @@ from stability.reports.tables import table_csv, table_markdown, terminal_table
 from stability.workflow import PLOT_FORMATS, AnalysisRun, run_analysis
 
 from . import main as _app_first  # noqa: F401  (the app and analyze load first)
-from .analyze_cmd import AverageOpt, DriftOpt, OutliersOpt, PlotFormatOpt, WrapOpt
 from .common import (
+    AverageOpt,
     ColumnOpt,
     ConfidenceOpt,
     DebugOpt,
+    DriftOpt,
     JsonOpt,
     KindOpt,
     NominalOpt,
+    OutliersOpt,
+    PlotFormatOpt,
     StrictOpt,
     Tau0Opt,
     TausOpt,
     TimeColumnOpt,
+    WrapOpt,
     handle_errors,
     outliers_value,
 )

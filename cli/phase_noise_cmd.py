@@ -47,8 +47,10 @@ from .common import (
     ColumnOpt,
     ConfidenceOpt,
     DebugOpt,
+    DriftOpt,
     JsonOpt,
     KindOpt,
+    OutliersOpt,
     OutOpt,
     StrictOpt,
     Tau0Opt,
@@ -96,12 +98,6 @@ BeyondOpt = Annotated[
 CompareOpt = Annotated[
     Path | None,
     typer.Option("--compare", help="A measured log to analyse and draw beside the conversion."),
-]
-OutliersOpt = Annotated[
-    str, typer.Option("--outliers", help="Outlier threshold (for --compare), or 'off'.")
-]
-DriftOpt = Annotated[
-    str, typer.Option("--drift", help="Drift model removed from the --compare log.")
 ]
 
 _GRID_NAMES = ("octave", "decade")

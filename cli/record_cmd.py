@@ -22,9 +22,11 @@ from stability.workflow import run_analysis, write_analysis
 from .common import (
     ColumnOpt,
     DebugOpt,
+    DriftOpt,
     KindOpt,
     LogArg,
     NominalOpt,
+    OutliersOpt,
     OutOpt,
     StatsOpt,
     StrictOpt,
@@ -51,12 +53,6 @@ RecordConfidenceOpt = Annotated[
         "--confidence",
         help="Confidence level of the intervals (default: the specification's own).",
     ),
-]
-OutliersOpt = Annotated[
-    str, typer.Option("--outliers", help="Outlier threshold in robust sigmas, or off.")
-]
-DriftOpt = Annotated[
-    str, typer.Option("--drift", help="Drift model removed: none, linear, quadratic or log.")
 ]
 ForceOpt = Annotated[
     bool, typer.Option("--force", help="Overwrite an existing record.pdf and record.json.")

@@ -36,9 +36,11 @@ from .common import (
     ColumnOpt,
     ConfidenceOpt,
     DebugOpt,
+    DriftOpt,
     JsonOpt,
     KindOpt,
     NominalOpt,
+    OutliersOpt,
     OutOpt,
     StatsOpt,
     StrictOpt,
@@ -82,13 +84,6 @@ PairsOpt = Annotated[
         "--pairs",
         help="Which pair each log is, in log order, e.g. A-B,B-C,C-A (log = first - second).",
     ),
-]
-OutliersOpt = Annotated[
-    str, typer.Option("--outliers", help="Outlier threshold in robust sigmas, or 'off'.")
-]
-DriftOpt = Annotated[
-    str,
-    typer.Option("--drift", help="Drift model removed first: none, linear, quadratic or log."),
 ]
 
 

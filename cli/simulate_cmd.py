@@ -1,7 +1,7 @@
 """``stability simulate OUT.csv``: write a log of simulated power-law noise.
 
 Noise levels are given as the Allan deviation each noise type alone would have
-at the averaging time ``--at`` (NIST SP 1065 table 5 [1]_), turned into h_alpha
+at the averaging time ``--at`` (NIST SP 1065 [1]_), turned into h_alpha
 with :func:`stability.simulate.h_from_deviation` (high-frequency cut-off
 f_h = 1/(2 tau0) for the phase noises), and generated with
 :func:`stability.simulate.simulate` (Kasdin and Walter's filter [2]_).
@@ -15,7 +15,7 @@ every binary64 value exactly [4]_.
 References
 ----------
 .. [1] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065
-   (2008), section 5.2, table 5 (Allan variance of the power-law noises).
+   (2008), section 5.2 (Allan variance of the power-law noises).
 .. [2] N. J. Kasdin, T. Walter, "Discrete simulation of power law noise",
    Proc. 1992 IEEE Frequency Control Symposium, pp. 274-283.
 .. [3] ISO 8601-1:2019, *Date and time - Representations for information interchange*.

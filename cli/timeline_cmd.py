@@ -31,13 +31,16 @@ from stability.taus import parse_taus
 from stability.units import format_duration, parse_duration
 
 from .common import (
+    AverageOpt,
     ColumnOpt,
     ConfidenceOpt,
     DebugOpt,
+    DriftOpt,
     JsonOpt,
     KindOpt,
     LogArg,
     NominalOpt,
+    OutliersOpt,
     OutOpt,
     StrictOpt,
     Tau0Opt,
@@ -66,16 +69,6 @@ NoiseOpt = Annotated[
         "--noise",
         help="Identify the noise type in each window (window) or once for the record (record).",
     ),
-]
-OutliersOpt = Annotated[
-    str, typer.Option("--outliers", help="Outlier threshold in robust sigmas, or 'off'.")
-]
-DriftOpt = Annotated[
-    str,
-    typer.Option("--drift", help="Drift model removed first: none, linear, quadratic or log."),
-]
-AverageOpt = Annotated[
-    int, typer.Option("--average", help="Average N adjacent samples first (longer tau0).")
 ]
 
 

@@ -17,11 +17,11 @@ EDF models
   end term of its eq. (10) agree with the independent implementation in
   allantools, against which the tests check this code to 1e-6.
 * Total variance: the empirical ``edf = b T/tau - c`` of Howe [3]_, NIST SP 1065
-  [2]_ (table 11), for WFM, FFM and RWFM. No model is published for WPM or FPM:
+  [2]_ (from memory), for WFM, FFM and RWFM. No model is published for WPM or FPM:
   there the overlapping Allan EDF is used. TOTVAR has at least the EDF of OAVAR at
   the same tau [3]_, so this is a conservative fallback.
 * Modified total and time total variances: ``edf = b T/tau - c`` for all five
-  noise types [2]_ (table 12).
+  noise types [2]_ (from memory).
 * Hadamard total variance: no EDF coefficients could be confirmed here, so the
   overlapping Hadamard EDF (Greenhall, d = 3, F = m, S = m) is used. HTOT has at
   least the EDF of OHVAR at the same tau, so this is conservative.
@@ -148,7 +148,7 @@ _TABLE2 = {
 # Table 3 (unmodified, alpha = 1): sz(0) ~ b0 + b1 ln m for d = 1, 2, 3.
 _TABLE3 = ((6.0, 4.0), (15.23, 12.0), (47.8, 40.0))
 
-# NIST SP 1065 [2] table 11 (TOTVAR) and table 12 (MTOT/TTOT): alpha -> (b, c),
+# NIST SP 1065 [2] (TOTVAR and MTOT/TTOT, from memory): alpha -> (b, c),
 # edf = b * T / tau - c.
 _TOT_BC = {0: (1.50, 0.0), -1: (1.17, 0.22), -2: (0.93, 0.36)}
 _MTOT_BC = {2: (1.90, 2.10), 1: (1.20, 1.40), 0: (1.10, 1.20), -1: (0.85, 0.50), -2: (0.75, 0.31)}
@@ -722,7 +722,7 @@ def _validate_simple(alpha: Any, m: Any, n: Any) -> tuple[int, int, int]:
 def simple_oadev_edf(alpha: int, m: int, n: int) -> float:
     """The handbook's approximate EDF of the overlapping Allan variance.
 
-    Closed forms of Howe, Allan and Barnes as given in NIST SP 1065 (table 5);
+    Closed forms of Howe, Allan and Barnes as given in NIST SP 1065 (from memory);
     a quick alternative to :func:`greenhall_edf`, which is the reference. N is
     the number of phase samples.
 

@@ -38,7 +38,7 @@ works headless. :func:`save_figure` writes PNG, SVG or PDF atomically.
 References
 ----------
 .. [1] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065
-   (2008), section 5.2 (sigma-tau plots) and table 4 (slopes of the power-law noises).
+   (2008), section 5.2 (sigma-tau plots) (slopes of the power-law noises).
 .. [2] IEEE Std 1139-2008, *Definitions of Physical Quantities for Fundamental
    Frequency and Time Metrology - Random Instabilities*, annex (slopes of
    sigma_y(tau) and mod sigma_y(tau)).

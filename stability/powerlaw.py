@@ -3,7 +3,7 @@
 The one-sided spectral density of fractional frequency is modelled as
 S_y(f) = sum_alpha h_alpha f^alpha for 0 < f < f_h, alpha = 2 (WPM), 1 (FPM),
 0 (WFM), -1 (FFM), -2 (RWFM). Each term contributes to the Allan variance in
-closed form (reference 1, table 3; reference 2, table 2)::
+closed form (references 1 and 2)::
 
     WPM   AVAR = 3 f_h h2 / (4 pi^2 tau^2)
     FPM   AVAR = h1 [1.038 + 3 ln(2 pi f_h tau)] / (4 pi^2 tau^2)
@@ -28,7 +28,7 @@ exact standard deviation of the mean for white FM.
 References
 ----------
 1. W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065
-   (2008), sections 5.2.3 and 6 (table 3 of conversions).
+   (2008), sections 5.2.3 and 6 (conversions).
 2. IEEE Std 1139-2008, *Definitions of physical quantities for fundamental
    frequency and time metrology*, annex (conversions).
 3. D. B. Percival, A. T. Walden, *Spectral Analysis for Physical
@@ -66,7 +66,7 @@ _DAY = 86400.0
 
 
 def avar_kernel(alpha: int, tau: Any, f_h: float) -> np.ndarray:
-    """Allan variance per unit h_alpha at tau (NIST SP 1065 table 3)."""
+    """Allan variance per unit h_alpha at tau (NIST SP 1065)."""
     tau = np.asarray(tau, dtype=float)
     if alpha == 2:
         return 3.0 * f_h / (4.0 * math.pi**2 * tau**2)

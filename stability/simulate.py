@@ -22,7 +22,7 @@ power law (and the FFM and RWFM filters are truncated at N terms), so levels
 are best checked at mid-range tau [1]_.
 
 The closed forms relating h_alpha to the Allan variance are those of NIST
-SP 1065 table 5 and NIST TN 1337 (with f_h the high-frequency cut-off of the
+SP 1065 and NIST TN 1337 (with f_h the high-frequency cut-off of the
 measurement) [2]_ [4]_:
 
 ======  ===================================================
@@ -40,7 +40,7 @@ References
 .. [1] N. J. Kasdin, T. Walter, "Discrete simulation of power law noise",
    Proc. 1992 IEEE Frequency Control Symposium, pp. 274-283.
 .. [2] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST Special
-   Publication 1065 (2008), sections 4.1 and 5.2 (table 5) and 8 (simulation).
+   Publication 1065 (2008), sections 4.1, 5.2 and 8 (simulation).
 .. [3] IEEE Std 1139-2008, *Definitions of physical quantities for fundamental
    frequency and time metrology: random instabilities*.
 .. [4] D. B. Sullivan, D. W. Allan, D. A. Howe, F. L. Walls (eds.),
@@ -211,7 +211,7 @@ def _validate_conversion(alpha: Any, tau: Any, f_h: Any) -> tuple[int, np.ndarra
 
 # ---------------------------------------------------------------------- conversions
 def _avar_per_h(alpha: int, tau: np.ndarray, f_h: float | None) -> np.ndarray:
-    """AVAR for h_alpha = 1 (NIST SP 1065 table 5; NIST TN 1337)."""
+    """AVAR for h_alpha = 1 (NIST SP 1065; NIST TN 1337)."""
     if alpha == 2:
         return 3.0 * f_h / (4.0 * math.pi**2 * tau**2)
     if alpha == 1:
@@ -241,7 +241,7 @@ def avar_from_h(alpha: int, h: float, tau: Any, f_h: float | None = None) -> Any
     Returns
     -------
     float or numpy.ndarray
-        AVAR (dimensionless), the closed forms of NIST SP 1065 table 5.
+        AVAR (dimensionless), the closed forms of NIST SP 1065.
     """
     a, t, fh = _validate_conversion(alpha, tau, f_h)
     hv = _check_nonneg(h, "h")
@@ -254,7 +254,7 @@ def h_from_deviation(alpha: int, deviation: Any, tau: Any, f_h: float | None = N
 
     The inverse of :func:`avar_from_h`: ``h = deviation**2 / AVAR(h=1)``. For
     example white frequency noise at 1e-11 at 1 s is
-    ``h_from_deviation(0, 1e-11, 1.0)`` = 2e-22 (SP 1065 table 5: AVAR = h0/(2 tau)).
+    ``h_from_deviation(0, 1e-11, 1.0)`` = 2e-22 (SP 1065: AVAR = h0/(2 tau)).
     """
     a, t, fh = _validate_conversion(alpha, tau, f_h)
     try:

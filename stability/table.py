@@ -30,7 +30,7 @@ COLUMNS = (
     "noise_method",
 )
 
-#: Power-law exponent alpha of S_y(f) -> the usual label (IEEE 1139; NIST SP 1065 table 4).
+#: Power-law exponent alpha of S_y(f) -> the usual label (IEEE 1139; NIST SP 1065).
 NOISE_LABELS = {2: "WPM", 1: "FPM", 0: "WFM", -1: "FFM", -2: "RWFM"}
 
 

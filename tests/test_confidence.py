@@ -236,7 +236,7 @@ def test_edf_for_dispatch():
 
 
 def test_total_family_formulas():
-    # NIST SP 1065 table 11 (TOTVAR) and table 12 (MTOT/TTOT), edf = b T/tau - c with
+    # NIST SP 1065 EDF tables for TOTVAR and MTOT/TTOT (from memory), edf = b T/tau - c with
     # T/tau = (N - 1)/m ([mem] coefficients in the project's reference notes).
     n, m = 1001, 10
     ratio = (n - 1) / m
@@ -316,7 +316,7 @@ def test_edf_many_matches_loop():
 
 
 def test_simple_oadev_edf():
-    # SP 1065 table 5 closed forms vs the Greenhall algorithm for OAVAR, WFM. The closed
+    # SP 1065 closed forms vs the Greenhall algorithm for OAVAR, WFM. The closed
     # forms are empirical fits (Howe, Allan, Barnes 1981), least accurate at small m;
     # at moderate m (10..100 of N = 1000) they agree to within 10 %.
     n = 1000
@@ -324,7 +324,7 @@ def test_simple_oadev_edf():
         approx = simple_oadev_edf(0, m, n)
         exact = greenhall_edf(0, 2, m, n, F=m, S=m)
         assert approx == pytest.approx(exact, rel=0.10)
-    # The handbook's formulas, evaluated directly (SP 1065 table 5, [mem]).
+    # The handbook's formulas, evaluated directly (SP 1065, [mem]).
     assert simple_oadev_edf(2, 3, n) == pytest.approx((n + 1) * (n - 6) / (2 * (n - 3)))
     assert simple_oadev_edf(1, 3, n) == pytest.approx(
         math.exp(math.sqrt(math.log((n - 1) / 6) * math.log(7 * (n - 1) / 4)))

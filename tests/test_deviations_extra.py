@@ -90,7 +90,7 @@ def test_degenerate_arguments_give_nan():
     [(1, 75.50203, 43.59112), (2, 75.83606, 87.56794)],
 )
 def test_nbs14_mtot_ttot_from_memory(m, mtot_ref, ttot_ref):
-    bias = math.sqrt(0.73)  # MTOT WFM bias factor (SP 1065 table 11, from memory)
+    bias = math.sqrt(0.73)  # MTOT WFM bias factor (SP 1065, from memory)
     assert mtot(NBS14_X, 1.0, m)[0] / bias == pytest.approx(mtot_ref, rel=2e-7)
     assert ttot(NBS14_X, 1.0, m)[0] / bias == pytest.approx(ttot_ref, rel=2e-7)
     assert mtot(NBS14_X, 1.0, m)[1] == 10 - 3 * m + 1

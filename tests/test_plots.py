@@ -170,11 +170,11 @@ def test_single_statistic_panel_label_and_footer(tmp_path):
 
 
 def test_slope_key_matches_power_law_slopes(table):
-    # NIST SP 1065 table 4 / IEEE 1139: ADEV slopes -1 (WPM, FPM), -1/2, 0, +1/2
+    # NIST SP 1065 / IEEE 1139: ADEV slopes -1 (WPM, FPM), -1/2, 0, +1/2
     assert plots.slope_key(["oadev"])[1] == (
         (-1.0, "WPM/FPM"), (-0.5, "WFM"), (0.0, "FFM"), (0.5, "RWFM"),
     )  # fmt: skip
-    # NIST SP 1065 table 4: MDEV slopes -3/2, -1, -1/2, 0, +1/2
+    # NIST SP 1065: MDEV slopes -3/2, -1, -1/2, 0, +1/2
     assert [s for s, _ in plots.slope_key(["mdev"])[1]] == [-1.5, -1.0, -0.5, 0.0, 0.5]
     # ITU-T G.810 / NIST SP 1065: TDEV = tau MDEV / sqrt(3), so MDEV slopes + 1
     mdev_slopes = np.array([s for s, _ in plots.slope_key(["mdev"])[1]])

@@ -134,7 +134,7 @@ def test_oadev_interval_coverage_monte_carlo(alpha, level):
 
 
 def test_fitted_h0_recovers_the_simulated_level():
-    # WFM: AVAR = h0 / (2 tau) (NIST SP 1065 table 3). h0 = 2e-22 is 1e-11 at 1 s.
+    # WFM: AVAR = h0 / (2 tau) (NIST SP 1065). h0 = 2e-22 is 1e-11 at 1 s.
     h0 = 2e-22
     hits = 0
     seeds = range(10)
@@ -150,7 +150,7 @@ def test_fitted_h0_recovers_the_simulated_level():
 
 
 def test_fit_of_exact_mixture_is_exact():
-    # Closed forms of NIST SP 1065 table 3; a curve made from them is fitted exactly.
+    # Closed forms of NIST SP 1065; a curve made from them is fitted exactly.
     tau = 2.0 ** np.arange(0, 14)
     f_h = 0.5
     truth = {2: 1e-22, 0: 1e-24, -2: 1e-31}

@@ -60,7 +60,7 @@ def test_validation_names_the_parameter(call, word):
 
 # ---------------------------------------------------------------------- conversions
 def test_closed_forms_at_unit_level():
-    # NIST SP 1065 table 5 / NIST TN 1337 closed forms, evaluated by hand at tau = 2 s,
+    # NIST SP 1065 / NIST TN 1337 closed forms, evaluated by hand at tau = 2 s,
     # f_h = 0.5 Hz.
     tau, fh = 2.0, 0.5
     assert avar_from_h(0, 1.0, tau) == pytest.approx(1.0 / (2 * tau))
@@ -75,7 +75,7 @@ def test_closed_forms_at_unit_level():
 
 
 def test_wfm_at_1e11_at_one_second():
-    # SP 1065 table 5: AVAR = h0/(2 tau), so ADEV 1e-11 at 1 s means h0 = 2e-22.
+    # SP 1065: AVAR = h0/(2 tau), so ADEV 1e-11 at 1 s means h0 = 2e-22.
     assert h_from_deviation(0, 1e-11, 1.0) == pytest.approx(2e-22)
     for alpha in ALPHAS:
         h = h_from_deviation(alpha, 3e-12, 10.0, f_h=50.0)
@@ -84,7 +84,7 @@ def test_wfm_at_1e11_at_one_second():
 
 def test_white_noise_variance_derivation():
     # Kasdin & Walter 1992: S(f) = 2 Q_d tau0 (2 pi f tau0)^-beta at low f; WFM samples have
-    # variance h0/(2 tau0) (= AVAR(tau0), SP 1065 table 5); phase is tau0^2 times frequency.
+    # variance h0/(2 tau0) (= AVAR(tau0), SP 1065); phase is tau0^2 times frequency.
     assert white_noise_variance(0, 4.0, 0.5, "frequency") == pytest.approx(4.0)
     assert white_noise_variance(2, 1.0, 1.0, "phase") == pytest.approx(1 / (8 * math.pi**2))
     for alpha in ALPHAS:
@@ -94,7 +94,7 @@ def test_white_noise_variance_derivation():
 
 # ---------------------------------------------------------------------- levels
 def _oadev_edf(alpha: int, n: int, m: int) -> float:
-    """Simple OADEV EDF formulas of NIST SP 1065 table 11 (Howe, Allan, Barnes); from memory."""
+    """Simple OADEV EDF formulas of NIST SP 1065 (Howe, Allan, Barnes); from memory."""
     if alpha == 2:
         return (n + 1) * (n - 2 * m) / (2 * (n - m))
     if alpha == 1:

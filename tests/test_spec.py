@@ -3,7 +3,7 @@
 References
 ----------
 1. W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065 (2008),
-   sections 5.3 (chi-squared intervals), 5.13 (reference noise) and table 3
+   sections 5.3 (chi-squared intervals), 5.13 (reference noise)
    (Allan variance of white FM: h0 / (2 tau)).
 2. ISO/IEC 17025:2017, 7.8.6 (decision rules); JCGM 106:2012 section 8 (guarded acceptance).
 """
@@ -203,7 +203,7 @@ def test_judge_rows_at_every_boundary():
 
 
 def test_interpolation_between_measured_taus_and_limits():
-    # White FM: sigma(tau) = s tau^-1/2 (NIST SP 1065 table 3), a straight line in log-log,
+    # White FM: sigma(tau) = s tau^-1/2 (NIST SP 1065), a straight line in log-log,
     # so log-log interpolation between measured taus is exact.
     tau = np.array([1.0, 4.0, 16.0, 64.0])
     dev = 1e-11 * tau**-0.5
@@ -289,7 +289,7 @@ def test_reference_limited_on_simulated_data(ref_level, limited):
     j = judge(table, spec, reference=reference)
     for c in j.checks:
         assert c.reference_limited is limited, c
-        # device-only recovers the device level: white FM s tau^-1/2 (NIST SP 1065 table 3);
+        # device-only recovers the device level: white FM s tau^-1/2 (NIST SP 1065);
         # tolerance from the EDF at each tau (about 3 sigma of a chi-squared deviation).
         tol = 3.0 / math.sqrt(2.0 * table["oadev"].edf[table["oadev"].tau == c.tau_s][0]) + 0.02
         assert c.device_only == pytest.approx(1e-11 / math.sqrt(c.tau_s), rel=tol)
@@ -300,7 +300,7 @@ def test_reference_limited_on_simulated_data(ref_level, limited):
 
 
 def test_reference_levels_and_flat_extrapolation():
-    # WFM: AVAR = h0 / (2 tau) (NIST SP 1065 table 3), so h0 = 2 sigma^2 at tau = 1 s.
+    # WFM: AVAR = h0 / (2 tau) (NIST SP 1065), so h0 = 2 sigma^2 at tau = 1 s.
     ref = Reference(levels={0: 2 * (5e-12) ** 2})
     value, notes = ref.deviation([1.0, 100.0])
     assert value == pytest.approx([5e-12, 5e-13], rel=1e-12)

@@ -21,7 +21,7 @@ Two files are written:
 
 The noise is power-law noise made by :func:`stability.simulate.simulate` (Kasdin
 and Walter's filter [2]_), with levels set as the Allan deviation each noise
-type alone would have at 1 s (NIST SP 1065 table 5 [1]_). Every random draw comes
+type alone would have at 1 s (NIST SP 1065 [1]_). Every random draw comes
 from a fixed seed, so the files are the same byte for byte on every run (gzip is
 written with a zero time stamp).
 
@@ -32,7 +32,7 @@ Usage::
 References
 ----------
 .. [1] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST Special
-   Publication 1065 (2008), sections 5.2 (power-law noise, table 5) and 5.16
+   Publication 1065 (2008), sections 5.2 (power-law noise) and 5.16
    (frequency drift; log model of a quartz oscillator after turn-on).
 .. [2] N. J. Kasdin, T. Walter, "Discrete simulation of power law noise",
    Proc. 1992 IEEE Frequency Control Symposium, pp. 274-283.
@@ -124,7 +124,7 @@ def counter_log(hours: float = _DEFAULT_HOURS, *, seed: int = _COUNTER_SEED) -> 
     hours = _validate_hours(hours)
     n = int(round(hours * 3600))
     tau0 = 1.0
-    # Levels as the Allan deviation of each noise type alone at 1 s (SP 1065 table 5).
+    # Levels as the Allan deviation of each noise type alone at 1 s (SP 1065).
     levels = {
         0: h_from_deviation(0, 1.0e-12, 1.0),  # white FM, 1e-12 at 1 s
         -1: h_from_deviation(-1, 3.0e-13, 1.0),  # flicker FM floor, 3e-13

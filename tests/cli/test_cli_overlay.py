@@ -106,7 +106,7 @@ def test_overlay_writes_plot_and_combined_table(logs, tmp_path):
     assert len(summary["inputs"]["ocxo"]["input"]["sha256"]) == 64
     for label in ("ocxo", "rb", "maser"):
         assert label in result.output
-    # the level of each log is where it was made: OADEV(1 s) of white FM (SP 1065 table 5)
+    # the level of each log is where it was made: OADEV(1 s) of white FM (SP 1065)
     first = {r[0]: float(r[5]) for r in rows[1:] if r[1] == "oadev" and r[2] == "1.0"}
     assert first["ocxo"] == pytest.approx(1e-11, rel=0.1)
     assert first["rb"] == pytest.approx(3e-12, rel=0.1)

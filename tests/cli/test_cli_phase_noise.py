@@ -75,7 +75,7 @@ def test_white_fm_table_converts_to_h0_over_2tau(wfm_table, tmp_path):
     adev = {float(r["tau_s"]): float(r["deviation"]) for r in rows if r["statistic"] == "adev"}
     mdev = {float(r["tau_s"]): float(r["deviation"]) for r in rows if r["statistic"] == "mdev"}
     for tau in (1.0, 10.0, 100.0):
-        # WFM: AVAR = h0 / (2 tau) (NIST SP 1065 table 3; NIST TN 1337)
+        # WFM: AVAR = h0 / (2 tau) (NIST SP 1065; NIST TN 1337)
         assert math.isclose(adev[tau] ** 2, H0 / (2.0 * tau), rel_tol=1e-3)
         # WFM: MVAR = h0 / (4 tau) (NIST SP 1065; from memory)
         assert math.isclose(mdev[tau] ** 2, H0 / (4.0 * tau), rel_tol=1e-3)

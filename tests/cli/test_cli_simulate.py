@@ -51,7 +51,7 @@ def test_validation_messages(tmp_path):
 def test_wfm_level_is_read_back_by_analyze(tmp_path):
     """A pure white-FM log at 1e-11 at 10 s: analyze finds that level and calls it WFM.
 
-    For white FM the Allan deviation is sqrt(h0 / (2 tau)) (NIST SP 1065 table 5),
+    For white FM the Allan deviation is sqrt(h0 / (2 tau)) (NIST SP 1065),
     so the requested 1e-11 at --at 10 s is the true value at tau = 10 s. The check
     uses a 99 % interval: a 68 % interval leaves the true value outside one time in
     three by construction (common practice), which would make the check depend on
