@@ -107,9 +107,10 @@ def estimate(
             f"{stat.name} needs at least {stat.min_points} phase samples; "
             f"the record has {finite} usable of {n}",
         )
-    ms = tau_grid(taus, max_m, measurement.tau0, step=stat.m_step)
+    unit = measurement.tau0 * stat.tau_factor  # tau = tau_factor * m * tau0
+    ms = tau_grid(taus, max_m, unit, step=stat.m_step)
     if not isinstance(taus, str):
-        asked = tau_grid(taus, 10**18, measurement.tau0, step=stat.m_step)
+        asked = tau_grid(taus, 10**18, unit, step=stat.m_step)
         too_long = asked[asked > max_m]
         if too_long.size:
             tau = too_long[0] * measurement.tau0 * stat.tau_factor

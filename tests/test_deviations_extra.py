@@ -319,3 +319,24 @@ def test_registry_and_analyze(name, family):
     # the qualification layer may divide by a bias factor; compare the raw estimates
     raw = result.deviation if result.raw_deviation is None else result.raw_deviation
     np.testing.assert_allclose(raw, [stat.func(meas.phase, 1.0, int(m))[0] for m in ms])
+
+
+def test_theobr_refuses_records_whose_cost_would_explode():
+    # TheoBR's bias ratio needs Theo1 at ~N/30 averaging factors (NIST SP 1065 eq. 31),
+    # a cost growing as N^3: past the limit a clear error, not hours of computing.
+    from stability.deviations.theo import THEOBR_MAX_POINTS
+
+    y = np.random.default_rng(3).standard_normal(THEOBR_MAX_POINTS + 10)
+    m = stability.Measurement.from_frequency(y, 1.0)
+    with pytest.raises(stability.AnalysisError, match="average the data first"):
+        stability.analyze(m, stats="theobr", taus=[3.0], qualify=False)
+
+
+def test_explicit_taus_of_theo1_are_taken_at_three_quarters_m():
+    # Theo1 is reported at tau = 0.75 m tau0 (NIST SP 1065 eq. 30): asking for
+    # tau = 3 s at tau0 = 1 s means m = 4.
+    y = np.random.default_rng(5).standard_normal(400)
+    m = stability.Measurement.from_frequency(y, 1.0)
+    r = stability.analyze(m, stats="theo1", taus=[3.0, 6.0], qualify=False)["theo1"]
+    assert list(r.m) == [4, 8]
+    np.testing.assert_allclose(r.tau, [3.0, 6.0])

@@ -241,3 +241,10 @@ def test_gaps_reduce_the_degrees_of_freedom_to_the_terms_used():
         assert gappy[name].noise == whole[name].noise  # same model, fewer terms
         assert gappy[name].n_terms[0] < whole[name].n_terms[0]
         assert gappy[name].edf[0] < whole[name].edf[0]
+
+
+def test_every_registered_statistic_has_an_edf_model():
+    # A statistic added to the registry without an EDF model would raise in qualify.
+    from stability.confidence import EDF_STATISTICS
+
+    assert set(stability.statistic_names()) == set(EDF_STATISTICS)

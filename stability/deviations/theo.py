@@ -38,6 +38,7 @@ import math
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
+from ..errors import AnalysisError
 from ._kernels import dot, is_unbroken
 from .allan import oadev
 
@@ -109,6 +110,12 @@ def _fingerprint(x: np.ndarray, seg: np.ndarray | None) -> str:
     return digest.hexdigest()
 
 
+#: Largest record for TheoBR and ThêoH: the bias ratio needs Theo1 at about N/30
+#: averaging factors up to N/7, each O(N m), so the cost grows as N^3 (about half a
+#: minute at this size on a small machine).
+THEOBR_MAX_POINTS = 20_000
+
+
 def theobr_ratio(x: np.ndarray, seg: np.ndarray | None = None) -> float:
     """The bias-removal ratio of TheoBR (SP 1065 eq. 31; Howe, Taylor & Tasset 2006).
 
@@ -121,6 +128,12 @@ def theobr_ratio(x: np.ndarray, seg: np.ndarray | None = None) -> float:
     top = math.floor(0.1 * n_pts / 3.0 - 3.0)
     if top < 0:
         return math.nan
+    if n_pts > THEOBR_MAX_POINTS:
+        raise AnalysisError(
+            f"TheoBR's bias ratio costs time growing as N^3; {n_pts} samples would take "
+            f"hours (the limit is {THEOBR_MAX_POINTS})",
+            hint="average the data first (--average N), or use theo1, which is bias-corrected",
+        )
     key = _fingerprint(x, seg)
     if key in _RATIO_CACHE:
         return _RATIO_CACHE[key]
