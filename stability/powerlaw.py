@@ -50,8 +50,6 @@ from .errors import InputError
 __all__ = [
     "ALPHAS",
     "avar_kernel",
-    "avar_from_h",
-    "h_from_deviation",
     "PowerLawModel",
     "fit_power_law",
     "OffsetDrift",
@@ -79,19 +77,6 @@ def avar_kernel(alpha: int, tau: Any, f_h: float) -> np.ndarray:
     if alpha == -2:
         return (2.0 * math.pi**2 / 3.0) * tau
     raise InputError(f"alpha must be one of 2, 1, 0, -1, -2, got {alpha!r}")
-
-
-def avar_from_h(alpha: int, h: float, tau: Any, f_h: float) -> np.ndarray:
-    """Allan variance of the pure power-law term h_alpha f^alpha at tau."""
-    return h * avar_kernel(alpha, tau, f_h)
-
-
-def h_from_deviation(alpha: int, deviation: float, tau: float, f_h: float) -> float:
-    """h_alpha that gives Allan deviation ``deviation`` at ``tau`` for a pure power law."""
-    k = float(avar_kernel(alpha, tau, f_h))
-    if not k > 0:
-        raise InputError(f"no positive Allan variance for alpha {alpha} at tau {tau:g} s")
-    return deviation**2 / k
 
 
 @dataclass
@@ -123,7 +108,7 @@ class PowerLawModel:
         total = np.zeros_like(tau)
         for alpha, h in self.h.items():
             if h > 0:
-                total = total + avar_from_h(alpha, h, tau, self.f_h)
+                total = total + h * avar_kernel(alpha, tau, self.f_h)
         return total
 
     def deviation(self, tau: Any) -> np.ndarray:
@@ -141,7 +126,7 @@ class PowerLawModel:
 
     def dominant(self, tau: float) -> int:
         """The alpha whose term contributes most at tau."""
-        parts = {a: float(avar_from_h(a, h, tau, self.f_h)) for a, h in self.h.items()}
+        parts = {a: float(h * avar_kernel(a, tau, self.f_h)) for a, h in self.h.items()}
         return max(parts, key=parts.get)
 
     def to_dict(self) -> dict[str, Any]:

@@ -57,6 +57,7 @@ import numpy as np
 
 from .errors import InputError
 from .measurement import Measurement, Provenance
+from .powerlaw import avar_kernel
 from .table import NOISE_LABELS
 
 __all__ = [
@@ -211,16 +212,8 @@ def _validate_conversion(alpha: Any, tau: Any, f_h: Any) -> tuple[int, np.ndarra
 
 # ---------------------------------------------------------------------- conversions
 def _avar_per_h(alpha: int, tau: np.ndarray, f_h: float | None) -> np.ndarray:
-    """AVAR for h_alpha = 1 (NIST SP 1065; NIST TN 1337)."""
-    if alpha == 2:
-        return 3.0 * f_h / (4.0 * math.pi**2 * tau**2)
-    if alpha == 1:
-        return (1.038 + 3.0 * np.log(2.0 * math.pi * f_h * tau)) / (4.0 * math.pi**2 * tau**2)
-    if alpha == 0:
-        return 1.0 / (2.0 * tau)
-    if alpha == -1:
-        return np.full_like(tau, 2.0 * math.log(2.0))
-    return (2.0 * math.pi**2 / 3.0) * tau
+    """AVAR for h_alpha = 1 (NIST SP 1065; NIST TN 1337); f_h only matters for alpha 2, 1."""
+    return avar_kernel(alpha, tau, 1.0 if f_h is None else f_h)
 
 
 def avar_from_h(alpha: int, h: float, tau: Any, f_h: float | None = None) -> Any:

@@ -12,8 +12,8 @@ from scipy.stats import binomtest
 
 import stability
 from stability.confidence import edf_for
-from stability.powerlaw import avar_from_h, fit_power_law
-from stability.simulate import simulate
+from stability.powerlaw import fit_power_law
+from stability.simulate import avar_from_h, simulate
 
 # --------------------------------------------------------------------------- helpers
 
