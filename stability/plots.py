@@ -138,7 +138,7 @@ SLOPES = {
 }
 
 
-# ---------------------------------------------------------------------- helpers
+# --------------------------------------------------------------------------- shared code
 def _stat_info(name: str) -> tuple[str, str, str]:
     """(title, unit, family) of a statistic; unknown names get their upper-case form."""
     from .deviations import get_statistic

@@ -237,7 +237,7 @@ def test_edf_for_dispatch():
 
 def test_total_family_formulas():
     # NIST SP 1065 EDF tables for TOTVAR and MTOT/TTOT (from memory), edf = b T/tau - c with
-    # T/tau = (N - 1)/m ([mem] coefficients in the project's reference notes).
+    # T/tau = (N - 1)/m (coefficients from memory).
     n, m = 1001, 10
     ratio = (n - 1) / m
     assert edf_for("totdev", 0, m, n) == pytest.approx(1.50 * ratio)
@@ -255,7 +255,7 @@ def test_total_family_formulas():
 
 
 def test_theo1_formulas():
-    # Howe's Theo1 EDF with r = 0.75 m (SP 1065; [mem] in the project's reference notes).
+    # Howe's Theo1 EDF with r = 0.75 m (NIST SP 1065, from memory).
     n, m = 1000, 40
     r = 0.75 * m
     wpm = 0.86 * (n + 1) * (n - 4 * r / 3) / (n - r) * r / (r + 1.14)
@@ -324,7 +324,7 @@ def test_simple_oadev_edf():
         approx = simple_oadev_edf(0, m, n)
         exact = greenhall_edf(0, 2, m, n, F=m, S=m)
         assert approx == pytest.approx(exact, rel=0.10)
-    # The handbook's formulas, evaluated directly (SP 1065, [mem]).
+    # The handbook's formulas, evaluated directly (NIST SP 1065, from memory).
     assert simple_oadev_edf(2, 3, n) == pytest.approx((n + 1) * (n - 6) / (2 * (n - 3)))
     assert simple_oadev_edf(1, 3, n) == pytest.approx(
         math.exp(math.sqrt(math.log((n - 1) / 6) * math.log(7 * (n - 1) / 4)))
@@ -414,7 +414,7 @@ def test_chi2_interval_coverage_overlapping_allan_white_fm():
 
 
 def test_bias_factors_at_tabulated_values():
-    # NIST SP 1065 sections 5.2.11-5.2.14 ([mem] values in the project's reference notes).
+    # NIST SP 1065 sections 5.2.11-5.2.14 (all values below from memory).
     n, m = 1001, 100  # tau/T = 0.1
     assert bias_factor("totdev", 0, m, n) == 1.0
     assert bias_factor("totdev", 2, m, n) == 1.0
@@ -425,7 +425,8 @@ def test_bias_factors_at_tabulated_values():
         assert bias_factor("ttot", a, m, n) == b
     for a, b in zip(ALPHAS, (1.0, 1.0, 0.995, 0.851, 0.771), strict=True):
         assert bias_factor("htot", a, m, n) == pytest.approx(b)
-    # Theo1: AVAR/Theo1 = a + b/tau^c, tau = 0.75 m; corrected = raw / B = raw (a + b/tau^c).
+    # Theo1: AVAR/Theo1 = a + b/tau^c, tau = 0.75 m; corrected = raw / B = raw (a + b/tau^c)
+    # (NIST SP 1065, coefficients from memory).
     m = 8
     tau = 0.75 * m
     coeffs = {
@@ -457,7 +458,8 @@ def test_bias_factor_defaults_to_one():
 def test_barnes_b2():
     # At r = 1 (no dead time) the formula reduces to [4 (2^mu) - 4] / [4 (2^mu - 1)] = 1
     # for every mu, since |r - 1|^(mu+2) vanishes: a variance without dead time needs no
-    # correction (NBS TN 375). At mu = 0 the 0/0 limit gives 4 ln 2 / (4 ln 2) = 1.
+    # correction (Barnes, NBS TN 375; formula from memory). At mu = 0 the 0/0 limit gives
+    # 4 ln 2 / (4 ln 2) = 1.
     for mu in (-2.0, -1.5, -1.0, -0.5, 0.0, 0.5, 1.0, 1.9):
         assert barnes_b2(1.0, mu) == pytest.approx(1.0, rel=1e-12)
     # Closed values derived from the TN 375 formula: mu = 1 (RWFM), r >= 1:

@@ -163,14 +163,15 @@ def test_large_phase_offset_keeps_digits():
 def test_identities():
     x = _noise(400, -1, seed=7)
     for m in (1, 2, 5, 17):
-        # SP 1065 eq. 28: TTOT = tau MTOT / sqrt(3)
+        # SP 1065 eq. 28: TTOT = tau MTOT / sqrt(3) (from memory)
         assert ttot(x, 0.5, m)[0] == pytest.approx(0.5 * m * mtot(x, 0.5, m)[0] / math.sqrt(3))
     # allantools 2024.6 convention: PDEV(tau0) = ADEV(tau0)
     assert pdev(x, 1.0, 1) == oadev(x, 1.0, 1)
-    # ThêoH is the Allan deviation at tau = 0.75 m tau0 up to 10 % of the record (SP 1065 eq. 32)
+    # ThêoH is the Allan deviation at tau = 0.75 m tau0 up to 10 % of the record
+    # (SP 1065 eq. 32, from memory)
     assert theoh(x, 1.0, 8) == oadev(x, 1.0, 6)
     assert theoh(x, 1.0, 200)[0] == pytest.approx(theobr(x, 1.0, 200)[0])
-    # TheoBR = sqrt(ratio * Theo1 variance) (SP 1065 eq. 31)
+    # TheoBR = sqrt(ratio * Theo1 variance) (SP 1065 eq. 31, from memory)
     ratio = theobr_ratio(x)
     var, _ = theo1_variance(x, 1.0, 40)
     assert theobr(x, 1.0, 40)[0] == pytest.approx(math.sqrt(ratio * var), rel=1e-12)
@@ -180,7 +181,8 @@ def test_identities():
 
 
 def test_theobr_ratio_definition():
-    # SP 1065 eq. 31: mean of AVAR(9 + 3i) / Theo1(12 + 4i), i = 0 .. floor(0.1 N / 3 - 3)
+    # SP 1065 eq. 31 (from memory): mean of AVAR(9 + 3i) / Theo1(12 + 4i),
+    # i = 0 .. floor(0.1 N / 3 - 3)
     x = _noise(150, 0, seed=11)
     top = math.floor(0.1 * 150 / 3 - 3)
     want = np.mean(
@@ -201,7 +203,7 @@ def _ok(x, seg, idx):
 
 
 def _mtot_loop(u, seg, m, tau, hadamard=False):
-    """Brute force: every usable 3m-sample subsequence, SP 1065 eqs. 26 and 29."""
+    """Brute force: every usable 3m-sample subsequence, SP 1065 eqs. 26 and 29 (from memory)."""
     n = 3 * m
     total, count = 0.0, 0
     for s in range(u.size - n + 1):
@@ -227,6 +229,7 @@ def _mtot_loop(u, seg, m, tau, hadamard=False):
 
 
 def _theo1_loop(x, seg, m, tau0):
+    # Theo1 of Howe (NIST SP 1065 eq. 30), formula from memory.
     h = m // 2
     total = 0.0
     used = 0
@@ -244,6 +247,7 @@ def _theo1_loop(x, seg, m, tau0):
 
 
 def _pdev_loop(x, seg, m, tau0):
+    # PVAR of Vernotte et al. 2016 (arXiv:1506.00687), formula from memory.
     total, used = 0.0, 0
     w = (m - 1) / 2 - np.arange(m)
     for i in range(x.size - 2 * m):
@@ -306,6 +310,7 @@ def test_registry_and_analyze(name, family):
     stat = get_statistic(name)
     assert stat.family == family
     if family == "theo":
+        # Theo1 needs m even and sits at tau = 0.75 m tau0 (Howe; NIST SP 1065, from memory)
         assert stat.tau_factor == 0.75 and stat.m_step == 2
     y = _noise(301, 0, seed=3)
     meas = stability.Measurement.from_phase(y, 1.0)
@@ -322,8 +327,8 @@ def test_registry_and_analyze(name, family):
 
 
 def test_theobr_refuses_records_whose_cost_would_explode():
-    # TheoBR's bias ratio needs Theo1 at ~N/30 averaging factors (NIST SP 1065 eq. 31),
-    # a cost growing as N^3: past the limit a clear error, not hours of computing.
+    # TheoBR's bias ratio needs Theo1 at ~N/30 averaging factors (NIST SP 1065 eq. 31, from
+    # memory), a cost growing as N^3: past the limit a clear error, not hours of computing.
     from stability.deviations.theo import THEOBR_MAX_POINTS
 
     y = np.random.default_rng(3).standard_normal(THEOBR_MAX_POINTS + 10)
@@ -333,7 +338,7 @@ def test_theobr_refuses_records_whose_cost_would_explode():
 
 
 def test_explicit_taus_of_theo1_are_taken_at_three_quarters_m():
-    # Theo1 is reported at tau = 0.75 m tau0 (NIST SP 1065 eq. 30): asking for
+    # Theo1 is reported at tau = 0.75 m tau0 (NIST SP 1065 eq. 30, from memory): asking for
     # tau = 3 s at tau0 = 1 s means m = 4.
     y = np.random.default_rng(5).standard_normal(400)
     m = stability.Measurement.from_frequency(y, 1.0)

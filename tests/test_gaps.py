@@ -162,9 +162,9 @@ def test_frequency_gaps_match_brute_force(n, where, name):
 
 
 @pytest.mark.parametrize("name", STATS)
-def test_phase_and_frequency_gaps_together(name):
-    # Phase input with NaN samples behaves like frequency input whose neighbouring
-    # frequencies are missing, away from the gap itself (SP 1065 section 5.14).
+def test_phase_gaps_at_both_ends_and_inside(name):
+    # NaN phase samples at the first, a middle and the last position: every term that
+    # touches one is dropped and the rest kept, as the plain loop does (SP 1065 5.14).
     rng = np.random.default_rng(77)
     x = np.cumsum(rng.standard_normal(90)) * 1e-9
     x[[0, 40, 89]] = np.nan

@@ -133,6 +133,8 @@ def test_recovers_each_level_within_its_interval():
     # The pair curves are qualified as single measurements would be.
     pair = result.pairs[("A", "B")]
     assert np.isfinite(pair.edf).all()
+    # The A - B pair is white FM of variance 1e-22 + 9e-22, and OADEV(tau0) of white FM is
+    # its sample deviation (SP 1065 section 5.2.4; independent noises add in variance).
     np.testing.assert_allclose(pair.deviation[0], math.hypot(1e-11, 3e-11), rtol=0.05)
 
 
@@ -231,4 +233,5 @@ def test_separate_uses_aligned_data():
         )
     result = separate(pairs, taus=[1.0])
     assert any("common span" in n for n in result.notes)
+    # 2001 phase points less the 20 trimmed, N - 2m OADEV terms at m = 1 (SP 1065 section 5.2.4)
     assert all(r.n_terms[0] == 2001 - 20 - 2 for r in result.pairs.values())

@@ -149,6 +149,7 @@ def test_reference_flags(made):
     oadev = [r for r in data["results"] if r["statistic"] == "oadev"]
     assert all(r["reference_limited"] for r in oadev)
     for r in oadev:
+        # independent noises add in variance (NIST SP 1065 section 5.13; common practice)
         want = np.sqrt(max(0.0, r["deviation"] ** 2 - r["reference"] ** 2))
         assert r["device_only"] == pytest.approx(want, rel=1e-12, abs=0.0)
         assert r["device_only"] <= r["deviation"]

@@ -441,7 +441,7 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
             if bar is not None:
                 bar.start()
                 avg = max(1.0, src.size / max(1, len(src.sample)))
-                task = bar.add_task("reading", total=src.size / avg)
+                job = bar.add_task("reading", total=src.size / avg)
             with reader:
                 for chunk in reader:
                     n = len(chunk)
@@ -472,7 +472,7 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
                     if fac is not None:
                         fac_l.append(fac)
                     if bar is not None:
-                        bar.update(task, advance=n)
+                        bar.update(job, advance=n)
     except InputError:
         raise
     except (

@@ -106,7 +106,7 @@ class LogReport:
     exact_decimal: bool = False
     notes: list[str] = field(default_factory=list)
 
-    # ------------------------------------------------------------------ helpers
+    # ------------------------------------------------------------------ shared code
     def note(self, text: str) -> None:
         """Add a plain sentence to the notes (once)."""
         if text not in self.notes:

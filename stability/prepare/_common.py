@@ -1,4 +1,4 @@
-"""Helpers shared by the preparation steps: argument checks and robust residuals.
+"""Code shared by the preparation steps: argument checks and robust residuals.
 
 The robust spread is the median absolute deviation scaled to a Gaussian sigma,
 ``sigma = median(|r - median(r)|) / 0.6745`` [1]_. The local level that the

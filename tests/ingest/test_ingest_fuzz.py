@@ -6,7 +6,7 @@ import numpy as np
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from stability import InputError
+from stability import InputError, Measurement
 from stability.ingest import inspect_log, read_log
 
 N = 12
@@ -29,12 +29,21 @@ def _attempt(path):
         return None
 
 
+def _check_outcome(path, before: bytes) -> None:
+    """A read gives a usable Measurement or a clean InputError; the input is never modified."""
+    m = _attempt(path)
+    assert path.read_bytes() == before
+    if m is not None:
+        assert isinstance(m, Measurement)
+        assert m.n >= 2 and np.isfinite(m.tau0) and m.tau0 > 0
+
+
 @_FUZZ
 @given(data=st.binary(max_size=400))
 def test_random_bytes(tmp_path, data):
     p = tmp_path / "rand.bin"
     p.write_bytes(data)
-    _attempt(p)
+    _check_outcome(p, data)
 
 
 @_FUZZ
@@ -63,7 +72,7 @@ def test_random_mutations(tmp_path, ops):
             text = text[:pos] + ch + "junk" + text[pos:]
     p = tmp_path / "mut.csv"
     p.write_text(text)
-    _attempt(p)
+    _check_outcome(p, p.read_bytes())
 
 
 @_FUZZ
