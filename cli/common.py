@@ -9,6 +9,7 @@ from __future__ import annotations
 import functools
 import sys
 import traceback
+import warnings
 from collections.abc import Callable
 from pathlib import Path
 from typing import Annotated, Any, TypeVar
@@ -90,17 +91,27 @@ def fail(message: str) -> None:
     raise typer.Exit(EXIT_ERROR)
 
 
+def show_warning(message: Warning | str, category: type[Warning], *_: Any, **__: Any) -> None:
+    """Print a warning as one ``warning:`` line on standard error (no source line)."""
+    text = " ".join(str(message).split())
+    typer.echo(f"warning: {text}", err=True)
+
+
 def handle_errors(func: F) -> F:
     """Turn the library's errors into one line on standard error and exit code 1.
 
-    The command must take a ``debug`` keyword; with it the traceback is shown.
+    Warnings are printed as one ``warning:`` line each. The command must take a
+    ``debug`` keyword; with it the traceback (and the warnings' source lines) is shown.
     """
 
     @functools.wraps(func)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
         debug = bool(kwargs.get("debug", False))
         try:
-            return func(*args, **kwargs)
+            with warnings.catch_warnings():
+                if not debug:
+                    warnings.showwarning = show_warning
+                return func(*args, **kwargs)
         except StabilityError as exc:
             if debug:
                 traceback.print_exc(file=sys.stderr)

@@ -27,7 +27,7 @@ from stability.hat import STATUS_OK, HatResult, separate
 from stability.ingest import read_log
 from stability.measurement import Measurement
 from stability.plots import hat_figure, save_figure
-from stability.prepare import prepare
+from stability.prepare import prepare, require_variation
 from stability.reports.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
 from stability.taus import parse_taus
@@ -331,6 +331,7 @@ def separate_command(
             nominal=nominal,
             strict=strict,
         )
+        require_variation(source)
         prepared, _ = prepare(source, outliers=threshold, drift=drift)
         measurements[key] = prepared
         inputs.append((f"{key[0]}-{key[1]}", source))

@@ -24,7 +24,7 @@ from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
 from stability.errors import InputError, StabilityWarning
 from stability.ingest import read_log
 from stability.plots import save_figure, timeline_figure
-from stability.prepare import prepare
+from stability.prepare import prepare, require_variation
 from stability.reports.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
 from stability.taus import parse_taus
@@ -46,6 +46,7 @@ from .common import (
     Tau0Opt,
     TausOpt,
     TimeColumnOpt,
+    WrapOpt,
     handle_errors,
     outliers_value,
 )
@@ -129,7 +130,7 @@ def timeline_summary(result: DynamicResult) -> list[str]:
         )
         lines.append(
             f"{'':11} max {format_value(float(dev[hi]), unit)} at {_when(result, hi)}"
-            f"  (max/min {dev[hi] / dev[lo]:.3g})"
+            + (f"  (max/min {dev[hi] / dev[lo]:.3g})" if dev[lo] > 0 else "")
         )
     else:
         lines.append("no window has a usable term at the shortest tau")
@@ -154,6 +155,7 @@ def timeline_command(
     outliers: OutliersOpt = "5",
     drift: DriftOpt = "none",
     average: AverageOpt = 1,
+    wrap: WrapOpt = None,
     out: OutOpt = None,
     strict: StrictOpt = False,
     json_out: JsonOpt = False,
@@ -173,8 +175,10 @@ def timeline_command(
         time_column=time_column,
         tau0=tau0,
         nominal=nominal,
+        wrap=wrap,
         strict=strict,
     )
+    require_variation(source)
     prepared, report = prepare(
         source, outliers=outliers_value(outliers), drift=drift, average=average
     )

@@ -22,7 +22,7 @@ from .analysis import analyze
 from .errors import InputError
 from .ingest import read_log
 from .measurement import Measurement
-from .prepare import PreparationReport, prepare
+from .prepare import PreparationReport, prepare, require_variation
 from .qualify import model_curve
 from .taus import parse_taus
 
@@ -138,6 +138,7 @@ def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> A
         source = log
     else:
         source = read_log(log, progress=bool(options.get("progress", False)), **read_opts)
+    require_variation(source)
     prepared, report = prepare(source, **prep_opts)
     taus = ana_opts.get("taus", "octave")
     taus = parse_taus(taus) if isinstance(taus, str) else taus

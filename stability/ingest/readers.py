@@ -45,6 +45,8 @@ KINDS = ("auto", "phase", "frequency", "fractional")
 _CHUNK_ROWS = 1_000_000
 _PROGRESS_BYTES = 50 * 1024 * 1024
 _NOMINAL_TOLERANCE = 1e-4
+# A given nominal further than this from the readings is a mistake (fractional).
+_GIVEN_NOMINAL_LIMIT = 1e-2
 
 
 @dataclass
@@ -363,6 +365,33 @@ def _read_chunks(
         chunksize=_CHUNK_ROWS,
         engine="c",
         on_bad_lines="warn",
+    )
+
+
+def _check_given_nominal(readings: np.ndarray, nominal: float, path: Any, column: Any) -> None:
+    """A given nominal must match absolute frequency readings to within 1 %.
+
+    A counter log of a 5 MHz oscillator read with ``--nominal 10MHz`` would
+    otherwise be analysed as a fractional offset of -0.5.
+    """
+    if readings.size == 0:
+        return
+    typical = float(np.median(readings))
+    if abs(typical - nominal) <= _GIVEN_NOMINAL_LIMIT * nominal:
+        return
+    guess = vals.infer_nominal(typical)
+    near = (
+        f"pass --nominal {format_frequency(guess).replace(' ', '')}"
+        if guess is not None and abs(typical - guess) <= _NOMINAL_TOLERANCE * guess
+        else "pass the nominal frequency of the oscillator with --nominal"
+    )
+    raise InputError(
+        f"absolute frequency readings near {format_frequency(typical)} lie "
+        f"{abs(typical - nominal) / nominal:.3g} (fractional) from the given nominal "
+        f"{format_frequency(nominal)}",
+        path=path,
+        column=column,
+        hint=f"{near}, or --kind fractional if the column is not in Hz",
     )
 
 
@@ -697,7 +726,7 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
         applies = (
             hints.wrap is not None
             or vk.kind == "carrier"
-            or (absolute.size and float(np.max(np.abs(absolute))) < 1.0)
+            or (absolute.size and float(np.max(np.abs(absolute))) <= 1.0)
         )
         if applies:
             src_vals, where = unwrap(src_vals, period)
@@ -729,6 +758,7 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
                 " (pass --nominal to set it)."
             )
         else:
+            _check_given_nominal(values[np.isfinite(values)] * vk.scale, nominal, src.path, vname)
             rep.nominal_source = "given"
         if delta is not None and ref_text is not None:
             off = vals.decimal_offset(ref_text, vk.scale, nominal)

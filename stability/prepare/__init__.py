@@ -20,7 +20,7 @@ from .drift import (
     three_point_drift,
 )
 from .outliers import Outlier, OutlierReport, screen_outliers
-from .pipeline import PreparationReport, prepare
+from .pipeline import PreparationReport, prepare, require_variation
 from .steps import PhaseStep, detect_phase_steps
 
 __all__ = [
@@ -39,4 +39,5 @@ __all__ = [
     "detect_phase_steps",
     "PreparationReport",
     "prepare",
+    "require_variation",
 ]

@@ -28,6 +28,9 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
+import numpy as np
+
+from ..errors import AnalysisError
 from ..measurement import Measurement
 from ._common import check_measurement, check_threshold
 from .average import _validate_average_args
@@ -36,7 +39,7 @@ from .drift import DriftFit, check_drift_model, fit_drift, remove_drift
 from .outliers import OutlierReport, screen_outliers
 from .steps import PhaseStep, detect_phase_steps
 
-__all__ = ["PreparationReport", "prepare"]
+__all__ = ["PreparationReport", "prepare", "require_variation"]
 
 
 @dataclass
@@ -189,3 +192,40 @@ def prepare(
         notes=notes,
     )
     return current, report
+
+
+def require_variation(measurement: Measurement) -> None:
+    """Stop when the frequency never changes: there is no stability to estimate.
+
+    A log whose every reading is the same (a stuck counter, a disconnected
+    input, a resolution far coarser than the noise) would give deviations of
+    exactly zero, which a judgement against a limit would read as a pass.
+
+    Parameters
+    ----------
+    measurement
+        The data as read.
+
+    Raises
+    ------
+    AnalysisError
+        When every fractional-frequency step is the same to rounding.
+    """
+    m = check_measurement(measurement, "require_variation")
+    step = np.diff(m.phase)
+    if m.segments is not None:
+        step = step[np.diff(m.segments) == 0]  # the zero steps across frequency gaps
+    step = step[np.isfinite(step)]
+    if step.size < 2:
+        return
+    scale = float(np.max(np.abs(m.phase[np.isfinite(m.phase)]), initial=0.0))
+    if float(np.ptp(step)) > 64.0 * np.finfo(np.float64).eps * scale:
+        return
+    value = float(np.median(step)) / m.tau0 + m.frequency_offset
+    raise AnalysisError(
+        f"every reading gives the same fractional frequency ({value:.6g}) over "
+        f"{step.size} readings, so there is no instability to estimate",
+        path=m.provenance.path,
+        hint="check that the counter was measuring, not stuck or disconnected, "
+        "and that its resolution is finer than the noise",
+    )
