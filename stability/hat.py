@@ -235,9 +235,12 @@ def align(pairs: Mapping[Pair, Measurement]) -> dict[Pair, Measurement]:
         earliest = min(starts)
         offsets = np.array([(s - earliest).total_seconds() / tau0 for s in starts])
     except TypeError:
+        aware = [_label(k) for k, s in zip(keys, starts, strict=True) if s.tzinfo is not None]
+        naive = [_label(k) for k, s in zip(keys, starts, strict=True) if s.tzinfo is None]
         raise InputError(
-            "pair start times mix time-zone-aware and naive times",
-            hint="give every start time a time zone, or none",
+            f"pair start times mix time-zone-aware ({', '.join(aware)}) and naive "
+            f"({', '.join(naive)}) times",
+            hint="give every log's time stamps a time zone, or none",
         ) from None
     pos = np.rint(offsets).astype(np.int64)
     off_grid = np.abs(offsets - pos) > _GRID_TOL
@@ -476,10 +479,10 @@ def _combine(
     pair_cap = np.where(np.isfinite(pair_high), pair_high, np.sqrt(variances))  # (pair, tau)
     member_cap = np.where(members[:, :, None], pair_cap[None, :, :], np.inf)
     cap = member_cap.min(axis=1)
-    # The cap tightens an interval but never below the estimate itself: an oscillator
-    # estimate above a pair's bound means inconsistent pairs, and hiding that inside
-    # an interval that excludes the estimate would mislead.
-    high = np.where(ok, np.maximum(np.minimum(high, cap), deviation), high)
+    # The cap tightens an interval only where it lies above the estimate: an estimate
+    # above a pair's bound means the pairs disagree, and clipping the interval there
+    # would show no upward uncertainty at all; the chi-squared bound is kept instead.
+    high = np.where(ok & (cap >= deviation), np.minimum(high, cap), high)
     below_bound = np.where(np.isfinite(resolution) & (resolution > 0), resolution, cap)
     below_bound = np.minimum(below_bound, cap)
     upper = np.where(ok, np.where(np.isnan(high), cap, high), below_bound)

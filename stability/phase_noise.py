@@ -112,6 +112,16 @@ _U_MIN_DECADES = 8  # the log grid starts 8 decades below its upper end
 
 # ---------------------------------------------------------------------------- the table
 _SPLIT = re.compile(r"[,;\t ]+")
+
+
+def _decode_table(data: bytes) -> str:
+    """Text of a table file: UTF-16 with a BOM, UTF-8 with or without one, else Latin-1."""
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        return data.decode("utf-16")
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        return data.decode("latin-1")
 _COMMENT = ("#", "%", ";", "//", "!")
 
 
@@ -140,8 +150,8 @@ def read_phase_noise_table(path: str | os.PathLike[str]) -> tuple[np.ndarray, np
     """
     name = os.fspath(path)
     try:
-        with open(name, encoding="utf-8-sig", errors="strict") as handle:
-            text = handle.read()
+        with open(name, "rb") as handle:
+            text = _decode_table(handle.read())
     except FileNotFoundError:
         raise InputError("phase-noise table not found", path=name) from None
     except (OSError, UnicodeDecodeError) as exc:
@@ -158,7 +168,12 @@ def read_phase_noise_table(path: str | os.PathLike[str]) -> tuple[np.ndarray, np
         line = raw.strip()
         if not line or line.startswith(_COMMENT):
             continue
-        fields = [f for f in _SPLIT.split(line) if f]
+        if ";" in line or "\t" in line:
+            # A semicolon or tab delimiter leaves the comma free as a decimal mark.
+            fields = [f.strip().replace(",", ".") for f in re.split(r"[;\t]+", line)]
+            fields = [f for f in fields if f]
+        else:
+            fields = [f for f in _SPLIT.split(line) if f]
         values = []
         bad_column = None
         for col, item in enumerate(fields[:2], start=1):
@@ -203,6 +218,16 @@ def read_phase_noise_table(path: str | os.PathLike[str]) -> tuple[np.ndarray, np
         )
     f = np.asarray(offsets, dtype=np.float64)
     level = np.asarray(levels, dtype=np.float64)
+    if (level > 0).any():
+        k = int(np.flatnonzero(level > 0)[0])
+        raise InputError(
+            f"L(f) of {level[k]:g} dBc/Hz is above the carrier",
+            path=name,
+            line=rows[k],
+            column=2,
+            hint="L(f) is negative dBc/Hz where it is meaningful; check the sign, "
+            "or drop the rows closest to the carrier",
+        )
     if f[0] <= 0:
         raise InputError(
             f"offset frequencies must be positive, got {f[0]:g} Hz",

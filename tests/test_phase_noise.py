@@ -248,3 +248,22 @@ def test_read_table_errors(tmp_path, text, message, line):
 def test_read_table_missing_file(tmp_path):
     with pytest.raises(InputError, match="not found"):
         read_phase_noise_table(tmp_path / "absent.txt")
+
+
+def test_table_reader_takes_utf16_and_decimal_commas(tmp_path):
+    # Lab software exports tables as UTF-16 with a BOM and with decimal commas behind a
+    # tab or semicolon delimiter (common practice); the numbers must come through exactly.
+    path = tmp_path / "pn.txt"
+    path.write_text("offset\tL(f)\n1\t-80,5\n10\t-100,25\n", encoding="utf-16")
+    offsets, level = read_phase_noise_table(path)
+    np.testing.assert_array_equal(offsets, [1.0, 10.0])
+    np.testing.assert_array_equal(level, [-80.5, -100.25])
+
+
+def test_table_reader_refuses_levels_above_the_carrier(tmp_path):
+    # L(f) > 0 dBc/Hz is outside the small-angle region where L(f) = S_phi/2 holds
+    # (IEEE Std 1139); most often the minus sign was lost.
+    path = tmp_path / "pn.txt"
+    path.write_text("1 80\n10 -100\n")
+    with pytest.raises(InputError, match="above the carrier"):
+        read_phase_noise_table(path)

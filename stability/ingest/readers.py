@@ -307,6 +307,16 @@ def _decide_kind(
         if found is not None and found.kind in compatible:
             found.reason += f"; kind {hints.kind} as given"
             return found, suffix
+        if found is not None and found.unit:
+            # A written unit contradicts --kind: reading Hz as seconds (say) would give
+            # numbers that look plausible and mean nothing.
+            raise InputError(
+                f"--kind {hints.kind} contradicts the unit {found.unit!r} of column {name!r} "
+                f"({found.reason})",
+                path=path,
+                column=name,
+                hint="drop --kind, or pick another column with --column",
+            )
         default = {"phase": ("s", 1.0), "frequency": ("Hz", 1.0), "fractional": ("", 1.0)}
         unit, scale = default[hints.kind]
         why = "given with --kind" + (f" (the header suggested {found.kind})" if found else "")

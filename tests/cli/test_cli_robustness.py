@@ -112,3 +112,16 @@ def test_timeline_takes_wrap(tmp_path):
     devs = np.genfromtxt(out / "timeline.csv", delimiter=",", names=True, dtype=None)["deviation"]
     # white PM of 0.1 ns: sigma_y(1 s) = sqrt(3) * 1e-10 (NIST SP 1065), far from a 0.5 s jump
     assert np.nanmax(devs) < 1e-8
+
+
+def test_kind_that_contradicts_the_written_unit_is_refused(tmp_path):
+    # A column headed in Hz read as phase would give plausible-looking nonsense
+    # (common practice: the unit written in the log wins over a guess).
+    path = tmp_path / "counter.csv"
+    rows = "\n".join(f"{k},{10e6 + 1e-3 * (k % 7)}" for k in range(50))
+    path.write_text("time_s,frequency_hz\n" + rows + "\n")
+    result = runner.invoke(
+        app, ["analyze", str(path), "--kind", "phase", "--out", str(tmp_path / "o")]
+    )
+    assert result.exit_code == 1, result.output
+    assert "contradicts the unit" in result.output
