@@ -10,7 +10,7 @@ This is the library's main entry point after reading a log::
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -169,6 +169,7 @@ def analyze(
     qualify: bool = True,
     f_h: float | None = None,
     offset_source: Measurement | None = None,
+    on_step: Callable[[str], None] | None = None,
 ) -> StabilityTable:
     """Estimate the requested statistics of a measurement.
 
@@ -190,6 +191,9 @@ def analyze(
     offset_source
         The measurement whose frequency offset and drift are reported
         (default: the analysed one); pass the data before drift removal.
+    on_step
+        Called with a short label after each statistic and after the
+        qualification (for progress displays); ``len(stats) + 1`` calls.
 
     Returns
     -------
@@ -199,6 +203,8 @@ def analyze(
     results = {}
     for stat in stat_list:
         results[stat.name] = estimate(measurement, stat, taus)
+        if on_step is not None:
+            on_step(stat.name)
     settings = {
         "stats": [s.name for s in stat_list],
         "taus": taus if isinstance(taus, str) else [float(t) for t in taus],
@@ -216,4 +222,6 @@ def analyze(
         from .qualify import qualify as qualify_table
 
         qualify_table(table, f_h=f_h, offset_source=offset_source)
+    if on_step is not None:
+        on_step("qualification")
     return table

@@ -122,6 +122,8 @@ def _decode_table(data: bytes) -> str:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError:
         return data.decode("latin-1")
+
+
 _COMMENT = ("#", "%", ";", "//", "!")
 
 

@@ -10,7 +10,9 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
+import sys
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -124,6 +126,21 @@ def _split_options(options: dict[str, Any]) -> tuple[dict, dict, dict]:
     return read, prep, rest
 
 
+@contextlib.contextmanager
+def _computing_bar(show: bool, ana_opts: dict[str, Any]):
+    """A progress bar over the statistics on an interactive terminal; nothing otherwise."""
+    if not (show and sys.stderr.isatty()):
+        yield None
+        return
+    from rich.progress import Progress
+
+    stats = ana_opts.get("stats", "oadev,mdev")
+    count = len(stats.split(",") if isinstance(stats, str) else list(stats)) + 1
+    with Progress(transient=True) as bar:
+        job = bar.add_task("computing", total=count)
+        yield lambda label: bar.update(job, advance=1, description=f"computed {label}")
+
+
 def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> AnalysisRun:
     """Read (unless given a Measurement), prepare, analyse and qualify.
 
@@ -144,14 +161,16 @@ def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> A
     taus = parse_taus(taus) if isinstance(taus, str) else taus
     # Offset and drift are reported for the data before any drift removal.
     before = source if report.average_factor == 1 else None
-    table = analyze(
-        prepared,
-        stats=ana_opts.get("stats", "oadev,mdev"),
-        taus=taus,
-        confidence=ana_opts.get("confidence", 0.683),
-        f_h=ana_opts.get("f_h"),
-        offset_source=before,
-    )
+    with _computing_bar(bool(options.get("progress", False)), ana_opts) as on_step:
+        table = analyze(
+            prepared,
+            stats=ana_opts.get("stats", "oadev,mdev"),
+            taus=taus,
+            confidence=ana_opts.get("confidence", 0.683),
+            f_h=ana_opts.get("f_h"),
+            offset_source=before,
+            on_step=on_step,
+        )
     settings = {
         **{k: (str(v) if v is not None else None) for k, v in read_opts.items()},
         "outliers": prep_opts.get("outliers", 5.0),

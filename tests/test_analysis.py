@@ -142,3 +142,11 @@ def test_all_grid_on_a_long_tau0():
     result = analyze(meas, stats="totdev", taus="all", qualify=False)["totdev"]
     np.testing.assert_array_equal(result.m, np.arange(1, 21))
     np.testing.assert_allclose(result.tau, 3600.0 * np.arange(1, 21))
+
+
+def test_on_step_reports_each_statistic_and_the_qualification():
+    # The progress hook is called once per statistic and once after qualification.
+    y = np.random.default_rng(2).standard_normal(500)
+    steps = []
+    analyze(Measurement.from_frequency(y, 1.0), stats="oadev,mdev", on_step=steps.append)
+    assert steps == ["oadev", "mdev", "qualification"]
