@@ -24,13 +24,12 @@ import typer
 import stability
 from stability.errors import InputError
 from stability.hat import STATUS_OK, HatResult, separate
-from stability.ingest import read_log
 from stability.measurement import Measurement
 from stability.plots import hat_figure, save_figure
-from stability.prepare import prepare, require_variation
 from stability.reports.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
 from stability.taus import parse_taus
+from stability.workflow import read_and_prepare
 
 from .common import (
     ColumnOpt,
@@ -322,7 +321,7 @@ def separate_command(
     inputs: list[tuple[str, Measurement]] = []
     measurements = {}
     for path, key in zip(logs, keys, strict=True):
-        source = read_log(
+        source, prepared, _ = read_and_prepare(
             path,
             kind=kind,
             column=column,
@@ -330,9 +329,9 @@ def separate_command(
             tau0=tau0,
             nominal=nominal,
             strict=strict,
+            outliers=threshold,
+            drift=drift,
         )
-        require_variation(source)
-        prepared, _ = prepare(source, outliers=threshold, drift=drift)
         measurements[key] = prepared
         inputs.append((f"{key[0]}-{key[1]}", source))
     results = [

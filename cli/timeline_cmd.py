@@ -22,13 +22,12 @@ import typer
 import stability
 from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
 from stability.errors import InputError, StabilityWarning
-from stability.ingest import read_log
 from stability.plots import save_figure, timeline_figure
-from stability.prepare import prepare, require_variation
 from stability.reports.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
 from stability.taus import parse_taus
 from stability.units import format_duration, parse_duration
+from stability.workflow import read_and_prepare
 
 from .common import (
     AverageOpt,
@@ -168,7 +167,7 @@ def timeline_command(
     name = _statistic(stats)
     window_s = parse_duration(window, what="--window")
     step_s = window_s / 4.0 if step is None else parse_duration(step, what="--step")
-    source = read_log(
+    source, prepared, report = read_and_prepare(
         log,
         kind=kind,
         column=column,
@@ -177,10 +176,9 @@ def timeline_command(
         nominal=nominal,
         wrap=wrap,
         strict=strict,
-    )
-    require_variation(source)
-    prepared, report = prepare(
-        source, outliers=outliers_value(outliers), drift=drift, average=average
+        outliers=outliers_value(outliers),
+        drift=drift,
+        average=average,
     )
     if step is None:
         step_s = max(step_s, prepared.tau0)

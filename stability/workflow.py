@@ -28,7 +28,14 @@ from .prepare import PreparationReport, prepare, require_variation
 from .qualify import model_curve
 from .taus import parse_taus
 
-__all__ = ["AnalysisRun", "run_analysis", "write_analysis", "PLOT_FORMATS", "OUTPUT_NAMES"]
+__all__ = [
+    "AnalysisRun",
+    "read_and_prepare",
+    "run_analysis",
+    "write_analysis",
+    "PLOT_FORMATS",
+    "OUTPUT_NAMES",
+]
 
 PLOT_FORMATS = ("png", "svg", "pdf")
 OUTPUT_NAMES = ("table.csv", "table.md", "summary.json", "sigma_tau", "series")
@@ -141,6 +148,27 @@ def _computing_bar(show: bool, ana_opts: dict[str, Any]):
         yield lambda label: bar.update(job, advance=1, description=f"computed {label}")
 
 
+def read_and_prepare(
+    log: str | os.PathLike[str] | Measurement, **options: Any
+) -> tuple[Measurement, Measurement, PreparationReport]:
+    """Read (unless given a Measurement) and prepare: (as read, prepared, report).
+
+    Options: the reading hints of :func:`stability.read_log` and the
+    preparation settings of :func:`stability.prepare.prepare`. A log without
+    any variation (a stuck counter) is refused here, for every command.
+    """
+    read_opts, prep_opts, rest = _split_options(options)
+    if rest:
+        raise InputError(f"unknown option(s) {', '.join(sorted(rest))} for read_and_prepare")
+    if isinstance(log, Measurement):
+        source = log
+    else:
+        source = read_log(log, progress=bool(options.get("progress", False)), **read_opts)
+    require_variation(source)
+    prepared, report = prepare(source, **prep_opts)
+    return source, prepared, report
+
+
 def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> AnalysisRun:
     """Read (unless given a Measurement), prepare, analyse and qualify.
 
@@ -151,12 +179,9 @@ def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> A
     f_h).
     """
     read_opts, prep_opts, ana_opts = _split_options(options)
-    if isinstance(log, Measurement):
-        source = log
-    else:
-        source = read_log(log, progress=bool(options.get("progress", False)), **read_opts)
-    require_variation(source)
-    prepared, report = prepare(source, **prep_opts)
+    source, prepared, report = read_and_prepare(
+        log, progress=bool(options.get("progress", False)), **read_opts, **prep_opts
+    )
     taus = ana_opts.get("taus", "octave")
     taus = parse_taus(taus) if isinstance(taus, str) else taus
     # Offset and drift are reported for the data before any drift removal.
