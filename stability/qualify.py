@@ -25,11 +25,18 @@ from .confidence import bias_factor, chi2_interval, edf_for
 from .deviations.registry import get_statistic
 from .errors import StabilityError, StabilityWarning
 from .measurement import Measurement
-from .noise import identify, remember
+from .noise import NoiseResult, identify, remember
 from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift_of
 from .table import NOISE_LABELS, StabilityTable, StatisticResult
 
-__all__ = ["qualify", "qualify_result", "effective_points", "model_curve", "row_points"]
+__all__ = [
+    "qualify",
+    "qualify_result",
+    "noise_source",
+    "effective_points",
+    "model_curve",
+    "row_points",
+]
 
 #: The statistic whose identified noise is shared by its sibling (same data, same m).
 _NOISE_SOURCE = {"tdev": "mdev", "ttot": "mtot"}
@@ -102,12 +109,24 @@ def _row_edf(name: str, alpha: int | None, m: int, n: int, tau0: float) -> float
     return edf_for(name, alpha, m, n)
 
 
+def noise_source(statistic: str) -> str:
+    """The statistic whose noise identification a statistic uses (TDEV shares MDEV's)."""
+    return _NOISE_SOURCE.get(statistic, statistic)
+
+
 def qualify_result(
-    result: StatisticResult, measurement: Measurement, confidence: float
+    result: StatisticResult,
+    measurement: Measurement,
+    confidence: float,
+    *,
+    noise: NoiseResult | None = None,
 ) -> StatisticResult:
-    """Fill the noise, EDF, bias and interval columns of one statistic (in place)."""
+    """Fill the noise, EDF, bias and interval columns of one statistic (in place).
+
+    ``noise`` is an identification already made for the same data and taus
+    (for a statistic that shares it, see :func:`noise_source`).
+    """
     stat = get_statistic(result.statistic)
-    n_eff = effective_points(measurement)
     if stat.family == "time_error":
         result.confidence = confidence
         result.notes.append(
@@ -115,8 +134,10 @@ def qualify_result(
             "no interval is given"
         )
         return result
-    noise = identify(measurement, _NOISE_SOURCE.get(stat.name, stat.name), result.m)
-    result.alpha = np.asarray(noise.alpha, dtype=float)
+    n_eff = effective_points(measurement)
+    if noise is None:
+        noise = identify(measurement, noise_source(stat.name), result.m)
+    result.alpha = np.array(noise.alpha, dtype=float)  # a copy: the identification may be shared
     result.noise = list(noise.noise)
     result.noise_method = list(noise.method)
     _never_whiter(result)
@@ -176,8 +197,12 @@ def qualify(
         for result in table:
             for m, dev, terms in zip(result.m, result.deviation, result.n_terms, strict=True):
                 remember(measurement, result.statistic, int(m), float(dev), int(terms))
+        identified: dict[tuple[str, tuple[int, ...]], NoiseResult] = {}
         for result in table:
-            qualify_result(result, measurement, table.confidence)
+            key = (noise_source(result.statistic), tuple(int(m) for m in result.m))
+            if get_statistic(result.statistic).family != "time_error" and key not in identified:
+                identified[key] = identify(measurement, key[0], result.m)
+            qualify_result(result, measurement, table.confidence, noise=identified.get(key))
         f_h = 1.0 / (2.0 * measurement.tau0) if f_h is None else float(f_h)
         model = _model_curve(table, measurement, f_h)
     if model is None:
