@@ -266,6 +266,25 @@ def _slope_variance(model: PowerLawModel, span: float) -> float:
     return float(np.sum((g[1:] + g[:-1]) * np.diff(lnf)) / 2.0)
 
 
+def _usable(model: PowerLawModel | None) -> bool:
+    return model is not None and any(v > 0 for v in model.h.values())
+
+
+def _with_model(offset: float, slope: float, span: float, model: PowerLawModel) -> OffsetDrift:
+    """Offset and drift (slope per second) with the noise model's uncertainties."""
+    return OffsetDrift(
+        offset=offset,
+        u_offset=float(model.deviation(span)),
+        drift_per_day=slope * _DAY,
+        u_drift_per_day=math.sqrt(max(_slope_variance(model, span), 0.0)) * _DAY,
+        span_s=span,
+        method=(
+            "offset: Allan deviation of the noise model at the record length; "
+            "drift: least-squares slope, variance integrated over the noise-model spectrum"
+        ),
+    )
+
+
 def offset_and_drift(y: np.ndarray, tau0: float, model: PowerLawModel | None) -> OffsetDrift:
     """Mean offset and least-squares linear drift of fractional frequency ``y``.
 
@@ -295,27 +314,17 @@ def offset_and_drift(y: np.ndarray, tau0: float, model: PowerLawModel | None) ->
     sxx = skk * tau0 * tau0
     slope = sky / skk / tau0 if skk > 0 else math.nan
     span = float(kk[-1] - kk[0]) * tau0 + tau0
-    if model is not None and any(v > 0 for v in model.h.values()):
-        u_offset = float(model.deviation(span))
-        u_slope = math.sqrt(max(_slope_variance(model, span), 0.0))
-        method = (
-            "offset: Allan deviation of the noise model at the record length; "
-            "drift: least-squares slope, variance integrated over the noise-model spectrum"
-        )
-    else:
-        resid = yy - offset - slope * tau0 * (kk - k_mean)
-        dof = max(1, yy.size - 2)
-        s2 = float(np.einsum("i,i->", resid, resid)) / dof
-        u_offset = math.sqrt(s2 / yy.size)
-        u_slope = math.sqrt(s2 / sxx) if sxx > 0 else math.nan
-        method = "ordinary least squares (assumes white frequency noise; no noise model)"
+    if _usable(model):
+        return _with_model(offset, slope, span, model)
+    resid = yy - offset - slope * tau0 * (kk - k_mean)
+    s2 = float(np.einsum("i,i->", resid, resid)) / max(1, yy.size - 2)
     return OffsetDrift(
         offset=offset,
-        u_offset=u_offset,
+        u_offset=math.sqrt(s2 / yy.size),
         drift_per_day=slope * _DAY,
-        u_drift_per_day=u_slope * _DAY,
+        u_drift_per_day=(math.sqrt(s2 / sxx) if sxx > 0 else math.nan) * _DAY,
         span_s=span,
-        method=method,
+        method="ordinary least squares (assumes white frequency noise; no noise model)",
     )
 
 
@@ -352,16 +361,6 @@ def offset_and_drift_of(measurement: Any, model: PowerLawModel | None) -> Offset
     sky = sum_ky - k_mean * (float(x[-1] - x[0]) / tau0)
     slope = sky / skk / tau0
     span = count * tau0
-    if model is not None and any(v > 0 for v in model.h.values()):
-        return OffsetDrift(
-            offset=offset,
-            u_offset=float(model.deviation(span)),
-            drift_per_day=slope * _DAY,
-            u_drift_per_day=math.sqrt(max(_slope_variance(model, span), 0.0)) * _DAY,
-            span_s=span,
-            method=(
-                "offset: Allan deviation of the noise model at the record length; "
-                "drift: least-squares slope, variance integrated over the noise-model spectrum"
-            ),
-        )
+    if _usable(model):
+        return _with_model(offset, slope, span, model)
     return offset_and_drift(measurement.frequency(), tau0, model)
