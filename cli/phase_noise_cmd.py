@@ -37,7 +37,6 @@ from stability.phase_noise import (
     phase_noise_to_stability,
     read_phase_noise_table,
 )
-from stability.plots import phase_noise_figure, save_figure
 from stability.reports.files import atomic_write_text, ensure_folder, jsonable, sha256_file
 from stability.reports.tables import format_tau, format_value, terminal_table
 from stability.units import parse_frequency
@@ -289,6 +288,8 @@ def phase_noise_command(
         f"inputs SHA-256 {', '.join(hashes)} · stability {stability.__version__} · "
         f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
     )
+    from stability.plots import phase_noise_figure, save_figure  # matplotlib loads only here
+
     fig = phase_noise_figure(
         conversion,
         table=(offsets, level),

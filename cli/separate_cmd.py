@@ -25,7 +25,6 @@ import stability
 from stability.errors import InputError
 from stability.hat import STATUS_OK, HatResult, separate
 from stability.measurement import Measurement
-from stability.plots import hat_figure, save_figure
 from stability.reports.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
 from stability.taus import parse_taus
@@ -363,6 +362,8 @@ def separate_command(
             folder / "separated_pairs.csv", _csv(list(pair_frames[0].columns), pair_rows)
         )
     )
+    from stability.plots import hat_figure, save_figure  # matplotlib loads only here
+
     fig = hat_figure(results, footer=_footer(inputs, moment))
     written.append(save_figure(fig, folder / "separated.png", "png"))
     if json_out:

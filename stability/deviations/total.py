@@ -47,7 +47,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import fft as _fft
 
 from ._kernels import comb_sum_squares, dot, is_unbroken
 from .hadamard import ohdev
@@ -115,6 +114,8 @@ def _lag_products(v: np.ndarray, lags: int) -> np.ndarray:
     lags = min(lags, n)
     if lags <= _DIRECT_LAGS:
         return np.array([dot(v[: n - k], v[k:]) for k in range(lags)])
+    from scipy import fft as _fft  # imported here: only the long-lag case needs it
+
     size = _fft.next_fast_len(n + lags, real=True)
     spec = _fft.rfft(v, size)
     return _fft.irfft(spec.real**2 + spec.imag**2, size)[:lags]
