@@ -37,13 +37,13 @@ References
 
 from __future__ import annotations
 
+import itertools
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.optimize import nnls
 
 from .errors import InputError
 
@@ -52,6 +52,7 @@ __all__ = [
     "avar_kernel",
     "PowerLawModel",
     "fit_power_law",
+    "nonnegative_least_squares",
     "OffsetDrift",
     "offset_and_drift",
     "offset_and_drift_of",
@@ -147,6 +148,40 @@ def _validate_fit(tau: np.ndarray, dev: np.ndarray, edf: np.ndarray, f_h: float)
         raise InputError("tau, deviation and edf must have the same length")
 
 
+def nonnegative_least_squares(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Minimise ||a x - b|| subject to x >= 0, for a handful of columns (at most 12).
+
+    The solution of a non-negative least-squares problem is the unconstrained
+    least-squares solution on its own support, with every coefficient there
+    positive (the Karush-Kuhn-Tucker conditions; C. L. Lawson, R. J. Hanson,
+    *Solving Least Squares Problems*, SIAM (1995), chapter 23). With five noise
+    terms there are only 31 supports, so trying each and keeping the feasible one
+    of least residual finds that solution exactly, without an iterative solver.
+    """
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    k = a.shape[1]
+    if k > 12:
+        raise InputError(f"non-negative least squares here takes at most 12 columns, got {k}")
+    best = np.zeros(k)
+    best_sse = float(b @ b)
+    best_size = 0
+    for size in range(1, k + 1):
+        for support in itertools.combinations(range(k), size):
+            cols = list(support)
+            x, *_ = np.linalg.lstsq(a[:, cols], b, rcond=None)
+            if not np.all(x > 0):
+                continue
+            resid = b - a[:, cols] @ x
+            sse = float(resid @ resid)
+            # a larger support must lower the residual by more than rounding to win
+            if sse < best_sse * (1.0 - 1e-12) or (sse <= best_sse and size == best_size):
+                best = np.zeros(k)
+                best[cols] = x
+                best_sse, best_size = sse, size
+    return best
+
+
 def fit_power_law(
     tau: Any,
     deviation: Any,
@@ -186,7 +221,7 @@ def fit_power_law(
     b_w = avar * weight
     # Scale columns so that NNLS works on numbers of order one.
     scale = np.linalg.norm(a_w, axis=0)
-    coef_scaled, _ = nnls(a_w / scale, b_w)
+    coef_scaled = nonnegative_least_squares(a_w / scale, b_w)
     coef = coef_scaled / scale
     h = dict.fromkeys(alphas, 0.0)
     u = dict.fromkeys(alphas, math.nan)
