@@ -124,7 +124,7 @@ def test_stability_figure_data_match_table(tmp_path, qualified):
     assert fig.stability_axes["tdev"] is not fig.stability_axes["oadev"]
     assert fig.stability_axes["tdev"].get_ylabel() == r"time deviation $\sigma_x(\tau)$ (s)"
     assert fig.stability_axes["oadev"].get_ylabel() == "fractional frequency deviation"
-    assert fig.stability_axes["oadev"].get_xlabel() == r"averaging time $\tau$ (s)"
+    assert fig.stability_axes["oadev"].get_xlabel() == "averaging time \u03c4 (s)"
     assert fig.stability_axes["oadev"].get_xscale() == "log"
     assert fig.stability_axes["oadev"].get_legend() is not None  # two series
     assert fig.stability_axes["tdev"].get_legend() is None  # one series: no legend
@@ -351,3 +351,41 @@ def test_library_never_touches_pyplot():
         stability.analyze(stability.Measurement.from_frequency(_white_fm(256), 1.0), "oadev")
     )
     assert isinstance(fig.canvas, plots.FigureCanvasAgg)
+
+
+def test_power_of_ten_labels_are_plain_text():
+    # Decade labels read 10^n without math typesetting (drawing speed); the
+    # exponents are the decades of the axis (common practice on sigma-tau plots).
+    label = plots._PowerLabels()
+    label.set_axis(None)
+    assert label(1e-12) == "10\u207b\u00b9\u00b2"
+    assert label(1.0) == "10\u2070"
+    assert label(1e5) == "10\u2075"
+    # the multiplier of a linear axis, and math that is not a power stays math
+    assert plots._plain_math("$\\times\\mathdefault{10^{\u22129}}\\mathdefault{}$") == (
+        "\u00d710\u207b\u2079"
+    )
+    assert plots._plain_math("$\\sigma_y$") == "$\\sigma_y$"
+
+
+def test_fixed_layout_keeps_every_label_inside_the_figure(qualified):
+    # The sigma-tau and series figures use fixed margins: nothing may be clipped.
+    y = _white_fm(20_000) + 3e-9  # invented: a large offset gives long tick labels
+    y[500:620] = np.nan
+    start = datetime(2026, 3, 1, tzinfo=UTC)
+    series = stability.Measurement.from_frequency(y, 1.0, start=start)
+    figures = [
+        plots.stability_figure(qualified, title="counter.log"),
+        plots.series_figure(series, outlier_indices=[40, 9000]),
+    ]
+    for fig in figures:
+        assert fig.get_layout_engine() is None
+        fig.canvas.draw()
+        renderer = fig.canvas.get_renderer()
+        box = fig.bbox
+        for ax in fig.axes:
+            tight = ax.get_tightbbox(renderer)
+            assert tight.x0 >= box.x0 - 0.5 and tight.y0 >= box.y0 - 0.5
+            assert tight.x1 <= box.x1 + 0.5 and tight.y1 <= box.y1 + 0.5
+        labels = [t.get_text() for ax in fig.axes for t in ax.get_yticklabels() if t.get_text()]
+        assert labels and not any("$" in t for t in labels)
