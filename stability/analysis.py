@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 
+from .deviations.allan import mdev
 from .deviations.registry import Statistic, get_statistic
 from .errors import AnalysisError, InputError
 from .measurement import Measurement
@@ -82,6 +83,21 @@ def validate_analysis_args(
     return _stat_list(stats), level
 
 
+#: Statistics computed from the same modified Allan deviation: TDEV = tau MDEV / sqrt(3)
+#: (ITU-T G.810; NIST SP 1065 eq. 15), so a run asking for both computes MDEV once.
+_FROM_MDEV = ("mdev", "tdev")
+
+
+def _from_mdev(
+    name: str, x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None, memo: dict
+) -> tuple[float, int]:
+    key = ("mdev", m)
+    if key not in memo:
+        memo[key] = mdev(x, tau0, m, seg)
+    dev, n = memo[key]
+    return (m * tau0 * dev / math.sqrt(3.0), n) if name == "tdev" else (dev, n)
+
+
 def estimate(
     measurement: Measurement, stat: Statistic | str, taus: Any = "octave"
 ) -> StatisticResult:
@@ -89,6 +105,12 @@ def estimate(
 
     ``stat`` is a registry entry or its identifier.
     """
+    return _estimate(measurement, stat, taus, None)
+
+
+def _estimate(
+    measurement: Measurement, stat: Statistic | str, taus: Any, memo: dict | None
+) -> StatisticResult:
     if not isinstance(measurement, Measurement):
         raise InputError(
             f"measurement must be a stability.Measurement, got {type(measurement).__name__}",
@@ -125,7 +147,9 @@ def estimate(
     seg = measurement.segments
     tau0 = measurement.tau0
     with np.errstate(over="ignore", invalid="ignore"):
-        if stat.multi is not None:
+        if stat.name in _FROM_MDEV and memo is not None:
+            values = [_from_mdev(stat.name, x, tau0, int(m), seg, memo) for m in ms]
+        elif stat.multi is not None:
             values = stat.multi(x, tau0, [int(m) for m in ms], seg)
         else:
             values = [stat.func(x, tau0, int(m), seg) for m in ms]
@@ -201,8 +225,9 @@ def analyze(
     """
     stat_list, level = validate_analysis_args(measurement, stats, taus, confidence)
     results = {}
+    memo: dict = {}  # estimates shared between statistics of this one run
     for stat in stat_list:
-        results[stat.name] = estimate(measurement, stat, taus)
+        results[stat.name] = _estimate(measurement, stat, taus, memo)
         if on_step is not None:
             on_step(stat.name)
     settings = {
