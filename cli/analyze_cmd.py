@@ -8,7 +8,7 @@ import typer
 
 from stability.reports.summary import summary_json
 from stability.reports.tables import terminal_table
-from stability.workflow import AnalysisRun, run_analysis, write_analysis
+from stability.workflow import AnalysisRun, analyze_into
 
 from .common import (
     AverageOpt,
@@ -88,8 +88,11 @@ def analyze(
 
     Example: stability analyze counter.csv --nominal 10MHz --stats oadev,mdev
     """
-    run = run_analysis(
+    folder = out if out is not None else Path.cwd() / f"{log.name}-stability"
+    run, written = analyze_into(
         log,
+        folder,
+        plot_format=plot_format,
         kind=kind,
         column=column,
         time_column=time_column,
@@ -105,8 +108,6 @@ def analyze(
         average=average,
         progress=not json_out,
     )
-    folder = out if out is not None else Path.cwd() / f"{log.name}-stability"
-    written = write_analysis(run, folder, plot_format=plot_format)
     if json_out:
         typer.echo(summary_json(run.summary()), nl=False)
         return

@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 
 from .analysis import analyze
+from .background import BackgroundJob
 from .errors import InputError
 from .ingest import read_log
 from .measurement import Measurement
@@ -33,6 +34,7 @@ __all__ = [
     "read_and_prepare",
     "run_analysis",
     "write_analysis",
+    "analyze_into",
     "PLOT_FORMATS",
     "OUTPUT_NAMES",
 ]
@@ -96,18 +98,23 @@ class AnalysisRun:
 
     def series_inputs(self) -> tuple[Measurement, np.ndarray | None, np.ndarray]:
         """Measurement, drift curve and outlier indices to draw the data over time."""
-        prep = self.preparation
-        if prep.average_factor == 1:
-            shown = self.source
-            outliers = np.array([o.index for o in prep.outliers.samples], dtype=np.int64)
-        else:
-            shown = self.measurement
-            outliers = np.empty(0, dtype=np.int64)
-        fit = prep.removed_drift if prep.removed_drift is not None else prep.linear_drift
-        drift = None
-        if fit is not None and fit.y_model.shape == (shown.n - 1,):
-            drift = fit.y_model + (shown.frequency_offset if fit.model == "none" else 0.0)
-        return shown, drift, outliers
+        return _series_inputs(self.source, self.measurement, self.preparation)
+
+
+def _series_inputs(
+    source: Measurement, prepared: Measurement, prep: PreparationReport
+) -> tuple[Measurement, np.ndarray | None, np.ndarray]:
+    if prep.average_factor == 1:
+        shown = source
+        outliers = np.array([o.index for o in prep.outliers.samples], dtype=np.int64)
+    else:
+        shown = prepared
+        outliers = np.empty(0, dtype=np.int64)
+    fit = prep.removed_drift if prep.removed_drift is not None else prep.linear_drift
+    drift = None
+    if fit is not None and fit.y_model.shape == (shown.n - 1,):
+        drift = fit.y_model + (shown.frequency_offset if fit.model == "none" else 0.0)
+    return shown, drift, outliers
 
 
 def _split_options(options: dict[str, Any]) -> tuple[dict, dict, dict]:
@@ -182,6 +189,18 @@ def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> A
     source, prepared, report = read_and_prepare(
         log, progress=bool(options.get("progress", False)), **read_opts, **prep_opts
     )
+    return _qualified_run(source, prepared, report, options, datetime.now(UTC))
+
+
+def _qualified_run(
+    source: Measurement,
+    prepared: Measurement,
+    report: PreparationReport,
+    options: dict[str, Any],
+    moment: datetime,
+) -> AnalysisRun:
+    """The analysis part of :func:`run_analysis`, on data already read and prepared."""
+    read_opts, prep_opts, ana_opts = _split_options(options)
     taus = ana_opts.get("taus", "octave")
     taus = parse_taus(taus) if isinstance(taus, str) else taus
     # Offset and drift are reported for the data before any drift removal.
@@ -205,8 +224,96 @@ def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> A
     }
     table.settings = settings
     return AnalysisRun(
-        source=source, measurement=prepared, preparation=report, table=table, settings=settings
+        source=source,
+        measurement=prepared,
+        preparation=report,
+        table=table,
+        settings=settings,
+        analysis_time=moment,
     )
+
+
+def analyze_into(
+    log: str | os.PathLike[str] | Measurement,
+    folder: str | os.PathLike[str],
+    *,
+    plot_format: str = "png",
+    limits: Any = None,
+    limits_statistic: str | None = None,
+    **options: Any,
+) -> tuple[AnalysisRun, dict[str, Path]]:
+    """:func:`run_analysis` and :func:`write_analysis` in one go: (run, files written).
+
+    The data-over-time figure depends only on the prepared data, so it is drawn
+    beside the statistics (:mod:`stability.background`) and is put in place with
+    the other files once everything has succeeded; if anything fails, no
+    figure of this run is left behind.
+    """
+    from .reports.files import ensure_folder
+
+    fmt = _check_plot_format(plot_format)
+    read_opts, prep_opts, _ = _split_options(options)
+    source, prepared, report = read_and_prepare(
+        log, progress=bool(options.get("progress", False)), **read_opts, **prep_opts
+    )
+    existed = Path(folder).is_dir()
+    out = ensure_folder(folder)
+    moment = datetime.now(UTC)
+    pending = _pending_path(out, f"series.{fmt}")
+    job = BackgroundJob(
+        _draw_series,
+        pending,
+        fmt,
+        *_series_inputs(source, prepared, report),
+        moment,
+        label="drawing the data-over-time figure",
+    )
+    try:
+        run = _qualified_run(source, prepared, report, options, moment)
+        written = write_analysis(
+            run,
+            out,
+            plot_format=fmt,
+            limits=limits,
+            limits_statistic=limits_statistic,
+            _series=(job, pending),
+        )
+    except BaseException:
+        job.cancel()
+        pending.unlink(missing_ok=True)
+        if not existed:  # a folder made for this run and left empty goes again
+            with contextlib.suppress(OSError):
+                out.rmdir()
+        raise
+    return run, written
+
+
+def _check_plot_format(plot_format: Any) -> str:
+    fmt = str(plot_format).lower()
+    if fmt not in PLOT_FORMATS:
+        raise InputError(
+            f"unknown plot format {plot_format!r}", hint=f"choose {', '.join(PLOT_FORMATS)}"
+        )
+    return fmt
+
+
+def _pending_path(folder: Path, name: str) -> Path:
+    """A hidden name beside ``name`` for a file that is moved into place later."""
+    return folder / f".{name}.{os.getpid()}.pending"
+
+
+def _draw_series(
+    target: Path,
+    fmt: str,
+    shown: Measurement,
+    drift: np.ndarray | None,
+    outliers: np.ndarray,
+    moment: datetime,
+) -> Path:
+    from .plots import save_figure, series_figure
+
+    fig = series_figure(shown, drift_curve=drift, outlier_indices=outliers, analysis_time=moment)
+    return save_figure(fig, target, fmt)
 
 
 def write_analysis(
@@ -216,18 +323,15 @@ def write_analysis(
     plot_format: str = "png",
     limits: Any = None,
     limits_statistic: str | None = None,
+    _series: tuple[BackgroundJob, Path] | None = None,
 ) -> dict[str, Path]:
     """Write table.csv, table.md, summary.json and both plots into ``folder`` (atomically)."""
-    from .plots import save_figure, series_figure, stability_figure
+    from .plots import save_figure, stability_figure
     from .reports.files import atomic_write_text, ensure_folder
     from .reports.summary import summary_json
     from .reports.tables import table_csv, table_markdown
 
-    fmt = str(plot_format).lower()
-    if fmt not in PLOT_FORMATS:
-        raise InputError(
-            f"unknown plot format {plot_format!r}", hint=f"choose {', '.join(PLOT_FORMATS)}"
-        )
+    fmt = _check_plot_format(plot_format)
     out = ensure_folder(folder)
     written = {
         "table.csv": atomic_write_text(out / "table.csv", table_csv(run.table)),
@@ -242,9 +346,12 @@ def write_analysis(
         analysis_time=run.analysis_time,
     )
     written["sigma_tau"] = save_figure(fig, out / f"sigma_tau.{fmt}", fmt)
-    shown, drift, outliers = run.series_inputs()
-    fig = series_figure(
-        shown, drift_curve=drift, outlier_indices=outliers, analysis_time=run.analysis_time
-    )
-    written["series"] = save_figure(fig, out / f"series.{fmt}", fmt)
+    series = out / f"series.{fmt}"
+    if _series is None:
+        _draw_series(series, fmt, *run.series_inputs(), run.analysis_time)
+    else:
+        job, pending = _series
+        job.wait()
+        os.replace(pending, series)
+    written["series"] = series
     return written

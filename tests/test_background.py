@@ -1,0 +1,129 @@
+"""Tests of stability.background (work in a forked child) and its use by analyze_into."""
+
+from __future__ import annotations
+
+import os
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import stability
+from stability.background import BackgroundJob, forking_enabled
+from stability.errors import AnalysisError, InputError
+from stability.workflow import _draw_series, analyze_into
+
+needs_fork = pytest.mark.skipif(not forking_enabled(), reason="jobs run forked only on Linux")
+
+
+def _write(path: Path, text: str) -> None:
+    path.write_text(f"{text} from {os.getpid()}")
+
+
+def _fail() -> None:
+    raise InputError("bad column", path="log.csv", line=7, hint="pass --column")
+
+
+class _Unpicklable(Exception):
+    def __reduce__(self):
+        raise TypeError("not picklable")
+
+
+def _fail_oddly() -> None:
+    raise _Unpicklable("odd")
+
+
+@needs_fork
+def test_work_runs_in_a_child_process(tmp_path):
+    target = tmp_path / "out.txt"
+    job = BackgroundJob(_write, target, "hello", label="writing")
+    assert job.forked
+    job.wait()
+    text = target.read_text()
+    assert text.startswith("hello from ")
+    assert int(text.split()[-1]) != os.getpid()
+    job.wait()  # a second wait does nothing
+
+
+@needs_fork
+def test_child_error_is_raised_in_the_parent():
+    job = BackgroundJob(_fail, label="reading")
+    with pytest.raises(InputError, match=r"log.csv:7: bad column \(pass --column\)") as caught:
+        job.wait()
+    assert any("worker process" in note for note in caught.value.__notes__)
+
+
+@needs_fork
+def test_an_error_that_cannot_travel_becomes_an_analysis_error():
+    job = BackgroundJob(_fail_oddly, label="drawing")
+    with pytest.raises(AnalysisError, match="drawing failed: .*odd"):
+        job.wait()
+
+
+@needs_fork
+def test_cancel_stops_a_running_child():
+    start = time.perf_counter()
+    job = BackgroundJob(time.sleep, 30, label="sleeping")
+    job.cancel()
+    assert time.perf_counter() - start < 10
+    job.wait()  # after cancel nothing is raised
+
+
+def test_serial_mode_runs_the_work_on_wait(tmp_path, monkeypatch):
+    monkeypatch.setenv("STABILITY_SERIAL", "1")
+    assert not forking_enabled()
+    target = tmp_path / "out.txt"
+    job = BackgroundJob(_write, target, "later", label="writing")
+    assert not job.forked and not target.exists()
+    job.wait()
+    assert target.read_text() == f"later from {os.getpid()}"
+    failing = BackgroundJob(_fail, label="reading")
+    with pytest.raises(InputError, match="bad column"):
+        failing.wait()
+
+
+def _log(tmp_path: Path) -> Path:
+    # Invented data: seeded white FM, 1 s samples, written as a plain column.
+    y = np.random.default_rng(5).normal(0.0, 1e-11, 3000)
+    path = tmp_path / "white.txt"
+    path.write_text("".join(f"{v:.6e}\n" for v in y))
+    return path
+
+
+def test_forked_and_serial_runs_write_the_same_files(tmp_path, monkeypatch):
+    log = _log(tmp_path)
+    forked_run, forked = analyze_into(
+        log, tmp_path / "a", kind="fractional", tau0=1.0, stats="oadev,tdev"
+    )
+    monkeypatch.setenv("STABILITY_SERIAL", "1")
+    serial_run, serial = analyze_into(
+        log, tmp_path / "b", kind="fractional", tau0=1.0, stats="oadev,tdev"
+    )
+    assert sorted(p.name for p in (tmp_path / "a").iterdir()) == sorted(
+        ["table.csv", "table.md", "summary.json", "sigma_tau.png", "series.png"]
+    )
+    for name in ("table.csv", "table.md"):
+        assert forked[name].read_bytes() == serial[name].read_bytes()
+    np.testing.assert_array_equal(
+        forked_run.table["oadev"].deviation, serial_run.table["oadev"].deviation
+    )
+    # the figure drawn in the child is the one this process draws from the same run
+    here = _draw_series(
+        tmp_path / "here.png", "png", *forked_run.series_inputs(), forked_run.analysis_time
+    )
+    assert forked["series"].read_bytes() == here.read_bytes()
+    assert forked["series"].stat().st_size > 20_000
+
+
+def test_a_failed_analysis_leaves_no_figure_and_no_new_folder(tmp_path):
+    log = _log(tmp_path)
+    folder = tmp_path / "never"
+    with pytest.raises(stability.AnalysisError, match="tau 1e\\+06 s is too long"):
+        analyze_into(log, folder, kind="fractional", tau0=1.0, stats="oadev", taus=[1e6])
+    assert not folder.exists()
+    kept = tmp_path / "kept"
+    kept.mkdir()
+    with pytest.raises(stability.AnalysisError):
+        analyze_into(log, kept, kind="fractional", tau0=1.0, stats="oadev", taus=[1e6])
+    assert list(kept.iterdir()) == []  # no pending figure left behind
