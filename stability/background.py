@@ -1,145 +1,213 @@
-"""Work done beside the main computation: a job run in a forked child process.
+"""Work done beside the main computation: tasks run in order by a forked child process.
 
-``stability analyze`` draws the data-over-time figure while the statistics are
-computed: the figure needs only the prepared data, and drawing is pure Python
-that would otherwise wait for the statistics (or they for it). On Linux the job
-runs in a child made with ``fork()`` [1]_, which starts at once and shares the
-parent's memory copy-on-write, so nothing is copied or pickled on the way in.
-Elsewhere, or when the environment variable ``STABILITY_SERIAL`` is set to
-anything but ``0`` or empty, the job simply runs when its result is asked for.
-Either way the caller sees the same outcome: :meth:`BackgroundJob.wait` returns
-once the work is done, or raises the error the work raised.
+``stability analyze`` draws its two figures while it reads and computes: a
+child process started at the beginning loads the plotting library while the
+parent reads the log, draws the data-over-time figure while the parent computes
+the statistics, and draws the stability plot once the results table arrives.
+Drawing is pure Python, so on a machine with two or more cores it then costs
+almost no wall time.
 
-The child never returns into the caller's code: it runs the function, reports
-success or the pickled exception (with its traceback text) through a pipe, and
-leaves with ``os._exit`` so that no buffered output or exit handler of the
-parent runs twice [2]_.
+On Linux the worker is a child made with ``fork()`` [1]_, which shares the
+parent's memory copy-on-write; tasks (a module-level function and its
+arguments) reach it pickled through a pipe, written by a small thread of the
+parent so that a long task never blocks the parent's own work. Elsewhere, or
+when the environment variable ``STABILITY_SERIAL`` is set to anything but
+``0`` or empty, the tasks simply run in order when :meth:`BackgroundWorker.wait`
+is called. Either way the caller sees the same outcome: ``wait`` returns once
+every task is done, or raises the first error a task raised.
+
+The child never returns into the caller's code: it runs the tasks, reports
+success or the pickled exception (with its traceback text) through a second
+pipe, and leaves with ``os._exit`` so that no buffered output or exit handler
+of the parent runs twice [2]_.
 
 References
 ----------
 .. [1] IEEE Std 1003.1-2017 (POSIX), ``fork()``: the child is a copy of the
-   calling thread's process; only async-signal-safe work is portable in a
-   multi-threaded parent, which is why the job is started only on Linux, where
-   the libraries used here (numpy, matplotlib's Agg) are fork-safe.
+   calling thread's process; which is why the worker is started only on Linux,
+   where the libraries used here (numpy, matplotlib's Agg) are fork-safe, and
+   before the parent starts threads of its own.
 .. [2] Python documentation, ``os._exit``: "Exit the process ... without calling
    cleanup handlers, flushing stdio buffers, etc." (meant for a child after fork).
 """
 
 from __future__ import annotations
 
+import importlib
 import os
 import pickle
+import queue
 import signal
+import struct
 import sys
+import threading
 import traceback
 from collections.abc import Callable
 from typing import Any
 
 from .errors import AnalysisError
 
-__all__ = ["BackgroundJob", "forking_enabled"]
+__all__ = ["BackgroundWorker", "forking_enabled"]
+
+_HEADER = struct.Struct("<Q")
 
 
 def forking_enabled() -> bool:
-    """True when jobs run in a forked child (Linux, and STABILITY_SERIAL unset or 0)."""
+    """True when tasks run in a forked child (Linux, and STABILITY_SERIAL unset or 0)."""
     if os.environ.get("STABILITY_SERIAL", "").strip() not in ("", "0"):
         return False
     return sys.platform.startswith("linux") and hasattr(os, "fork")
 
 
-def _read_all(fd: int) -> bytes:
-    chunks = []
-    while True:
-        block = os.read(fd, 1 << 16)
+def _read_exactly(fd: int, size: int) -> bytes | None:
+    """``size`` bytes from a pipe, or None at end of file."""
+    chunks, got = [], 0
+    while got < size:
+        block = os.read(fd, min(size - got, 1 << 20))
         if not block:
-            return b"".join(chunks)
+            return None
         chunks.append(block)
+        got += len(block)
+    return b"".join(chunks)
 
 
-class BackgroundJob:
-    """Run ``func(*args, **kwargs)`` beside the caller; :meth:`wait` for it.
+def _write_all(fd: int, data: bytes) -> None:
+    view = memoryview(data)
+    while view:
+        view = view[os.write(fd, view) :]
+
+
+def _child(tasks_fd: int, report_fd: int, warm_up: tuple[str, ...]) -> None:
+    """The worker's whole life: warm up, run each task sent, report, exit."""
+    status, payload = 0, b""
+    try:
+        signal.signal(signal.SIGINT, signal.SIG_DFL)
+        for name in warm_up:
+            importlib.import_module(name)
+        while True:
+            header = _read_exactly(tasks_fd, _HEADER.size)
+            if header is None:
+                break
+            body = _read_exactly(tasks_fd, _HEADER.unpack(header)[0])
+            if body is None:
+                break
+            func, args, kwargs = pickle.loads(body)
+            func(*args, **kwargs)
+    except BaseException as exc:  # noqa: BLE001 - everything goes back to the parent
+        status = 1
+        text = "".join(traceback.format_exception(exc))
+        try:
+            payload = pickle.dumps((exc, text))
+        except Exception:  # noqa: BLE001 - an exception that cannot be pickled
+            payload = pickle.dumps((None, text))
+    try:
+        _write_all(report_fd, payload)
+    finally:
+        os._exit(status)
+
+
+class BackgroundWorker:
+    """Run tasks, in the order submitted, beside the caller; :meth:`wait` for them all.
 
     Parameters
     ----------
-    func
-        The work; its return value is not kept (it should write its result
-        somewhere, e.g. a file).
     label
         A few words naming the work, used in error messages.
+    warm_up
+        Modules the worker imports before its first task (while the caller
+        goes on with its own work).
     """
 
-    def __init__(self, func: Callable[..., Any], *args: Any, label: str, **kwargs: Any) -> None:
+    def __init__(self, *, label: str, warm_up: tuple[str, ...] = ()) -> None:
         self.label = label
-        self._call = (func, args, kwargs)
+        self._serial: list[tuple[Callable[..., Any], tuple, dict]] = []
         self._pid: int | None = None
-        self._fd: int | None = None
         self._done = False
         if forking_enabled():
-            self._start()
+            self._start(tuple(warm_up))
 
     @property
     def forked(self) -> bool:
-        """True while the work runs (or ran) in a child process."""
+        """True when the tasks run in a child process."""
         return self._pid is not None
 
-    def _start(self) -> None:
-        read_end, write_end = os.pipe()
+    def _start(self, warm_up: tuple[str, ...]) -> None:
+        tasks_read, tasks_write = os.pipe()
+        report_read, report_write = os.pipe()
         for stream in (sys.stdout, sys.stderr):  # nothing buffered may be written twice
             try:
                 stream.flush()
             except (OSError, ValueError, AttributeError):
                 pass
         pid = os.fork()
-        if pid == 0:  # the child: do the work, report, and leave without returning
-            os.close(read_end)
-            status = 0
+        if pid == 0:
+            os.close(tasks_write)
+            os.close(report_read)
+            _child(tasks_read, report_write, warm_up)
+        os.close(tasks_read)
+        os.close(report_write)
+        self._pid, self._tasks_fd, self._report_fd = pid, tasks_write, report_read
+        self._queue: queue.Queue[bytes | None] = queue.Queue()
+        self._writer = threading.Thread(target=self._send, daemon=True)
+        self._writer.start()
+
+    def _send(self) -> None:
+        """Writer thread: frames go out in order; a child that died ends the sending."""
+        while True:
+            frame = self._queue.get()
+            if frame is None:
+                break
             try:
-                signal.signal(signal.SIGINT, signal.SIG_DFL)
-                func, args, kwargs = self._call
-                func(*args, **kwargs)
-                payload = b""
-            except BaseException as exc:  # noqa: BLE001 - everything goes back to the parent
-                status = 1
-                text = "".join(traceback.format_exception(exc))
-                try:
-                    payload = pickle.dumps((exc, text))
-                except Exception:  # noqa: BLE001 - an exception that cannot be pickled
-                    payload = pickle.dumps((None, text))
-            try:
-                view = memoryview(payload)
-                while view:
-                    view = view[os.write(write_end, view) :]
-            finally:
-                os._exit(status)
-        os.close(write_end)
-        self._pid, self._fd = pid, read_end
+                _write_all(self._tasks_fd, frame)
+            except OSError:  # the child has gone; wait() reports why
+                break
+        try:
+            os.close(self._tasks_fd)
+        except OSError:
+            pass
+
+    def submit(self, func: Callable[..., Any], *args: Any, **kwargs: Any) -> None:
+        """Queue ``func(*args, **kwargs)``; ``func`` must be a module-level function."""
+        if self._done:
+            raise AnalysisError(f"{self.label}: the worker has already finished")
+        if self._pid is None:
+            self._serial.append((func, args, kwargs))
+            return
+        body = pickle.dumps((func, args, kwargs), protocol=pickle.HIGHEST_PROTOCOL)
+        self._queue.put(_HEADER.pack(len(body)) + body)
 
     def wait(self) -> None:
-        """Wait for the work; raise what it raised (once). Runs it here when not forked."""
+        """Wait for every task; raise what the first failing one raised (once)."""
         if self._done:
             return
         self._done = True
         if self._pid is None:
-            func, args, kwargs = self._call
-            func(*args, **kwargs)
+            for func, args, kwargs in self._serial:
+                func(*args, **kwargs)
             return
-        assert self._fd is not None
+        self._queue.put(None)
         try:
-            payload = _read_all(self._fd)
+            payload = b""
+            while True:
+                block = os.read(self._report_fd, 1 << 16)
+                if not block:
+                    break
+                payload += block
         finally:
-            os.close(self._fd)
+            os.close(self._report_fd)
             _, status = os.waitpid(self._pid, 0)
+            self._writer.join()
         if status == 0 and not payload:
             return
         exc, text = pickle.loads(payload) if payload else (None, "")
         if isinstance(exc, BaseException):
             exc.add_note(f"(raised while {self.label}, in a worker process)\n{text}")
             raise exc
-        last = text.strip().splitlines()[-1] if text.strip() else f"exit status {status}"
+        last = text.strip().splitlines()[-1] if text.strip() else f"wait status {status}"
         raise AnalysisError(f"{self.label} failed: {last}")
 
     def cancel(self) -> None:
-        """Stop the work if it still runs and reap the child; nothing is raised."""
+        """Stop the worker if it still runs and reap it; nothing is raised."""
         if self._done:
             return
         self._done = True
@@ -149,6 +217,7 @@ class BackgroundJob:
             os.kill(self._pid, signal.SIGTERM)
         except ProcessLookupError:
             pass
-        if self._fd is not None:
-            os.close(self._fd)
+        self._queue.put(None)
+        os.close(self._report_fd)
         os.waitpid(self._pid, 0)
+        self._writer.join()

@@ -21,7 +21,7 @@ from typing import Any
 import numpy as np
 
 from .analysis import analyze
-from .background import BackgroundJob
+from .background import BackgroundWorker
 from .errors import InputError
 from .ingest import read_log
 from .measurement import Measurement
@@ -244,44 +244,54 @@ def analyze_into(
 ) -> tuple[AnalysisRun, dict[str, Path]]:
     """:func:`run_analysis` and :func:`write_analysis` in one go: (run, files written).
 
-    The data-over-time figure depends only on the prepared data, so it is drawn
-    beside the statistics (:mod:`stability.background`) and is put in place with
-    the other files once everything has succeeded; if anything fails, no
-    figure of this run is left behind.
+    The figures are drawn beside the computation (:mod:`stability.background`):
+    the data-over-time figure while the statistics are computed, the stability
+    plot while the tables are written. Each figure is put in place only once
+    the whole run has succeeded; if anything fails, no figure of this run is
+    left behind, and a folder made for the run is removed again.
     """
     from .reports.files import ensure_folder
 
     fmt = _check_plot_format(plot_format)
     read_opts, prep_opts, _ = _split_options(options)
-    source, prepared, report = read_and_prepare(
-        log, progress=bool(options.get("progress", False)), **read_opts, **prep_opts
-    )
+    worker = BackgroundWorker(label="drawing the figures", warm_up=("stability.plots",))
+    out: Path | None = None
     existed = Path(folder).is_dir()
-    out = ensure_folder(folder)
-    moment = datetime.now(UTC)
-    pending = _pending_path(out, f"series.{fmt}")
-    job = BackgroundJob(
-        _draw_series,
-        pending,
-        fmt,
-        *_series_inputs(source, prepared, report),
-        moment,
-        label="drawing the data-over-time figure",
-    )
+    pending: dict[str, Path] = {}
     try:
-        run = _qualified_run(source, prepared, report, options, moment)
-        written = write_analysis(
-            run,
-            out,
-            plot_format=fmt,
-            limits=limits,
-            limits_statistic=limits_statistic,
-            _series=(job, pending),
+        source, prepared, report = read_and_prepare(
+            log, progress=bool(options.get("progress", False)), **read_opts, **prep_opts
         )
+        out = ensure_folder(folder)
+        moment = datetime.now(UTC)
+        pending = {name: _pending_path(out, f"{name}.{fmt}") for name in ("series", "sigma_tau")}
+        worker.submit(
+            _draw_series,
+            pending["series"],
+            fmt,
+            *_series_inputs(source, prepared, report),
+            moment,
+        )
+        run = _qualified_run(source, prepared, report, options, moment)
+        worker.submit(
+            _draw_stability,
+            pending["sigma_tau"],
+            fmt,
+            run.table,
+            run.model_curves(),
+            limits,
+            limits_statistic,
+            moment,
+        )
+        written = _write_texts(run, out)
+        worker.wait()
+        for name in ("sigma_tau", "series"):
+            written[name] = pending[name].replace(out / f"{name}.{fmt}")
     except BaseException:
-        job.cancel()
-        pending.unlink(missing_ok=True)
-        if not existed:  # a folder made for this run and left empty goes again
+        worker.cancel()
+        for path in pending.values():
+            path.unlink(missing_ok=True)
+        if out is not None and not existed:  # a folder made for this run goes again
             with contextlib.suppress(OSError):
                 out.rmdir()
         raise
@@ -316,6 +326,39 @@ def _draw_series(
     return save_figure(fig, target, fmt)
 
 
+def _draw_stability(
+    target: Path,
+    fmt: str,
+    table: Any,
+    model: dict[str, tuple[np.ndarray, np.ndarray]],
+    limits: Any,
+    limits_statistic: str | None,
+    moment: datetime,
+) -> Path:
+    from .plots import save_figure, stability_figure
+
+    fig = stability_figure(
+        table,
+        model_curve=model,
+        limits=limits,
+        limits_statistic=limits_statistic,
+        analysis_time=moment,
+    )
+    return save_figure(fig, target, fmt)
+
+
+def _write_texts(run: AnalysisRun, out: Path) -> dict[str, Path]:
+    from .reports.files import atomic_write_text
+    from .reports.summary import summary_json
+    from .reports.tables import table_csv, table_markdown
+
+    return {
+        "table.csv": atomic_write_text(out / "table.csv", table_csv(run.table)),
+        "table.md": atomic_write_text(out / "table.md", table_markdown(run.table)),
+        "summary.json": atomic_write_text(out / "summary.json", summary_json(run.summary())),
+    }
+
+
 def write_analysis(
     run: AnalysisRun,
     folder: str | os.PathLike[str],
@@ -323,35 +366,23 @@ def write_analysis(
     plot_format: str = "png",
     limits: Any = None,
     limits_statistic: str | None = None,
-    _series: tuple[BackgroundJob, Path] | None = None,
 ) -> dict[str, Path]:
     """Write table.csv, table.md, summary.json and both plots into ``folder`` (atomically)."""
-    from .plots import save_figure, stability_figure
-    from .reports.files import atomic_write_text, ensure_folder
-    from .reports.summary import summary_json
-    from .reports.tables import table_csv, table_markdown
+    from .reports.files import ensure_folder
 
     fmt = _check_plot_format(plot_format)
     out = ensure_folder(folder)
-    written = {
-        "table.csv": atomic_write_text(out / "table.csv", table_csv(run.table)),
-        "table.md": atomic_write_text(out / "table.md", table_markdown(run.table)),
-        "summary.json": atomic_write_text(out / "summary.json", summary_json(run.summary())),
-    }
-    fig = stability_figure(
+    written = _write_texts(run, out)
+    written["sigma_tau"] = _draw_stability(
+        out / f"sigma_tau.{fmt}",
+        fmt,
         run.table,
-        model_curve=run.model_curves(),
-        limits=limits,
-        limits_statistic=limits_statistic,
-        analysis_time=run.analysis_time,
+        run.model_curves(),
+        limits,
+        limits_statistic,
+        run.analysis_time,
     )
-    written["sigma_tau"] = save_figure(fig, out / f"sigma_tau.{fmt}", fmt)
-    series = out / f"series.{fmt}"
-    if _series is None:
-        _draw_series(series, fmt, *run.series_inputs(), run.analysis_time)
-    else:
-        job, pending = _series
-        job.wait()
-        os.replace(pending, series)
-    written["series"] = series
+    written["series"] = _draw_series(
+        out / f"series.{fmt}", fmt, *run.series_inputs(), run.analysis_time
+    )
     return written

@@ -1,4 +1,4 @@
-"""Tests of stability.background (work in a forked child) and its use by analyze_into."""
+"""Tests of stability.background (tasks in a forked child) and its use by analyze_into."""
 
 from __future__ import annotations
 
@@ -10,9 +10,9 @@ import numpy as np
 import pytest
 
 import stability
-from stability.background import BackgroundJob, forking_enabled
+from stability.background import BackgroundWorker, forking_enabled
 from stability.errors import AnalysisError, InputError
-from stability.workflow import _draw_series, analyze_into
+from stability.workflow import _draw_series, _draw_stability, analyze_into
 
 needs_fork = pytest.mark.skipif(not forking_enabled(), reason="jobs run forked only on Linux")
 
@@ -35,50 +35,73 @@ def _fail_oddly() -> None:
 
 
 @needs_fork
-def test_work_runs_in_a_child_process(tmp_path):
-    target = tmp_path / "out.txt"
-    job = BackgroundJob(_write, target, "hello", label="writing")
-    assert job.forked
-    job.wait()
-    text = target.read_text()
-    assert text.startswith("hello from ")
-    assert int(text.split()[-1]) != os.getpid()
-    job.wait()  # a second wait does nothing
+def test_tasks_run_in_order_in_one_child_process(tmp_path):
+    first, second = tmp_path / "1.txt", tmp_path / "2.txt"
+    worker = BackgroundWorker(label="writing", warm_up=("json",))
+    assert worker.forked
+    worker.submit(_write, first, "one")
+    worker.submit(_write, second, "two")
+    worker.wait()
+    one, two = first.read_text(), second.read_text()
+    assert one.startswith("one from ") and two.startswith("two from ")
+    assert one.split()[-1] == two.split()[-1] != str(os.getpid())  # the same child
+    worker.wait()  # a second wait does nothing
+    with pytest.raises(AnalysisError, match="already finished"):
+        worker.submit(_write, first, "late")
 
 
 @needs_fork
-def test_child_error_is_raised_in_the_parent():
-    job = BackgroundJob(_fail, label="reading")
+def test_a_large_task_does_not_block_the_caller(tmp_path):
+    # The child is busy (sleeping) while 16 MB of arguments are sent: submit returns at once.
+    worker = BackgroundWorker(label="copying")
+    worker.submit(time.sleep, 0.5)
+    start = time.perf_counter()
+    worker.submit(np.save, tmp_path / "big.npy", np.arange(2_000_000, dtype=np.float64))
+    assert time.perf_counter() - start < 0.4
+    worker.wait()
+    assert np.load(tmp_path / "big.npy")[-1] == 1_999_999.0
+
+
+@needs_fork
+def test_child_error_is_raised_in_the_parent(tmp_path):
+    worker = BackgroundWorker(label="reading")
+    worker.submit(_fail)
+    worker.submit(_write, tmp_path / "never.txt", "after")
     with pytest.raises(InputError, match=r"log.csv:7: bad column \(pass --column\)") as caught:
-        job.wait()
+        worker.wait()
     assert any("worker process" in note for note in caught.value.__notes__)
+    assert not (tmp_path / "never.txt").exists()  # tasks after a failure do not run
 
 
 @needs_fork
 def test_an_error_that_cannot_travel_becomes_an_analysis_error():
-    job = BackgroundJob(_fail_oddly, label="drawing")
+    worker = BackgroundWorker(label="drawing")
+    worker.submit(_fail_oddly)
     with pytest.raises(AnalysisError, match="drawing failed: .*odd"):
-        job.wait()
+        worker.wait()
 
 
 @needs_fork
 def test_cancel_stops_a_running_child():
     start = time.perf_counter()
-    job = BackgroundJob(time.sleep, 30, label="sleeping")
-    job.cancel()
+    worker = BackgroundWorker(label="sleeping")
+    worker.submit(time.sleep, 30)
+    worker.cancel()
     assert time.perf_counter() - start < 10
-    job.wait()  # after cancel nothing is raised
+    worker.wait()  # after cancel nothing is raised
 
 
-def test_serial_mode_runs_the_work_on_wait(tmp_path, monkeypatch):
+def test_serial_mode_runs_the_tasks_on_wait(tmp_path, monkeypatch):
     monkeypatch.setenv("STABILITY_SERIAL", "1")
     assert not forking_enabled()
     target = tmp_path / "out.txt"
-    job = BackgroundJob(_write, target, "later", label="writing")
-    assert not job.forked and not target.exists()
-    job.wait()
+    worker = BackgroundWorker(label="writing", warm_up=("json",))
+    worker.submit(_write, target, "later")
+    assert not worker.forked and not target.exists()
+    worker.wait()
     assert target.read_text() == f"later from {os.getpid()}"
-    failing = BackgroundJob(_fail, label="reading")
+    failing = BackgroundWorker(label="reading")
+    failing.submit(_fail)
     with pytest.raises(InputError, match="bad column"):
         failing.wait()
 
@@ -108,11 +131,13 @@ def test_forked_and_serial_runs_write_the_same_files(tmp_path, monkeypatch):
     np.testing.assert_array_equal(
         forked_run.table["oadev"].deviation, serial_run.table["oadev"].deviation
     )
-    # the figure drawn in the child is the one this process draws from the same run
-    here = _draw_series(
-        tmp_path / "here.png", "png", *forked_run.series_inputs(), forked_run.analysis_time
-    )
+    # the figures drawn in the child are the ones this process draws from the same run
+    moment = forked_run.analysis_time
+    here = _draw_series(tmp_path / "here.png", "png", *forked_run.series_inputs(), moment)
     assert forked["series"].read_bytes() == here.read_bytes()
+    model = forked_run.model_curves()
+    here = _draw_stability(tmp_path / "st.png", "png", forked_run.table, model, None, None, moment)
+    assert forked["sigma_tau"].read_bytes() == here.read_bytes()
     assert forked["series"].stat().st_size > 20_000
 
 
