@@ -140,6 +140,11 @@ def parse_times(column: pd.Series, fmt: TimeFormat) -> tuple[np.ndarray, np.ndar
             )
         if fmt.aware:
             stamps = stamps.dt.tz_convert("UTC").dt.tz_localize(None)
+        # pandas parses years 1..9999; outside the int64 nanosecond range (1677-2262)
+        # the conversion below would wrap around silently, so such stamps do not parse
+        outside = (stamps < pd.Timestamp.min) | (stamps > pd.Timestamp.max)
+        if outside.any():
+            stamps = stamps.mask(outside)
         arr = stamps.to_numpy(dtype="datetime64[ns]")
         ok = ~np.isnat(arr)
         return arr.view(np.int64), ok
