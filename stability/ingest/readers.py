@@ -426,15 +426,19 @@ class _Hasher(threading.Thread):
     """SHA-256 of a file on a second thread: hashlib releases the GIL on large
     blocks, so hashing overlaps with parsing instead of adding a pass."""
 
-    def __init__(self, path: str) -> None:
+    def __init__(self, path: str, data: bytes | None = None) -> None:
         super().__init__(daemon=True)
         self.path = path
+        self.data = data  # the file's bytes when already in memory
         self.digest: str | None = None
         self.error: OSError | None = None
         self.start()
 
     def run(self) -> None:
         try:
+            if self.data is not None:
+                self.digest = hashlib.sha256(self.data).hexdigest()
+                return
             self.digest = _sha256(self.path)
         except OSError as exc:  # reported when the digest is asked for
             self.error = exc
@@ -581,7 +585,7 @@ def _parse_chunks(
 def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, LogReport]:
     src = open_source(path)
     rep = LogReport(path=str(path), size_bytes=src.size)
-    hasher = _Hasher(str(path))
+    hasher = _Hasher(str(path), src.raw)
     rep.container, rep.member = src.container, src.member
     rep.encoding, rep.line_endings = src.encoding, src.line_endings
     d = sniff_dialect(src)

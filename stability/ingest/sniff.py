@@ -29,6 +29,8 @@ from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
+
 from ..errors import InputError
 
 __all__ = [
@@ -105,6 +107,7 @@ class RawSource:
     size: int
     buffer: bytes | None = None
     pandas_encoding: str = "utf-8"
+    raw: bytes | None = field(default=None, repr=False)
 
     def handle(self) -> io.IOBase | str:
         """What to hand to :func:`pandas.read_csv`."""
@@ -116,6 +119,8 @@ class RawSource:
         """The whole text as bytes in the encoding given to pandas (for line look-ups)."""
         if self.buffer is not None:
             return self.buffer
+        if self.raw is not None:  # already read whole when the encoding was checked
+            return self.raw
         return Path(self.path).read_bytes()
 
 
@@ -233,6 +238,7 @@ def open_source(path: str | os.PathLike[str]) -> RawSource:
     container = _container(head)
     member = None
     data: bytes | None = None
+    kept: bytes | None = None
     if container != "plain":
         data, member = _decompress(p, container)
         head = data[:_SAMPLE_BYTES]
@@ -243,10 +249,13 @@ def open_source(path: str | os.PathLike[str]) -> RawSource:
         # confirm on the whole file only when it is small; large files are checked by pandas
         if size <= 64 * 1024 * 1024:
             raw = p.read_bytes()
-            try:
-                raw.decode("utf-8")
-            except UnicodeDecodeError:
-                encoding = "latin-1"
+            kept = raw
+            # pure ASCII is valid UTF-8; decode (a slower check) only when other bytes occur
+            if raw and int(np.frombuffer(raw, dtype=np.uint8).max()) >= 0x80:
+                try:
+                    raw.decode("utf-8")
+                except UnicodeDecodeError:
+                    encoding = "latin-1"
     sample_text = head.decode(encoding, errors="replace")
     _check_text(sample_text, str(p))
     endings = _line_endings(sample_text)
@@ -265,6 +274,7 @@ def open_source(path: str | os.PathLike[str]) -> RawSource:
         sample=lines,
         size=size,
     )
+    src.raw = kept
     needs_buffer = container != "plain" or encoding.startswith("utf-16") or endings == "CR"
     if needs_buffer:
         if data is None:
