@@ -12,11 +12,17 @@ References
    deviation rule).
 .. [2] J. W. Tukey, *Exploratory Data Analysis*, Addison-Wesley (1977):
    running medians as resistant smoothers.
+.. [3] K. E. Batcher, "Sorting networks and their applications", *AFIPS
+   Spring Joint Computer Conference* 32 (1968) 307-314: odd-even merge sort.
+.. [4] R. W. Floyd, R. L. Rivest, "Expected time bounds for selection",
+   *Communications of the ACM* 18 (1975) 165-172: selection between bounds
+   taken from a sample.
 """
 
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
@@ -42,6 +48,12 @@ SECONDS_PER_DAY = 86400.0
 #: Median absolute deviation of a unit Gaussian (NIST SP 1065 outlier rule).
 MAD_TO_SIGMA = 0.6745
 _CHUNK = 1 << 16
+#: Widest window whose local median uses the selection network (else a partition).
+_NETWORK_LIMIT = 17
+_NETWORK_CHUNK = 1 << 14
+#: Arrays at least this long have their medians picked between bounds from a subsample.
+_SELECT_MIN = 1 << 15
+_SELECT_SAMPLE = 1 << 13
 
 
 def check_measurement(measurement: Any, function: str) -> Measurement:
@@ -88,10 +100,75 @@ def centred_frequency(measurement: Measurement) -> np.ndarray:
     Working without the (possibly large) offset keeps the digits of small
     fluctuations; add ``measurement.frequency_offset`` to get ``frequency()``.
     """
-    y = np.diff(measurement.phase) / measurement.tau0
-    if measurement.segments is not None:
-        y[np.diff(measurement.segments) != 0] = np.nan
+    y = np.diff(measurement.phase)
+    y /= measurement.tau0
+    segments = measurement.segments
+    if segments is not None:
+        y[segments[1:] != segments[:-1]] = np.nan
     return y
+
+
+@lru_cache(maxsize=32)
+def _selection_network(size: int) -> tuple[tuple[int, int, bool, bool], ...]:
+    """Compare-exchange steps that put the two middle order statistics of ``size`` values in place.
+
+    Batcher's odd-even merge sort [3]_ for the next power of two, with the
+    lines beyond ``size`` taken as +inf (their comparators are no-ops and are
+    dropped), then pruned backwards to the comparators whose results reach
+    lines ``size // 2 - 1`` and ``size // 2``. Each step is ``(i, j, lo, hi)``:
+    line ``i`` takes ``min``, line ``j`` takes ``max``, and ``lo`` / ``hi`` say
+    which of the two results is still needed.
+    """
+    width = 1 << max(size - 1, 1).bit_length()
+    steps: list[tuple[int, int]] = []
+    run = 1
+    while run < width:
+        gap = run
+        while gap >= 1:
+            for j in range(gap % run, width - gap, 2 * gap):
+                for i in range(min(gap, width - j - gap)):
+                    if (i + j) // (2 * run) == (i + j + gap) // (2 * run):
+                        steps.append((i + j, i + j + gap))
+            gap //= 2
+        run *= 2
+    live = {size // 2 - 1, size // 2}
+    kept: list[tuple[int, int, bool, bool]] = []
+    for i, j in reversed([s for s in steps if s[1] < size]):
+        lo, hi = i in live, j in live
+        if lo or hi:
+            kept.append((i, j, lo, hi))
+            live.update((i, j))
+    return tuple(reversed(kept))
+
+
+def _middle_pair(
+    columns: list[np.ndarray], pool: list[np.ndarray]
+) -> tuple[np.ndarray, np.ndarray]:
+    """The two middle order statistics, element by element, of an even number of columns.
+
+    ``columns`` are read, never written; results go to the buffers of
+    ``pool`` (at least ``len(columns) + 1`` arrays of the columns' length).
+    ``min``/``max`` are exact, so the values are those a sort would give.
+    """
+    lines = list(columns)
+    owned = [False] * len(lines)
+    for i, j, lo, hi in _selection_network(len(lines)):
+        a, b = lines[i], lines[j]
+        if lo and (hi or not owned[i]):
+            low = pool.pop()
+            np.minimum(a, b, out=low)
+        elif lo:
+            low = np.minimum(a, b, out=a)
+        if hi:
+            high = b if owned[j] else pool.pop()
+            np.maximum(a, b, out=high)
+            lines[j], owned[j] = high, True
+        if lo:
+            if owned[i] and low is not a:
+                pool.append(a)
+            lines[i], owned[i] = low, True
+    half = len(lines) // 2
+    return lines[half - 1], lines[half]
 
 
 def local_residuals(y: np.ndarray, window: int) -> np.ndarray:
@@ -105,32 +182,104 @@ def local_residuals(y: np.ndarray, window: int) -> np.ndarray:
     are skipped (the median runs over the finite neighbours, which for
     frequency data are comparable across a gap) and stay NaN; the ends are
     mirrored.
+
+    The median of the even number of neighbours is the mean of the two middle
+    ones; for windows up to :data:`_NETWORK_LIMIT` they are picked with a
+    selection network of element-wise ``min``/``max`` over shifted slices
+    (exact: the same numbers a sort picks), in blocks that stay in cache;
+    wider windows partition each row.
     """
-    out = np.full(y.shape, np.nan)
-    good = np.flatnonzero(np.isfinite(y))
-    if good.size < 3:
-        return out
-    values = y[good]
+    finite = np.isfinite(y)
+    count = int(np.count_nonzero(finite))
+    if count < 3:
+        return np.full(y.shape, np.nan)
     half = window // 2
-    padded = np.pad(values, half, mode="reflect")
-    cols = np.r_[0:half, half + 1 : window]
-    level = np.empty_like(values)
-    for start in range(0, values.size, _CHUNK):  # blocks of rows bound the memory
-        stop = min(start + _CHUNK, values.size)
-        rows = sliding_window_view(padded[start : stop + window - 1], window)[:, cols]
-        rows = np.sort(rows, axis=1)
-        level[start:stop] = 0.5 * (rows[:, half - 1] + rows[:, half])
-    out[good] = values - level
+    if count > half:  # mirror the ends, as np.pad(mode="reflect") does
+        padded = np.empty(count + 2 * half)
+        values = padded[half : half + count]
+        if count == y.size:
+            values[...] = y
+        else:
+            values[...] = y[finite]
+        padded[:half] = values[half:0:-1]
+        padded[half + count :] = values[-2 : -half - 2 : -1]
+    else:
+        padded = np.pad(y[finite], half, mode="reflect")
+        values = padded[half : half + count]
+    offsets = [c for c in range(window) if c != half]
+    level = np.empty(count)
+    if window <= _NETWORK_LIMIT:
+        size = min(_NETWORK_CHUNK, count)
+        bases = [np.empty(size) for _ in range(window + 1)]
+        for start in range(0, count, size):  # blocks of rows stay in cache
+            stop = min(start + size, count)
+            columns = [padded[start + c : stop + c] for c in offsets]
+            low, high = _middle_pair(columns, [b[: stop - start] for b in bases])
+            np.add(low, high, out=level[start:stop])
+        level *= 0.5
+    else:
+        for start in range(0, count, _CHUNK):  # blocks of rows bound the memory
+            stop = min(start + _CHUNK, count)
+            rows = sliding_window_view(padded[start : stop + window - 1], window)[:, offsets]
+            rows.partition([half - 1, half], axis=1)
+            level[start:stop] = 0.5 * (rows[:, half - 1] + rows[:, half])
+    np.subtract(values, level, out=level)
+    if count == y.size:
+        return level
+    out = np.full(y.shape, np.nan)
+    out[finite] = level
     return out
+
+
+def _order_statistics(values: np.ndarray, ranks: list[int]) -> np.ndarray:
+    """The values at sorted positions ``ranks`` (close together) of a finite 1-D array.
+
+    Exact, like a full partition, but on a long array only the values between
+    two bounds are partitioned: the bounds are order statistics of an evenly
+    spaced subsample placed a few standard errors either side of the wanted
+    ranks [4]_. With ``below`` values under the lower bound, the value of rank
+    ``r`` is the value of rank ``r - below`` among those between the bounds,
+    ties included; when the bounds miss (unusual data) the whole array is
+    partitioned instead.
+    """
+    n = values.size
+    if n >= _SELECT_MIN:
+        stride = n // _SELECT_SAMPLE
+        sample = np.sort(values[::stride])
+        m = sample.size
+        margin = 6.0 * math.sqrt(m) / 2.0 + 2.0  # sample ranks: 6 binomial sigmas at p = 1/2
+        low = sample[max(int(ranks[0] / n * m - margin), 0)]
+        high = sample[min(int(ranks[-1] / n * m + margin), m - 1)]
+        below = int(np.count_nonzero(values < low))
+        between = (values >= low) & (values <= high)
+        count = int(np.count_nonzero(between))
+        if below <= ranks[0] and ranks[-1] < below + count:
+            inner = values[between]
+            wanted = [r - below for r in ranks]
+            inner.partition(wanted)
+            return inner[wanted]
+    part = np.partition(values, ranks)
+    return part[ranks]
+
+
+def _median(values: np.ndarray) -> float:
+    """Median of a finite 1-D array, the same number ``np.median`` gives."""
+    n = values.size
+    if n % 2:
+        return float(_order_statistics(values, [n // 2])[0])
+    pair = _order_statistics(values, [n // 2 - 1, n // 2])
+    return float((pair[0] + pair[1]) / 2.0)
 
 
 def robust_spread(r: np.ndarray) -> tuple[float, float]:
     """Median and MAD-based sigma of the finite values of ``r`` (NaN when none)."""
-    values = r[np.isfinite(r)]
+    finite = np.isfinite(r)
+    values = r if finite.all() else r[finite]
     if values.size == 0:
         return math.nan, math.nan
-    centre = float(np.median(values))
-    sigma = float(np.median(np.abs(values - centre))) / MAD_TO_SIGMA
+    centre = _median(values)
+    deviation = np.subtract(values, centre)
+    sigma = _median(np.abs(deviation, out=deviation)) / MAD_TO_SIGMA
     return centre, sigma
 
 

@@ -36,6 +36,9 @@ References
    linear fit, bisection, log model, diffusion model).
 .. [2] P. Virtanen et al., *SciPy 1.0: fundamental algorithms for scientific
    computing in Python*, Nature Methods 17 (2020): ``scipy.optimize.curve_fit``.
+.. [3] G. E. Forsythe, "Generation and use of orthogonal polynomials for
+   data-fitting with a digital computer", *Journal of the Society for
+   Industrial and Applied Mathematics* 5 (1957) 74-88.
 """
 
 from __future__ import annotations
@@ -46,7 +49,6 @@ from dataclasses import dataclass, field
 from typing import Any, Literal
 
 import numpy as np
-from scipy.optimize import OptimizeWarning, curve_fit
 
 from ..errors import AnalysisError, InputError, StabilityWarning
 from ..measurement import Measurement
@@ -203,9 +205,17 @@ class DriftFit:
 def _evaluate(model: str, coef: dict[str, float], days: np.ndarray) -> np.ndarray:
     if model == "log":
         return coef["a"] * np.log1p(coef["b_per_day"] * days) + coef["c"]
-    out = np.full(np.shape(days), coef["offset"], dtype=float)
-    for p, name in enumerate(_POLY_NAMES[1 : _POLY_DEGREE[model] + 1], start=1):
-        out = out + coef[name] * days**p
+    degree = _POLY_DEGREE[model]
+    days = np.asarray(days, dtype=float)
+    if degree == 0:
+        return np.full(days.shape, coef["offset"], dtype=float)
+    # offset + a t (+ q t^2), summed in that order; t^2 is t * t, as days**2 is.
+    out = np.multiply(days, coef[_POLY_NAMES[1]])
+    out += coef["offset"]
+    if degree == 2:
+        term = np.multiply(days, days)
+        term *= coef[_POLY_NAMES[2]]
+        out += term
     return out
 
 
@@ -222,7 +232,9 @@ def _drift_integral(model: str, coef: dict[str, float], days: np.ndarray) -> np.
 
 def _times(measurement: Measurement) -> tuple[np.ndarray, float]:
     """Mid-times of the frequency samples (s) and the record length (s)."""
-    t = (np.arange(measurement.n - 1, dtype=float) + 0.5) * measurement.tau0
+    t = np.arange(measurement.n - 1, dtype=float)
+    t += 0.5
+    t *= measurement.tau0
     return t, measurement.span
 
 
@@ -244,8 +256,12 @@ def _finish(
     t, span = _times(m)
     y_model = _evaluate(model, coef, t / SECONDS_PER_DAY)
     good = np.isfinite(y)
-    resid = y[good] + m.frequency_offset - y_model[good]
-    rms = float(np.sqrt(np.mean(resid**2))) if resid.size else math.nan
+    n_used = int(np.count_nonzero(good))
+    resid = y + m.frequency_offset
+    resid -= y_model
+    if n_used < resid.size:
+        resid = resid[good]
+    rms = float(np.sqrt(np.mean(np.square(resid, out=resid)))) if n_used else math.nan
     return DriftFit(
         model=model,
         method=method,
@@ -253,7 +269,7 @@ def _finish(
         errors=errors,
         per_day=per_day,
         per_day_error=per_day_error,
-        n_used=int(good.sum()),
+        n_used=n_used,
         residual_rms=rms,
         span_days=span / SECONDS_PER_DAY,
         t=t,
@@ -261,13 +277,84 @@ def _finish(
     )
 
 
-def _fit_polynomial(m: Measurement, model: str) -> DriftFit:
+def _least_squares_polynomial(
+    u: np.ndarray, target: np.ndarray, degree: int
+) -> tuple[np.ndarray, np.ndarray, float]:
+    """Least-squares polynomial ``target ~ sum_p beta_p u^p`` without a design matrix.
+
+    The fit is made in the basis of the polynomials orthogonal over the sample
+    times (Forsythe's three-term recurrence [3]_): ``p_0 = 1``,
+    ``p_1 = u - a_1``, ``p_(k+1) = (u - a_(k+1)) p_k - b_k p_(k-1)``, whose Gram
+    matrix ``G = P^T P`` is diagonal up to rounding, so the normal equations
+    ``G gamma = P^T target`` are well conditioned and need only O(N) sums.
+    With ``P = D C`` (``D`` the Vandermonde design, ``C`` upper triangular, the
+    monomial coefficients of each ``p_k``): ``beta = C gamma`` and
+    ``(D^T D)^-1 = C G^-1 C^T``, the same solution and covariance factor as a
+    least-squares solve on ``D``.
+
+    Returns
+    -------
+    (beta, (D^T D)^-1, SSE)
+        Monomial coefficients, the inverse normal matrix and the residual sum of squares.
+    """
+    n = float(u.size)
+    basis: list[np.ndarray | None] = [None]  # None stands for p_0 = 1
+    monomial = np.zeros((degree + 1, degree + 1))
+    monomial[0, 0] = 1.0
+    norms = [n]
+    for k in range(degree):
+        current = basis[k]
+        if current is None:
+            shift = float(np.sum(u)) / n
+            following = u - shift
+        else:
+            weighted = current * current
+            shift = float(np.dot(u, weighted)) / norms[k]
+            previous = basis[k - 1]
+            following = (u - shift) * current
+            following -= norms[k] / norms[k - 1] * (1.0 if previous is None else previous)
+        # Monomial coefficients: p_(k+1) = u p_k - shift p_k - b_k p_(k-1).
+        monomial[1:, k + 1] = monomial[:-1, k]
+        monomial[:, k + 1] -= shift * monomial[:, k]
+        if k > 0:
+            monomial[:, k + 1] -= norms[k] / norms[k - 1] * monomial[:, k - 1]
+        basis.append(following)
+        norms.append(float(np.dot(following, following)))
+
+    def inner(a: np.ndarray | None, b: np.ndarray | None) -> float:
+        if a is None and b is None:
+            return n
+        if a is None or b is None:
+            return float(np.sum(b if a is None else a))
+        return float(np.dot(a, b))
+
+    size = degree + 1
+    gram = np.diag(norms)
+    for i in range(size):
+        for j in range(i + 1, size):
+            gram[i, j] = gram[j, i] = inner(basis[i], basis[j])
+    rhs = np.array([inner(p, target) for p in basis])
+    gram_inverse = np.linalg.inv(gram)
+    gamma = gram_inverse @ rhs
+    resid = target - gamma[0]
+    for k in range(1, size):
+        term = basis[k]
+        assert term is not None
+        resid -= np.multiply(term, gamma[k], out=term)
+    sse = float(np.dot(resid, resid))
+    beta = monomial @ gamma
+    return beta, monomial @ gram_inverse @ monomial.T, sse
+
+
+def _fit_polynomial(m: Measurement, model: str, y: np.ndarray | None = None) -> DriftFit:
+    """Least-squares polynomial drift; ``y`` is ``centred_frequency(m)`` when already known."""
     degree = _POLY_DEGREE[model]
     names = _POLY_NAMES[: degree + 1]
-    y = centred_frequency(m)
+    if y is None:
+        y = centred_frequency(m)
     t, span = _times(m)
     good = np.isfinite(y)
-    n_used = int(good.sum())
+    n_used = int(np.count_nonzero(good))
     span_days = span / SECONDS_PER_DAY
     nan_fit = (
         {k: math.nan for k in names},
@@ -278,22 +365,23 @@ def _fit_polynomial(m: Measurement, model: str) -> DriftFit:
             f"{model} drift needs at least {degree + 1} frequency samples, the record has "
             f"{n_used}; the fit is NaN",
             StabilityWarning,
-            stacklevel=3,
+            stacklevel=4,
         )
         coef, errors = nan_fit
         return _finish(m, model, "least squares on frequency", coef, errors, *([math.nan] * 2), y)
     # Scaled time u in [0, 1] and scaled values keep the normal equations well conditioned.
-    u = t[good] / span
-    values = y[good]
+    gapless = n_used == y.size
+    u = np.divide(t if gapless else t[good], span)
+    values = y if gapless else y[good]
     centre = float(np.mean(values))
     scale = float(np.std(values)) or 1.0
-    design = np.vander(u, degree + 1, increasing=True)
-    target = (values - centre) / scale
-    beta, *_ = np.linalg.lstsq(design, target, rcond=None)
+    target = np.subtract(values, centre)
+    target /= scale
+    beta, gram_inverse, sse = _least_squares_polynomial(u, target, degree)
+    del u, values, target
     dof = n_used - (degree + 1)
     if dof > 0:
-        sse = float(np.sum((target - design @ beta) ** 2))
-        cov_u = sse / dof * np.linalg.inv(design.T @ design)
+        cov_u = sse / dof * gram_inverse
     else:
         cov_u = np.full((degree + 1, degree + 1), np.nan)
     # Back to natural units: coefficient p is per day^p.
@@ -349,6 +437,8 @@ def _fit_log(m: Measurement) -> DriftFit:
             best = (sse, float(a), float(b), float(c))
     assert best is not None
     _, a0, b0, c0 = best
+    from scipy.optimize import OptimizeWarning, curve_fit  # only this model needs it
+
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("error", OptimizeWarning)
@@ -415,9 +505,14 @@ def fit_drift(measurement: Measurement, model: DriftModel = "linear") -> DriftFi
         The log model does not converge (use ``"linear"``).
     """
     m, model = _validate_fit_args(measurement, model, "fit_drift")
+    return _fit_drift(m, model)
+
+
+def _fit_drift(m: Measurement, model: str, y: np.ndarray | None = None) -> DriftFit:
+    """The work of :func:`fit_drift`; ``y`` is ``centred_frequency(m)`` when already known."""
     if model == "log":
         return _fit_log(m)
-    return _fit_polynomial(m, model)
+    return _fit_polynomial(m, model, y)
 
 
 def remove_drift(
@@ -435,7 +530,12 @@ def remove_drift(
         The new measurement (with a note) and the fit that was removed.
     """
     m, model = _validate_fit_args(measurement, model, "remove_drift")
-    fit = _fit_log(m) if model == "log" else _fit_polynomial(m, model)
+    return _remove_fit(m, _fit_drift(m, model))
+
+
+def _remove_fit(m: Measurement, fit: DriftFit) -> tuple[Measurement, DriftFit]:
+    """The work of :func:`remove_drift` once ``fit`` (a fit to ``m``) is known."""
+    model = fit.model
     if model == "none":
         return m.replace(), fit
     if not all(math.isfinite(v) for v in fit.coefficients.values()):

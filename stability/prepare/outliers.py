@@ -61,7 +61,7 @@ from ._common import (
     local_residuals,
     robust_spread,
 )
-from .drift import check_drift_model, fit_drift
+from .drift import DriftFit, _fit_drift, check_drift_model
 
 __all__ = ["Outlier", "OutlierReport", "screen_outliers"]
 
@@ -197,32 +197,47 @@ def screen_outliers(
         The screened measurement (with a note) and what was removed.
     """
     m, k, drift, window = _validate_screen_args(measurement, threshold, drift, window)
+    new, report, _ = _screen(m, k, drift, window, None)
+    return new, report
+
+
+def _screen(
+    m: Measurement, k: float | None, drift: str, window: int, y: np.ndarray | None
+) -> tuple[Measurement, OutlierReport, DriftFit | None]:
+    """The work of :func:`screen_outliers`, also returning the drift fit it screened against.
+
+    ``y`` is ``centred_frequency(m)`` when already known (it is not changed).
+    """
     if k is None:
         new = m.replace()
         new.notes.append("Outlier screening was off.")
-        return new, OutlierReport(None, math.nan, math.nan, window, drift, 0)
-    y = centred_frequency(m)
-    fit = fit_drift(m, drift)
-    resid = local_residuals(y + m.frequency_offset - fit.y_model, window)
+        return new, OutlierReport(None, math.nan, math.nan, window, drift, 0), None
+    if y is None:
+        y = centred_frequency(m)
+    fit = _fit_drift(m, drift, y)
+    level = y + m.frequency_offset
+    level -= fit.y_model
+    resid = local_residuals(level, window)
+    del level
     centre, sigma = robust_spread(resid)
-    screened = int(np.isfinite(resid).sum())
+    screened = int(np.count_nonzero(np.isfinite(resid)))
     if not (sigma > 0):
         warnings.warn(
             "outlier screening skipped: the robust spread of the frequency residuals is zero "
             "(quantised or constant data)",
             StabilityWarning,
-            stacklevel=2,
+            stacklevel=3,
         )
         new = m.replace()
         new.notes.append(
             "Outlier screening was skipped: the robust spread of the frequency is zero."
         )
-        return new, OutlierReport(k, sigma, centre, window, drift, screened)
-    dev = resid - centre
+        return new, OutlierReport(k, sigma, centre, window, drift, screened), fit
+    dev = np.subtract(resid, centre, out=resid)
     with np.errstate(invalid="ignore"):
         flagged = np.abs(dev) > k * sigma
     if m.kind == "frequency":
-        new, samples = _remove_frequency(m, y, flagged, dev / sigma)
+        new, samples = _remove_frequency(m, y, flagged, dev, sigma)
     else:
         new, samples = _remove_phase(m, y, flagged, dev, sigma, k)
     report = OutlierReport(k, sigma, centre, window, drift, screened, samples)
@@ -239,21 +254,20 @@ def screen_outliers(
         new.notes.append(
             f"Outlier screening ({k:g} robust sigmas of {sigma:.3g}) found no outlier."
         )
-    return new, report
+    return new, report, fit
 
 
 def _remove_frequency(
-    m: Measurement, y: np.ndarray, flagged: np.ndarray, z: np.ndarray
+    m: Measurement, y: np.ndarray, flagged: np.ndarray, dev: np.ndarray, sigma: float
 ) -> tuple[Measurement, list[Outlier]]:
     idx = np.flatnonzero(flagged)
     if idx.size == 0:
         return m.replace(), []
     full = y + m.frequency_offset
+    z = np.abs(dev[idx] / sigma)
     samples = [
-        Outlier(
-            int(i), line_of(m, int(i)), float(full[i]), float(full[i]), abs(float(z[i])), "removed"
-        )
-        for i in idx.tolist()
+        Outlier(int(i), line_of(m, int(i)), float(full[i]), float(full[i]), float(zi), "removed")
+        for i, zi in zip(idx.tolist(), z.tolist(), strict=True)
     ]
     cleaned = full.copy()
     cleaned[idx] = np.nan

@@ -32,14 +32,19 @@ import numpy as np
 
 from ..errors import AnalysisError
 from ..measurement import Measurement
-from ._common import check_measurement, check_threshold
+from ._common import centred_frequency, check_measurement, check_threshold
 from .average import _validate_average_args
 from .average import average as average_samples
-from .drift import DriftFit, check_drift_model, fit_drift, remove_drift
-from .outliers import OutlierReport, screen_outliers
-from .steps import PhaseStep, detect_phase_steps
+from .drift import DriftFit, _fit_drift, _remove_fit, check_drift_model
+from .outliers import OutlierReport, _screen
+from .steps import PhaseStep, _find_phase_steps
 
 __all__ = ["PreparationReport", "prepare", "require_variation"]
+
+#: Defaults of detect_phase_steps and screen_outliers, used by the pipeline.
+_STEP_THRESHOLD = 10.0
+_STEP_WINDOW = 7
+_WINDOW = 7
 
 
 @dataclass
@@ -150,15 +155,25 @@ def prepare(
     if factor > 1:
         current = average_samples(current, factor)
         notes.append(current.notes[-1])
-    steps = detect_phase_steps(current)
+    # The centred frequency is computed once and shared (read-only) by the steps below.
+    y = centred_frequency(current)
+    y.flags.writeable = False
+    steps = _find_phase_steps(current, _STEP_THRESHOLD, _STEP_WINDOW, y)
     screen_model = model if model != "none" else "linear"
-    current, screening = screen_outliers(current, threshold=threshold, drift=screen_model)
+    before = current
+    current, screening, screen_fit = _screen(current, threshold, screen_model, _WINDOW, y)
     notes.append(current.notes[-1])
-    linear = fit_drift(current, "linear")
+    reuse = screen_fit is not None and screen_model == "linear" and _same_data(before, current)
+    linear = screen_fit if reuse else None  # the same fit of the same data is not repeated
+    del y, before, screen_fit
+    if linear is None:
+        linear = _fit_drift(current, "linear")
     notes.append(f"Estimated {linear.description}.")
     removed: DriftFit | None = None
     if model != "none":
-        current, removed = remove_drift(current, model)
+        current, removed = _remove_fit(
+            current, linear if model == "linear" else _fit_drift(current, model)
+        )
         notes.append(current.notes[-1])
     else:
         notes.append("No drift was removed (drift model none).")
@@ -192,6 +207,17 @@ def prepare(
         notes=notes,
     )
     return current, report
+
+
+def _same_data(a: Measurement, b: Measurement) -> bool:
+    """True when a drift fit to ``a`` is the fit to ``b``: the same samples, grid and offset."""
+    if a.tau0 != b.tau0 or a.frequency_offset != b.frequency_offset or a.n != b.n:
+        return False
+    if (a.segments is None) != (b.segments is None):
+        return False
+    if a.segments is not None and not np.array_equal(a.segments, b.segments):
+        return False
+    return bool(np.array_equal(a.phase, b.phase, equal_nan=True))
 
 
 def require_variation(measurement: Measurement) -> None:

@@ -102,22 +102,32 @@ def detect_phase_steps(
         In time order; empty when there is none.
     """
     m, k, window = _validate_step_args(measurement, threshold, window)
-    d = centred_frequency(m) * m.tau0  # first differences, s (offset removed)
+    return _find_phase_steps(m, k, window, centred_frequency(m))
+
+
+def _find_phase_steps(m: Measurement, k: float, window: int, y: np.ndarray) -> list[PhaseStep]:
+    """The work of :func:`detect_phase_steps`; ``y`` is ``centred_frequency(m)`` (not changed)."""
+    d = y * m.tau0  # first differences, s (offset removed)
     resid = local_residuals(d, window)
     centre, sigma = robust_spread(resid)
     if not (sigma > 0):
         return []
-    dev = np.nan_to_num(resid - centre)
-    flagged = np.abs(dev) > k * sigma
-    sign = np.sign(dev)
+    dev = np.subtract(resid, centre, out=resid)  # NaN where a sample is missing
+    with np.errstate(invalid="ignore"):
+        flagged = np.abs(dev) > k * sigma
+    idx = np.flatnonzero(flagged)
+    if idx.size == 0:
+        return []
     # A flagged neighbour of opposite sign makes a glitch, not a step.
-    before = np.zeros_like(flagged)
-    after = np.zeros_like(flagged)
-    before[1:] = flagged[:-1] & (sign[:-1] == -sign[1:])
-    after[:-1] = flagged[1:] & (sign[1:] == -sign[:-1])
-    steps = np.flatnonzero(flagged & ~before & ~after)
+    sign = np.sign(dev[idx])
+    before = np.zeros(idx.size, dtype=bool)
+    after = np.zeros(idx.size, dtype=bool)
+    inner = idx > 0
+    before[inner] = flagged[idx[inner] - 1] & (np.sign(dev[idx[inner] - 1]) == -sign[inner])
+    inner = idx < dev.size - 1
+    after[inner] = flagged[idx[inner] + 1] & (np.sign(dev[idx[inner] + 1]) == -sign[inner])
     out = []
-    for i in steps:
+    for i in idx[~before & ~after]:
         index = int(i) + 1
         line = line_of(m, index if m.kind == "phase" else int(i))
         out.append(PhaseStep(index, line, float(dev[i]), abs(float(dev[i])) / sigma))
