@@ -62,10 +62,10 @@ from typing import Any
 import numpy as np
 from matplotlib import dates as mdates
 from matplotlib.backends.backend_agg import FigureCanvasAgg
-from matplotlib.collections import PolyCollection
+from matplotlib.collections import LineCollection, PolyCollection
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
-from matplotlib.ticker import LogFormatterSciNotation, ScalarFormatter
+from matplotlib.ticker import LogFormatterSciNotation, NullLocator, ScalarFormatter
 from matplotlib.transforms import blended_transform_factory
 
 from .errors import InputError
@@ -117,19 +117,6 @@ _GAP_COLOR = "#d9d9d9"
 _OUTLIER_COLOR = "#b23a3a"
 _GUIDE_COLOR = "#9a9a9a"
 _DPI = 150
-
-#: Symbols for axis labels (mathtext).
-_SYMBOLS = {
-    "adev": r"$\sigma_y(\tau)$",
-    "oadev": r"$\sigma_y(\tau)$",
-    "mdev": r"$\mathrm{mod}\,\sigma_y(\tau)$",
-    "tdev": r"$\sigma_x(\tau)$",
-    "hdev": r"$\mathrm{H}\sigma_y(\tau)$",
-    "ohdev": r"$\mathrm{H}\sigma_y(\tau)$",
-    "totdev": r"$\sigma_{\mathrm{total}}(\tau)$",
-    "mtie": r"$\mathrm{MTIE}(\tau)$",
-    "tie_rms": r"$\mathrm{TIE}_{\mathrm{rms}}(\tau)$",
-}
 
 #: Slope key per kind of statistic: (slope of deviation vs tau on log-log, noise label).
 SLOPES = {
@@ -232,6 +219,60 @@ class _PlainScalar(ScalarFormatter):
 
     def get_offset(self) -> str:
         return _plain_math(super().get_offset())
+
+
+#: An axis spanning more decades than this gets its minor grid as one collection.
+_MIN_DECADES_FOR_GRID = 1.5
+
+
+def _minor_log_grid(ax: Any) -> None:
+    """Minor grid lines at 2..9 x 10^k on a finished log-log panel, as one collection.
+
+    Matplotlib builds several artists for every minor tick; on a panel spanning
+    many decades that is most of the drawing time of the figure. The limits are
+    fixed at their autoscaled values and the lines drawn for them, looking as
+    the ordinary minor grid does. An axis spanning less than
+    :data:`_MIN_DECADES_FOR_GRID` decades keeps matplotlib's minor ticks, which
+    then carry its labels.
+    """
+    ax.autoscale_view()
+    lines = []
+    for axis, (lo, hi), vertical in (
+        (ax.xaxis, ax.get_xlim(), True),
+        (ax.yaxis, ax.get_ylim(), False),
+    ):
+        lo, hi = min(lo, hi), max(lo, hi)
+        if not (lo > 0 and math.isfinite(hi)) or math.log10(hi / lo) < _MIN_DECADES_FOR_GRID:
+            continue
+        decades = 10.0 ** np.arange(math.floor(math.log10(lo)), math.ceil(math.log10(hi)) + 1)
+        at = (np.arange(2.0, 10.0)[None, :] * decades[:, None]).ravel()
+        at = at[(at > lo) & (at < hi)]
+        ends = np.zeros_like(at), np.ones_like(at)
+        pairs = (
+            np.stack([np.column_stack([at, ends[0]]), np.column_stack([at, ends[1]])], axis=1)
+            if vertical
+            else np.stack([np.column_stack([ends[0], at]), np.column_stack([ends[1], at])], axis=1)
+        )
+        transform = (
+            blended_transform_factory(ax.transData, ax.transAxes)
+            if vertical
+            else blended_transform_factory(ax.transAxes, ax.transData)
+        )
+        lines.append(
+            LineCollection(
+                pairs,
+                transform=transform,
+                colors="#e6e6e6",
+                linewidths=0.4,
+                alpha=0.6,
+                zorder=0.9,
+                gid="minor-grid",
+            )
+        )
+        axis.set_minor_locator(NullLocator())
+        (ax.set_xlim if vertical else ax.set_ylim)(lo, hi)
+    for collection in lines:
+        ax.add_collection(collection, autolim=False)
 
 
 def _log_axes(ax: Any) -> None:
@@ -493,7 +534,7 @@ def _draw_slope_key(ax: Any, names: Sequence[str], points: np.ndarray) -> None:
 def _panel_label(names: Sequence[str], unit: str) -> str:
     if len(names) == 1:
         title, _, _ = _stat_info(names[0])
-        label = f"{title} {_SYMBOLS.get(names[0], _short(names[0]))}"
+        label = f"{title}, {_short(names[0])}"
     else:
         label = "time statistic" if unit == "s" else "fractional frequency deviation"
     return f"{label} (s)" if unit == "s" else label
@@ -660,6 +701,7 @@ def stability_figure(
         ax.set_ylabel(_panel_label(names, unit), fontsize=9)
         if points.size:
             _draw_slope_key(ax, names, points)
+        _minor_log_grid(ax)
         if entries > 1:
             ax.legend(fontsize=7, frameon=False, loc="best")
     fig.suptitle(title or _default_title(table.measurement, "stability"), fontsize=11)
@@ -1150,9 +1192,8 @@ def hat_figure(
             }
         series[stat] = drawn
         pairs_drawn[stat] = drawn_pairs
-        symbol = _SYMBOLS.get(stat, _short(stat))
         ax.set_xlabel("averaging time \u03c4 (s)", fontsize=9)
-        ax.set_ylabel(f"{_stat_info(stat)[0]} {symbol}", fontsize=9)
+        ax.set_ylabel(f"{_stat_info(stat)[0]}, {_short(stat)}", fontsize=9)
         handles, labels = ax.get_legend_handles_labels()
         handles.append(Line2D([], [], color=_GUIDE_COLOR, linestyle="--", alpha=0.55))
         labels.append("pair curves")
@@ -1481,7 +1522,7 @@ def timeline_figure(
         shading="flat",
     )
     ax_map.set_yscale("log")
-    ax_map.set_ylabel(r"averaging time $\tau$ (s)", fontsize=9)
+    ax_map.set_ylabel("averaging time \u03c4 (s)", fontsize=9)
     ax_map.tick_params(labelsize=8)
     ax_map.tick_params(axis="x", labelbottom=False)
     stat_title = _stat_info(result.statistic)[0]
@@ -1757,6 +1798,7 @@ def overlay_figure(
         else:
             titles = ", ".join(f"{_stat_info(s)[0]} ({_short(s)})" for s in group)
             ax.set_ylabel(f"{titles} (s)" if unit == "s" else titles, fontsize=8)
+        _minor_log_grid(ax)
         if any(ax is a for a in axes_of.values()):
             ax.legend(fontsize=7, frameon=False, loc="best")
     fig.suptitle(title or " vs ".join(checked), fontsize=11)

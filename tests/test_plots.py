@@ -122,7 +122,7 @@ def test_stability_figure_data_match_table(tmp_path, qualified):
     # fractional and time statistics on separate panels
     assert fig.stability_axes["oadev"] is fig.stability_axes["mdev"]
     assert fig.stability_axes["tdev"] is not fig.stability_axes["oadev"]
-    assert fig.stability_axes["tdev"].get_ylabel() == r"time deviation $\sigma_x(\tau)$ (s)"
+    assert fig.stability_axes["tdev"].get_ylabel() == "time deviation, TDEV (s)"
     assert fig.stability_axes["oadev"].get_ylabel() == "fractional frequency deviation"
     assert fig.stability_axes["oadev"].get_xlabel() == "averaging time \u03c4 (s)"
     assert fig.stability_axes["oadev"].get_xscale() == "log"
@@ -130,7 +130,8 @@ def test_stability_figure_data_match_table(tmp_path, qualified):
     assert fig.stability_axes["tdev"].get_legend() is None  # one series: no legend
     # error bars: one vertical segment per row with an interval, from low to high
     ax = fig.stability_axes["tdev"]
-    segs = [s for c in ax.collections if isinstance(c, LineCollection) for s in c.get_segments()]
+    bars = [c for c in ax.collections if isinstance(c, LineCollection)]
+    segs = [s for c in bars if c.get_gid() != "minor-grid" for s in c.get_segments()]
     r = qualified["tdev"]
     assert len(segs) == len(r) - 1
     ends = np.array(sorted((s[0, 0], s[0, 1], s[1, 1]) for s in segs))
@@ -157,7 +158,7 @@ def test_single_statistic_panel_label_and_footer(tmp_path):
     moment = datetime(2024, 2, 3, 4, 5, tzinfo=UTC)
     fig = plots.stability_figure(table, analysis_time=moment)
     (ax,) = fig.axes
-    assert ax.get_ylabel() == r"overlapping Allan deviation $\sigma_y(\tau)$"
+    assert ax.get_ylabel() == "overlapping Allan deviation, OADEV"
     assert ax.get_legend() is None
     assert fig._suptitle.get_text() == "osc.csv"
     footer = [t.get_text() for t in fig.texts]
@@ -389,3 +390,23 @@ def test_fixed_layout_keeps_every_label_inside_the_figure(qualified):
             assert tight.x1 <= box.x1 + 0.5 and tight.y1 <= box.y1 + 0.5
         labels = [t.get_text() for ax in fig.axes for t in ax.get_yticklabels() if t.get_text()]
         assert labels and not any("$" in t for t in labels)
+
+
+def test_minor_grid_lines_sit_at_two_to_nine_times_each_decade(qualified):
+    # Log "paper": minor lines at 2..9 x 10^k inside the limits (common practice).
+    fig = plots.stability_figure(qualified)
+    ax = fig.stability_axes["oadev"]
+    grids = [c for c in ax.collections if c.get_gid() == "minor-grid"]
+    lo, hi = ax.get_xlim()
+    vertical = [seg[0, 0] for c in grids for seg in c.get_segments() if seg[0, 0] == seg[1, 0]]
+    expected = [m * 10.0**k for k in range(-3, 8) for m in range(2, 10) if lo < m * 10.0**k < hi]
+    np.testing.assert_allclose(sorted(vertical), expected)
+    # an axis spanning less than 1.5 decades keeps matplotlib's own minor ticks (and labels)
+    narrow = plots._new_figure(6.0, 4.0, fixed=True)
+    axis = narrow.add_subplot()
+    plots._log_axes(axis)
+    axis.plot([1.0, 1e4], [2e-12, 6e-12])
+    plots._minor_log_grid(axis)
+    narrow.canvas.draw()
+    assert [t.get_text() for t in axis.get_yticklabels(minor=True) if t.get_text()]
+    assert len([c for c in axis.collections if c.get_gid() == "minor-grid"]) == 1  # x only
