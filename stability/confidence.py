@@ -79,9 +79,9 @@ from numbers import Integral, Real
 from typing import Any
 
 import numpy as np
-from scipy.special import chdtri, comb
 
 from .errors import InputError
+from .special import binomial, chi2_upper_quantile
 from .table import ConfidenceInterval
 
 __all__ = [
@@ -331,7 +331,7 @@ def _sx(t: np.ndarray, F: float, alpha: int) -> np.ndarray:
 def _sz(t: np.ndarray, F: float, alpha: int, d: int) -> np.ndarray:
     """Eq. (9): autocovariance of the d-th difference; vectorised over ``t``."""
     k = np.arange(-d, d + 1)
-    coef = (-1.0) ** k * comb(2 * d, d + k)
+    coef = (-1.0) ** k * binomial(2 * d, d + k)
     t = np.atleast_1d(np.asarray(t, dtype=float))
     return (_sx(t[:, None] + k[None, :], F, alpha) * coef).sum(axis=1)
 
@@ -398,11 +398,11 @@ def _greenhall_inverse(alpha: int, d: int, m: int, n: int, F: float, S: int) -> 
     # Case 4: unmodified WPM. The filtered phase differences are correlated only at
     # lags that are whole multiples of m, which gives a closed form.
     K = math.ceil(r)
-    c0 = comb(2 * d, d) ** 2
+    c0 = binomial(2 * d, d) ** 2
     if K <= d:
         k = np.arange(1 - K, K)
-        return float(((1.0 - np.abs(k) / r) * comb(2 * d, d + k) ** 2).sum() / (M * c0))
-    a0 = comb(4 * d, 2 * d) / c0
+        return float(((1.0 - np.abs(k) / r) * binomial(2 * d, d + k) ** 2).sum() / (M * c0))
+    a0 = binomial(4 * d, 2 * d) / c0
     a1 = d / 2.0
     return float((a0 - a1 / r) / M)
 
@@ -612,10 +612,9 @@ def chi2_interval(deviation: Any, edf: Any, confidence: float = 0.683) -> Confid
     p = 1.0 - level
     good = np.isfinite(s) & (s >= 0) & np.isfinite(nu) & (nu > 0)
     nu_ok = np.where(good, nu, 1.0)
-    # chdtri(nu, q) is the chi-squared quantile with upper-tail probability q,
-    # i.e. chi2.ppf(1 - q, nu), without importing scipy.stats.
-    upper_q = chdtri(nu_ok, p / 2.0)
-    lower_q = chdtri(nu_ok, 1.0 - p / 2.0)
+    # the chi-squared quantiles with upper-tail probabilities p/2 and 1 - p/2
+    upper_q = chi2_upper_quantile(nu_ok, p / 2.0)
+    lower_q = chi2_upper_quantile(nu_ok, 1.0 - p / 2.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         low = s * np.sqrt(nu_ok / upper_q)
         high = s * np.sqrt(nu_ok / lower_q)
