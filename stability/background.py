@@ -50,6 +50,8 @@ from .errors import AnalysisError
 __all__ = ["BackgroundWorker", "forking_enabled"]
 
 _HEADER = struct.Struct("<Q")
+#: fcntl command that sets a pipe's buffer size (Linux, fcntl(2)).
+_F_SETPIPE_SZ = 1031
 
 
 def forking_enabled() -> bool:
@@ -133,6 +135,12 @@ class BackgroundWorker:
 
     def _start(self, warm_up: tuple[str, ...]) -> None:
         tasks_read, tasks_write = os.pipe()
+        try:  # a 1 MiB pipe buffer: large arguments go across in few writes
+            import fcntl  # POSIX only; this path runs on Linux only
+
+            fcntl.fcntl(tasks_write, _F_SETPIPE_SZ, 1 << 20)
+        except OSError:
+            pass
         report_read, report_write = os.pipe()
         for stream in (sys.stdout, sys.stderr):  # nothing buffered may be written twice
             try:

@@ -71,6 +71,10 @@ from matplotlib.transforms import blended_transform_factory
 from .errors import InputError
 from .measurement import Measurement
 from .reports.files import atomic_output
+from .reports.labels import analysis_date as _analysis_date
+from .reports.labels import default_footer
+from .reports.labels import default_title as _default_title
+from .reports.labels import tool_footer as _tool_footer
 from .table import StabilityTable
 
 __all__ = [
@@ -290,33 +294,6 @@ def _style_axes(ax: Any) -> None:
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)
     ax.tick_params(labelsize=8)
-
-
-def _analysis_date(moment: datetime | None) -> str:
-    moment = moment or datetime.now(UTC)
-    if moment.tzinfo is None:
-        moment = moment.astimezone()
-    return moment.astimezone(UTC).strftime("%Y-%m-%d %H:%M UTC")
-
-
-def default_footer(
-    source: StabilityTable | Measurement | None, *, analysis_time: datetime | None = None
-) -> str:
-    """Footer text: input SHA-256 prefix (12 hex), tool version and analysis date."""
-    from . import __version__
-
-    measurement = source.measurement if isinstance(source, StabilityTable) else source
-    sha = None
-    if isinstance(measurement, Measurement):
-        sha = measurement.provenance.sha256
-    where = f"input SHA-256 {sha[:12]}" if sha else "input from memory (no file hash)"
-    return f"{where} · stability {__version__} · analysed {_analysis_date(analysis_time)}"
-
-
-def _default_title(measurement: Any, fallback: str) -> str:
-    if isinstance(measurement, Measurement) and measurement.provenance.path:
-        return Path(measurement.provenance.path).name
-    return fallback
 
 
 def _put_footer(fig: Figure, text: str) -> None:
@@ -814,12 +791,15 @@ def _phase_residual(phase: np.ndarray) -> np.ndarray:
     """Phase minus its own least-squares line (the linear frequency offset removed)."""
     k = np.arange(phase.size, dtype=float)
     good = np.isfinite(phase)
-    if good.sum() < 2:
+    count = int(np.count_nonzero(good))
+    if count < 2:
         return phase - np.nanmean(phase)
-    km = k[good].mean()
-    xm = phase[good].mean()
-    dk = k[good] - km
-    slope = float(np.dot(dk, phase[good] - xm) / np.dot(dk, dk))
+    kk, xx = (k, phase) if count == phase.size else (k[good], phase[good])
+    km = kk.mean()
+    xm = xx.mean()
+    dk = kk - km
+    # einsum, not np.dot: 1-D dot goes to a threaded BLAS (see deviations._kernels.dot)
+    slope = float(np.einsum("i,i->", dk, xx - xm) / np.einsum("i,i->", dk, dk))
     return phase - (xm + slope * (k - km))
 
 
@@ -1032,13 +1012,6 @@ def series_figure(
 
 
 # ---------------------------------------------------------------------- footers without one input
-def _tool_footer(analysis_time: datetime | None) -> str:
-    """Footer of a figure drawn from several inputs or none: tool version and analysis date."""
-    from . import __version__
-
-    return f"stability {__version__} · analysed {_analysis_date(analysis_time)}"
-
-
 # ---------------------------------------------------------------------- three-cornered hat
 def _validate_hat_args(results: Any, title: Any, footer: Any) -> list[Any]:
     from .hat import HatResult
@@ -1633,8 +1606,10 @@ def save_figure(
     }[fmt]
     if fig.canvas is None or not isinstance(fig.canvas, FigureCanvasAgg):
         FigureCanvasAgg(fig)
+    # zlib level 3 instead of 6: a third less encoding time for files about 15 % larger
+    extra = {"pil_kwargs": {"compress_level": 3}} if fmt == "png" else {}
     with atomic_output(target, "wb") as handle:
-        fig.savefig(handle, format=fmt, dpi=dpi, metadata=metadata)
+        fig.savefig(handle, format=fmt, dpi=dpi, metadata=metadata, **extra)
     return target
 
 

@@ -11,6 +11,7 @@
 from __future__ import annotations
 
 import contextlib
+import copy
 import os
 import sys
 from dataclasses import dataclass, field
@@ -27,6 +28,7 @@ from .ingest import read_log
 from .measurement import Measurement
 from .prepare import PreparationReport, prepare, require_variation
 from .qualify import model_curve
+from .reports.labels import default_footer, default_title
 from .taus import parse_taus
 
 __all__ = [
@@ -265,23 +267,33 @@ def analyze_into(
         out = ensure_folder(folder)
         moment = datetime.now(UTC)
         pending = {name: _pending_path(out, f"{name}.{fmt}") for name in ("series", "sigma_tau")}
+        shown, drift, outliers = _series_inputs(source, prepared, report)
         worker.submit(
             _draw_series,
             pending["series"],
             fmt,
-            *_series_inputs(source, prepared, report),
+            _without_lines(shown),
+            drift,
+            outliers,
             moment,
+            default_title(shown, "data over time"),
+            default_footer(shown, analysis_time=moment),
         )
         run = _qualified_run(source, prepared, report, options, moment)
+        # the worker needs the results, not the measurement behind them (a large array)
+        results = copy.copy(run.table)
+        results.measurement = None
         worker.submit(
             _draw_stability,
             pending["sigma_tau"],
             fmt,
-            run.table,
+            results,
             run.model_curves(),
             limits,
             limits_statistic,
             moment,
+            default_title(run.table.measurement, "stability"),
+            default_footer(run.table, analysis_time=moment),
         )
         written = _write_texts(run, out)
         worker.wait()
@@ -312,6 +324,13 @@ def _pending_path(folder: Path, name: str) -> Path:
     return folder / f".{name}.{os.getpid()}.pending"
 
 
+def _without_lines(measurement: Measurement) -> Measurement:
+    """A shallow copy without the source line numbers (not drawn; as large as the data)."""
+    slim = copy.copy(measurement)
+    slim.lines = None
+    return slim
+
+
 def _draw_series(
     target: Path,
     fmt: str,
@@ -319,10 +338,19 @@ def _draw_series(
     drift: np.ndarray | None,
     outliers: np.ndarray,
     moment: datetime,
+    title: str | None = None,
+    footer: str | None = None,
 ) -> Path:
     from .plots import save_figure, series_figure
 
-    fig = series_figure(shown, drift_curve=drift, outlier_indices=outliers, analysis_time=moment)
+    fig = series_figure(
+        shown,
+        drift_curve=drift,
+        outlier_indices=outliers,
+        analysis_time=moment,
+        title=title,
+        footer=footer,
+    )
     return save_figure(fig, target, fmt)
 
 
@@ -334,6 +362,8 @@ def _draw_stability(
     limits: Any,
     limits_statistic: str | None,
     moment: datetime,
+    title: str | None = None,
+    footer: str | None = None,
 ) -> Path:
     from .plots import save_figure, stability_figure
 
@@ -343,6 +373,8 @@ def _draw_stability(
         limits=limits,
         limits_statistic=limits_statistic,
         analysis_time=moment,
+        title=title,
+        footer=footer,
     )
     return save_figure(fig, target, fmt)
 

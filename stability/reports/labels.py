@@ -1,0 +1,53 @@
+"""Titles and footers of figures: which input, which tool version, when.
+
+Kept apart from :mod:`stability.plots` so that they can be decided without
+loading the plotting library (for example by a process that hands the drawing
+to a worker, :mod:`stability.background`).
+"""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+from ..measurement import Measurement
+from ..table import StabilityTable
+
+__all__ = ["analysis_date", "default_footer", "default_title", "tool_footer"]
+
+
+def analysis_date(moment: datetime | None) -> str:
+    """``YYYY-MM-DD HH:MM UTC`` of a moment (default now; a naive moment is local time)."""
+    moment = moment or datetime.now(UTC)
+    if moment.tzinfo is None:
+        moment = moment.astimezone()
+    return moment.astimezone(UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+
+def default_footer(
+    source: StabilityTable | Measurement | None, *, analysis_time: datetime | None = None
+) -> str:
+    """Footer text: input SHA-256 prefix (12 hex), tool version and analysis date."""
+    from .. import __version__
+
+    measurement = source.measurement if isinstance(source, StabilityTable) else source
+    sha = None
+    if isinstance(measurement, Measurement):
+        sha = measurement.provenance.sha256
+    where = f"input SHA-256 {sha[:12]}" if sha else "input from memory (no file hash)"
+    return f"{where} · stability {__version__} · analysed {analysis_date(analysis_time)}"
+
+
+def default_title(measurement: Any, fallback: str) -> str:
+    """The log's file name, or ``fallback`` for data without a file."""
+    if isinstance(measurement, Measurement) and measurement.provenance.path:
+        return Path(measurement.provenance.path).name
+    return fallback
+
+
+def tool_footer(analysis_time: datetime | None) -> str:
+    """Footer of a figure drawn from several inputs or none: tool version and analysis date."""
+    from .. import __version__
+
+    return f"stability {__version__} · analysed {analysis_date(analysis_time)}"
