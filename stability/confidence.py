@@ -615,7 +615,8 @@ def chi2_interval(deviation: Any, edf: Any, confidence: float = 0.683) -> Confid
     # the chi-squared quantiles with upper-tail probabilities p/2 and 1 - p/2
     upper_q = chi2_upper_quantile(nu_ok, p / 2.0)
     lower_q = chi2_upper_quantile(nu_ok, 1.0 - p / 2.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    # a fraction of one degree of freedom has a lower quantile that underflows: no upper bound
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         low = s * np.sqrt(nu_ok / upper_q)
         high = s * np.sqrt(nu_ok / lower_q)
     low = np.where(good, np.minimum(low, s), np.nan)

@@ -63,3 +63,16 @@ def test_binomial():
     assert binomial(4, 2) == 6.0  # common practice
     np.testing.assert_array_equal(binomial(4, np.arange(-1, 6)), [0, 1, 4, 6, 4, 1, 0])
     assert binomial(40, 20) == float(math.comb(40, 20))
+
+
+def test_interval_from_a_sliver_of_a_degree_of_freedom_warns_nothing():
+    # nu = 0.001: the lower quantile underflows to (nearly) 0, so the interval has no
+    # useful upper bound; it must say so with a huge or infinite bound, silently.
+    import warnings
+
+    from stability.confidence import chi2_interval
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        low, high = chi2_interval(1.0, 0.001, 0.683)
+    assert 0.0 <= low <= 1.0 and high > 1e100
