@@ -356,7 +356,6 @@ def _frequency(x: np.ndarray, seg: np.ndarray | None, tau0: float) -> np.ndarray
     return memo[key]
 
 
-@lru_cache(maxsize=4096)
 def expected_acf_estimate(alpha: int, d: int, m: int, span: int) -> float:
     """Expected lag-1 estimate p (alpha scale) for noise ``alpha`` seen at averaging factor m.
 
@@ -375,13 +374,21 @@ def expected_acf_estimate(alpha: int, d: int, m: int, span: int) -> float:
     flicker frequency redder as m grows), which is why :func:`identify` picks the
     type whose expected p is nearest instead of rounding.
     """
+    return _expected_estimates((int(alpha),), d, m, span)[int(alpha)]
+
+
+def _expected_estimates(alphas: tuple[int, ...], d: int, m: int, span: int) -> dict[int, float]:
+    """:func:`expected_acf_estimate` of several noise types at once (one shared grid)."""
     if m > _EXPECT_MAX_M:
         span = max(2, (span * _EXPECT_MAX_M) // m)
         m = _EXPECT_MAX_M
     # The dependence on the record length is logarithmic: a power-of-two bucket of
     # the span lets records of similar length share the cached value.
-    span = 1 << max(1, int(span).bit_length() - 1)
-    beta = 2.0 - alpha
+    return _expected_on_grid(alphas, d, m, 1 << max(1, int(span).bit_length() - 1))
+
+
+@lru_cache(maxsize=4096)
+def _expected_on_grid(alphas: tuple[int, ...], d: int, m: int, span: int) -> dict[int, float]:
     f_low = 1.0 / max(span, 2 * m)
     f_mid = min(0.5, 1.0 / (8.0 * m))
     low = np.geomspace(f_low, f_mid, 2000) if f_mid > f_low else np.empty(0)
@@ -389,21 +396,26 @@ def expected_acf_estimate(alpha: int, d: int, m: int, span: int) -> float:
     # less than 0.003 from a grid eight times denser (types are 1 apart).
     high = np.linspace(f_mid, 0.5, int(8 * m * (d + 1)) + 2)
     f = np.concatenate([low, high[1:] if low.size else high])
+    out = {}
     with np.errstate(all="ignore"):
-        s = np.abs(2.0 * np.sin(np.pi * f)) ** (-beta) * np.abs(2.0 * np.sin(np.pi * f * m)) ** (
-            2 * d
-        )
-        r0 = float(np.trapezoid(s, f))
-        r1 = float(np.trapezoid(s * np.cos(2.0 * np.pi * f * m), f)) / r0
-    delta = r1 / (1.0 + r1) if r1 > -1.0 else -math.inf
-    return 2.0 - 2.0 * (delta + d)
+        base = np.abs(2.0 * np.sin(np.pi * f))
+        shaped = np.abs(2.0 * np.sin(np.pi * f * m)) ** (2 * d)
+        lag = np.cos(2.0 * np.pi * f * m)
+        for alpha in alphas:
+            s = base ** (alpha - 2.0) * shaped  # |2 sin(pi f)|^-(2 - alpha)
+            r0 = float(np.trapezoid(s, f))
+            r1 = float(np.trapezoid(s * lag, f)) / r0
+            delta = r1 / (1.0 + r1) if r1 > -1.0 else -math.inf
+            out[alpha] = 2.0 - 2.0 * (delta + d)
+    return out
 
 
 def _nearest_alpha(p: float, d_phase: int, m: int, span: int, dmax_phase: int) -> int:
     """The candidate alpha whose expected lag-1 estimate at (d, m) is nearest to p, clipped."""
     lowest = 2 - 2 * dmax_phase
     candidates = range(2, lowest - 1, -1)
-    dist = [abs(p - expected_acf_estimate(a, d_phase, m, span)) for a in candidates]
+    expected = _expected_estimates(tuple(candidates), d_phase, m, span)
+    dist = [abs(p - expected[a]) for a in candidates]
     best = list(candidates)[int(np.argmin(dist))]
     return int(min(2, max(-2, best)))
 
@@ -578,10 +590,11 @@ def identify(
     notes: list[str] = []
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        y = _frequency(x, seg, tau0)
+        # the frequency series (as large as the data) only when there are gaps
+        y = None if unbroken else _frequency(x, seg, tau0)
         for i, m in enumerate(int(v) for v in m_arr):
             yb = None
-            if unbroken:
+            if y is None:
                 z, data, dm = x[::m], "phase", dmax
             else:
                 z = yb = _block_means(y, m)
@@ -601,7 +614,9 @@ def identify(
                 estimate[i] = p
                 method[i] = "acf"
                 continue
-            b1 = _b1_rn(x, seg, tau0, m, _block_means(y, m) if yb is None else yb)
+            if yb is None:  # unbroken phase: a block mean of y is a phase difference
+                yb = np.diff(x[::m][: (x.size - 1) // m + 1]) / (m * tau0)
+            b1 = _b1_rn(x, seg, tau0, m, yb)
             if b1 is not None:
                 alpha[i], method[i] = float(b1[0]), b1[1]
     if not unbroken:
