@@ -10,11 +10,12 @@ almost no wall time.
 On Linux the worker is a child made with ``fork()`` [1]_, which shares the
 parent's memory copy-on-write; tasks (a module-level function and its
 arguments) reach it pickled through a pipe, written by a small thread of the
-parent so that a long task never blocks the parent's own work. Elsewhere, or
-when the environment variable ``STABILITY_SERIAL`` is set to anything but
-``0`` or empty, the tasks simply run in order when :meth:`BackgroundWorker.wait`
-is called. Either way the caller sees the same outcome: ``wait`` returns once
-every task is done, or raises the first error a task raised.
+parent so that a long task never blocks the parent's own work. Elsewhere, when
+the caller runs other threads, or when the environment variable
+``STABILITY_SERIAL`` is set to anything but ``0`` or empty, the tasks simply
+run in order when :meth:`BackgroundWorker.wait` is called. Either way the
+caller sees the same outcome: ``wait`` returns once every task is done, or
+raises the first error a task raised.
 
 The child never returns into the caller's code: it runs the tasks, reports
 success or the pickled exception (with its traceback text) through a second
@@ -55,8 +56,15 @@ _F_SETPIPE_SZ = 1031
 
 
 def forking_enabled() -> bool:
-    """True when tasks run in a forked child (Linux, and STABILITY_SERIAL unset or 0)."""
+    """True when tasks run in a forked child.
+
+    That is on Linux, with STABILITY_SERIAL unset or 0, and while the caller's
+    process runs no other Python thread (a thread could hold a lock at the moment
+    of the fork; in a notebook or a threaded application the tasks run in-process).
+    """
     if os.environ.get("STABILITY_SERIAL", "").strip() not in ("", "0"):
+        return False
+    if threading.active_count() != 1:
         return False
     return sys.platform.startswith("linux") and hasattr(os, "fork")
 

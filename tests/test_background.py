@@ -152,3 +152,22 @@ def test_a_failed_analysis_leaves_no_figure_and_no_new_folder(tmp_path):
     with pytest.raises(stability.AnalysisError):
         analyze_into(log, kept, kind="fractional", tau0=1.0, stats="oadev", taus=[1e6])
     assert list(kept.iterdir()) == []  # no pending figure left behind
+
+
+def test_no_fork_while_other_threads_run(tmp_path):
+    # A thread could hold a lock at the moment of a fork: with one running, tasks run here.
+    import threading
+
+    release = threading.Event()
+    other = threading.Thread(target=release.wait)
+    other.start()
+    try:
+        assert not forking_enabled()
+        worker = BackgroundWorker(label="writing")
+        assert not worker.forked
+        worker.submit(_write, tmp_path / "t.txt", "here")
+        worker.wait()
+        assert (tmp_path / "t.txt").read_text() == f"here from {os.getpid()}"
+    finally:
+        release.set()
+        other.join()
