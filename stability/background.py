@@ -2,10 +2,11 @@
 
 ``stability analyze`` draws its two figures while it reads and computes: a
 child process started at the beginning loads the plotting library while the
-parent reads the log, draws the data-over-time figure while the parent computes
-the statistics, and draws the stability plot once the results table arrives.
-Drawing is pure Python, so on a machine with two or more cores it then costs
-almost no wall time.
+parent reads the log, then forks a second lane from itself; the first lane
+draws the data-over-time figure while the parent computes the statistics, the
+second draws the stability plot as soon as the results table arrives. Drawing
+is pure Python, so on a machine with two or more cores it then costs little
+wall time.
 
 On Linux the worker is a child made with ``fork()`` [1]_, which shares the
 parent's memory copy-on-write; tasks (a module-level function and its
@@ -87,13 +88,13 @@ def _write_all(fd: int, data: bytes) -> None:
         view = view[os.write(fd, view) :]
 
 
-def _child(tasks_fd: int, report_fd: int, warm_up: tuple[str, ...]) -> None:
-    """The worker's whole life: warm up, run each task sent, report, exit."""
-    status, payload = 0, b""
+_DONE = b"done"  # a lane's report when every task succeeded
+
+
+def _serve(tasks_fd: int, report_fd: int) -> int:
+    """Run the tasks arriving on ``tasks_fd`` until end of file; report; return the status."""
+    status, payload = 0, _DONE
     try:
-        signal.signal(signal.SIGINT, signal.SIG_DFL)
-        for name in warm_up:
-            importlib.import_module(name)
         while True:
             header = _read_exactly(tasks_fd, _HEADER.size)
             if header is None:
@@ -105,19 +106,74 @@ def _child(tasks_fd: int, report_fd: int, warm_up: tuple[str, ...]) -> None:
             func(*args, **kwargs)
     except BaseException as exc:  # noqa: BLE001 - everything goes back to the parent
         status = 1
-        text = "".join(traceback.format_exception(exc))
-        try:
-            payload = pickle.dumps((exc, text))
-        except Exception:  # noqa: BLE001 - an exception that cannot be pickled
-            payload = pickle.dumps((None, text))
+        payload = _failure(exc)
     try:
         _write_all(report_fd, payload)
+    except OSError:
+        status = 1
+    return status
+
+
+def _failure(exc: BaseException) -> bytes:
+    text = "".join(traceback.format_exception(exc))
+    try:
+        return pickle.dumps((exc, text))
+    except Exception:  # noqa: BLE001 - an exception that cannot be pickled
+        return pickle.dumps((None, text))
+
+
+def _child(lanes: list[tuple[int, int]], warm_up: tuple[str, ...]) -> None:
+    """The first lane's process: warm up, fork the other lanes from itself, serve lane 0.
+
+    The other lanes are forked after the warm-up, so they start with the warmed-up
+    modules in memory instead of loading them a second time.
+    """
+    status = 0
+    try:
+        signal.signal(signal.SIGINT, signal.SIG_DFL)
+        for name in warm_up:
+            importlib.import_module(name)
+    except BaseException as exc:  # noqa: BLE001 - reported on every lane
+        for _, report_fd in lanes:
+            try:
+                _write_all(report_fd, _failure(exc))
+            except OSError:
+                pass
+        os._exit(1)
+    others: list[int] = []
+
+    def stop(_signum: int, _frame: Any) -> None:  # cancel(): stop and reap the other lanes too
+        for other in others:
+            try:
+                os.kill(other, signal.SIGKILL)
+                os.waitpid(other, 0)
+            except OSError:
+                pass
+        os._exit(1)
+
+    signal.signal(signal.SIGTERM, stop)
+    for index in range(1, len(lanes)):
+        pid = os.fork()
+        if pid == 0:
+            signal.signal(signal.SIGTERM, signal.SIG_DFL)
+            for j, (tasks_fd, report_fd) in enumerate(lanes):
+                if j != index:
+                    os.close(tasks_fd)
+                    os.close(report_fd)
+            os._exit(_serve(*lanes[index]))
+        others.append(pid)
+        os.close(lanes[index][0])
+        os.close(lanes[index][1])
+    try:
+        status = _serve(*lanes[0])
+        for pid in others:  # reap the other lanes before leaving
+            os.waitpid(pid, 0)
     finally:
         os._exit(status)
 
 
 class BackgroundWorker:
-    """Run tasks, in the order submitted, beside the caller; :meth:`wait` for them all.
+    """Run tasks beside the caller, in order within each lane; :meth:`wait` for them all.
 
     Parameters
     ----------
@@ -126,10 +182,14 @@ class BackgroundWorker:
     warm_up
         Modules the worker imports before its first task (while the caller
         goes on with its own work).
+    lanes
+        Number of processes; tasks of different lanes run side by side (each
+        lane is forked from the first after its warm-up).
     """
 
-    def __init__(self, *, label: str, warm_up: tuple[str, ...] = ()) -> None:
+    def __init__(self, *, label: str, warm_up: tuple[str, ...] = (), lanes: int = 1) -> None:
         self.label = label
+        self.lanes = max(1, int(lanes))
         self._serial: list[tuple[Callable[..., Any], tuple, dict]] = []
         self._pid: int | None = None
         self._done = False
@@ -138,18 +198,22 @@ class BackgroundWorker:
 
     @property
     def forked(self) -> bool:
-        """True when the tasks run in a child process."""
+        """True when the tasks run in child processes."""
         return self._pid is not None
 
     def _start(self, warm_up: tuple[str, ...]) -> None:
-        tasks_read, tasks_write = os.pipe()
-        try:  # a 1 MiB pipe buffer: large arguments go across in few writes
-            import fcntl  # POSIX only; this path runs on Linux only
+        parent_ends, child_ends = [], []
+        for _ in range(self.lanes):
+            tasks_read, tasks_write = os.pipe()
+            try:  # a 1 MiB pipe buffer: large arguments go across in few writes
+                import fcntl  # POSIX only; this path runs on Linux only
 
-            fcntl.fcntl(tasks_write, _F_SETPIPE_SZ, 1 << 20)
-        except OSError:
-            pass
-        report_read, report_write = os.pipe()
+                fcntl.fcntl(tasks_write, _F_SETPIPE_SZ, 1 << 20)
+            except OSError:
+                pass
+            report_read, report_write = os.pipe()
+            parent_ends.append((tasks_write, report_read))
+            child_ends.append((tasks_read, report_write))
         for stream in (sys.stdout, sys.stderr):  # nothing buffered may be written twice
             try:
                 stream.flush()
@@ -157,40 +221,57 @@ class BackgroundWorker:
                 pass
         pid = os.fork()
         if pid == 0:
-            os.close(tasks_write)
-            os.close(report_read)
-            _child(tasks_read, report_write, warm_up)
-        os.close(tasks_read)
-        os.close(report_write)
-        self._pid, self._tasks_fd, self._report_fd = pid, tasks_write, report_read
-        self._queue: queue.Queue[bytes | None] = queue.Queue()
-        self._writer = threading.Thread(target=self._send, daemon=True)
-        self._writer.start()
+            try:
+                for fd_pair in parent_ends:
+                    for fd in fd_pair:
+                        os.close(fd)
+            finally:
+                _child(child_ends, warm_up)
+        for fd_pair in child_ends:
+            for fd in fd_pair:
+                os.close(fd)
+        self._pid = pid
+        self._tasks_fds = [t for t, _ in parent_ends]
+        self._report_fds = [r for _, r in parent_ends]
+        self._queues: list[queue.Queue[bytes | None]] = [queue.Queue() for _ in parent_ends]
+        self._writers = [
+            threading.Thread(target=self._send, args=(lane,), daemon=True)
+            for lane in range(self.lanes)
+        ]
+        for writer in self._writers:
+            writer.start()
 
-    def _send(self) -> None:
-        """Writer thread: frames go out in order; a child that died ends the sending."""
+    def _send(self, lane: int) -> None:
+        """Writer thread of a lane: frames go out in order; a lane that died ends the sending."""
+        fd = self._tasks_fds[lane]
         while True:
-            frame = self._queue.get()
+            frame = self._queues[lane].get()
             if frame is None:
                 break
             try:
-                _write_all(self._tasks_fd, frame)
-            except OSError:  # the child has gone; wait() reports why
+                _write_all(fd, frame)
+            except OSError:  # the lane has gone; wait() reports why
                 break
         try:
-            os.close(self._tasks_fd)
+            os.close(fd)
         except OSError:
             pass
 
     def submit(self, func: Callable[..., Any], *args: Any, **kwargs: Any) -> None:
-        """Queue ``func(*args, **kwargs)``; ``func`` must be a module-level function."""
+        """Queue ``func(*args, **kwargs)`` on lane 0; ``func`` must be a module-level function."""
+        self.submit_to(0, func, *args, **kwargs)
+
+    def submit_to(self, lane: int, func: Callable[..., Any], *args: Any, **kwargs: Any) -> None:
+        """Queue ``func(*args, **kwargs)`` on one lane (0 ... lanes - 1)."""
         if self._done:
             raise AnalysisError(f"{self.label}: the worker has already finished")
+        if not 0 <= lane < self.lanes:
+            raise AnalysisError(f"{self.label}: no lane {lane} (lanes 0 to {self.lanes - 1})")
         if self._pid is None:
             self._serial.append((func, args, kwargs))
             return
         body = pickle.dumps((func, args, kwargs), protocol=pickle.HIGHEST_PROTOCOL)
-        self._queue.put(_HEADER.pack(len(body)) + body)
+        self._queues[lane].put(_HEADER.pack(len(body)) + body)
 
     def wait(self) -> None:
         """Wait for every task; raise what the first failing one raised (once)."""
@@ -201,39 +282,49 @@ class BackgroundWorker:
             for func, args, kwargs in self._serial:
                 func(*args, **kwargs)
             return
-        self._queue.put(None)
+        for lane_queue in self._queues:
+            lane_queue.put(None)
+        payloads = []
         try:
-            payload = b""
-            while True:
-                block = os.read(self._report_fd, 1 << 16)
-                if not block:
-                    break
-                payload += block
+            for fd in self._report_fds:
+                chunks = []
+                while True:
+                    block = os.read(fd, 1 << 16)
+                    if not block:
+                        break
+                    chunks.append(block)
+                payloads.append(b"".join(chunks))
         finally:
-            os.close(self._report_fd)
+            for fd in self._report_fds:
+                os.close(fd)
             _, status = os.waitpid(self._pid, 0)
-            self._writer.join()
-        if status == 0 and not payload:
-            return
-        exc, text = pickle.loads(payload) if payload else (None, "")
-        if isinstance(exc, BaseException):
-            exc.add_note(f"(raised while {self.label}, in a worker process)\n{text}")
-            raise exc
-        last = text.strip().splitlines()[-1] if text.strip() else f"wait status {status}"
-        raise AnalysisError(f"{self.label} failed: {last}")
+            for writer in self._writers:
+                writer.join()
+        for payload in payloads:
+            if payload == _DONE:
+                continue
+            exc, text = pickle.loads(payload) if payload else (None, "")
+            if isinstance(exc, BaseException):
+                exc.add_note(f"(raised while {self.label}, in a worker process)\n{text}")
+                raise exc
+            last = text.strip().splitlines()[-1] if text.strip() else f"wait status {status}"
+            raise AnalysisError(f"{self.label} failed: {last}")
 
     def cancel(self) -> None:
-        """Stop the worker if it still runs and reap it; nothing is raised."""
+        """Stop every lane if still running and reap the worker; nothing is raised."""
         if self._done:
             return
         self._done = True
         if self._pid is None:
             return
-        try:
+        try:  # the first lane stops and reaps the others (see _child)
             os.kill(self._pid, signal.SIGTERM)
-        except ProcessLookupError:
+        except OSError:
             pass
-        self._queue.put(None)
-        os.close(self._report_fd)
+        for lane_queue in self._queues:
+            lane_queue.put(None)
+        for fd in self._report_fds:
+            os.close(fd)
         os.waitpid(self._pid, 0)
-        self._writer.join()
+        for writer in self._writers:
+            writer.join()

@@ -256,7 +256,8 @@ def analyze_into(
 
     fmt = _check_plot_format(plot_format)
     read_opts, prep_opts, _ = _split_options(options)
-    worker = BackgroundWorker(label="drawing the figures", warm_up=("stability.plots",))
+    # two lanes: the series figure and the stability plot are drawn side by side
+    worker = BackgroundWorker(label="drawing the figures", warm_up=("stability.plots",), lanes=2)
     out: Path | None = None
     existed = Path(folder).is_dir()
     pending: dict[str, Path] = {}
@@ -268,7 +269,8 @@ def analyze_into(
         moment = datetime.now(UTC)
         pending = {name: _pending_path(out, f"{name}.{fmt}") for name in ("series", "sigma_tau")}
         shown, drift, outliers = _series_inputs(source, prepared, report)
-        worker.submit(
+        worker.submit_to(
+            0,
             _draw_series,
             pending["series"],
             fmt,
@@ -283,7 +285,8 @@ def analyze_into(
         # the worker needs the results, not the measurement behind them (a large array)
         results = copy.copy(run.table)
         results.measurement = None
-        worker.submit(
+        worker.submit_to(
+            1,
             _draw_stability,
             pending["sigma_tau"],
             fmt,

@@ -171,3 +171,56 @@ def test_no_fork_while_other_threads_run(tmp_path):
     finally:
         release.set()
         other.join()
+
+
+@needs_fork
+def test_two_lanes_run_side_by_side_in_two_processes(tmp_path):
+    worker = BackgroundWorker(label="writing", warm_up=("json",), lanes=2)
+    worker.submit_to(0, _write, tmp_path / "a.txt", "zero")
+    worker.submit_to(1, _write, tmp_path / "b.txt", "one")
+    worker.wait()
+    pid_a = (tmp_path / "a.txt").read_text().split()[-1]
+    pid_b = (tmp_path / "b.txt").read_text().split()[-1]
+    assert len({pid_a, pid_b, str(os.getpid())}) == 3
+    with pytest.raises(AnalysisError, match="already finished"):
+        worker.submit_to(1, _write, tmp_path / "c.txt", "late")
+
+
+@needs_fork
+def test_a_failure_on_the_second_lane_is_raised(tmp_path):
+    worker = BackgroundWorker(label="reading", lanes=2)
+    worker.submit_to(0, _write, tmp_path / "a.txt", "fine")
+    worker.submit_to(1, _fail)
+    with pytest.raises(InputError, match="bad column"):
+        worker.wait()
+    assert (tmp_path / "a.txt").exists()
+
+
+@needs_fork
+def test_a_failed_warm_up_is_raised():
+    worker = BackgroundWorker(label="loading", warm_up=("no_such_module_anywhere",), lanes=2)
+    worker.submit_to(1, time.sleep, 0)
+    with pytest.raises(ModuleNotFoundError, match="no_such_module_anywhere"):
+        worker.wait()
+
+
+@needs_fork
+def test_cancel_stops_every_lane():
+    start = time.perf_counter()
+    worker = BackgroundWorker(label="sleeping", lanes=2)
+    worker.submit_to(0, time.sleep, 30)
+    worker.submit_to(1, time.sleep, 30)
+    time.sleep(0.2)  # both lanes are asleep by now
+    worker.cancel()
+    assert time.perf_counter() - start < 10
+
+
+def test_lanes_in_serial_mode_and_a_missing_lane(tmp_path, monkeypatch):
+    monkeypatch.setenv("STABILITY_SERIAL", "1")
+    worker = BackgroundWorker(label="writing", lanes=2)
+    worker.submit_to(1, _write, tmp_path / "b.txt", "one")
+    worker.submit_to(0, _write, tmp_path / "a.txt", "zero")
+    with pytest.raises(AnalysisError, match="no lane 2 \\(lanes 0 to 1\\)"):
+        worker.submit_to(2, _write, tmp_path / "c.txt", "two")
+    worker.wait()
+    assert (tmp_path / "a.txt").exists() and (tmp_path / "b.txt").exists()
