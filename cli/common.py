@@ -52,8 +52,21 @@ StatsOpt = Annotated[
 TausOpt = Annotated[
     str, typer.Option("--taus", help="Tau grid: octave, decade, all, or a list in seconds.")
 ]
+
+
+def _confidence_level(value: float) -> float:
+    if not 0.0 < value < 1.0:
+        raise typer.BadParameter(f"a level strictly between 0 and 1 (e.g. 0.95), got {value:g}")
+    return value
+
+
 ConfidenceOpt = Annotated[
-    float, typer.Option("--confidence", help="Two-sided confidence level of the intervals.")
+    float,
+    typer.Option(
+        "--confidence",
+        help="Two-sided confidence level of the intervals.",
+        callback=_confidence_level,
+    ),
 ]
 OutOpt = Annotated[
     Path | None,

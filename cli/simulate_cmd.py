@@ -24,6 +24,7 @@ References
 
 from __future__ import annotations
 
+import gzip
 import math
 from datetime import UTC, datetime
 from pathlib import Path
@@ -34,7 +35,7 @@ import typer
 
 import stability
 from stability.errors import InputError
-from stability.reports.files import atomic_write_text, refuse_overwrite
+from stability.reports.files import atomic_write_bytes, atomic_write_text, refuse_overwrite
 from stability.simulate import h_from_deviation, simulate
 from stability.table import NOISE_LABELS
 from stability.units import parse_duration, parse_frequency
@@ -238,6 +239,8 @@ def simulate_log(
         "method: Kasdin & Walter 1992 filtered white noise (stability.simulate)",
     ]
     text = simulated_csv(data, header=header, start=start, tau0=tau0, preamble=preamble)
+    if out.suffix.lower() == ".gz":  # what the name promises; mtime 0 keeps runs identical
+        return atomic_write_bytes(out, gzip.compress(text.encode("utf-8"), mtime=0))
     return atomic_write_text(out, text)
 
 

@@ -76,7 +76,13 @@ def _split(text: str, what: str, example: str = "1s") -> tuple[float, str]:
         raise InputError(
             f"cannot read {what} {text!r}", hint=f"write a number with a unit, e.g. {example}"
         )
-    number = float(match.group(1).replace(",", "."))
+    written = match.group(1)
+    if re.fullmatch(r"[-+]?\d{1,3},\d{3}", written):
+        raise InputError(
+            f"{what} {text!r} is ambiguous: the comma may separate thousands or decimals",
+            hint=f"write {written.replace(',', '')} or {written.replace(',', '.')} instead",
+        )
+    number = float(written.replace(",", "."))
     return number, (match.group(2) or "").strip()
 
 

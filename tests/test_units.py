@@ -109,3 +109,10 @@ def test_formatting():
     # Parsing what was formatted gives the value back.
     for seconds in (1.0, 0.1, 3.2e-9, 14400.0, 216000.0):
         assert parse_duration(format_duration(seconds)) == pytest.approx(seconds, rel=1e-3)
+
+
+@pytest.mark.parametrize("text", ["1,000 s", "1,000", "-2,500ms", "10,000 s"])
+def test_a_comma_before_three_digits_is_ambiguous(text):
+    # "1,000" reads as one thousand in some countries and as one in others (common practice)
+    with pytest.raises(InputError, match="ambiguous: the comma may separate thousands or decimals"):
+        parse_duration(text, "tau0")

@@ -143,7 +143,6 @@ def test_bad_inputs_exit_1_with_one_line(log, tmp_path):
         "unknown statistic": [str(log), "--stats", "oadev,nosuchdev"],
         "bad taus": [str(log), "--taus", "1,ten"],
         "tau not multiple": [str(log), "--taus", "1.5"],
-        "bad confidence": [str(log), "--confidence", "1.5"],
         "bad outliers": [str(log), "--outliers", "many"],
         "bad drift": [str(log), "--drift", "cubic"],
         "bad plot format": [str(log), "--plot-format", "gif"],
@@ -166,6 +165,10 @@ def test_usage_errors_exit_2(log):
     assert result.exit_code == 2, result.output
     result = _invoke(["analyze", str(log), "--confidence", "high"])
     assert result.exit_code == 2, result.output
+    # a level outside (0, 1) is a usage error that names the option
+    result = _invoke(["analyze", str(log), "--confidence", "1.5"])
+    assert result.exit_code == 2, result.output
+    assert "--confidence" in result.output and "strictly between 0 and 1" in result.output
 
 
 def test_debug_shows_traceback(tmp_path):

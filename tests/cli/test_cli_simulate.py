@@ -165,3 +165,17 @@ def test_refuses_to_overwrite_and_is_reproducible(tmp_path):
 def test_parse_start():
     assert parse_start("2026-01-01T00:00:00Z").isoformat() == "2026-01-01T00:00:00+00:00"
     assert parse_start("2026-01-01T01:00:00").isoformat() == "2026-01-01T01:00:00+00:00"
+
+
+def test_a_gz_name_gets_a_gzip_file_that_analyze_reads(tmp_path):
+    import gzip
+
+    log = tmp_path / "w.csv.gz"
+    _ok(["simulate", str(log), "--n", "256", "--wfm", "1e-11", "--seed", "5"])
+    text = gzip.decompress(log.read_bytes()).decode("utf-8")  # a real gzip stream
+    assert text.splitlines()[0].startswith("# simulated power-law noise")
+    first = log.read_bytes()
+    _ok(["simulate", str(log), "--n", "256", "--wfm", "1e-11", "--seed", "5", "--force"])
+    assert log.read_bytes() == first  # reproducible byte for byte (no time in the header)
+    out = _ok(["analyze", str(log), "--stats", "oadev", "--out", str(tmp_path / "o")])
+    assert "oadev" in out.output and (tmp_path / "o" / "table.csv").exists()
