@@ -185,3 +185,35 @@ def test_unbroken_and_gap_paths_agree():
             ref, kr = brute_force(name, meas.phase.tolist(), None, TAU0, int(m))
             assert k == kr
             assert dev == pytest.approx(ref, rel=1e-12), (name, m)
+
+
+@pytest.mark.parametrize("block", [7, 64, 1 << 15])
+def test_blocked_gap_kernels_equal_the_whole_array_ones(block):
+    # The blocked kernels must give the sums of the whole-array definitions (NIST SP
+    # 1065 section 5.14: terms touching a gap are dropped) for any block size,
+    # windows wider and narrower than a block, gaps and segment breaks at block edges.
+    from stability.deviations._kernels import (
+        comb_terms,
+        gappy_sum_squares,
+        gappy_window_sums_squares,
+        window_sums_squares,
+    )
+
+    rng = np.random.default_rng(42)  # invented test data: a random walk with gaps
+    x = np.cumsum(rng.standard_normal(3000))
+    x[[0, 63, 64, 700, 701, 702, 2999]] = np.nan
+    seg = np.zeros(x.size, dtype=np.int64)
+    seg[1500:] = 1
+    seg[2200:] = 2
+    for m in (1, 3, 50, 400):
+        offsets, coefs = (0, m, 2 * m), (1.0, -2.0, 1.0)
+        count = x.size - 2 * m
+        terms = comb_terms(x, seg, offsets, coefs, count)
+        good = terms[~np.isnan(terms)]
+        total, used = gappy_sum_squares(x, seg, offsets, coefs, count, block=block)
+        assert used == good.size
+        assert total == pytest.approx(float(good @ good), rel=1e-12)
+        expected = window_sums_squares(terms, m)
+        got = gappy_window_sums_squares(x, seg, offsets, coefs, count, m, block=block)
+        assert got[1] == expected[1]
+        assert got[0] == pytest.approx(expected[0], rel=1e-10)

@@ -25,6 +25,8 @@ __all__ = [
     "comb_sum_squares",
     "comb_terms",
     "window_sums_squares",
+    "gappy_sum_squares",
+    "gappy_window_sums_squares",
 ]
 
 #: Elements per block: 2**15 float64 values (256 KiB) keep a handful of
@@ -125,6 +127,105 @@ def comb_terms(
         broken = seg[start + lo : start + lo + count] != seg[start + hi : start + hi + count]
         out[broken] = np.nan
     return out
+
+
+def _valid_block(
+    x: np.ndarray,
+    seg: np.ndarray | None,
+    offsets: Sequence[int],
+    coefs: Sequence[float],
+    lo: int,
+    hi: int,
+    buf: np.ndarray,
+    tmp: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Terms i in [lo, hi), the invalid ones (see :func:`comb_terms`) set to 0, and their mask."""
+    b = buf[: hi - lo]
+    _fill(b, x, lo, hi, offsets, coefs, tmp[: hi - lo])
+    bad = np.isnan(b)
+    if seg is not None:
+        first, last = min(offsets), max(offsets)
+        bad |= seg[lo + first : hi + first] != seg[lo + last : hi + last]
+    b[bad] = 0.0
+    return b, bad
+
+
+def gappy_sum_squares(
+    x: np.ndarray,
+    seg: np.ndarray | None,
+    offsets: Sequence[int],
+    coefs: Sequence[float],
+    count: int,
+    block: int = BLOCK,
+) -> tuple[float, int]:
+    """Sum of squares of the valid terms of :func:`comb_terms` and how many there are.
+
+    The same numbers as summing ``comb_terms(...)`` without its NaN, computed in
+    cache-sized blocks: nothing of the input's size is allocated.
+    """
+    if count <= 0:
+        return 0.0, 0
+    size = min(block, count)
+    buf, tmp = np.empty(size), np.empty(size)
+    total, used = 0.0, 0
+    for lo in range(0, count, size):
+        hi = min(lo + size, count)
+        b, bad = _valid_block(x, seg, offsets, coefs, lo, hi, buf, tmp)
+        total += dot(b, b)
+        used += (hi - lo) - int(np.count_nonzero(bad))
+    return total, used
+
+
+def gappy_window_sums_squares(
+    x: np.ndarray,
+    seg: np.ndarray | None,
+    offsets: Sequence[int],
+    coefs: Sequence[float],
+    count: int,
+    width: int,
+    block: int = BLOCK,
+) -> tuple[float, int]:
+    """:func:`window_sums_squares` of the ``count`` terms of :func:`comb_terms`, in blocks.
+
+    Each window sum follows from the previous one by adding the term that enters
+    and subtracting the one that leaves (a running sum, as in the unbroken
+    modified Allan path), with a running count of the invalid terms inside the
+    window; windows holding one are dropped.
+    """
+    windows = count - width + 1
+    if windows <= 0:
+        return 0.0, 0
+    size = min(block, max(width, windows))
+    enter, leave = np.empty(size), np.empty(size)
+    tmp = np.empty(size)
+    level, inside = 0.0, 0
+    for lo in range(0, width, size):  # the first window
+        hi = min(lo + size, width)
+        b, bad = _valid_block(x, seg, offsets, coefs, lo, hi, enter, tmp)
+        level += float(b.sum())
+        inside += int(np.count_nonzero(bad))
+    total, used = (level * level, 1) if inside == 0 else (0.0, 0)
+    for lo in range(0, windows - 1, size):  # windows 1 .. windows - 1
+        hi = min(lo + size, windows - 1)
+        came, came_bad = _valid_block(x, seg, offsets, coefs, lo + width, hi + width, enter, tmp)
+        went, went_bad = _valid_block(x, seg, offsets, coefs, lo, hi, leave, tmp)
+        np.subtract(came, went, out=came)
+        np.cumsum(came, out=came)
+        came += level
+        level = float(came[-1])
+        if not (came_bad.any() or went_bad.any()):  # the usual block: validity unchanged
+            if inside == 0:
+                total += dot(came, came)
+                used += hi - lo
+            continue
+        count_bad = np.cumsum(came_bad, dtype=np.int64) - np.cumsum(went_bad, dtype=np.int64)
+        count_bad += inside
+        inside = int(count_bad[-1])
+        ok = count_bad == 0
+        sums = came[ok]
+        total += dot(sums, sums)
+        used += int(sums.size)
+    return total, used
 
 
 def window_sums_squares(terms: np.ndarray, width: int) -> tuple[float, int]:

@@ -20,7 +20,14 @@ import math
 
 import numpy as np
 
-from ._kernels import BLOCK, comb_sum_squares, comb_terms, dot, is_unbroken, window_sums_squares
+from ._kernels import (
+    BLOCK,
+    comb_sum_squares,
+    dot,
+    gappy_sum_squares,
+    gappy_window_sums_squares,
+    is_unbroken,
+)
 
 __all__ = ["adev", "oadev", "mdev", "tdev"]
 
@@ -45,9 +52,8 @@ def oadev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> 
         return math.nan, 0
     if is_unbroken(x, seg):
         return _finish(comb_sum_squares(x, offsets, _D2, count), count, 2 * tau * tau)
-    terms = comb_terms(x, seg, offsets, _D2, count)
-    used = terms[~np.isnan(terms)]
-    return _finish(dot(used, used), used.size, 2 * tau * tau)
+    total, used = gappy_sum_squares(x, seg, offsets, _D2, count)
+    return _finish(total, used, 2 * tau * tau)
 
 
 def adev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
@@ -73,8 +79,7 @@ def mdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
         return math.nan, 0
     scale = 2.0 * m * m * tau * tau
     if not is_unbroken(x, seg):
-        d2 = comb_terms(x, seg, (0, m, 2 * m), _D2, x.size - 2 * m)
-        total, n = window_sums_squares(d2, m)
+        total, n = gappy_window_sums_squares(x, seg, (0, m, 2 * m), _D2, x.size - 2 * m, m)
         return _finish(total, n, scale)
     v0 = float(np.sum(x[2 * m : 3 * m]) - 2.0 * np.sum(x[m : 2 * m]) + np.sum(x[:m]))
     total = v0 * v0

@@ -18,7 +18,7 @@ import math
 
 import numpy as np
 
-from ._kernels import comb_sum_squares, comb_terms, dot, is_unbroken
+from ._kernels import comb_sum_squares, gappy_sum_squares, is_unbroken
 
 __all__ = ["hdev", "ohdev"]
 
@@ -35,9 +35,7 @@ def ohdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> 
     if is_unbroken(x, seg):
         total, n = comb_sum_squares(x, offsets, _D3, count), count
     else:
-        terms = comb_terms(x, seg, offsets, _D3, count)
-        used = terms[~np.isnan(terms)]
-        total, n = dot(used, used), int(used.size)
+        total, n = gappy_sum_squares(x, seg, offsets, _D3, count)
     if n == 0:
         return math.nan, 0
     return math.sqrt(total / (6.0 * tau * tau * n)), n
