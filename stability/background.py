@@ -156,8 +156,9 @@ def _child(lanes: list[tuple[int, int]], warm_up: tuple[str, ...]) -> None:
         pid = os.fork()
         if pid == 0:
             signal.signal(signal.SIGTERM, signal.SIG_DFL)
+            # lane 0's ends and those of lanes not forked yet (earlier ones are closed here)
             for j, (tasks_fd, report_fd) in enumerate(lanes):
-                if j != index:
+                if j == 0 or j > index:
                     os.close(tasks_fd)
                     os.close(report_fd)
             os._exit(_serve(*lanes[index]))

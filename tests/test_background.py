@@ -174,16 +174,16 @@ def test_no_fork_while_other_threads_run(tmp_path):
 
 
 @needs_fork
-def test_two_lanes_run_side_by_side_in_two_processes(tmp_path):
-    worker = BackgroundWorker(label="writing", warm_up=("json",), lanes=2)
-    worker.submit_to(0, _write, tmp_path / "a.txt", "zero")
-    worker.submit_to(1, _write, tmp_path / "b.txt", "one")
+@pytest.mark.parametrize("lanes", [2, 3])
+def test_lanes_run_side_by_side_in_their_own_processes(tmp_path, lanes):
+    worker = BackgroundWorker(label="writing", warm_up=("json",), lanes=lanes)
+    for lane in range(lanes):
+        worker.submit_to(lane, _write, tmp_path / f"{lane}.txt", f"lane {lane}")
     worker.wait()
-    pid_a = (tmp_path / "a.txt").read_text().split()[-1]
-    pid_b = (tmp_path / "b.txt").read_text().split()[-1]
-    assert len({pid_a, pid_b, str(os.getpid())}) == 3
+    pids = {(tmp_path / f"{lane}.txt").read_text().split()[-1] for lane in range(lanes)}
+    assert len(pids | {str(os.getpid())}) == lanes + 1
     with pytest.raises(AnalysisError, match="already finished"):
-        worker.submit_to(1, _write, tmp_path / "c.txt", "late")
+        worker.submit_to(1, _write, tmp_path / "late.txt", "late")
 
 
 @needs_fork
