@@ -92,7 +92,11 @@ _DONE = b"done"  # a lane's report when every task succeeded
 
 
 def _serve(tasks_fd: int, report_fd: int) -> int:
-    """Run the tasks arriving on ``tasks_fd`` until end of file; report; return the status."""
+    """Run the tasks arriving on ``tasks_fd`` until end of file; report; return the status.
+
+    The report pipe is closed here, before the process waits for anything else,
+    so the parent sees each lane's end as soon as that lane is done.
+    """
     status, payload = 0, _DONE
     try:
         while True:
@@ -111,35 +115,37 @@ def _serve(tasks_fd: int, report_fd: int) -> int:
         _write_all(report_fd, payload)
     except OSError:
         status = 1
+    finally:
+        os.close(report_fd)
     return status
 
 
 def _failure(exc: BaseException) -> bytes:
+    """The report of a failed lane: the pickled exception (if it pickles) and its traceback."""
     text = "".join(traceback.format_exception(exc))
     try:
-        return pickle.dumps((exc, text))
+        exc_bytes: bytes | None = pickle.dumps(exc)
     except Exception:  # noqa: BLE001 - an exception that cannot be pickled
-        return pickle.dumps((None, text))
+        exc_bytes = None
+    return pickle.dumps((exc_bytes, text))
+
+
+def _die_with_parent() -> None:
+    """Ask Linux to send SIGTERM to this process when its parent dies (prctl(2))."""
+    try:
+        import ctypes
+
+        ctypes.CDLL(None).prctl(1, signal.SIGTERM)  # 1 = PR_SET_PDEATHSIG
+    except (OSError, AttributeError):  # not Linux or no libc: lanes end at end of input
+        pass
 
 
 def _child(lanes: list[tuple[int, int]], warm_up: tuple[str, ...]) -> None:
     """The first lane's process: warm up, fork the other lanes from itself, serve lane 0.
 
     The other lanes are forked after the warm-up, so they start with the warmed-up
-    modules in memory instead of loading them a second time.
+    modules in memory instead of loading them a second time. Never returns.
     """
-    status = 0
-    try:
-        signal.signal(signal.SIGINT, signal.SIG_DFL)
-        for name in warm_up:
-            importlib.import_module(name)
-    except BaseException as exc:  # noqa: BLE001 - reported on every lane
-        for _, report_fd in lanes:
-            try:
-                _write_all(report_fd, _failure(exc))
-            except OSError:
-                pass
-        os._exit(1)
     others: list[int] = []
 
     def stop(_signum: int, _frame: Any) -> None:  # cancel(): stop and reap the other lanes too
@@ -151,21 +157,46 @@ def _child(lanes: list[tuple[int, int]], warm_up: tuple[str, ...]) -> None:
                 pass
         os._exit(1)
 
-    signal.signal(signal.SIGTERM, stop)
-    for index in range(1, len(lanes)):
-        pid = os.fork()
-        if pid == 0:
-            signal.signal(signal.SIGTERM, signal.SIG_DFL)
-            # lane 0's ends and those of lanes not forked yet (earlier ones are closed here)
-            for j, (tasks_fd, report_fd) in enumerate(lanes):
-                if j == 0 or j > index:
-                    os.close(tasks_fd)
-                    os.close(report_fd)
-            os._exit(_serve(*lanes[index]))
-        others.append(pid)
-        os.close(lanes[index][0])
-        os.close(lanes[index][1])
+    status = 1
     try:
+        signal.signal(signal.SIGINT, signal.SIG_DFL)
+        signal.signal(signal.SIGTERM, stop)
+        _die_with_parent()
+        forked = 1
+        try:
+            for name in warm_up:
+                importlib.import_module(name)
+            for index in range(1, len(lanes)):
+                pid = os.fork()
+                if pid == 0:
+                    try:
+                        signal.signal(signal.SIGTERM, signal.SIG_DFL)
+                        _die_with_parent()
+                        # lane 0's ends and those of lanes not forked yet (the others are
+                        # closed in lane 0 already)
+                        for j, (tasks_fd, report_fd) in enumerate(lanes):
+                            if j == 0 or j > index:
+                                os.close(tasks_fd)
+                                os.close(report_fd)
+                        status = _serve(*lanes[index])
+                    finally:
+                        os._exit(status)
+                others.append(pid)
+                forked += 1
+                os.close(lanes[index][0])
+                os.close(lanes[index][1])
+        except BaseException as exc:  # noqa: BLE001 - reported on every lane not running
+            report = _failure(exc)
+            for j in [0, *range(forked, len(lanes))]:
+                try:
+                    _write_all(lanes[j][1], report)
+                    os.close(lanes[j][1])
+                except OSError:
+                    pass
+            for pid in others:
+                os.waitpid(pid, 0)
+            status = 1
+            return
         status = _serve(*lanes[0])
         for pid in others:  # reap the other lanes before leaving
             os.waitpid(pid, 0)
@@ -193,7 +224,8 @@ class BackgroundWorker:
         self.lanes = max(1, int(lanes))
         self._serial: list[tuple[Callable[..., Any], tuple, dict]] = []
         self._pid: int | None = None
-        self._done = False
+        self._done = False  # no more tasks are taken
+        self._reaped = True  # no child process is left to stop or wait for
         if forking_enabled():
             self._start(tuple(warm_up))
 
@@ -220,18 +252,25 @@ class BackgroundWorker:
                 stream.flush()
             except (OSError, ValueError, AttributeError):
                 pass
-        pid = os.fork()
+        try:
+            pid = os.fork()
+        except OSError:  # no process to spare: the tasks run here, at wait()
+            for fd_pair in (*parent_ends, *child_ends):
+                for fd in fd_pair:
+                    os.close(fd)
+            return
         if pid == 0:
             try:
                 for fd_pair in parent_ends:
                     for fd in fd_pair:
                         os.close(fd)
-            finally:
                 _child(child_ends, warm_up)
+            finally:
+                os._exit(1)  # never back into the caller's code
         for fd_pair in child_ends:
             for fd in fd_pair:
                 os.close(fd)
-        self._pid = pid
+        self._pid, self._reaped = pid, False
         self._tasks_fds = [t for t, _ in parent_ends]
         self._report_fds = [r for _, r in parent_ends]
         self._queues: list[queue.Queue[bytes | None]] = [queue.Queue() for _ in parent_ends]
@@ -265,7 +304,7 @@ class BackgroundWorker:
     def submit_to(self, lane: int, func: Callable[..., Any], *args: Any, **kwargs: Any) -> None:
         """Queue ``func(*args, **kwargs)`` on one lane (0 ... lanes - 1)."""
         if self._done:
-            raise AnalysisError(f"{self.label}: the worker has already finished")
+            raise AnalysisError(f"{self.label}: the worker takes no more tasks")
         if not 0 <= lane < self.lanes:
             raise AnalysisError(f"{self.label}: no lane {lane} (lanes 0 to {self.lanes - 1})")
         if self._pid is None:
@@ -274,8 +313,58 @@ class BackgroundWorker:
         body = pickle.dumps((func, args, kwargs), protocol=pickle.HIGHEST_PROTOCOL)
         self._queues[lane].put(_HEADER.pack(len(body)) + body)
 
+    def _read_reports(self) -> list[bytes]:
+        """Every lane's report, read side by side until each pipe ends (none can block another)."""
+        import selectors
+
+        chunks: dict[int, list[bytes]] = {fd: [] for fd in self._report_fds}
+        with selectors.DefaultSelector() as selector:
+            for fd in self._report_fds:
+                selector.register(fd, selectors.EVENT_READ)
+            open_fds = set(self._report_fds)
+            while open_fds:
+                for key, _ in selector.select():
+                    block = os.read(key.fd, 1 << 16)
+                    if block:
+                        chunks[key.fd].append(block)
+                    else:
+                        selector.unregister(key.fd)
+                        open_fds.discard(key.fd)
+        return [b"".join(chunks[fd]) for fd in self._report_fds]
+
+    def _reap(self, stop: bool) -> int:
+        """Close the report pipes, wait for lane 0 (stopping it first if asked); its status."""
+        if self._reaped:
+            return 0
+        self._reaped = True
+        assert self._pid is not None
+        if stop:
+            try:  # the first lane stops and reaps the others (see _child)
+                os.kill(self._pid, signal.SIGTERM)
+            except OSError:
+                pass
+        for lane_queue in self._queues:
+            lane_queue.put(None)
+        for fd in self._report_fds:
+            try:
+                os.close(fd)
+            except OSError:
+                pass
+        status = 0
+        try:
+            status = os.waitstatus_to_exitcode(os.waitpid(self._pid, 0)[1])
+        except ChildProcessError:  # SIGCHLD ignored by the host: nothing to reap
+            pass
+        for writer in self._writers:
+            writer.join()
+        return status
+
     def wait(self) -> None:
-        """Wait for every task; raise what the first failing one raised (once)."""
+        """Wait for every task; raise what the first failing lane raised (once).
+
+        Interrupted (for example by Ctrl-C), it stops the lanes before passing
+        the interruption on.
+        """
         if self._done:
             return
         self._done = True
@@ -285,47 +374,34 @@ class BackgroundWorker:
             return
         for lane_queue in self._queues:
             lane_queue.put(None)
-        payloads = []
         try:
-            for fd in self._report_fds:
-                chunks = []
-                while True:
-                    block = os.read(fd, 1 << 16)
-                    if not block:
-                        break
-                    chunks.append(block)
-                payloads.append(b"".join(chunks))
-        finally:
-            for fd in self._report_fds:
-                os.close(fd)
-            _, status = os.waitpid(self._pid, 0)
-            for writer in self._writers:
-                writer.join()
-        for payload in payloads:
+            payloads = self._read_reports()
+        except BaseException:
+            self._reap(stop=True)
+            raise
+        status = self._reap(stop=False)
+        for lane, payload in enumerate(payloads):
             if payload == _DONE:
                 continue
-            exc, text = pickle.loads(payload) if payload else (None, "")
+            if not payload:
+                raise AnalysisError(
+                    f"{self.label} failed: worker lane {lane} ended without a report "
+                    f"(killed or crashed; exit code {status})"
+                )
+            exc_bytes, text = pickle.loads(payload)
+            try:
+                exc = pickle.loads(exc_bytes) if exc_bytes is not None else None
+            except Exception:  # noqa: BLE001 - an exception that cannot be rebuilt here
+                exc = None
             if isinstance(exc, BaseException):
                 exc.add_note(f"(raised while {self.label}, in a worker process)\n{text}")
                 raise exc
-            last = text.strip().splitlines()[-1] if text.strip() else f"wait status {status}"
+            last = text.strip().splitlines()[-1] if text.strip() else "no message"
             raise AnalysisError(f"{self.label} failed: {last}")
 
     def cancel(self) -> None:
         """Stop every lane if still running and reap the worker; nothing is raised."""
-        if self._done:
-            return
         self._done = True
         if self._pid is None:
             return
-        try:  # the first lane stops and reaps the others (see _child)
-            os.kill(self._pid, signal.SIGTERM)
-        except OSError:
-            pass
-        for lane_queue in self._queues:
-            lane_queue.put(None)
-        for fd in self._report_fds:
-            os.close(fd)
-        os.waitpid(self._pid, 0)
-        for writer in self._writers:
-            writer.join()
+        self._reap(stop=True)
