@@ -13,6 +13,7 @@ from __future__ import annotations
 import contextlib
 import copy
 import os
+import secrets
 import sys
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
@@ -248,9 +249,10 @@ def analyze_into(
 
     The figures are drawn beside the computation (:mod:`stability.background`):
     the data-over-time figure while the statistics are computed, the stability
-    plot while the tables are written. Each figure is put in place only once
-    the whole run has succeeded; if anything fails, no figure of this run is
-    left behind, and a folder made for the run is removed again.
+    plot while the tables are written. Every file is first written under a
+    hidden pending name and all five are put in place only once the whole run
+    has succeeded; if anything fails, no file of this run is left behind, and
+    folders made for the run are removed again.
     """
     from .reports.files import ensure_folder
 
@@ -258,16 +260,18 @@ def analyze_into(
     read_opts, prep_opts, _ = _split_options(options)
     # two lanes: the series figure and the stability plot are drawn side by side
     worker = BackgroundWorker(label="drawing the figures", warm_up=("stability.plots",), lanes=2)
-    out: Path | None = None
-    existed = Path(folder).is_dir()
+    target = Path(folder)
+    made = [p for p in (target, *target.parents) if not p.exists()]  # nearest first
     pending: dict[str, Path] = {}
     try:
         source, prepared, report = read_and_prepare(
             log, progress=bool(options.get("progress", False)), **read_opts, **prep_opts
         )
-        out = ensure_folder(folder)
+        out = ensure_folder(target)
         moment = datetime.now(UTC)
-        pending = {name: _pending_path(out, f"{name}.{fmt}") for name in ("series", "sigma_tau")}
+        finals = {name: f"{name}.{fmt}" for name in ("sigma_tau", "series")}
+        finals.update({name: name for name in _TEXT_NAMES})
+        pending = {name: _pending_path(out, final) for name, final in finals.items()}
         shown, drift, outliers = _series_inputs(source, prepared, report)
         worker.submit_to(
             0,
@@ -298,19 +302,18 @@ def analyze_into(
             default_title(run.table.measurement, "stability"),
             default_footer(run.table, analysis_time=moment),
         )
-        written = _write_texts(run, out)
+        _write_texts(run, {name: pending[name] for name in _TEXT_NAMES})
         worker.wait()
-        for name in ("sigma_tau", "series"):
-            written[name] = pending[name].replace(out / f"{name}.{fmt}")
+        written = {name: pending[name].replace(out / finals[name]) for name in finals}
     except BaseException:
         worker.cancel()
         for path in pending.values():
             path.unlink(missing_ok=True)
-        if out is not None and not existed:  # a folder made for this run goes again
+        for path in made:  # folders made for this run go again (when left empty)
             with contextlib.suppress(OSError):
-                out.rmdir()
+                path.rmdir()
         raise
-    return run, written
+    return run, {name: written[name] for name in (*_TEXT_NAMES, "sigma_tau", "series")}
 
 
 def _check_plot_format(plot_format: Any) -> str:
@@ -323,8 +326,8 @@ def _check_plot_format(plot_format: Any) -> str:
 
 
 def _pending_path(folder: Path, name: str) -> Path:
-    """A hidden name beside ``name`` for a file that is moved into place later."""
-    return folder / f".{name}.{os.getpid()}.pending"
+    """A hidden, unique name beside ``name`` for a file that is moved into place later."""
+    return folder / f".{name}.{os.getpid()}.{secrets.token_hex(4)}.pending"
 
 
 def _without_lines(measurement: Measurement) -> Measurement:
@@ -382,16 +385,22 @@ def _draw_stability(
     return save_figure(fig, target, fmt)
 
 
-def _write_texts(run: AnalysisRun, out: Path) -> dict[str, Path]:
+#: The text outputs of an analysis.
+_TEXT_NAMES = ("table.csv", "table.md", "summary.json")
+
+
+def _write_texts(run: AnalysisRun, paths: dict[str, Path]) -> dict[str, Path]:
+    """Write the three text outputs to the given paths (keys: :data:`_TEXT_NAMES`)."""
     from .reports.files import atomic_write_text
     from .reports.summary import summary_json
     from .reports.tables import table_csv, table_markdown
 
-    return {
-        "table.csv": atomic_write_text(out / "table.csv", table_csv(run.table)),
-        "table.md": atomic_write_text(out / "table.md", table_markdown(run.table)),
-        "summary.json": atomic_write_text(out / "summary.json", summary_json(run.summary())),
+    texts = {
+        "table.csv": lambda: table_csv(run.table),
+        "table.md": lambda: table_markdown(run.table),
+        "summary.json": lambda: summary_json(run.summary()),
     }
+    return {name: atomic_write_text(paths[name], texts[name]()) for name in _TEXT_NAMES}
 
 
 def write_analysis(
@@ -407,7 +416,7 @@ def write_analysis(
 
     fmt = _check_plot_format(plot_format)
     out = ensure_folder(folder)
-    written = _write_texts(run, out)
+    written = _write_texts(run, {name: out / name for name in _TEXT_NAMES})
     written["sigma_tau"] = _draw_stability(
         out / f"sigma_tau.{fmt}",
         fmt,

@@ -76,3 +76,15 @@ def test_interval_from_a_sliver_of_a_degree_of_freedom_warns_nothing():
         warnings.simplefilter("error")
         low, high = chi2_interval(1.0, 0.001, 0.683)
     assert 0.0 <= low <= 1.0 and high > 1e100
+
+
+def test_deep_lower_tail_and_input_types():
+    # A sliver of a degree of freedom: the quantile underflows towards the subnormal
+    # range; the closed form y^a / Gamma(a + 1) there matches scipy.special.chdtri.
+    assert chi2_upper_quantile(0.0018, 0.48) == pytest.approx(chdtri(0.0018, 0.48), rel=1e-6)
+    # numpy scalars are numbers too
+    assert chi2_upper_quantile(4.0, np.float32(0.5)) == pytest.approx(
+        chdtri(4.0, float(np.float32(0.5))), rel=1e-12
+    )
+    with pytest.raises(InputError, match="nu must be a number or an array of numbers, got 'a'"):
+        chi2_upper_quantile("a", 0.5)
