@@ -84,7 +84,9 @@ OutliersOpt = Annotated[
 ]
 DriftOpt = Annotated[
     str,
-    typer.Option("--drift", help="Drift model removed first: none, linear, quadratic or log."),
+    typer.Option(
+        "--drift", help="Drift model removed first: none, linear, quadratic, log or diffusion."
+    ),
 ]
 AverageOpt = Annotated[
     int, typer.Option("--average", help="Average N adjacent samples first (longer tau0).")

@@ -13,6 +13,10 @@ Models fitted to fractional frequency y(t), t in days from the first sample [1]_
     after turn-on [1]_, fitted with a Levenberg-Marquardt / trust-region
     least-squares search [2]_ started from the best of a grid of ``b`` values
     (for fixed ``b`` the model is linear in ``a`` and ``c``).
+``"diffusion"``
+    y = a + b sqrt(t + c), the diffusion model of reference [1]_, fitted the
+    same way from the best of a grid of ``c`` values (for fixed ``c`` it is
+    linear in ``a`` and ``b``).
 
 Drift estimators from phase, as cross-checks [1]_: the three-point estimate
 (second divided difference of the phase at the start, middle and end of the
@@ -64,13 +68,14 @@ __all__ = [
     "check_drift_model",
 ]
 
-DriftModel = Literal["none", "linear", "quadratic", "log"]
+DriftModel = Literal["none", "linear", "quadratic", "log", "diffusion"]
 #: Names of the drift models and what they are.
 DRIFT_MODELS: dict[str, str] = {
     "none": "no drift model (mean frequency only)",
     "linear": "linear frequency drift y = c + a t",
     "quadratic": "quadratic frequency drift y = c + a t + q t^2",
     "log": "logarithmic frequency drift y = a ln(b t + 1) + c",
+    "diffusion": "diffusion frequency drift y = a + b sqrt(t + c)",
 }
 
 _POLY_DEGREE = {"none": 0, "linear": 1, "quadratic": 2}
@@ -83,7 +88,7 @@ def check_drift_model(model: Any, name: str = "drift") -> str:
         return model.strip().lower()
     raise InputError(
         f"{name} must be one of {', '.join(DRIFT_MODELS)}, got {model!r}",
-        hint="pass --drift none, linear, quadratic or log",
+        hint="pass --drift none, linear, quadratic, log or diffusion",
     )
 
 
@@ -109,13 +114,14 @@ class DriftFit:
     Attributes
     ----------
     model
-        ``"none"``, ``"linear"``, ``"quadratic"`` or ``"log"``.
+        ``"none"``, ``"linear"``, ``"quadratic"``, ``"log"`` or ``"diffusion"``.
     method
         How it was estimated (e.g. least squares on frequency, three-point).
     coefficients
         Model coefficients, time in days: ``offset`` (fractional frequency at
         the first sample), ``drift_per_day``, ``curvature_per_day2`` for the
-        polynomials; ``a``, ``b_per_day``, ``c`` for the log model.
+        polynomials; ``a``, ``b_per_day``, ``c`` for the log model; ``a``,
+        ``b_per_sqrt_day``, ``c_days`` for the diffusion model.
     errors
         Standard error of each coefficient (NaN where the method gives none).
     per_day
@@ -154,7 +160,7 @@ class DriftFit:
     def phase_at(self, t: Any) -> np.ndarray:
         """Integral of the model from the first sample to ``t``, in seconds."""
         days = np.asarray(t, dtype=float) / SECONDS_PER_DAY
-        offset = self.coefficients.get("offset", self.coefficients.get("c", 0.0))
+        offset = _constant(self.model, self.coefficients)
         varying = _drift_integral(self.model, self.coefficients, days)
         return (varying + offset * days) * SECONDS_PER_DAY
 
@@ -173,8 +179,14 @@ class DriftFit:
             "linear": "linear drift",
             "quadratic": "quadratic drift, mean rate",
             "log": "log-model drift, mean rate",
+            "diffusion": "diffusion-model drift, mean rate",
         }[self.model]
         extra = ""
+        if self.model == "diffusion":
+            a, b, c = (self.coefficients[k] for k in ("a", "b_per_sqrt_day", "c_days"))
+            extra = (
+                f"; y = {a:.3g} {'-' if b < 0 else '+'} {abs(b):.3g} sqrt(t + {c:.3g}), t in days"
+            )
         if self.model == "log":
             extra = (
                 f"; y = {self.coefficients['a']:.3g} ln({self.coefficients['b_per_day']:.3g} t + 1)"
@@ -202,9 +214,16 @@ class DriftFit:
         }
 
 
+def _constant(model: str, coef: dict[str, float]) -> float:
+    """The constant term of a model (fractional frequency)."""
+    return {"log": coef.get("c"), "diffusion": coef.get("a")}.get(model, coef.get("offset", 0.0))
+
+
 def _evaluate(model: str, coef: dict[str, float], days: np.ndarray) -> np.ndarray:
     if model == "log":
         return coef["a"] * np.log1p(coef["b_per_day"] * days) + coef["c"]
+    if model == "diffusion":
+        return coef["a"] + coef["b_per_sqrt_day"] * np.sqrt(days + coef["c_days"])
     degree = _POLY_DEGREE[model]
     days = np.asarray(days, dtype=float)
     if degree == 0:
@@ -224,6 +243,9 @@ def _drift_integral(model: str, coef: dict[str, float], days: np.ndarray) -> np.
     if model == "log":
         a, b = coef["a"], coef["b_per_day"]
         return a * _h(b * days) / b
+    if model == "diffusion":
+        b, c = coef["b_per_sqrt_day"], coef["c_days"]
+        return b * (2.0 / 3.0) * ((days + c) ** 1.5 - c**1.5)
     out = np.zeros(np.shape(days), dtype=float)
     for p, name in enumerate(_POLY_NAMES[1 : _POLY_DEGREE[model] + 1], start=1):
         out = out + coef[name] * days ** (p + 1) / (p + 1)
@@ -482,6 +504,87 @@ def _fit_log(m: Measurement) -> DriftFit:
     return _finish(m, "log", "least squares on frequency", coef, errors, per_day, per_day_error, y)
 
 
+def _diffusion_curve(u: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
+    return a + b * np.sqrt(u + c)
+
+
+def _fit_diffusion(m: Measurement) -> DriftFit:
+    hint = "the data may not follow a diffusion model; use --drift linear"
+    y = centred_frequency(m)
+    t, span = _times(m)
+    good = np.isfinite(y)
+    if int(good.sum()) < 4:
+        raise AnalysisError(
+            f"the diffusion drift model needs at least 4 frequency samples, got {int(good.sum())}",
+            hint=hint,
+        )
+    u = t[good] / span  # time in record lengths
+    values = y[good]
+    centre = float(np.mean(values))
+    scale = float(np.std(values)) or 1.0
+    target = (values - centre) / scale
+    # Start values: for a fixed c the model is linear in (a, b); take the best c of a grid.
+    best: tuple[float, float, float, float] | None = None
+    for c in np.concatenate([[0.0], np.logspace(-4, 2, 25)]):
+        basis = np.column_stack([np.ones_like(u), np.sqrt(u + c)])
+        (a, b), *_ = np.linalg.lstsq(basis, target, rcond=None)
+        sse = float(np.sum((target - basis @ np.array([a, b])) ** 2))
+        if best is None or sse < best[0]:
+            best = (sse, float(a), float(b), float(c))
+    assert best is not None
+    _, a0, b0, c0 = best
+    from scipy.optimize import OptimizeWarning, curve_fit  # only the nonlinear models need it
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", OptimizeWarning)
+            popt, pcov = curve_fit(
+                _diffusion_curve,
+                u,
+                target,
+                p0=[a0, b0, c0],
+                bounds=([-np.inf, -np.inf, 0.0], [np.inf, np.inf, np.inf]),
+                max_nfev=2000,
+            )
+    except (RuntimeError, OptimizeWarning, ValueError) as exc:
+        raise AnalysisError(
+            f"the diffusion drift model did not converge: {exc}", hint=hint
+        ) from None
+    # The curvature must be identified: c not so large that sqrt(t + c) is a straight
+    # line over the record, and b known to better than 100 %.
+    if (
+        not np.all(np.isfinite(pcov))
+        or popt[2] > 100.0
+        or not (math.sqrt(max(pcov[1, 1], 0.0)) < abs(popt[1]))
+    ):
+        raise AnalysisError(
+            "the diffusion drift model did not converge: the data show no identifiable "
+            "square-root curvature",
+            hint=hint,
+        )
+    span_days = span / SECONDS_PER_DAY
+    # back to days: a + b sqrt(u + c) with u = t / T gives b / sqrt(T) and c T
+    factor = np.array([scale, scale / math.sqrt(span_days), span_days])
+    natural = popt * factor
+    natural[0] += centre + m.frequency_offset
+    cov = pcov * np.outer(factor, factor)
+    names = ("a", "b_per_sqrt_day", "c_days")
+    coef = {k: float(v) for k, v in zip(names, natural, strict=True)}
+    errors = {k: float(math.sqrt(max(v, 0.0))) for k, v in zip(names, np.diag(cov), strict=True)}
+    b, c = natural[1], natural[2]
+    rise = math.sqrt(span_days + c) - math.sqrt(c)
+    per_day = float(b * rise / span_days)
+    slope_c = (0.5 / math.sqrt(span_days + c) - (0.5 / math.sqrt(c) if c > 0 else 0.0)) / span_days
+    grad = np.array([0.0, rise / span_days, b * slope_c], dtype=float)
+    if c == 0.0:  # at the bound the derivative in c is infinite: b alone carries the error
+        grad[2] = 0.0
+    var = float(grad @ cov @ grad)
+    per_day_error = math.sqrt(var) if var >= 0 else math.nan
+    return _finish(
+        m, "diffusion", "least squares on frequency", coef, errors, per_day, per_day_error, y
+    )
+
+
 def fit_drift(measurement: Measurement, model: DriftModel = "linear") -> DriftFit:
     """Fit a drift model to the fractional frequency of a measurement.
 
@@ -490,7 +593,7 @@ def fit_drift(measurement: Measurement, model: DriftModel = "linear") -> DriftFi
     measurement
         The data; gaps are skipped.
     model
-        ``"none"``, ``"linear"``, ``"quadratic"`` or ``"log"``.
+        ``"none"``, ``"linear"``, ``"quadratic"``, ``"log"`` or ``"diffusion"``.
 
     Returns
     -------
@@ -502,7 +605,7 @@ def fit_drift(measurement: Measurement, model: DriftModel = "linear") -> DriftFi
     InputError
         Unknown model.
     AnalysisError
-        The log model does not converge (use ``"linear"``).
+        The log or diffusion model does not converge (use ``"linear"``).
     """
     m, model = _validate_fit_args(measurement, model, "fit_drift")
     return _fit_drift(m, model)
@@ -512,6 +615,8 @@ def _fit_drift(m: Measurement, model: str, y: np.ndarray | None = None) -> Drift
     """The work of :func:`fit_drift`; ``y`` is ``centred_frequency(m)`` when already known."""
     if model == "log":
         return _fit_log(m)
+    if model == "diffusion":
+        return _fit_diffusion(m)
     return _fit_polynomial(m, model, y)
 
 

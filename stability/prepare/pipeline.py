@@ -139,7 +139,7 @@ def prepare(
         Outlier threshold in robust sigmas; None or ``"off"`` for no screening.
     drift
         Drift model to remove: ``"none"`` (default), ``"linear"``,
-        ``"quadratic"`` or ``"log"``. The linear drift is estimated and
+        ``"quadratic"``, ``"log"`` or ``"diffusion"``. The linear drift is estimated and
         reported in every case.
     average
         Adjacent samples to average (1: none).

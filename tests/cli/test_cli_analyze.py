@@ -212,3 +212,21 @@ def test_subprocess_run(log, tmp_path):
     assert done.returncode == 0, done.stderr
     assert "oadev" in done.stdout
     assert (out / "table.csv").is_file()
+
+
+def test_diffusion_drift_is_removed_and_reported(tmp_path):
+    # Invented log: a square-root frequency settling (NIST SP 1065 diffusion model)
+    # plus white FM, 10 s readings over 2 days, no time stamps.
+    n = 2 * 8640
+    t = (np.arange(n) + 0.5) * 10.0 / 86400.0
+    y = 2e-10 * np.sqrt(t + 0.1) + np.random.default_rng(12).normal(0.0, 1e-12, n)
+    log = tmp_path / "settling.txt"
+    log.write_text("".join(f"{v:.9e}\n" for v in y))
+    out = tmp_path / "o"
+    args = ["analyze", str(log), "--kind", "fractional", "--tau0", "10s", "--drift", "diffusion"]
+    result = _invoke([*args, "--stats", "oadev", "--out", str(out), "--json"])
+    assert result.exit_code == 0, result.output
+    summary = json.loads((out / "summary.json").read_text())
+    removed = summary["preparation"]["removed_drift"]
+    assert removed["model"] == "diffusion"
+    assert removed["coefficients"]["b_per_sqrt_day"] == pytest.approx(2e-10, rel=0.05)

@@ -2,8 +2,9 @@
 
 Models and estimators: NIST SP 1065 (2008), data preprocessing (drift from
 phase: quadratic fit, three-point, mean second difference; from frequency:
-linear fit, log model y = a ln(bt + 1) + c). Acceptance within 3 standard
-errors is common practice. Data are invented, generated in code with fixed seeds.
+linear fit, log model y = a ln(bt + 1) + c, diffusion model y = a + b sqrt(t + c)).
+Acceptance within 3 standard errors is common practice. Data are invented, generated
+in code with fixed seeds.
 """
 
 from __future__ import annotations
@@ -41,7 +42,7 @@ def test_drift_validation_messages() -> None:
     for func in (fit_drift, remove_drift, three_point_drift, mean_second_difference_drift):
         with pytest.raises(InputError, match=rf"{func.__name__}: measurement must be"):
             func(np.zeros(5))  # type: ignore[arg-type]
-    assert set(DRIFT_MODELS) == {"none", "linear", "quadratic", "log"}
+    assert set(DRIFT_MODELS) == {"none", "linear", "quadratic", "log", "diffusion"}
 
 
 @pytest.mark.parametrize("seed", [0, 1, 2])
@@ -97,6 +98,39 @@ def test_log_model_on_noise_raises_with_hint() -> None:
     m = Measurement.from_frequency(np.random.default_rng(6).normal(scale=1e-12, size=2000), 1.0)
     with pytest.raises(AnalysisError, match=r"log drift model did not converge.*--drift linear"):
         fit_drift(m, "log")
+
+
+def test_diffusion_model_converges_on_diffusion_data() -> None:
+    # Diffusion model y = a + b sqrt(t + c) (NIST SP 1065, frequency drift models);
+    # invented data: a square-root settling plus white FM, 4 days of 10 s samples.
+    rng = np.random.default_rng(8)
+    n = 4 * 8640
+    tau0 = 10.0
+    t = (np.arange(n) + 0.5) * tau0 / DAY
+    y = 1e-9 + 3e-10 * np.sqrt(t + 0.2) + rng.normal(scale=1e-12, size=n)
+    y[700:703] = np.nan  # a gap does not disturb the fit
+    fit = fit_drift(Measurement.from_frequency(y, tau0), "diffusion")
+    for name, true in (("a", 1e-9), ("b_per_sqrt_day", 3e-10), ("c_days", 0.2)):
+        assert abs(fit.coefficients[name] - true) < 3 * fit.errors[name], name
+    days = fit.span_days
+    mean_rate = 3e-10 * (math.sqrt(days + 0.2) - math.sqrt(0.2)) / days
+    assert fit.per_day == pytest.approx(mean_rate, rel=1e-3)
+    assert "sqrt(t + 0.2)" in fit.description
+    # the model curve is what the fit evaluates, and removal flattens the frequency
+    np.testing.assert_allclose(fit.frequency_at(fit.t), fit.y_model, rtol=1e-12)
+    new, removed = remove_drift(Measurement.from_frequency(y, tau0), "diffusion")
+    assert removed.model == "diffusion"
+    assert fit_drift(new, "linear").per_day == pytest.approx(0.0, abs=1e-13)
+    assert fit_drift(new, "quadratic").coefficients["curvature_per_day2"] == pytest.approx(
+        0.0, abs=5e-13
+    )
+
+
+def test_diffusion_model_on_a_straight_line_raises_with_hint() -> None:
+    # a linear drift has no square-root curvature to identify
+    y = 1e-12 * np.random.default_rng(9).normal(size=5000) + 1e-15 * np.arange(5000)
+    with pytest.raises(AnalysisError, match=r"diffusion drift model did not.*--drift linear"):
+        fit_drift(Measurement.from_frequency(y, 1.0), "diffusion")
 
 
 def test_remove_drift_leaves_zero_slope_and_keeps_gaps() -> None:
