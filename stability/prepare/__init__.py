@@ -14,6 +14,7 @@ from .average import average, largest_average_factor
 from .drift import (
     DRIFT_MODELS,
     DriftFit,
+    bisection_drift,
     fit_drift,
     mean_second_difference_drift,
     remove_drift,
@@ -32,6 +33,7 @@ __all__ = [
     "remove_drift",
     "three_point_drift",
     "mean_second_difference_drift",
+    "bisection_drift",
     "Outlier",
     "OutlierReport",
     "screen_outliers",

@@ -18,9 +18,10 @@ Models fitted to fractional frequency y(t), t in days from the first sample [1]_
     same way from the best of a grid of ``c`` values (for fixed ``c`` it is
     linear in ``a`` and ``b``).
 
-Drift estimators from phase, as cross-checks [1]_: the three-point estimate
+Drift estimators as cross-checks [1]_: from phase, the three-point estimate
 (second divided difference of the phase at the start, middle and end of the
-longest unbroken stretch) and the mean second difference of the phase.
+longest unbroken stretch) and the mean second difference of the phase; from
+frequency, the bisection estimate (the mean frequencies of the two halves).
 
 Standard errors assume white residuals (white FM); with flicker or random-walk
 FM they are optimistic, as the references point out for every least-squares
@@ -65,6 +66,7 @@ __all__ = [
     "remove_drift",
     "three_point_drift",
     "mean_second_difference_drift",
+    "bisection_drift",
     "check_drift_model",
 ]
 
@@ -711,6 +713,34 @@ def mean_second_difference_drift(measurement: Measurement) -> DriftFit:
     yg = np.isfinite(y)
     offset = float(np.mean(y[yg]) - rate * np.mean(t[yg])) + m.frequency_offset
     return _phase_estimate(m, "mean second difference of phase", rate, offset)
+
+
+def bisection_drift(measurement: Measurement) -> DriftFit:
+    """Linear frequency drift from the mean frequencies of the two halves of the record.
+
+    drift = (mean y of the second half - mean y of the first half) / (the
+    difference of their mean times), over the finite frequency samples [1]_.
+    Exact on a noiseless linear frequency drift; robust to a few noisy samples
+    and simple to check by hand. No standard error is given (it depends on the
+    noise type).
+    """
+    m = check_measurement(measurement, "bisection_drift")
+    y = centred_frequency(m)
+    t, _ = _times(m)
+    half = y.size // 2
+    parts = []
+    for part in (slice(0, half), slice(half, y.size)):
+        good = np.isfinite(y[part])
+        if not good.any():
+            raise AnalysisError(
+                "bisection drift needs frequency samples in both halves of the record"
+            )
+        parts.append((float(np.mean(y[part][good])), float(np.mean(t[part][good]))))
+    (y1, t1), (y2, t2) = parts
+    rate = (y2 - y1) / (t2 - t1)  # per second
+    yg = np.isfinite(y)
+    offset = float(np.mean(y[yg]) - rate * np.mean(t[yg])) + m.frequency_offset
+    return _phase_estimate(m, "bisection of the frequency record", rate, offset)
 
 
 def _phase_estimate(m: Measurement, method: str, rate: float, offset: float) -> DriftFit:

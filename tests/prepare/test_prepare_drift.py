@@ -18,6 +18,7 @@ import pytest
 from stability import AnalysisError, InputError, Measurement, StabilityWarning
 from stability.prepare import (
     DRIFT_MODELS,
+    bisection_drift,
     fit_drift,
     mean_second_difference_drift,
     remove_drift,
@@ -39,7 +40,13 @@ def test_drift_validation_messages() -> None:
         fit_drift(m, "cubic")  # type: ignore[arg-type]
     with pytest.raises(InputError, match=r"model must be one of .* got 3"):
         remove_drift(m, 3)  # type: ignore[arg-type]
-    for func in (fit_drift, remove_drift, three_point_drift, mean_second_difference_drift):
+    for func in (
+        fit_drift,
+        remove_drift,
+        three_point_drift,
+        mean_second_difference_drift,
+        bisection_drift,
+    ):
         with pytest.raises(InputError, match=rf"{func.__name__}: measurement must be"):
             func(np.zeros(5))  # type: ignore[arg-type]
     assert set(DRIFT_MODELS) == {"none", "linear", "quadratic", "log", "diffusion"}
@@ -171,7 +178,8 @@ def test_phase_estimators_agree_with_linear_fit_on_clean_quadratic_phase() -> No
     lin = fit_drift(m, "linear")
     three = three_point_drift(m)
     msd = mean_second_difference_drift(m)
-    for est in (lin, three, msd):
+    bis = bisection_drift(m)
+    for est in (lin, three, msd, bis):
         assert est.per_day == pytest.approx(2e-10, rel=1e-7), est.method
         assert est.coefficients["offset"] == pytest.approx(1e-7, rel=1e-7), est.method
     assert math.isnan(three.per_day_error) and math.isnan(msd.per_day_error)
@@ -181,6 +189,9 @@ def test_phase_estimators_agree_with_linear_fit_on_clean_quadratic_phase() -> No
     g = Measurement.from_phase(x_gap, tau0)
     assert three_point_drift(g).per_day == pytest.approx(2e-10, rel=1e-7)
     assert mean_second_difference_drift(g).per_day == pytest.approx(2e-10, rel=1e-7)
+    assert bisection_drift(g).per_day == pytest.approx(2e-10, rel=1e-7)
+    with pytest.raises(AnalysisError, match="bisection drift needs frequency samples in both"):
+        bisection_drift(Measurement.from_frequency([1e-9, 2e-9, np.nan, np.nan, np.nan], 1.0))
 
 
 def test_too_short_for_a_fit() -> None:
