@@ -60,6 +60,35 @@ class Grid:
     off_grid: tuple[np.ndarray, np.ndarray]
 
 
+#: A grid may hold at most this many missing samples per sample read, and this
+#: many in all, before a time stamp is taken for a mistake rather than a pause.
+_MAX_GAP_RATIO = 10
+_MAX_GAP_SAMPLES = 10_000_000
+
+
+def _check_grid_size(
+    steps: np.ndarray, rows: int, step: float, lines: np.ndarray, path: str, column: str
+) -> None:
+    """Refuse a grid made mostly of inserted gaps (a wrong date, a counter reset).
+
+    A single stamp off by years (a typing slip, a GPS week rollover) would
+    otherwise ask for hundreds of millions of missing samples.
+    """
+    missing = int((steps - 1).sum())
+    if missing <= _MAX_GAP_SAMPLES or missing <= _MAX_GAP_RATIO * rows:
+        return
+    worst = int(np.argmax(steps))
+    raise InputError(
+        f"the time stamps jump forward by {steps[worst] * step:.6g} s "
+        f"({int(steps[worst]) - 1} missing samples of {step:g} s) between two rows, "
+        f"more than {_MAX_GAP_RATIO} times the {rows} samples read",
+        path=path,
+        line=int(lines[worst + 1]),
+        column=column,
+        hint="check that stamp (a wrong date?), or split the log at the pause",
+    )
+
+
 def build_grid(
     seconds: np.ndarray, lines: np.ndarray, tau0: float | None, path: str, column: str
 ) -> Grid:
@@ -120,6 +149,7 @@ def build_grid(
     back_step = np.zeros_like(flagged)
     back_step[1:] = flagged[1:] & flagged[:-1] & (np.abs(offset[1:] + offset[:-1]) <= 0.1 * step)
     off = np.flatnonzero(flagged & ~back_step)
+    _check_grid_size(k, kept_t.size, step, lines[keep], path, column)
     position = np.empty(kept_t.size, dtype=np.int64)
     position[0] = 0
     np.cumsum(k, out=position[1:])

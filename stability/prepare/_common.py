@@ -40,6 +40,7 @@ __all__ = [
     "centred_frequency",
     "local_residuals",
     "robust_spread",
+    "no_spread",
     "carry_meta",
     "line_of",
 ]
@@ -281,6 +282,19 @@ def robust_spread(r: np.ndarray) -> tuple[float, float]:
     deviation = np.subtract(values, centre)
     sigma = _median(np.abs(deviation, out=deviation)) / MAD_TO_SIGMA
     return centre, sigma
+
+
+def no_spread(sigma: float, magnitude: float) -> bool:
+    """True when a robust sigma is zero or only rounding noise of values of this magnitude.
+
+    Quantised readings (a counter's last digit) have no spread at all, but the
+    arithmetic of removing an offset and a drift model leaves residues of about
+    eps times the readings; a sigma below 32 eps x magnitude is taken as zero,
+    so screening is skipped instead of acting on rounding noise.
+    """
+    if not (sigma > 0):
+        return True
+    return sigma <= 32.0 * np.finfo(float).eps * magnitude
 
 
 def carry_meta(measurement: Measurement) -> dict[str, Any]:

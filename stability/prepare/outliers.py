@@ -59,6 +59,7 @@ from ._common import (
     check_window,
     line_of,
     local_residuals,
+    no_spread,
     robust_spread,
 )
 from .drift import DriftFit, _fit_drift, check_drift_model
@@ -221,7 +222,8 @@ def _screen(
     del level
     centre, sigma = robust_spread(resid)
     screened = int(np.count_nonzero(np.isfinite(resid)))
-    if not (sigma > 0):
+    magnitude = abs(m.frequency_offset) + float(np.nanmax(np.abs(y), initial=0.0))
+    if no_spread(sigma, magnitude):
         warnings.warn(
             "outlier screening skipped: the robust spread of the frequency residuals is zero "
             "(quantised or constant data)",

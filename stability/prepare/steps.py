@@ -35,6 +35,7 @@ from ._common import (
     check_window,
     line_of,
     local_residuals,
+    no_spread,
     robust_spread,
 )
 
@@ -110,7 +111,8 @@ def _find_phase_steps(m: Measurement, k: float, window: int, y: np.ndarray) -> l
     d = y * m.tau0  # first differences, s (offset removed)
     resid = local_residuals(d, window)
     centre, sigma = robust_spread(resid)
-    if not (sigma > 0):
+    magnitude = (abs(m.frequency_offset) + float(np.nanmax(np.abs(y), initial=0.0))) * m.tau0
+    if no_spread(sigma, magnitude):
         return []
     dev = np.subtract(resid, centre, out=resid)  # NaN where a sample is missing
     with np.errstate(invalid="ignore"):

@@ -91,3 +91,17 @@ def test_input_never_modified_and_hash_recorded(tmp_path):
     assert m.provenance.sha256 == hashlib.sha256(before).hexdigest()
     assert m.provenance.rows == 3
     np.testing.assert_allclose(m.frequency(), [1e-12, 3e-12, 2e-12], rtol=1e-12)
+
+
+def test_a_stamp_off_by_years_is_refused_not_gridded(tmp_path):
+    # One mistyped year in the last stamp of a 1 s log would ask for 2.2e8 missing
+    # samples: it is refused, naming the line, instead of exhausting memory.
+    from stability.ingest import read_log
+
+    values = np.random.default_rng(0).normal(0.0, 1e-11, 50)  # invented readings
+    rows = [f"2024-01-01T00:00:{s:02d}Z,{v:.3e}" for s, v in enumerate(values)]
+    rows[-1] = "2031" + rows[-1][4:]
+    log = tmp_path / "slip.csv"
+    log.write_text("time,y\n" + "\n".join(rows) + "\n")
+    with pytest.raises(InputError, match=r"slip.csv:51 column time: the time stamps jump forward"):
+        read_log(log, kind="fractional")

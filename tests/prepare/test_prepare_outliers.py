@@ -141,3 +141,25 @@ def test_screening_off_and_zero_spread() -> None:
     with pytest.warns(StabilityWarning, match="robust spread"):
         new, report = screen_outliers(steady)
     assert report.count == 0 and "skipped" in new.notes[-1]
+
+
+@pytest.mark.parametrize("tau0", [0.1, 1.0, 3600.0])
+@pytest.mark.parametrize("level", [5e-9, 0.0537, 1e7])
+def test_quantised_readings_are_not_screened_on_rounding_noise(tau0: float, level: float) -> None:
+    # Invented: readings on one level with 2 % on a second one (a counter's last digit).
+    # Their robust spread is zero; removing offset and drift leaves only rounding residue
+    # (about eps x the level), which must not be taken for noise (common practice).
+    rng = np.random.default_rng(0)
+    y = np.full(2000, level)
+    y[rng.random(2000) < 0.02] = level * (1 + 2e-3)
+    with pytest.warns(StabilityWarning, match="robust spread of the frequency residuals is zero"):
+        _, report = screen_outliers(Measurement.from_frequency(y, tau0))
+    assert report.count == 0
+
+
+def test_small_real_noise_on_a_large_offset_is_still_screened() -> None:
+    # 1e-13 of noise on an offset of 1 is 500 eps: real, so a 1e-9 glitch is removed.
+    y = 1.0 + np.random.default_rng(2).normal(0.0, 1e-13, 5000)
+    y[100] = 1.0 + 1e-9
+    _, report = screen_outliers(Measurement.from_frequency(y, 1.0))
+    assert report.count == 1 and report.samples[0].index == 100
