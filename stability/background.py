@@ -44,6 +44,7 @@ import struct
 import sys
 import threading
 import traceback
+import warnings
 from collections.abc import Callable
 from typing import Any
 
@@ -253,7 +254,12 @@ class BackgroundWorker:
             except (OSError, ValueError, AttributeError):
                 pass
         try:
-            pid = os.fork()
+            with warnings.catch_warnings():
+                # Python 3.12+ warns on fork() when the OS reports other threads; here
+                # those are only the BLAS pool's, which re-initialises after a fork
+                # (the caller's process runs no other Python thread, see forking_enabled).
+                warnings.filterwarnings("ignore", "This process .* is multi-threaded")
+                pid = os.fork()
         except OSError:  # no process to spare: the tasks run here, at wait()
             for fd_pair in (*parent_ends, *child_ends):
                 for fd in fd_pair:
