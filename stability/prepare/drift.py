@@ -432,50 +432,113 @@ def _fit_polynomial(m: Measurement, model: str, y: np.ndarray | None = None) -> 
     return _finish(m, model, "least squares on frequency", coef, errors, per_day, per_day_error, y)
 
 
+@dataclass
+class _Scaled:
+    """A record's frequency ready for a nonlinear fit: u = t / T, target = (y - centre) / scale."""
+
+    y: np.ndarray
+    span: float
+    u: np.ndarray
+    centre: float
+    scale: float
+    target: np.ndarray
+
+
+def _scaled(m: Measurement, model: str, hint: str) -> _Scaled:
+    y = centred_frequency(m)
+    t, span = _times(m)
+    good = np.isfinite(y)
+    if int(good.sum()) < 4:
+        raise AnalysisError(
+            f"the {model} drift model needs at least 4 frequency samples, got {int(good.sum())}",
+            hint=hint,
+        )
+    values = y[good]
+    centre = float(np.mean(values))
+    scale = float(np.std(values)) or 1.0
+    return _Scaled(y, span, t[good] / span, centre, scale, (values - centre) / scale)
+
+
+def _nonlinear_fit(
+    model: str,
+    curve: Any,
+    data: _Scaled,
+    grid: np.ndarray,
+    basis: Any,
+    start: Any,
+    bounds: tuple[list[float], list[float]],
+    hint: str,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Bounded least squares of a 3-parameter model, started from the best of a grid.
+
+    For a fixed value ``g`` of the nonlinear parameter the model is linear in the
+    other two: ``basis(u, g)`` gives their columns, ``start(g, coefs)`` the full
+    start vector. Returns (parameters, covariance) in the scaled units.
+    """
+    best: tuple[float, np.ndarray] | None = None
+    for g in grid:
+        columns = basis(data.u, g)
+        coefs, *_ = np.linalg.lstsq(columns, data.target, rcond=None)
+        sse = float(np.sum((data.target - columns @ coefs) ** 2))
+        if best is None or sse < best[0]:
+            best = (sse, np.asarray(start(float(g), coefs), dtype=float))
+    assert best is not None
+    from scipy.optimize import OptimizeWarning, curve_fit  # only the nonlinear models need it
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", OptimizeWarning)
+            popt, pcov = curve_fit(
+                curve, data.u, data.target, p0=best[1], bounds=bounds, max_nfev=2000
+            )
+    except (RuntimeError, OptimizeWarning, ValueError) as exc:
+        raise AnalysisError(f"the {model} drift model did not converge: {exc}", hint=hint) from None
+    return popt, pcov
+
+
+def _not_identified(model: str, curvature: str, hint: str) -> AnalysisError:
+    return AnalysisError(
+        f"the {model} drift model did not converge: the data show no identifiable "
+        f"{curvature} curvature",
+        hint=hint,
+    )
+
+
+def _natural(
+    m: Measurement,
+    data: _Scaled,
+    popt: np.ndarray,
+    pcov: np.ndarray,
+    factor: np.ndarray,
+    constant: int,
+    names: tuple[str, str, str],
+) -> tuple[np.ndarray, np.ndarray, dict[str, float], dict[str, float]]:
+    """Parameters and covariance back in natural units (days), as dicts too."""
+    natural = popt * factor
+    natural[constant] += data.centre + m.frequency_offset
+    cov = pcov * np.outer(factor, factor)
+    coef = {k: float(v) for k, v in zip(names, natural, strict=True)}
+    errors = {k: float(math.sqrt(max(v, 0.0))) for k, v in zip(names, np.diag(cov), strict=True)}
+    return natural, cov, coef, errors
+
+
 def _log_curve(u: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
     return a * np.log1p(b * u) + c
 
 
 def _fit_log(m: Measurement) -> DriftFit:
     hint = "the data may not follow a log model; use --drift linear"
-    y = centred_frequency(m)
-    t, span = _times(m)
-    good = np.isfinite(y)
-    if int(good.sum()) < 4:
-        raise AnalysisError(
-            f"the log drift model needs at least 4 frequency samples, got {int(good.sum())}",
-            hint=hint,
-        )
-    u = t[good] / span
-    values = y[good]
-    centre = float(np.mean(values))
-    scale = float(np.std(values)) or 1.0
-    target = (values - centre) / scale
-    # Start values: for a fixed b the model is linear in (a, c); take the best b of a grid.
-    best: tuple[float, float, float, float] | None = None
-    for b in np.logspace(-1, 4, 26):
-        basis = np.column_stack([np.log1p(b * u), np.ones_like(u)])
-        (a, c), *_ = np.linalg.lstsq(basis, target, rcond=None)
-        sse = float(np.sum((target - basis @ np.array([a, c])) ** 2))
-        if best is None or sse < best[0]:
-            best = (sse, float(a), float(b), float(c))
-    assert best is not None
-    _, a0, b0, c0 = best
-    from scipy.optimize import OptimizeWarning, curve_fit  # only this model needs it
-
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("error", OptimizeWarning)
-            popt, pcov = curve_fit(
-                _log_curve,
-                u,
-                target,
-                p0=[a0, b0, c0],
-                bounds=([-np.inf, 1e-9, -np.inf], [np.inf, np.inf, np.inf]),
-                max_nfev=2000,
-            )
-    except (RuntimeError, OptimizeWarning, ValueError) as exc:
-        raise AnalysisError(f"the log drift model did not converge: {exc}", hint=hint) from None
+    data = _scaled(m, "log", hint)
+    popt, pcov = _nonlinear_fit(
+        "log",
+        _log_curve,
+        data,
+        np.logspace(-1, 4, 26),
+        lambda u, b: np.column_stack([np.log1p(b * u), np.ones_like(u)]),
+        lambda b, ac: (ac[0], b, ac[1]),
+        ([-np.inf, 1e-9, -np.inf], [np.inf, np.inf, np.inf]),
+        hint,
+    )
     # The curvature must be identified: b T not vanishing (else the model is a straight
     # line over the record) and b known to better than 100 %.
     if (
@@ -483,19 +546,10 @@ def _fit_log(m: Measurement) -> DriftFit:
         or popt[1] < 1e-3
         or not (math.sqrt(max(pcov[1, 1], 0.0)) < popt[1])
     ):
-        raise AnalysisError(
-            "the log drift model did not converge: the data show no identifiable "
-            "logarithmic curvature",
-            hint=hint,
-        )
-    span_days = span / SECONDS_PER_DAY
-    factor = np.array([scale, 1.0 / span_days, scale])
-    natural = popt * factor
-    natural[2] += centre + m.frequency_offset
-    cov = pcov * np.outer(factor, factor)
-    names = ("a", "b_per_day", "c")
-    coef = {k: float(v) for k, v in zip(names, natural, strict=True)}
-    errors = {k: float(math.sqrt(max(v, 0.0))) for k, v in zip(names, np.diag(cov), strict=True)}
+        raise _not_identified("log", "logarithmic", hint)
+    span_days = data.span / SECONDS_PER_DAY
+    factor = np.array([data.scale, 1.0 / span_days, data.scale])
+    natural, cov, coef, errors = _natural(m, data, popt, pcov, factor, 2, ("a", "b_per_day", "c"))
     a, b = natural[0], natural[1]
     per_day = float(a * np.log1p(b * span_days) / span_days)
     grad = np.array(
@@ -503,7 +557,9 @@ def _fit_log(m: Measurement) -> DriftFit:
     )
     var = float(grad @ cov @ grad)
     per_day_error = math.sqrt(var) if var >= 0 else math.nan
-    return _finish(m, "log", "least squares on frequency", coef, errors, per_day, per_day_error, y)
+    return _finish(
+        m, "log", "least squares on frequency", coef, errors, per_day, per_day_error, data.y
+    )
 
 
 def _diffusion_curve(u: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
@@ -512,46 +568,17 @@ def _diffusion_curve(u: np.ndarray, a: float, b: float, c: float) -> np.ndarray:
 
 def _fit_diffusion(m: Measurement) -> DriftFit:
     hint = "the data may not follow a diffusion model; use --drift linear"
-    y = centred_frequency(m)
-    t, span = _times(m)
-    good = np.isfinite(y)
-    if int(good.sum()) < 4:
-        raise AnalysisError(
-            f"the diffusion drift model needs at least 4 frequency samples, got {int(good.sum())}",
-            hint=hint,
-        )
-    u = t[good] / span  # time in record lengths
-    values = y[good]
-    centre = float(np.mean(values))
-    scale = float(np.std(values)) or 1.0
-    target = (values - centre) / scale
-    # Start values: for a fixed c the model is linear in (a, b); take the best c of a grid.
-    best: tuple[float, float, float, float] | None = None
-    for c in np.concatenate([[0.0], np.logspace(-4, 2, 25)]):
-        basis = np.column_stack([np.ones_like(u), np.sqrt(u + c)])
-        (a, b), *_ = np.linalg.lstsq(basis, target, rcond=None)
-        sse = float(np.sum((target - basis @ np.array([a, b])) ** 2))
-        if best is None or sse < best[0]:
-            best = (sse, float(a), float(b), float(c))
-    assert best is not None
-    _, a0, b0, c0 = best
-    from scipy.optimize import OptimizeWarning, curve_fit  # only the nonlinear models need it
-
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("error", OptimizeWarning)
-            popt, pcov = curve_fit(
-                _diffusion_curve,
-                u,
-                target,
-                p0=[a0, b0, c0],
-                bounds=([-np.inf, -np.inf, 0.0], [np.inf, np.inf, np.inf]),
-                max_nfev=2000,
-            )
-    except (RuntimeError, OptimizeWarning, ValueError) as exc:
-        raise AnalysisError(
-            f"the diffusion drift model did not converge: {exc}", hint=hint
-        ) from None
+    data = _scaled(m, "diffusion", hint)  # u: time in record lengths
+    popt, pcov = _nonlinear_fit(
+        "diffusion",
+        _diffusion_curve,
+        data,
+        np.concatenate([[0.0], np.logspace(-4, 2, 25)]),
+        lambda u, c: np.column_stack([np.ones_like(u), np.sqrt(u + c)]),
+        lambda c, ab: (ab[0], ab[1], c),
+        ([-np.inf, -np.inf, 0.0], [np.inf, np.inf, np.inf]),
+        hint,
+    )
     # The curvature must be identified: c not so large that sqrt(t + c) is a straight
     # line over the record, and b known to better than 100 %.
     if (
@@ -559,20 +586,13 @@ def _fit_diffusion(m: Measurement) -> DriftFit:
         or popt[2] > 100.0
         or not (math.sqrt(max(pcov[1, 1], 0.0)) < abs(popt[1]))
     ):
-        raise AnalysisError(
-            "the diffusion drift model did not converge: the data show no identifiable "
-            "square-root curvature",
-            hint=hint,
-        )
-    span_days = span / SECONDS_PER_DAY
+        raise _not_identified("diffusion", "square-root", hint)
+    span_days = data.span / SECONDS_PER_DAY
     # back to days: a + b sqrt(u + c) with u = t / T gives b / sqrt(T) and c T
-    factor = np.array([scale, scale / math.sqrt(span_days), span_days])
-    natural = popt * factor
-    natural[0] += centre + m.frequency_offset
-    cov = pcov * np.outer(factor, factor)
-    names = ("a", "b_per_sqrt_day", "c_days")
-    coef = {k: float(v) for k, v in zip(names, natural, strict=True)}
-    errors = {k: float(math.sqrt(max(v, 0.0))) for k, v in zip(names, np.diag(cov), strict=True)}
+    factor = np.array([data.scale, data.scale / math.sqrt(span_days), span_days])
+    natural, cov, coef, errors = _natural(
+        m, data, popt, pcov, factor, 0, ("a", "b_per_sqrt_day", "c_days")
+    )
     b, c = natural[1], natural[2]
     rise = math.sqrt(span_days + c) - math.sqrt(c)
     per_day = float(b * rise / span_days)
@@ -583,7 +603,7 @@ def _fit_diffusion(m: Measurement) -> DriftFit:
     var = float(grad @ cov @ grad)
     per_day_error = math.sqrt(var) if var >= 0 else math.nan
     return _finish(
-        m, "diffusion", "least squares on frequency", coef, errors, per_day, per_day_error, y
+        m, "diffusion", "least squares on frequency", coef, errors, per_day, per_day_error, data.y
     )
 
 
