@@ -67,13 +67,19 @@ _MAX_GAP_SAMPLES = 10_000_000
 
 
 def _check_grid_size(
-    steps: np.ndarray, rows: int, step: float, lines: np.ndarray, path: str, column: str
+    steps: np.ndarray,
+    step: float,
+    lines: np.ndarray,
+    kept_idx: np.ndarray,
+    path: str,
+    column: str,
 ) -> None:
     """Refuse a grid made mostly of inserted gaps (a wrong date, a counter reset).
 
     A single stamp off by years (a typing slip, a GPS week rollover) would
     otherwise ask for hundreds of millions of missing samples.
     """
+    rows = kept_idx.size
     missing = int((steps - 1).sum())
     if missing <= _MAX_GAP_SAMPLES or missing <= _MAX_GAP_RATIO * rows:
         return
@@ -83,7 +89,7 @@ def _check_grid_size(
         f"({int(steps[worst]) - 1} missing samples of {step:g} s) between two rows, "
         f"more than {_MAX_GAP_RATIO} times the {rows} samples read",
         path=path,
-        line=int(lines[worst + 1]),
+        line=int(lines[kept_idx[worst + 1]]),
         column=column,
         hint="check that stamp (a wrong date?), or split the log at the pause",
     )
@@ -149,11 +155,11 @@ def build_grid(
     back_step = np.zeros_like(flagged)
     back_step[1:] = flagged[1:] & flagged[:-1] & (np.abs(offset[1:] + offset[:-1]) <= 0.1 * step)
     off = np.flatnonzero(flagged & ~back_step)
-    _check_grid_size(k, kept_t.size, step, lines[keep], path, column)
     position = np.empty(kept_t.size, dtype=np.int64)
     position[0] = 0
     np.cumsum(k, out=position[1:])
     kept_idx = np.flatnonzero(keep)
+    _check_grid_size(k, step, lines, kept_idx, path, column)
     gap_at = np.flatnonzero(k > 1)
     gaps = [(int(kept_idx[g]), int(k[g] - 1)) for g in gap_at[:1000]]
     if gap_at.size > 1000:
