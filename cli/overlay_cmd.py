@@ -34,7 +34,7 @@ import typer
 
 import stability
 from stability.errors import InputError
-from stability.reports.files import atomic_write_text, ensure_folder
+from stability.files import atomic_write_text, ensure_folder
 from stability.reports.summary import summary_json
 from stability.reports.tables import table_csv, table_markdown, terminal_table
 from stability.workflow import PLOT_FORMATS, AnalysisRun, run_analysis

@@ -31,13 +31,13 @@ import typer
 
 import stability
 from stability.errors import InputError
+from stability.files import atomic_write_text, ensure_folder, jsonable, sha256_file
 from stability.phase_noise import (
     PhaseNoiseStability,
     model_to_phase_noise,
     phase_noise_to_stability,
     read_phase_noise_table,
 )
-from stability.reports.files import atomic_write_text, ensure_folder, jsonable, sha256_file
 from stability.reports.tables import format_tau, format_value, terminal_table
 from stability.units import parse_frequency
 from stability.workflow import run_analysis

@@ -13,7 +13,7 @@ from typing import Annotated
 
 import typer
 
-from stability.reports.files import refuse_overwrite
+from stability.files import refuse_overwrite
 from stability.reports.tables import format_tau, format_value, statistic_unit
 from stability.spec import judge, load_info, load_spec
 from stability.workflow import run_analysis, write_analysis

@@ -35,7 +35,7 @@ import typer
 
 import stability
 from stability.errors import InputError
-from stability.reports.files import atomic_write_bytes, atomic_write_text, refuse_overwrite
+from stability.files import atomic_write_bytes, atomic_write_text, refuse_overwrite
 from stability.simulate import h_from_deviation, simulate
 from stability.table import NOISE_LABELS
 from stability.units import parse_duration, parse_frequency

@@ -22,7 +22,7 @@ import typer
 import stability
 from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
 from stability.errors import InputError, StabilityWarning
-from stability.reports.files import atomic_write_text, ensure_folder, jsonable
+from stability.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
 from stability.taus import parse_taus
 from stability.units import format_duration, parse_duration

@@ -15,18 +15,13 @@ command line's start-up) pays only for the parts a job touches.
 from __future__ import annotations
 
 import importlib
-from importlib.metadata import PackageNotFoundError, version
 from typing import TYPE_CHECKING, Any
 
+from ._version import __version__
 from .errors import AnalysisError, InputError, SpecError, StabilityError, StabilityWarning
 
 # Loaded now: the subpackage ``stability.prepare`` shares its name with the function.
 from .prepare import PreparationReport, prepare  # noqa: E402
-
-try:
-    __version__ = version("stability")
-except PackageNotFoundError:  # running from a source tree that is not installed
-    __version__ = "0.0.0+unknown"
 
 #: Public name -> module that defines it (relative to this package).
 _LAZY = {

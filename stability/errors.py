@@ -68,16 +68,16 @@ class StabilityError(Exception):
         return " ".join(text.split())
 
 
-class InputError(StabilityError):
-    """The input (file, array or argument) cannot be used as given."""
+class InputError(StabilityError, ValueError):
+    """The input (file, array or argument) cannot be used as given (also a ``ValueError``)."""
 
 
 class AnalysisError(StabilityError):
     """The analysis asked for cannot be carried out on these data."""
 
 
-class SpecError(StabilityError):
-    """A specification or information file is malformed."""
+class SpecError(StabilityError, ValueError):
+    """A specification or information file is malformed (also a ``ValueError``)."""
 
 
 class StabilityWarning(UserWarning):

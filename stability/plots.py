@@ -68,9 +68,10 @@ from matplotlib.lines import Line2D
 from matplotlib.ticker import LogFormatterSciNotation, NullLocator, ScalarFormatter
 from matplotlib.transforms import blended_transform_factory
 
+from ._version import __version__
 from .errors import InputError
+from .files import atomic_output
 from .measurement import Measurement
-from .reports.files import atomic_output
 from .reports.labels import analysis_date as _analysis_date
 from .reports.labels import default_footer
 from .reports.labels import default_title as _default_title
@@ -1596,7 +1597,6 @@ def save_figure(
         )
     if not isinstance(dpi, (int, float)) or not 10 <= dpi <= 1200:
         raise InputError(f"dpi must be a number between 10 and 1200, got {dpi!r}")
-    from . import __version__
 
     software = f"stability {__version__}"
     metadata = {
@@ -1668,7 +1668,6 @@ def overlay_footer(
     tables: Mapping[str, StabilityTable], *, analysis_time: datetime | None = None
 ) -> str:
     """Footer of an overlay: each input's SHA-256 prefix (12 hex), tool version, date."""
-    from . import __version__
 
     parts = []
     for label, table in tables.items():

@@ -305,7 +305,7 @@ class Check:
     note: str = ""
 
     def to_dict(self) -> dict[str, Any]:
-        from .reports.files import jsonable
+        from .files import jsonable
 
         return jsonable(
             {

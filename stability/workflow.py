@@ -254,7 +254,7 @@ def analyze_into(
     has succeeded; if anything fails, no file of this run is left behind, and
     folders made for the run are removed again.
     """
-    from .reports.files import ensure_folder
+    from .files import ensure_folder
 
     fmt = _check_plot_format(plot_format)
     read_opts, prep_opts, _ = _split_options(options)
@@ -391,7 +391,7 @@ _TEXT_NAMES = ("table.csv", "table.md", "summary.json")
 
 def _write_texts(run: AnalysisRun, paths: dict[str, Path]) -> dict[str, Path]:
     """Write the three text outputs to the given paths (keys: :data:`_TEXT_NAMES`)."""
-    from .reports.files import atomic_write_text
+    from .files import atomic_write_text
     from .reports.summary import summary_json
     from .reports.tables import table_csv, table_markdown
 
@@ -412,7 +412,7 @@ def write_analysis(
     limits_statistic: str | None = None,
 ) -> dict[str, Path]:
     """Write table.csv, table.md, summary.json and both plots into ``folder`` (atomically)."""
-    from .reports.files import ensure_folder
+    from .files import ensure_folder
 
     fmt = _check_plot_format(plot_format)
     out = ensure_folder(folder)

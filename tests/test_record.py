@@ -19,8 +19,8 @@ import pypdf
 import pytest
 
 from stability.errors import InputError
+from stability.files import sha256_file
 from stability.reports import record as record_mod
-from stability.reports.files import sha256_file
 from stability.reports.record import CAUTION, build_record, write_record
 from stability.reports.tables import format_tau
 from stability.spec import judge, load_info, load_spec

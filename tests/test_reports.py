@@ -15,19 +15,21 @@ import pytest
 
 import stability
 from stability.errors import InputError
-from stability.measurement import Provenance
-from stability.reports import (
-    SUMMARY_FIELDS,
+from stability.files import (
     atomic_output,
     atomic_write_bytes,
     atomic_write_text,
-    build_summary,
     ensure_folder,
     jsonable,
-    read_table_csv,
     refuse_overwrite,
     settings_hash,
     sha256_file,
+)
+from stability.measurement import Provenance
+from stability.reports import (
+    SUMMARY_FIELDS,
+    build_summary,
+    read_table_csv,
     summary_json,
     table_csv,
     table_markdown,

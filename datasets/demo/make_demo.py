@@ -54,7 +54,7 @@ from pathlib import Path
 import numpy as np
 
 from stability.errors import InputError
-from stability.reports.files import atomic_write_bytes, atomic_write_text, ensure_folder
+from stability.files import atomic_write_bytes, atomic_write_text, ensure_folder
 from stability.simulate import h_from_deviation, simulate
 
 __all__ = [

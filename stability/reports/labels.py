@@ -11,6 +11,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from .._version import __version__
 from ..measurement import Measurement
 from ..table import StabilityTable
 
@@ -29,7 +30,6 @@ def default_footer(
     source: StabilityTable | Measurement | None, *, analysis_time: datetime | None = None
 ) -> str:
     """Footer text: input SHA-256 prefix (12 hex), tool version and analysis date."""
-    from .. import __version__
 
     measurement = source.measurement if isinstance(source, StabilityTable) else source
     sha = None
@@ -48,6 +48,5 @@ def default_title(measurement: Any, fallback: str) -> str:
 
 def tool_footer(analysis_time: datetime | None) -> str:
     """Footer of a figure drawn from several inputs or none: tool version and analysis date."""
-    from .. import __version__
 
     return f"stability {__version__} · analysed {analysis_date(analysis_time)}"

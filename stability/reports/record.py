@@ -47,9 +47,10 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
+from .._version import __version__
 from ..errors import InputError
+from ..files import atomic_output, ensure_folder, jsonable, refuse_overwrite, settings_hash
 from ..spec import Info, Judgement, reference_contribution
-from .files import atomic_output, ensure_folder, jsonable, refuse_overwrite, settings_hash
 from .tables import format_tau, format_value, statistic_unit
 
 __all__ = [
@@ -180,7 +181,6 @@ def _measurement_summary(run: Any) -> dict[str, Any]:
 
 def build_record(run: Any, judgement: Judgement, info: Info) -> dict[str, Any]:
     """Everything the record shows, as JSON types (the content of record.json)."""
-    from .. import __version__
 
     _validate_record_args(run, judgement, info)
     provenance = run.source.provenance

@@ -64,9 +64,10 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from .._version import __version__
 from ..errors import InputError
+from ..files import jsonable, settings_hash
 from ..table import COLUMNS, StabilityTable
-from .files import jsonable, settings_hash
 
 __all__ = ["build_summary", "summary_json", "SUMMARY_FIELDS", "input_section", "table_rows"]
 
@@ -86,7 +87,6 @@ SUMMARY_FIELDS = (
 
 
 def _tool_version() -> str:
-    from .. import __version__
 
     return __version__
 

@@ -40,7 +40,7 @@ from typing import IO, Any
 
 import numpy as np
 
-from ..errors import InputError
+from .errors import InputError
 
 __all__ = [
     "atomic_output",
