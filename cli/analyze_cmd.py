@@ -6,9 +6,10 @@ from pathlib import Path
 
 import typer
 
-from stability.reports.summary import summary_json
 from stability.reports.tables import terminal_table
-from stability.workflow import AnalysisRun, analyze_into
+from stability.run import AnalysisRun
+from stability.summary import summary_json
+from stability.workflow import analyze_into
 
 from .common import (
     AverageOpt,
@@ -106,7 +107,6 @@ def analyze(
         outliers=outliers_value(outliers),
         drift=drift,
         average=average,
-        progress=not json_out,
     )
     if json_out:
         typer.echo(summary_json(run.summary()), nl=False)

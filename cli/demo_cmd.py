@@ -36,7 +36,8 @@ import typer
 import stability
 from stability.errors import InputError
 from stability.reports.tables import terminal_table
-from stability.workflow import AnalysisRun, analyze_into
+from stability.run import AnalysisRun
+from stability.workflow import analyze_into
 
 from . import main as _app_first  # noqa: F401  (the app and analyze load first)
 from .analyze_cmd import summary_block
@@ -134,12 +135,10 @@ def demo(
     target = out if out is not None else Path.cwd() / "stability-demo"
     typer.echo(f"demo data: {folder} (invented scenario, see its README.md)")
 
-    counter_run, counter_files = analyze_into(
-        counter, target / "counter", **COUNTER_SETTINGS, progress=False
-    )
+    counter_run, counter_files = analyze_into(counter, target / "counter", **COUNTER_SETTINGS)
     _show("OCXO against the rubidium reference (counter log)", counter_run)
 
-    pps_run, pps_files = analyze_into(pps, target / "pps", **PPS_SETTINGS, progress=False)
+    pps_run, pps_files = analyze_into(pps, target / "pps", **PPS_SETTINGS)
     _show("receiver 1 PPS against the rubidium reference (time-interval log)", pps_run)
 
     record_folder = None

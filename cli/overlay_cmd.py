@@ -1,6 +1,6 @@
 """``stability overlay LOG [LOG ...]``: several logs (or statistics) on one stability plot.
 
-Every log is analysed as ``stability analyze`` would (:func:`stability.workflow.run_analysis`)
+Every log is analysed as ``stability analyze`` would (:func:`stability.run.run_analysis`)
 with the shared options, which one log can override with a ``LOG:key=value,...``
 suffix, for example ``ocxo.csv:kind=fractional,tau0=1s``. The keys are the
 reading options (kind, column, time_column, tau0, nominal, wrap) and the
@@ -35,9 +35,10 @@ import typer
 import stability
 from stability.errors import InputError
 from stability.files import atomic_write_text, ensure_folder
-from stability.reports.summary import summary_json
 from stability.reports.tables import table_csv, table_markdown, terminal_table
-from stability.workflow import PLOT_FORMATS, AnalysisRun, run_analysis
+from stability.run import AnalysisRun, run_analysis
+from stability.summary import summary_json
+from stability.workflow import PLOT_FORMATS
 
 from . import main as _app_first  # noqa: F401  (the app and analyze load first)
 from .common import (
@@ -287,7 +288,6 @@ def overlay(
             stats=stats,
             taus=taus,
             confidence=confidence,
-            progress=not json_out,
             **options,
         )
     tables = {label: run.table for label, run in runs.items()}

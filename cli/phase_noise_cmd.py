@@ -39,8 +39,8 @@ from stability.phase_noise import (
     read_phase_noise_table,
 )
 from stability.reports.tables import format_tau, format_value, terminal_table
+from stability.run import run_analysis
 from stability.units import parse_frequency
-from stability.workflow import run_analysis
 
 from .common import (
     ColumnOpt,

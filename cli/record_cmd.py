@@ -15,8 +15,9 @@ import typer
 
 from stability.files import refuse_overwrite
 from stability.reports.tables import format_tau, format_value, statistic_unit
+from stability.run import run_analysis
 from stability.spec import judge, load_info, load_spec
-from stability.workflow import run_analysis, write_analysis
+from stability.workflow import write_analysis
 
 from .common import (
     ColumnOpt,

@@ -27,8 +27,8 @@ from stability.files import atomic_write_text, ensure_folder, jsonable
 from stability.hat import STATUS_OK, HatResult, separate
 from stability.measurement import Measurement
 from stability.reports.tables import format_tau, format_value
+from stability.run import read_and_prepare
 from stability.taus import parse_taus
-from stability.workflow import read_and_prepare
 
 from .common import (
     ColumnOpt,

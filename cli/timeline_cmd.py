@@ -24,9 +24,9 @@ from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
 from stability.errors import InputError, StabilityWarning
 from stability.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
+from stability.run import read_and_prepare
 from stability.taus import parse_taus
 from stability.units import format_duration, parse_duration
-from stability.workflow import read_and_prepare
 
 from .common import (
     AverageOpt,

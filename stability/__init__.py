@@ -20,10 +20,8 @@ from typing import TYPE_CHECKING, Any
 from ._version import __version__
 from .errors import AnalysisError, InputError, SpecError, StabilityError, StabilityWarning
 
-# Loaded now: the subpackage ``stability.prepare`` shares its name with the function.
-from .prepare import PreparationReport, prepare  # noqa: E402
-
-#: Public name -> module that defines it (relative to this package).
+#: Public name -> module that defines it (relative to this package), or
+#: ``module:attribute`` where the public name differs from the defining one.
 _LAZY = {
     "simulate": ".simulate",
     "analyze": ".analysis",
@@ -45,9 +43,17 @@ _LAZY = {
     "StabilityTable": ".table",
     "StatisticResult": ".table",
     "tau_grid": ".taus",
-    "AnalysisRun": ".workflow",
-    "run_analysis": ".workflow",
+    "AnalysisRun": ".run",
+    "run_analysis": ".run",
+    "read_and_prepare": ".run",
     "write_analysis": ".workflow",
+    "analyze_into": ".workflow",
+    "PreparationReport": ".prepare",
+    "prepare_measurement": ".prepare:prepare",
+    "RunSettings": ".settings",
+    "ReadSettings": ".settings",
+    "PrepareSettings": ".settings",
+    "AnalysisSettings": ".settings",
 }
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
@@ -60,23 +66,36 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from .measurement import Measurement, Provenance
     from .noise import identify
     from .phase_noise import phase_noise_to_stability
+    from .prepare import PreparationReport
+    from .prepare import prepare as prepare_measurement
+    from .run import AnalysisRun, read_and_prepare, run_analysis
+    from .settings import AnalysisSettings, PrepareSettings, ReadSettings, RunSettings
     from .table import COLUMNS, ConfidenceInterval, StabilityTable, StatisticResult
     from .taus import tau_grid
-    from .workflow import AnalysisRun, run_analysis, write_analysis
+    from .workflow import analyze_into, write_analysis
+
+
+#: Subpackages reached as attributes (``stability.prepare.three_point_drift``).
+_SUBPACKAGES = ("prepare", "ingest", "deviations", "spec", "figures", "reports")
 
 
 def __getattr__(name: str) -> Any:
+    if name in _SUBPACKAGES:
+        module = importlib.import_module(f".{name}", __name__)
+        globals()[name] = module
+        return module
     where = _LAZY.get(name)
     if where is None:
         raise AttributeError(f"module 'stability' has no attribute {name!r}")
+    where, _, attr = where.partition(":")
     module = importlib.import_module(where, __name__)
-    value = module if name == "simulate" else getattr(module, name)
+    value = module if name == "simulate" else getattr(module, attr or name)
     globals()[name] = value
     return value
 
 
 def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(_LAZY))
+    return sorted(set(globals()) | set(_LAZY) | set(_SUBPACKAGES))
 
 
 __all__ = [
@@ -84,12 +103,18 @@ __all__ = [
     "read_log",
     "inspect_log",
     "LogReport",
-    "prepare",
+    "prepare_measurement",
     "PreparationReport",
     "analyze",
     "estimate",
     "run_analysis",
+    "read_and_prepare",
     "write_analysis",
+    "analyze_into",
+    "RunSettings",
+    "ReadSettings",
+    "PrepareSettings",
+    "AnalysisSettings",
     "AnalysisRun",
     "identify",
     "separate",

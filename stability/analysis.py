@@ -9,16 +9,18 @@ This is the library's main entry point after reading a log::
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
 
-from .deviations.allan import mdev
 from .deviations.registry import Statistic, get_statistic
-from .errors import AnalysisError, InputError
+from .errors import AnalysisError, InputError, StabilityError
+from .intervals import check_confidence
 from .measurement import Measurement
+from .qualify import qualify as qualify_table
 from .table import StabilityTable, StatisticResult
 from .taus import GRIDS, tau_grid
 
@@ -73,29 +75,32 @@ def validate_analysis_args(
             f"measurement must be a stability.Measurement, got {type(measurement).__name__}",
             hint="build one with Measurement.from_phase, Measurement.from_frequency or read_log",
         )
-    try:
-        level = float(confidence)
-    except (TypeError, ValueError):
-        raise InputError(f"confidence must be a number in (0, 1), got {confidence!r}") from None
-    if not (0.0 < level < 1.0):
-        raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
+    level = check_confidence(confidence)
     _check_taus(taus)
     return _stat_list(stats), level
 
 
-#: Statistics computed from the same modified Allan deviation: TDEV = tau MDEV / sqrt(3)
-#: (ITU-T G.810; NIST SP 1065 eq. 15), so a run asking for both computes MDEV once.
-_FROM_MDEV = ("mdev", "tdev")
+def _values(
+    stat: Statistic, x: np.ndarray, tau0: float, ms: np.ndarray, seg: Any, memo: dict
+) -> list[tuple[float, int]]:
+    """(value, terms) at each m, shared through ``memo`` between the statistics of one run.
 
-
-def _from_mdev(
-    name: str, x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None, memo: dict
-) -> tuple[float, int]:
-    key = ("mdev", m)
-    if key not in memo:
-        memo[key] = mdev(x, tau0, m, seg)
-    dev, n = memo[key]
-    return (m * tau0 * dev / math.sqrt(3.0), n) if name == "tdev" else (dev, n)
+    A derived statistic (TDEV from MDEV) transforms its base's values, so a run
+    asking for both computes the base once.
+    """
+    if stat.derived is not None:
+        base_name, transform = stat.derived
+        base = _values(get_statistic(base_name), x, tau0, ms, seg, memo)
+        return [(transform(v, int(m), tau0), k) for m, (v, k) in zip(ms, base, strict=True)]
+    keys = [(stat.name, int(m)) for m in ms]
+    if all(key in memo for key in keys):
+        return [memo[key] for key in keys]
+    if stat.multi is not None:
+        values = stat.multi(x, tau0, [int(m) for m in ms], seg)
+    else:
+        values = [stat.func(x, tau0, int(m), seg) for m in ms]
+    memo.update(zip(keys, values, strict=True))
+    return values
 
 
 def estimate(
@@ -147,41 +152,44 @@ def _estimate(
     seg = measurement.segments
     tau0 = measurement.tau0
     with np.errstate(over="ignore", invalid="ignore"):
-        if stat.name in _FROM_MDEV and memo is not None:
-            values = [_from_mdev(stat.name, x, tau0, int(m), seg, memo) for m in ms]
-        elif stat.multi is not None:
-            values = stat.multi(x, tau0, [int(m) for m in ms], seg)
-        else:
-            values = [stat.func(x, tau0, int(m), seg) for m in ms]
+        values = _values(stat, x, tau0, ms, seg, {} if memo is None else memo)
     dev = np.array([v for v, _ in values], dtype=float)
     used = np.array([k for _, k in values], dtype=np.int64)
     keep = used > 0
     if not keep.any():
         raise AnalysisError(f"{stat.name}: every term touches a gap; nothing can be computed")
-    result = StatisticResult(
-        statistic=stat.name,
-        tau=ms[keep] * tau0 * stat.tau_factor,
-        m=ms[keep],
-        n_terms=used[keep],
-        deviation=dev[keep],
-    )
-    if stat.name == "theoh":
-        from .deviations.theo import theoh_uses_allan
-
-        allan = [int(m) for m in result.m if theoh_uses_allan(n, tau0, int(m))]
-        if allan:
-            result.notes.append(
-                "theoh: the overlapping Allan deviation at tau = "
-                + ", ".join(f"{0.75 * m * tau0:g}" for m in allan)
-                + " s, TheoBR at the other taus"
-            )
+    notes = []
+    if stat.note is not None:
+        remark = stat.note(n, tau0, ms[keep])
+        if remark:
+            notes.append(remark)
     dropped = ms[~keep]
     if dropped.size:
-        result.notes.append(
+        notes.append(
             f"{stat.name}: no usable term at m = {', '.join(str(int(m)) for m in dropped)} "
             "(every term touches a gap)"
         )
-    return result
+    return StatisticResult.build(
+        stat.name,
+        ms[keep] * tau0 * stat.tau_factor,
+        ms[keep],
+        used[keep],
+        dev[keep],
+        notes=notes,
+    )
+
+
+def _model_source(measurement: Measurement, stats: list[Statistic], memo: dict):
+    """A raw OADEV on the octave grid for the power-law model, when the run asks for none."""
+    if any(s.name == "oadev" for s in stats):
+        return None
+    oadev = get_statistic("oadev")
+    if oadev.allowed_m(measurement.n) < 1:
+        return None
+    try:
+        return _estimate(measurement, oadev, "octave", memo)
+    except StabilityError:
+        return None
 
 
 def analyze(
@@ -230,23 +238,25 @@ def analyze(
         results[stat.name] = _estimate(measurement, stat, taus, memo)
         if on_step is not None:
             on_step(stat.name)
+    if not math.isfinite(sum(float(np.nansum(r.deviation)) for r in results.values())):
+        raise AnalysisError("the estimates are not finite; check the data for huge values")
     settings = {
         "stats": [s.name for s in stat_list],
         "taus": taus if isinstance(taus, str) else [float(t) for t in taus],
         "confidence": level,
         "f_h_hz": float(f_h) if f_h is not None else 1.0 / (2.0 * measurement.tau0),
     }
+    results = {name: dataclasses.replace(r, confidence=level) for name, r in results.items()}
     table = StabilityTable(
         results=results, confidence=level, settings=settings, measurement=measurement
     )
-    for r in table:
-        r.confidence = level
-    if not math.isfinite(sum(float(np.nansum(r.deviation)) for r in table)):
-        raise AnalysisError("the estimates are not finite; check the data for huge values")
     if qualify:
-        from .qualify import qualify as qualify_table
-
-        qualify_table(table, f_h=f_h, offset_source=offset_source)
+        table = qualify_table(
+            table,
+            model_source=_model_source(measurement, stat_list, memo),
+            f_h=f_h,
+            offset_source=offset_source,
+        )
     if on_step is not None:
         on_step("qualification")
     return table

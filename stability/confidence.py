@@ -73,55 +73,34 @@ References
 
 from __future__ import annotations
 
-import difflib
 import math
+from dataclasses import dataclass
 from numbers import Integral, Real
 from typing import Any
 
 import numpy as np
 
 from .errors import InputError
-from .special import binomial, chi2_upper_quantile
-from .table import ConfidenceInterval
 
 __all__ = [
-    "EDF_STATISTICS",
-    "BIAS_CORRECTED",
+    "ALPHAS",
+    "GreenhallModel",
     "greenhall_edf",
-    "edf_for",
-    "edf_many",
-    "chi2_interval",
-    "bias_factor",
+    "totvar_edf",
+    "mtot_edf",
+    "theo1_edf",
+    "totvar_bias",
+    "mtot_bias",
+    "htot_bias",
+    "theo1_bias",
+    "check_alpha",
+    "check_row",
     "barnes_b2",
     "simple_oadev_edf",
 ]
 
-#: Statistic identifiers :func:`edf_for` and :func:`bias_factor` understand.
-EDF_STATISTICS = (
-    "adev",
-    "oadev",
-    "mdev",
-    "tdev",
-    "hdev",
-    "ohdev",
-    "totdev",
-    "mtot",
-    "ttot",
-    "htot",
-    "theo1",
-    "theobr",
-    "theoh",
-    "pdev",
-    "mtie",
-    "tie_rms",
-)
-
-#: Statistics whose raw estimate :func:`bias_factor` corrects. TheoBR is bias-removed
-#: by construction (it is scaled to the Allan variance), and ThêoH is built from
-#: TheoBR and OADEV, so neither is listed.
-BIAS_CORRECTED: frozenset[str] = frozenset({"totdev", "mtot", "ttot", "htot", "theo1"})
-
-_ALPHAS = (2, 1, 0, -1, -2)
+#: The five power-law exponents alpha of S_y(f), WPM to RWFM.
+ALPHAS = (2, 1, 0, -1, -2)
 _JMAX = 100  # Greenhall & Riley [1]: cap on the number of correlation terms summed.
 
 # Greenhall & Riley [1], table 1 (modified variances, F = 1): alpha -> (a0, a1) for d = 1, 2, 3.
@@ -164,18 +143,6 @@ _THEO1_BIAS = {
     0: (1.0, 0.0, 0.0),
     -1: (1.87, -1.05, 0.79),
     -2: (2.70, -1.53, 0.85),
-}
-
-# statistic -> (d, modified, overlapping) for the Greenhall-based models.
-_GREENHALL_KIND = {
-    "adev": (2, False, False),
-    "oadev": (2, False, True),
-    "mdev": (2, True, True),
-    "tdev": (2, True, True),
-    "pdev": (2, True, True),
-    "hdev": (3, False, False),
-    "ohdev": (3, False, True),
-    "htot": (3, False, True),
 }
 
 
@@ -234,20 +201,8 @@ def _validate_greenhall(
     return alpha, d, m, n, f, S
 
 
-def _check_statistic(statistic: Any) -> str:
-    key = str(statistic).strip().lower() if isinstance(statistic, str) else None
-    if key not in EDF_STATISTICS:
-        close = difflib.get_close_matches(str(statistic).lower(), EDF_STATISTICS, n=1)
-        hint = f"did you mean {close[0]!r}? " if close else ""
-        raise InputError(
-            f"statistic must be one of the known identifiers, got {statistic!r}",
-            hint=f"{hint}choose from {', '.join(EDF_STATISTICS)}",
-        )
-    return key
-
-
-def _check_alpha(alpha: Any) -> int | None:
-    """alpha in -2..2, or None / NaN for 'not identified'."""
+def check_alpha(alpha: Any) -> int | None:
+    """alpha in -2..2 as an int, or None for 'not identified' (None or NaN)."""
     if alpha is None:
         return None
     if isinstance(alpha, Real) and not isinstance(alpha, bool) and math.isnan(float(alpha)):
@@ -255,27 +210,19 @@ def _check_alpha(alpha: Any) -> int | None:
     return _as_int(alpha, "alpha", low=-2, high=2)
 
 
-def _validate_edf_for(
-    statistic: Any, alpha: Any, m: Any, n: Any
-) -> tuple[str, int | None, int, int]:
-    return (
-        _check_statistic(statistic),
-        _check_alpha(alpha),
-        _as_int(m, "m", low=1),
-        _as_int(n, "n", low=2),
-    )
-
-
-def _validate_confidence(confidence: Any) -> float:
-    if isinstance(confidence, bool) or not isinstance(confidence, Real):
-        raise InputError(f"confidence must be a number in (0, 1), got {confidence!r}")
-    level = float(confidence)
-    if not 0.0 < level < 1.0:
-        raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
-    return level
+def check_row(alpha: Any, m: Any, n: Any) -> tuple[int | None, int, int]:
+    """Validated (alpha, m, n) of one row: alpha -2..2 or None, m >= 1, n >= 2."""
+    return check_alpha(alpha), _as_int(m, "m", low=1), _as_int(n, "n", low=2)
 
 
 # --------------------------------------------------------------------------- Greenhall
+
+
+def _binomial(n: int, k: Any) -> Any:
+    """C(n, k) as float, 0 where k < 0 or k > n; ``k`` may be an integer array."""
+    ks = np.asarray(k)
+    values = np.array([math.comb(n, int(j)) if 0 <= j <= n else 0 for j in ks.ravel()], float)
+    return values.reshape(ks.shape) if ks.ndim else float(values[0])
 
 
 def _sw(t: np.ndarray, alpha: int) -> np.ndarray:
@@ -331,7 +278,7 @@ def _sx(t: np.ndarray, F: float, alpha: int) -> np.ndarray:
 def _sz(t: np.ndarray, F: float, alpha: int, d: int) -> np.ndarray:
     """Eq. (9): autocovariance of the d-th difference; vectorised over ``t``."""
     k = np.arange(-d, d + 1)
-    coef = (-1.0) ** k * binomial(2 * d, d + k)
+    coef = (-1.0) ** k * _binomial(2 * d, d + k)
     t = np.atleast_1d(np.asarray(t, dtype=float))
     return (_sx(t[:, None] + k[None, :], F, alpha) * coef).sum(axis=1)
 
@@ -398,11 +345,11 @@ def _greenhall_inverse(alpha: int, d: int, m: int, n: int, F: float, S: int) -> 
     # Case 4: unmodified WPM. The filtered phase differences are correlated only at
     # lags that are whole multiples of m, which gives a closed form.
     K = math.ceil(r)
-    c0 = binomial(2 * d, d) ** 2
+    c0 = _binomial(2 * d, d) ** 2
     if K <= d:
         k = np.arange(1 - K, K)
-        return float(((1.0 - np.abs(k) / r) * binomial(2 * d, d + k) ** 2).sum() / (M * c0))
-    a0 = binomial(4 * d, 2 * d) / c0
+        return float(((1.0 - np.abs(k) / r) * _binomial(2 * d, d + k) ** 2).sum() / (M * c0))
+    a0 = _binomial(4 * d, 2 * d) / c0
     a1 = d / 2.0
     return float((a0 - a1 / r) / M)
 
@@ -454,205 +401,103 @@ def greenhall_edf(
 
 
 # --------------------------------------------------------------------------- per statistic
+# Each model takes an identified alpha (-2..2), the averaging factor m and the
+# number of phase samples n, and returns the raw EDF; the statistics registry
+# (stability.deviations.registry) says which model a statistic uses, raises the
+# result to the floor of one degree of freedom and handles an unknown alpha.
 
 
-def _greenhall_for(statistic: str, alpha: int, m: int, n: int) -> float:
-    d, modified, overlapping = _GREENHALL_KIND[statistic]
-    f = 1.0 if modified else float(m)
-    s = m if overlapping else 1
-    if n < (m / f) + m * d:
-        # Beyond the model's range the estimator has at most about one term: the floor.
-        return 1.0
-    return 1.0 / _greenhall_inverse(alpha, d, m, n, f, s)
+@dataclass(frozen=True)
+class GreenhallModel:
+    """Greenhall & Riley's EDF [1]_ for one kind of finite-difference variance.
+
+    ``d`` is the difference order (2 Allan and modified Allan, 3 Hadamard),
+    ``modified`` selects F = 1 (else F = m), ``overlapping`` S = m (else 1).
+    """
+
+    d: int
+    modified: bool
+    overlapping: bool
+
+    def __call__(self, alpha: int, m: int, n: int) -> float:
+        f = 1.0 if self.modified else float(m)
+        s = m if self.overlapping else 1
+        if n < (m / f) + m * self.d:
+            # Beyond the model's range the estimator has at most about one term: the floor.
+            return 1.0
+        return 1.0 / _greenhall_inverse(alpha, self.d, m, n, f, s)
 
 
-def _theo1_edf(alpha: int, m: int, n: int) -> float:
-    """Howe's Theo1 EDF with r = 0.75 m (SP 1065 [2]; from memory)."""
+_OADEV_MODEL = GreenhallModel(2, modified=False, overlapping=True)
+
+
+def totvar_edf(alpha: int, m: int, n: int) -> float:
+    """TOTVAR EDF ``b T/tau - c`` (NIST SP 1065 [2]_, table 11; from memory).
+
+    Coefficients for WFM, FFM and RWFM; WPM and FPM have no published model here
+    and take the overlapping Allan EDF, a lower bound (TOTVAR has at least the EDF
+    of OAVAR at the same tau [3]_).
+    """
+    if alpha not in _TOT_BC:
+        return _OADEV_MODEL(alpha, m, n)
+    b, c = _TOT_BC[alpha]
+    return b * (n - 1) / m - c  # T / tau with T = (N - 1) tau0
+
+
+def mtot_edf(alpha: int, m: int, n: int) -> float:
+    """MTOT and TTOT EDF ``b T/tau - c`` for all five types (SP 1065 [2]_ table 12; from memory)."""
+    b, c = _MTOT_BC[alpha]
+    return b * (n - 1) / m - c
+
+
+def theo1_edf(alpha: int, m: int, n: int) -> float:
+    """Howe's Theo1 EDF with r = 0.75 m (SP 1065 [2]_; from memory).
+
+    FPM has no formula at hand: the smaller of its neighbours WPM and WFM.
+    """
     r = 0.75 * m
     N = float(n)
-    if alpha == 2:
-        return 0.86 * (N + 1) * (N - 4 * r / 3) / (N - r) * r / (r + 1.14)
-    if alpha == 0:
-        return ((4.1 * N + 0.8) / r - (3.1 * N + 6.5) / N) * r**1.5 / (r**1.5 + 5.2)
-    if alpha == -1:
-        return (2 * N * N - 1.3 * N * r - 3.5 * r) / (N * r) * r**3 / (r**3 + 2.3)
-    if alpha == -2:
-        u = 4.4 * N - 1
-        return (4.4 * N - 2) / (2.9 * r) * (u * u - 8.6 * r * u + 11.4 * r * r) / (4.4 * N - 3) ** 2
-    # FPM: no published formula at hand; the smaller of its neighbours WPM and WFM.
-    return min(_theo1_edf(2, m, n), _theo1_edf(0, m, n))
-
-
-def _edf_known(statistic: str, alpha: int, m: int, n: int) -> float:
-    """EDF for an identified alpha; NaN for the time-error statistics."""
-    if statistic in ("mtie", "tie_rms"):
-        return math.nan
-    ratio = (n - 1) / m  # T / tau with T = (N - 1) tau0
-    if statistic == "totdev":
-        if alpha in _TOT_BC:
-            b, c = _TOT_BC[alpha]
-            edf = b * ratio - c
-        else:  # WPM / FPM: no TOTVAR model; OAVAR's EDF is a lower bound.
-            edf = _greenhall_for("oadev", alpha, m, n)
-    elif statistic in ("mtot", "ttot"):
-        b, c = _MTOT_BC[alpha]
-        edf = b * ratio - c
-    elif statistic in ("theo1", "theobr", "theoh"):
-        with np.errstate(all="ignore"):
-            edf = _theo1_edf(alpha, m, n)
-    else:
-        edf = _greenhall_for(statistic, alpha, m, n)
-    # Empirical formulas go below 1 (even negative) near the end of the record,
-    # and the Greenhall sum can give values just under 1 with one term: a variance
-    # estimate always has at least one degree of freedom, so raise them to 1.
-    if not math.isfinite(edf) or edf < 1.0:
-        return 1.0
-    return float(edf)
-
-
-def edf_for(statistic: str, alpha: int | None, m: int, n: int) -> float:
-    """EDF of one statistic at one averaging factor.
-
-    Parameters
-    ----------
-    statistic
-        Identifier: adev, oadev, mdev, tdev, hdev, ohdev, totdev, mtot, ttot,
-        htot, theo1, theobr, theoh, pdev, mtie, tie_rms (see the module
-        docstring for the model used by each).
-    alpha
-        Identified power-law exponent of S_y(f), -2..2; None (or NaN) when the
-        noise type is not known: the smallest EDF over the five types is used.
-    m
-        Averaging factor (for the Theo family, tau = 0.75 m tau0).
-    n
-        Number of phase samples N.
-
-    Returns
-    -------
-    float
-        A finite EDF >= 1 for the variance statistics, NaN for MTIE and TIE rms.
-        Averaging factors beyond a model's range give 1 (the floor).
-
-    Raises
-    ------
-    InputError
-        For an unknown statistic, alpha outside -2..2, m < 1 or n < 2.
-    """
-    statistic, alpha, m, n = _validate_edf_for(statistic, alpha, m, n)
-    if alpha is not None:
-        return _edf_known(statistic, alpha, m, n)
-    if statistic in ("mtie", "tie_rms"):
-        return math.nan
-    return min(_edf_known(statistic, a, m, n) for a in _ALPHAS)
-
-
-def edf_many(statistic: str, alphas: Any, ms: Any, n: int) -> np.ndarray:
-    """:func:`edf_for` over arrays of alphas and averaging factors (broadcast together).
-
-    NaN entries of ``alphas`` mean "not identified".
-    """
-    _check_statistic(statistic)
-    _as_int(n, "n", low=2)
-    try:
-        a = np.asarray(alphas, dtype=float)
-        mm = np.asarray(ms)
-        a, mm = np.broadcast_arrays(a, mm)
-    except (TypeError, ValueError):
-        raise InputError(
-            "alphas and ms must be numeric arrays of broadcastable shapes, "
-            f"got shapes {np.shape(alphas)} and {np.shape(ms)}"
-        ) from None
-    out = np.empty(a.shape, dtype=float)
-    for idx in np.ndindex(a.shape):  # one call per tau
-        alpha = None if np.isnan(a[idx]) else a[idx]
-        out[idx] = edf_for(statistic, alpha, mm[idx].item(), n)
-    return out
-
-
-# --------------------------------------------------------------------------- intervals
-
-
-def chi2_interval(deviation: Any, edf: Any, confidence: float = 0.683) -> ConfidenceInterval:
-    """Chi-squared confidence interval of a deviation.
-
-    The variance interval is ``[nu s^2 / chi2_{1-p/2}(nu), nu s^2 / chi2_{p/2}(nu)]``
-    with p = 1 - confidence and non-integer nu allowed (NIST SP 1065 section 5.3);
-    the deviation bounds are its square roots.
-
-    Parameters
-    ----------
-    deviation
-        Deviation(s) s (bias-corrected where that applies); arrays broadcast with
-        ``edf``.
-    edf
-        Equivalent degrees of freedom nu.
-    confidence
-        Two-sided confidence level in (0, 1), 0.683 by default.
-
-    Returns
-    -------
-    ConfidenceInterval
-        ``(low, high)``, floats for scalar input, arrays otherwise. Bounds are NaN
-        where the deviation is NaN, infinite or negative, or the EDF is NaN,
-        infinite or <= 0. Always
-        ``low <= deviation <= high``: at low confidence levels the chi-squared
-        interval can miss the point estimate (the chi-squared median lies below
-        its mean), and is then widened to reach it.
-    """
-    level = _validate_confidence(confidence)
-    try:
-        s = np.asarray(deviation, dtype=float)
-        nu = np.asarray(edf, dtype=float)
-        s, nu = np.broadcast_arrays(s, nu)
-    except (TypeError, ValueError):
-        raise InputError(
-            "deviation and edf must be numbers or arrays of broadcastable shapes, "
-            f"got {type(deviation).__name__} and {type(edf).__name__}"
-        ) from None
-    p = 1.0 - level
-    good = np.isfinite(s) & (s >= 0) & np.isfinite(nu) & (nu > 0)
-    nu_ok = np.where(good, nu, 1.0)
-    # the chi-squared quantiles with upper-tail probabilities p/2 and 1 - p/2
-    upper_q = chi2_upper_quantile(nu_ok, p / 2.0)
-    lower_q = chi2_upper_quantile(nu_ok, 1.0 - p / 2.0)
-    # a fraction of one degree of freedom has a lower quantile that underflows: no upper bound
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        low = s * np.sqrt(nu_ok / upper_q)
-        high = s * np.sqrt(nu_ok / lower_q)
-    low = np.where(good, np.minimum(low, s), np.nan)
-    high = np.where(good, np.maximum(high, s), np.nan)
-    if low.ndim == 0:
-        return ConfidenceInterval(float(low), float(high))
-    return ConfidenceInterval(low, high)
+    with np.errstate(all="ignore"):
+        if alpha == 2:
+            return 0.86 * (N + 1) * (N - 4 * r / 3) / (N - r) * r / (r + 1.14)
+        if alpha == 0:
+            return ((4.1 * N + 0.8) / r - (3.1 * N + 6.5) / N) * r**1.5 / (r**1.5 + 5.2)
+        if alpha == -1:
+            return (2 * N * N - 1.3 * N * r - 3.5 * r) / (N * r) * r**3 / (r**3 + 2.3)
+        if alpha == -2:
+            u = 4.4 * N - 1
+            return (
+                (4.4 * N - 2)
+                / (2.9 * r)
+                * (u * u - 8.6 * r * u + 11.4 * r * r)
+                / (4.4 * N - 3) ** 2
+            )
+    return min(theo1_edf(2, m, n), theo1_edf(0, m, n))
 
 
 # --------------------------------------------------------------------------- bias
+# Each bias rule returns B with corrected variance = raw variance / B for an
+# identified alpha (SP 1065 [2]_ sections 5.2.11-5.2.14 and Howe's papers;
+# coefficients from memory, see the module docstring).
 
 
-def bias_factor(statistic: str, alpha: int | None, m: int, n: int) -> float:
-    """Bias factor B of a statistic: corrected variance = raw variance / B.
+def totvar_bias(alpha: int, m: int, n: int) -> float:
+    """TOTVAR/AVAR = 1 - a tau/T, a = 0 (WPM, FPM, WFM), 0.481 (FFM), 0.750 (RWFM)."""
+    return 1.0 - _TOT_BIAS_A[alpha] * min(m / (n - 1), 1.0)
 
-    * totdev: TOTVAR/AVAR = 1 - a tau/T, a = 0 (WPM, FPM, WFM), 0.481 (FFM),
-      0.750 (RWFM); T = (N - 1) tau0.
-    * mtot, ttot: MTOT/MVAR = 0.94, 0.83, 0.73, 0.70, 0.69 (WPM .. RWFM).
-    * htot: HTOT/HVAR = 1 + a, a = 0 (WPM, FPM), -0.005 (WFM), -0.149 (FFM),
-      -0.229 (RWFM).
-    * theo1: AVAR/Theo1 = a + b / tau^c (tau = 0.75 m in units of tau0), so
-      B = 1 / (a + b / tau^c).
 
-    Sources: NIST SP 1065 sections 5.2.11-5.2.14 and Howe's papers (coefficients
-    from memory, see the module docstring). Every other statistic, and an unknown
-    alpha, gives 1.0 (no correction).
-    """
-    statistic, alpha, m, n = _validate_edf_for(statistic, alpha, m, n)
-    if alpha is None or statistic not in BIAS_CORRECTED:
-        return 1.0
-    if statistic == "totdev":
-        return 1.0 - _TOT_BIAS_A[alpha] * min(m / (n - 1), 1.0)
-    if statistic in ("mtot", "ttot"):
-        return _MTOT_BIAS[alpha]
-    if statistic == "htot":
-        return 1.0 + _HTOT_BIAS_A[alpha]
+def mtot_bias(alpha: int, m: int, n: int) -> float:
+    """MTOT/MVAR = 0.94, 0.83, 0.73, 0.70, 0.69 (WPM .. RWFM)."""
+    return _MTOT_BIAS[alpha]
+
+
+def htot_bias(alpha: int, m: int, n: int) -> float:
+    """HTOT/HVAR = 1 + a, a = 0 (WPM, FPM), -0.005 (WFM), -0.149 (FFM), -0.229 (RWFM)."""
+    return 1.0 + _HTOT_BIAS_A[alpha]
+
+
+def theo1_bias(alpha: int, m: int, n: int) -> float:
+    """AVAR/Theo1 = a + b / tau^c (tau = 0.75 m in units of tau0), so B = 1/(a + b/tau^c)."""
     a, b, c = _THEO1_BIAS[alpha]
     ratio = a + b / (0.75 * m) ** c
     return 1.0 / ratio if ratio > 0 else 1.0

@@ -54,9 +54,13 @@ import numpy as np
 import pandas as pd
 
 from .deviations._kernels import comb_terms
+from .deviations.registry import get_statistic
 from .errors import AnalysisError, InputError, StabilityWarning
+from .intervals import chi2_interval
 from .measurement import Measurement
+from .noise import identify
 from .taus import GRIDS, tau_grid
+from .units import parse_duration
 
 __all__ = ["DYNAMIC_STATS", "DynamicResult", "dynamic_stability", "window_sums"]
 
@@ -146,8 +150,6 @@ class DynamicResult:
 
 def _seconds(value: Any, name: str) -> float:
     if isinstance(value, str):
-        from .units import parse_duration
-
         return parse_duration(value, what=name)
     try:
         out = float(value)
@@ -272,15 +274,8 @@ def _intervals(
     noise: str,
 ) -> None:
     """Noise type, EDF and chi-squared interval of every cell (in place)."""
-    try:
-        from .confidence import chi2_interval, edf_for
-        from .noise import identify
-    except ImportError as exc:
-        message = f"no confidence intervals: {exc}"
-        warnings.warn(message, StabilityWarning, stacklevel=3)
-        result.notes.append(message)
-        return
-    name = "mdev" if result.statistic == "tdev" else result.statistic
+    statistic = get_statistic(result.statistic)
+    name = statistic.noise_source or statistic.name
     ms = [int(m) for m in result.m]
     points = result.window_points
     alpha = np.full(result.deviation.shape, np.nan)
@@ -305,7 +300,7 @@ def _intervals(
             a = None if math.isnan(alpha[w, k]) else int(alpha[w, k])
             key = (a, m, int(n_eff[w]))
             if key not in cache:
-                cache[key] = float(edf_for(result.statistic, a, m, int(n_eff[w])))
+                cache[key] = statistic.edf_for(a, m, int(n_eff[w]))
             edf[w, k] = cache[key]
     good = np.isfinite(edf) & np.isfinite(result.deviation)
     low = np.full(edf.shape, np.nan)
@@ -389,8 +384,6 @@ def dynamic_stability(
     points, stride, name, level = _validate_dynamic(
         measurement, window, step, taus, stat, confidence, noise, notes
     )
-    from .deviations.registry import get_statistic
-
     statistic = get_statistic(name)
     tau0 = measurement.tau0
     max_m = statistic.allowed_m(points)

@@ -73,8 +73,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .errors import AnalysisError, InputError, StabilityWarning
+from .analysis import estimate
+from .deviations.registry import get_statistic
+from .errors import AnalysisError, InputError
+from .intervals import check_confidence, chi2_interval
 from .measurement import Measurement
+from .qualify import qualify_result
 from .table import StatisticResult
 
 __all__ = [
@@ -141,21 +145,13 @@ def _validate_separate(
             f"pairs name {len(names)} oscillators; the hat needs at least 3",
             hint="measure three oscillators against each other: (A, B), (B, C), (C, A)",
         )
-    from .deviations.registry import get_statistic
-
     statistic = get_statistic(stat)
     if statistic.name == "mtie":
         raise InputError(
             "stat 'mtie' is a maximum, not a variance, and does not separate",
             hint="choose a variance-based statistic such as oadev, mdev or hdev",
         )
-    try:
-        level = float(confidence)
-    except (TypeError, ValueError):
-        raise InputError(f"confidence must be a number in (0, 1), got {confidence!r}") from None
-    if not 0.0 < level < 1.0:
-        raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
-    return checked, names, statistic, level
+    return checked, names, statistic, check_confidence(confidence)
 
 
 # ---------------------------------------------------------------------------- alignment
@@ -422,23 +418,13 @@ def _qualify_pairs(
     results: dict[Pair, StatisticResult],
     aligned: dict[Pair, Measurement],
     confidence: float,
-    notes: list[str],
-) -> None:
-    """Noise type, EDF and interval of each pair curve (in place), when the modules exist."""
-    try:
-        from .qualify import qualify_result
-    except ImportError as exc:
-        message = (
-            f"no degrees of freedom for the pair curves ({exc}); intervals are omitted and "
-            "points below resolution are bounded by the smallest pair deviation"
-        )
-        warnings.warn(message, StabilityWarning, stacklevel=3)
-        notes.append(message)
-        return
+) -> dict[Pair, StatisticResult]:
+    """Noise type, EDF and interval of each pair curve."""
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        for key, result in results.items():
-            qualify_result(result, aligned[key], confidence)
+        return {
+            key: qualify_result(result, aligned[key], confidence) for key, result in results.items()
+        }
 
 
 def _combine(
@@ -463,15 +449,10 @@ def _combine(
     low = np.full_like(estimate, np.nan)
     high = np.full_like(estimate, np.nan)
     if ok.any() and np.isfinite(edf[ok]).any():
-        try:
-            from .confidence import chi2_interval
-        except ImportError:
-            chi2_interval = None
-        if chi2_interval is not None:
-            good = ok & np.isfinite(edf) & (edf > 0)
-            lo, hi = chi2_interval(deviation[good], edf[good], confidence)
-            low[good] = np.asarray(lo, dtype=float)
-            high[good] = np.asarray(hi, dtype=float)
+        good = ok & np.isfinite(edf) & (edf > 0)
+        lo, hi = chi2_interval(deviation[good], edf[good], confidence)
+        low[good] = np.asarray(lo, dtype=float)
+        high[good] = np.asarray(hi, dtype=float)
     z = float(ndtri(0.5 + confidence / 2.0))
     resolution = np.sqrt(z * spread)
     # No oscillator is noisier than a difference it takes part in: the smallest upper
@@ -529,8 +510,6 @@ def separate(
     notes: list[str] = []
     if any(aligned[k] is not checked[k] for k in keys):
         notes.append(f"pair logs trimmed to their common span of {aligned[keys[0]].n} samples")
-    from .analysis import estimate
-
     results = {k: estimate(aligned[k], statistic, taus) for k in keys}
     common = set(results[keys[0]].m.tolist())
     for k in keys[1:]:
@@ -546,15 +525,10 @@ def separate(
                 f"m = {', '.join(map(str, dropped))} dropped: no usable terms in every pair"
             )
         keep = np.isin(r.m, ms)
-        results[k] = StatisticResult(
-            statistic=r.statistic,
-            tau=r.tau[keep],
-            m=r.m[keep],
-            n_terms=r.n_terms[keep],
-            deviation=r.deviation[keep],
-            notes=list(r.notes),
+        results[k] = StatisticResult.build(
+            r.statistic, r.tau[keep], r.m[keep], r.n_terms[keep], r.deviation[keep], notes=r.notes
         )
-    _qualify_pairs(results, aligned, level, notes)
+    results = _qualify_pairs(results, aligned, level)
     variances = np.array([results[k].deviation ** 2 for k in keys])  # (pair, tau)
     edfs = np.array([results[k].edf for k in keys])
     members = np.array([[n in k for k in keys] for n in names])

@@ -71,8 +71,7 @@ from __future__ import annotations
 
 import math
 import warnings
-import weakref
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Any, Literal
@@ -98,7 +97,6 @@ __all__ = [
     "rn_noise_id",
     "ACF_MIN_POINTS",
     "ACF_MAX_POINTS",
-    "remember",
     "B1_MIN_AVERAGES",
 ]
 
@@ -307,53 +305,24 @@ def lag1_acf_noise_id(
 _EXPECT_MAX_M = 1024
 
 
-#: Per phase array (by identity, dropped when the array dies): its frequency and
-#: the Allan / modified Allan variances already computed, so that qualifying
-#: several statistics of one record does each only once.
-_MEMO: dict[int, tuple[weakref.ref, dict[Any, Any]]] = {}
+#: Estimates already made for the data, passed to :func:`identify` as ``known``:
+#: (statistic, m) -> (deviation, terms) for ``oadev`` and ``mdev``.
+Known = Mapping[tuple[str, int], tuple[float, int]]
 
 
-def _memo(x: np.ndarray) -> dict[Any, Any]:
-    key = id(x)
-    entry = _MEMO.get(key)
-    if entry is not None and entry[0]() is x:
-        return entry[1]
-    memo: dict[Any, Any] = {}
-    try:
-        ref = weakref.ref(x, lambda _r, key=key: _MEMO.pop(key, None))
-    except TypeError:  # cannot be weakly referenced: no memo
-        return memo
-    _MEMO[key] = (ref, memo)
-    return memo
-
-
-def _memo_stat(x: np.ndarray, seg: np.ndarray | None, tau0: float, m: int, func: Any) -> tuple:
-    memo = _memo(x)
-    key = (func.__name__, id(seg), tau0, m)
-    if key not in memo:
-        memo[key] = func(x, tau0, m, seg)
-    return memo[key]
-
-
-def remember(measurement: Measurement, statistic: str, m: int, value: float, terms: int) -> None:
-    """Record an OADEV or MDEV already computed for ``measurement`` so B1 and R(n) reuse it."""
-    func = {"oadev": oadev, "mdev": mdev}.get(statistic)
-    if func is None:
-        return
-    key = (func.__name__, id(measurement.segments), measurement.tau0, int(m))
-    _memo(measurement.phase)[key] = (float(value), int(terms))
+def _stat_at(cache: dict[Any, Any], x: np.ndarray, seg: Any, tau0: float, m: int, func: Any):
+    """OADEV or MDEV at m, from the cache (seeded with the caller's known estimates)."""
+    key = (func.__name__, int(m))
+    if key not in cache:
+        cache[key] = func(x, tau0, m, seg)
+    return cache[key]
 
 
 def _frequency(x: np.ndarray, seg: np.ndarray | None, tau0: float) -> np.ndarray:
-    memo = _memo(x)
-    key = ("frequency", id(seg), tau0)
-    if key not in memo:
-        y = np.diff(x) / tau0
-        if seg is not None:
-            y[np.diff(seg) != 0] = np.nan
-        y.flags.writeable = False
-        memo[key] = y
-    return memo[key]
+    y = np.diff(x) / tau0
+    if seg is not None:
+        y[np.diff(seg) != 0] = np.nan
+    return y
 
 
 def expected_acf_estimate(alpha: int, d: int, m: int, span: int) -> float:
@@ -508,7 +477,7 @@ def _block_means(y: np.ndarray, m: int) -> np.ndarray:
 
 
 def _b1_rn(
-    x: np.ndarray, seg: np.ndarray | None, tau0: float, m: int, yb: np.ndarray
+    x: np.ndarray, seg: np.ndarray | None, tau0: float, m: int, yb: np.ndarray, cache: dict
 ) -> tuple[int, str] | None:
     """B1 (and R(n) for mu = -2) at averaging factor m; None when it cannot be told."""
     k = yb.size
@@ -521,7 +490,7 @@ def _b1_rn(
     resid = _detrend(yb, 1)
     if float(np.sqrt(np.mean(resid * resid))) <= _DEGENERATE_RTOL * scale:
         return None  # exactly linear frequency (pure drift): no noise to identify
-    adev_value, used = _memo_stat(x, seg, tau0, m, oadev)
+    adev_value, used = _stat_at(cache, x, seg, tau0, m, oadev)
     if used == 0 or not math.isfinite(adev_value) or adev_value <= 0.0:
         return None
     avar = adev_value * adev_value
@@ -530,7 +499,7 @@ def _b1_rn(
         return None
     if mu != -2:
         return -mu - 1, "b1"
-    mdev_value, used = _memo_stat(x, seg, tau0, m, mdev)
+    mdev_value, used = _stat_at(cache, x, seg, tau0, m, mdev)
     if used == 0 or not math.isfinite(mdev_value):
         return None
     alpha = rn_noise_id(mdev_value * mdev_value / avar, m)
@@ -555,6 +524,7 @@ def identify(
     ms: Sequence[int] | np.ndarray,
     *,
     carry: bool = False,
+    known: Known | None = None,
 ) -> NoiseResult:
     """Identify the dominant power-law noise at each averaging factor.
 
@@ -571,6 +541,10 @@ def identify(
     carry
         Give an unidentified m the type of the nearest identified m (method
         ``"carried"``); off by default.
+    known
+        Estimates already made for these data, ``(statistic, m) -> (deviation,
+        terms)`` for ``oadev`` and ``mdev``: B1 and R(n) reuse them instead of
+        computing them again.
 
     Returns
     -------
@@ -588,6 +562,7 @@ def identify(
     method = [""] * count
     unbroken = seg is None and not bool(np.isnan(x).any())
     notes: list[str] = []
+    cache: dict[Any, Any] = dict(known or {})
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         # the frequency series (as large as the data) only when there are gaps
@@ -616,7 +591,7 @@ def identify(
                 continue
             if yb is None:  # unbroken phase: a block mean of y is a phase difference
                 yb = np.diff(x[::m][: (x.size - 1) // m + 1]) / (m * tau0)
-            b1 = _b1_rn(x, seg, tau0, m, yb)
+            b1 = _b1_rn(x, seg, tau0, m, yb, cache)
             if b1 is not None:
                 alpha[i], method[i] = float(b1[0]), b1[1]
     if not unbroken:

@@ -75,6 +75,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import AnalysisError, InputError
+from .taus import GRIDS, parse_taus
 
 __all__ = [
     "PHASE_NOISE_STATS",
@@ -564,8 +565,6 @@ def _validate_conversion(
     nu0 = _positive(nominal, "nominal", "Hz")
     bandwidth = _positive(f_h, "f_h", "Hz")
     if isinstance(taus, str):
-        from .taus import GRIDS, parse_taus
-
         if taus.strip().lower() in GRIDS:
             raise InputError(
                 f"taus must be a list of seconds here, got the grid name {taus!r}",

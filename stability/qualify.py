@@ -16,30 +16,26 @@ and drift with noise-aware uncertainties (:mod:`stability.powerlaw`).
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import warnings
 
 import numpy as np
 
-from .confidence import bias_factor, chi2_interval, edf_for
-from .deviations.registry import get_statistic
-from .errors import StabilityError, StabilityWarning
+from .deviations.registry import Statistic, get_statistic
+from .errors import StabilityWarning
+from .intervals import chi2_interval
 from .measurement import Measurement
-from .noise import NoiseResult, identify, remember
+from .noise import Known, NoiseResult, identify
 from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift_of
 from .table import NOISE_LABELS, StabilityTable, StatisticResult
 
 __all__ = [
     "qualify",
     "qualify_result",
-    "noise_source",
     "effective_points",
     "model_curve",
-    "row_points",
 ]
-
-#: The statistic whose identified noise is shared by its sibling (same data, same m).
-_NOISE_SOURCE = {"tdev": "mdev", "ttot": "mtot"}
 
 
 def effective_points(measurement: Measurement) -> int:
@@ -49,8 +45,10 @@ def effective_points(measurement: Measurement) -> int:
     return max(finite - breaks, 0)
 
 
-def _never_whiter(result: StatisticResult) -> None:
-    """Keep the identified alpha from rising with tau (in place).
+def _never_whiter(
+    statistic: str, tau: np.ndarray, alpha: np.ndarray, noise: list[str]
+) -> str | None:
+    """Keep the identified alpha from rising with tau (in place on the new arrays).
 
     In a sum of power laws S_y(f) = sum h_alpha f^alpha the term with the
     smaller exponent dominates ever more as f falls, so the dominant type at
@@ -61,57 +59,33 @@ def _never_whiter(result: StatisticResult) -> None:
     """
     lowest = math.inf
     changed = []
-    for k, a in enumerate(result.alpha):
+    for k, a in enumerate(alpha):
         if math.isnan(a):
             continue
         if a > lowest:
-            result.alpha[k] = lowest
-            result.noise[k] = NOISE_LABELS[int(lowest)]
-            changed.append(f"{result.tau[k]:g} s")
-        lowest = min(lowest, result.alpha[k])
-    if changed:
-        result.notes.append(
-            f"{result.statistic}: at tau {', '.join(changed)} the identification said a whiter "
-            "noise than at a shorter tau; the shorter tau's type was kept (a sum of power "
-            "laws never gets whiter at longer tau)"
-        )
+            alpha[k] = lowest
+            noise[k] = NOISE_LABELS[int(lowest)]
+            changed.append(f"{tau[k]:g} s")
+        lowest = min(lowest, alpha[k])
+    if not changed:
+        return None
+    return (
+        f"{statistic}: at tau {', '.join(changed)} the identification said a whiter "
+        "noise than at a shorter tau; the shorter tau's type was kept (a sum of power "
+        "laws never gets whiter at longer tau)"
+    )
 
 
-#: Record length N that gives ``terms`` terms at averaging factor m, per statistic
-#: (the inverse of each estimator's term count). With gaps, fewer terms are used
-#: than the record length suggests, and the EDF must follow the terms actually used.
-_POINTS_FROM_TERMS = {
-    "adev": lambda t, m: (t + 1) * m + 1,
-    "oadev": lambda t, m: t + 2 * m,
-    "mdev": lambda t, m: t + 3 * m - 1,
-    "tdev": lambda t, m: t + 3 * m - 1,
-    "hdev": lambda t, m: (t + 2) * m + 1,
-    "ohdev": lambda t, m: t + 3 * m,
-    "totdev": lambda t, m: t + 2,
-}
-
-
-def row_points(name: str, m: int, terms: int, n_eff: int) -> int:
-    """Record length to use in the EDF model of one row: never more than the terms support."""
-    inverse = _POINTS_FROM_TERMS.get(name)
-    if inverse is None:
-        return n_eff
-    return int(min(n_eff, inverse(int(terms), int(m))))
-
-
-def _row_edf(name: str, alpha: int | None, m: int, n: int, tau0: float) -> float:
-    """EDF of one row; ThêoH rows computed as OADEV (at 0.75 m) take OADEV's model."""
-    if name == "theoh":
-        from .deviations.theo import theoh_uses_allan
-
-        if theoh_uses_allan(n, tau0, m):
-            return edf_for("oadev", alpha, (3 * m) // 4, n)
-    return edf_for(name, alpha, m, n)
-
-
-def noise_source(statistic: str) -> str:
-    """The statistic whose noise identification a statistic uses (TDEV shares MDEV's)."""
-    return _NOISE_SOURCE.get(statistic, statistic)
+def _rows(stat: Statistic, result: StatisticResult, alpha: np.ndarray, n_eff: int):
+    """EDF and bias factor (on the deviation) of every row."""
+    edf = np.empty(len(result))
+    factor = np.ones(len(result))
+    for k, m in enumerate(result.m):
+        a = None if math.isnan(alpha[k]) else int(alpha[k])
+        n_row = stat.row_points(int(m), int(result.n_terms[k]), n_eff)
+        edf[k] = stat.edf_for(a, int(m), n_row)
+        factor[k] = 1.0 / math.sqrt(stat.bias_factor(a, int(m), n_eff))
+    return edf, factor
 
 
 def qualify_result(
@@ -120,103 +94,113 @@ def qualify_result(
     confidence: float,
     *,
     noise: NoiseResult | None = None,
+    known: Known | None = None,
 ) -> StatisticResult:
-    """Fill the noise, EDF, bias and interval columns of one statistic (in place).
+    """A new result with the noise, EDF, bias and interval columns of one statistic filled.
 
     ``noise`` is an identification already made for the same data and taus
-    (for a statistic that shares it, see :func:`noise_source`).
+    (for a statistic that shares it, see :attr:`Statistic.noise_source`);
+    ``known`` holds OADEV and MDEV estimates already made for the data.
     """
     stat = get_statistic(result.statistic)
-    if stat.family == "time_error":
-        result.confidence = confidence
-        result.notes.append(
+    if not stat.has_interval:
+        note = (
             f"{stat.name}: no chi-squared model applies to a maximum or rms time error; "
             "no interval is given"
         )
-        return result
-    n_eff = effective_points(measurement)
+        return dataclasses.replace(result, confidence=confidence, notes=(*result.notes, note))
     if noise is None:
-        noise = identify(measurement, noise_source(stat.name), result.m)
-    result.alpha = np.array(noise.alpha, dtype=float)  # a copy: the identification may be shared
-    result.noise = list(noise.noise)
-    result.noise_method = list(noise.method)
-    _never_whiter(result)
-    edf = np.empty(len(result))
-    factors = np.ones(len(result))
-    for k, m in enumerate(result.m):
-        a = None if math.isnan(result.alpha[k]) else int(result.alpha[k])
-        n_row = row_points(stat.name, int(m), int(result.n_terms[k]), n_eff)
-        edf[k] = _row_edf(stat.name, a, int(m), n_row, measurement.tau0)
-        factors[k] = bias_factor(stat.name, a, int(m), n_eff)
-    result.edf = edf
-    if np.any(factors != 1.0):
-        result.raw_deviation = result.deviation.copy()
-        result.deviation = result.deviation / np.sqrt(factors)
-        result.bias_corrected = True
-        result.notes.append(f"{stat.name}: bias-corrected for the identified noise type")
-    low, high = chi2_interval(result.deviation, result.edf, confidence)
-    result.ci_low = np.asarray(low, dtype=float)
-    result.ci_high = np.asarray(high, dtype=float)
-    result.confidence = confidence
-    return result
+        noise = identify(measurement, stat.noise_source or stat.name, result.m, known=known)
+    alpha = np.array(noise.alpha, dtype=float)  # a copy: the identification may be shared
+    labels = list(noise.noise)
+    notes = list(result.notes)
+    ratchet = _never_whiter(stat.name, result.tau, alpha, labels)
+    if ratchet:
+        notes.append(ratchet)
+    edf, factor = _rows(stat, result, alpha, effective_points(measurement))
+    deviation = result.raw_deviation * factor
+    if np.any(factor != 1.0):
+        notes.append(f"{stat.name}: bias-corrected for the identified noise type")
+    low, high = chi2_interval(deviation, edf, confidence)
+    return dataclasses.replace(
+        result,
+        deviation=deviation,
+        edf=edf,
+        alpha=alpha,
+        noise=tuple(labels),
+        noise_method=tuple(noise.method),
+        ci_low=np.asarray(low, dtype=float),
+        ci_high=np.asarray(high, dtype=float),
+        bias_factor=factor,
+        confidence=confidence,
+        notes=tuple(notes),
+    )
 
 
-def _model_curve(
-    table: StabilityTable, measurement: Measurement, f_h: float
-) -> PowerLawModel | None:
-    """Fit the power-law model to the table's OADEV, or to an OADEV made for the purpose."""
-    source = table.results.get("oadev")
-    if source is None:
-        from .analysis import estimate
-
-        stat = get_statistic("oadev")
-        if stat.allowed_m(measurement.n) < 1:
-            return None
-        try:
-            source = estimate(measurement, stat, "octave")
-            qualify_result(source, measurement, table.confidence)
-        except StabilityError:
-            return None
-    return fit_power_law(source.tau, source.deviation, source.edf, f_h=f_h)
+def _known_estimates(results: dict[str, StatisticResult]) -> dict[tuple[str, int], tuple]:
+    """OADEV and MDEV already in the table, for B1 and R(n) to reuse."""
+    known: dict[tuple[str, int], tuple[float, int]] = {}
+    for name in ("oadev", "mdev"):
+        r = results.get(name)
+        if r is not None:
+            for m, dev, terms in zip(r.m, r.raw_deviation, r.n_terms, strict=True):
+                known[(name, int(m))] = (float(dev), int(terms))
+    return known
 
 
 def qualify(
     table: StabilityTable,
     *,
+    model_source: StatisticResult | None = None,
     f_h: float | None = None,
     offset_source: Measurement | None = None,
 ) -> StabilityTable:
-    """Qualify every statistic of ``table`` and add the model, offset and drift (in place).
+    """A new table with every statistic qualified, plus the model, offset and drift.
 
-    ``offset_source`` is the measurement whose frequency offset and drift are
-    reported (default: the analysed one, i.e. after any drift removal).
+    ``model_source`` is an OADEV estimate made for the power-law model fit when
+    the table holds none (the caller computes it; qualification does not call
+    the estimators' orchestration). ``offset_source`` is the measurement whose
+    frequency offset and drift are reported (default: the analysed one).
     """
     measurement = table.measurement
+    known = _known_estimates(table.results)
+    results: dict[str, StatisticResult] = {}
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        for result in table:
-            for m, dev, terms in zip(result.m, result.deviation, result.n_terms, strict=True):
-                remember(measurement, result.statistic, int(m), float(dev), int(terms))
         identified: dict[tuple[str, tuple[int, ...]], NoiseResult] = {}
-        for result in table:
-            key = (noise_source(result.statistic), tuple(int(m) for m in result.m))
-            if get_statistic(result.statistic).family != "time_error" and key not in identified:
-                identified[key] = identify(measurement, key[0], result.m)
-            qualify_result(result, measurement, table.confidence, noise=identified.get(key))
+        for name, result in table.results.items():
+            stat = get_statistic(name)
+            key = (stat.noise_source or stat.name, tuple(int(m) for m in result.m))
+            if stat.has_interval and key not in identified:
+                identified[key] = identify(measurement, key[0], result.m, known=known)
+            results[name] = qualify_result(
+                result, measurement, table.confidence, noise=identified.get(key)
+            )
         f_h = 1.0 / (2.0 * measurement.tau0) if f_h is None else float(f_h)
-        model = _model_curve(table, measurement, f_h)
+        source = results.get("oadev")
+        if source is None and model_source is not None:
+            source = qualify_result(model_source, measurement, table.confidence, known=known)
+        model = (
+            None
+            if source is None
+            else fit_power_law(source.tau, source.deviation, source.edf, f_h=f_h)
+        )
     if model is None:
         warnings.warn(
             "too few Allan deviation points to fit a power-law noise model",
             StabilityWarning,
             stacklevel=2,
         )
-    table.extras["power_law_model"] = model
-    source = measurement if offset_source is None else offset_source
-    table.extras["offset_drift"] = offset_and_drift_of(source, model)
-    table.extras["bias_corrected"] = [r.statistic for r in table if r.bias_corrected]
-    table.settings.setdefault("f_h_hz", f_h)
-    return table
+    extras = {
+        **table.extras,
+        "power_law_model": model,
+        "offset_drift": offset_and_drift_of(
+            measurement if offset_source is None else offset_source, model
+        ),
+        "bias_corrected": [r.statistic for r in results.values() if r.bias_corrected],
+    }
+    settings = {"f_h_hz": f_h, **table.settings}
+    return dataclasses.replace(table, results=results, extras=extras, settings=settings)
 
 
 def model_curve(model: PowerLawModel | None, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -1,17 +1,23 @@
 """Result types: one :class:`StatisticResult` per statistic, gathered in a :class:`StabilityTable`.
 
 The table has one row per (statistic, tau) with the columns, in order, of
-:data:`COLUMNS`. The confidence interval of every row can be asked again at
-another level without recomputing the estimates (:meth:`StatisticResult.interval`).
+:data:`COLUMNS`. Results are complete when built and are not changed afterwards:
+a later layer that adds something (the qualification adds noise types, EDF,
+bias corrections and intervals) returns a new object. The confidence interval of
+every row can be asked again at another level without recomputing the estimates
+(:meth:`StatisticResult.interval`).
 """
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
-from typing import Any, NamedTuple
+from typing import Any
 
 import numpy as np
 import pandas as pd
+
+from .intervals import ConfidenceInterval, chi2_interval
 
 __all__ = ["COLUMNS", "NOISE_LABELS", "ConfidenceInterval", "StatisticResult", "StabilityTable"]
 
@@ -28,30 +34,42 @@ COLUMNS = (
     "alpha",
     "noise",
     "noise_method",
+    "raw_deviation",
+    "bias_factor",
 )
 
 #: Power-law exponent alpha of S_y(f) -> the usual label (IEEE 1139; NIST SP 1065).
 NOISE_LABELS = {2: "WPM", 1: "FPM", 0: "WFM", -1: "FFM", -2: "RWFM"}
 
 
-class ConfidenceInterval(NamedTuple):
-    """Lower and upper bounds of a confidence interval (arrays or floats)."""
-
-    low: Any
-    high: Any
-
-
-def _nan(n: int) -> np.ndarray:
-    return np.full(n, np.nan)
+def _floats(values: Any, n: int, fill: float) -> np.ndarray:
+    if values is None:
+        return np.full(n, fill)
+    out = np.asarray(values, dtype=float)
+    if out.shape != (n,):
+        raise ValueError(f"expected {n} values, got shape {out.shape}")
+    return out
 
 
-@dataclass
+def _texts(values: Iterable[str] | None, n: int) -> tuple[str, ...]:
+    out = ("",) * n if values is None else tuple(str(v) for v in values)
+    if len(out) != n:
+        raise ValueError(f"expected {n} labels, got {len(out)}")
+    return out
+
+
+@dataclass(frozen=True)
 class StatisticResult:
     """The estimates of one statistic over its taus, with their qualification.
 
     Arrays all have one entry per tau. ``alpha`` is a float array with NaN
     where no noise type was identified; ``noise`` and ``noise_method`` hold
-    empty strings there.
+    empty strings there. ``raw_deviation`` is the estimator's output and
+    ``bias_factor`` the factor applied to it, ``deviation = raw_deviation *
+    bias_factor`` (1 where no correction applies; for a variance bias B of the
+    literature, biased = B x unbiased, the factor is 1/sqrt(B)). An
+    unqualified result (from :func:`stability.estimate`) has NaN EDF and
+    bounds. Build one with :meth:`build`, which fills the optional columns.
     """
 
     statistic: str
@@ -59,33 +77,66 @@ class StatisticResult:
     m: np.ndarray
     n_terms: np.ndarray
     deviation: np.ndarray
-    edf: np.ndarray = None  # type: ignore[assignment]
-    alpha: np.ndarray = None  # type: ignore[assignment]
-    noise: list[str] = None  # type: ignore[assignment]
-    noise_method: list[str] = None  # type: ignore[assignment]
-    ci_low: np.ndarray = None  # type: ignore[assignment]
-    ci_high: np.ndarray = None  # type: ignore[assignment]
+    edf: np.ndarray
+    alpha: np.ndarray
+    noise: tuple[str, ...]
+    noise_method: tuple[str, ...]
+    ci_low: np.ndarray
+    ci_high: np.ndarray
+    raw_deviation: np.ndarray
+    bias_factor: np.ndarray
     confidence: float = 0.683
-    bias_corrected: bool = False
-    raw_deviation: np.ndarray | None = None
-    notes: list[str] = field(default_factory=list)
+    notes: tuple[str, ...] = ()
 
-    def __post_init__(self) -> None:
-        n = len(self.tau)
-        self.tau = np.asarray(self.tau, dtype=float)
-        self.m = np.asarray(self.m, dtype=np.int64)
-        self.n_terms = np.asarray(self.n_terms, dtype=np.int64)
-        self.deviation = np.asarray(self.deviation, dtype=float)
-        for name in ("edf", "alpha", "ci_low", "ci_high"):
-            value = getattr(self, name)
-            setattr(self, name, _nan(n) if value is None else np.asarray(value, dtype=float))
-        if self.noise is None:
-            self.noise = [""] * n
-        if self.noise_method is None:
-            self.noise_method = [""] * n
+    @classmethod
+    def build(
+        cls,
+        statistic: str,
+        tau: Any,
+        m: Any,
+        n_terms: Any,
+        deviation: Any,
+        *,
+        edf: Any = None,
+        alpha: Any = None,
+        noise: Sequence[str] | None = None,
+        noise_method: Sequence[str] | None = None,
+        ci_low: Any = None,
+        ci_high: Any = None,
+        raw_deviation: Any = None,
+        bias_factor: Any = None,
+        confidence: float = 0.683,
+        notes: Iterable[str] = (),
+    ) -> StatisticResult:
+        """A result with every column filled: NaN, empty labels, the deviation as raw, B = 1."""
+        tau = np.asarray(tau, dtype=float)
+        n = tau.size
+        dev = _floats(deviation, n, np.nan)
+        return cls(
+            statistic=str(statistic),
+            tau=tau,
+            m=np.asarray(m, dtype=np.int64),
+            n_terms=np.asarray(n_terms, dtype=np.int64),
+            deviation=dev,
+            edf=_floats(edf, n, np.nan),
+            alpha=_floats(alpha, n, np.nan),
+            noise=_texts(noise, n),
+            noise_method=_texts(noise_method, n),
+            ci_low=_floats(ci_low, n, np.nan),
+            ci_high=_floats(ci_high, n, np.nan),
+            raw_deviation=dev.copy() if raw_deviation is None else _floats(raw_deviation, n, 0),
+            bias_factor=_floats(bias_factor, n, 1.0),
+            confidence=float(confidence),
+            notes=tuple(notes),
+        )
 
     def __len__(self) -> int:
         return len(self.tau)
+
+    @property
+    def bias_corrected(self) -> bool:
+        """Whether any row carries a bias correction (a factor other than 1)."""
+        return bool(np.any(self.bias_factor != 1.0))
 
     def interval(self, confidence: float | None = None) -> ConfidenceInterval:
         """Chi-squared interval of the deviation at ``confidence`` from the stored EDF.
@@ -95,8 +146,6 @@ class StatisticResult:
         """
         if confidence is None or confidence == self.confidence:
             return ConfidenceInterval(self.ci_low.copy(), self.ci_high.copy())
-        from .confidence import chi2_interval
-
         return chi2_interval(self.deviation, self.edf, confidence)
 
     def to_frame(self) -> pd.DataFrame:
@@ -115,12 +164,14 @@ class StatisticResult:
                 "alpha": alpha,
                 "noise": list(self.noise),
                 "noise_method": list(self.noise_method),
+                "raw_deviation": self.raw_deviation,
+                "bias_factor": self.bias_factor,
             },
             columns=list(COLUMNS),
         )
 
 
-@dataclass
+@dataclass(frozen=True)
 class StabilityTable:
     """All statistics of one analysis, with what produced them.
 
@@ -135,8 +186,10 @@ class StabilityTable:
     measurement
         The measurement that was analysed.
     extras
-        Further results of the qualification layer (offset and drift, the
-        power-law model), keyed by name.
+        Further results of the qualification layer, keyed by name:
+        ``power_law_model`` (the fitted model or None), ``offset_drift`` (the
+        frequency offset and drift with uncertainties) and ``bias_corrected``
+        (the statistics that carry a bias correction).
     """
 
     results: dict[str, StatisticResult]

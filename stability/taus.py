@@ -16,6 +16,7 @@ from collections.abc import Iterable, Sequence
 import numpy as np
 
 from .errors import InputError
+from .units import parse_duration
 
 __all__ = ["GRIDS", "tau_grid", "parse_taus"]
 
@@ -32,8 +33,6 @@ def parse_taus(spec: str | Sequence[float]) -> str | list[float]:
     text = spec.strip().lower()
     if text in GRIDS:
         return text
-    from .units import parse_duration
-
     out = []
     for part in text.split(","):
         part = part.strip()

@@ -93,7 +93,7 @@ def test_table_columns_and_rows(ten_points):
     # DESIGN "The results table": these columns, in this order.
     assert tuple(frame.columns) == COLUMNS == (
         "statistic", "tau_s", "m", "n_terms", "deviation", "ci_low", "ci_high",
-        "edf", "alpha", "noise", "noise_method",
+        "edf", "alpha", "noise", "noise_method", "raw_deviation", "bias_factor",
     )  # fmt: skip
     assert len(frame) == len(table) == 3 + 2  # oadev m = 1, 2, 4; mdev m = 1, 2
     assert list(frame["statistic"]) == ["oadev"] * 3 + ["mdev"] * 2

@@ -11,19 +11,13 @@ import pytest
 from scipy.stats import binomtest, chi2
 
 from stability import confidence as conf
-from stability.confidence import (
-    BIAS_CORRECTED,
-    EDF_STATISTICS,
-    barnes_b2,
-    bias_factor,
-    chi2_interval,
-    edf_for,
-    edf_many,
-    greenhall_edf,
-    simple_oadev_edf,
-)
+from stability.confidence import barnes_b2, greenhall_edf, simple_oadev_edf
+from stability.deviations import STATISTICS, bias_factor, edf_for, edf_many, statistic_names
 from stability.errors import InputError
-from stability.table import ConfidenceInterval
+from stability.intervals import ConfidenceInterval, chi2_interval
+
+EDF_STATISTICS = tuple(statistic_names())
+BIAS_CORRECTED = frozenset(name for name, stat in STATISTICS.items() if stat.bias is not None)
 
 ALPHAS = (2, 1, 0, -1, -2)
 
@@ -40,7 +34,7 @@ def test_every_validation_message():
         (lambda: greenhall_edf(1, 2, 4, 100, F=math.inf), r"F = infinity needs alpha <= 0"),
         (lambda: greenhall_edf(0, 2, 4, 100, S=5), r"S must lie in \[1, 4\], got 5"),
         (lambda: greenhall_edf(0, 2, 4, 8), r"n = 8 phase samples is shorter than .*L = 9"),
-        (lambda: edf_for("allan", 0, 1, 10), r"statistic must be one of .*got 'allan'"),
+        (lambda: edf_for("allan", 0, 1, 10), r"unknown statistic 'allan'"),
         (lambda: edf_for(3, 0, 1, 10), r"statistic must be one of .*got 3"),
         (lambda: edf_for("oadev", 3, 1, 10), r"alpha must lie in \[-2, 2\], got 3"),
         (lambda: edf_for("oadev", "wfm", 1, 10), r"alpha must be an integer, got 'wfm'"),
@@ -52,7 +46,7 @@ def test_every_validation_message():
         (lambda: chi2_interval(1.0, 5, "0.9"), r"confidence must be a number .*got '0.9'"),
         (lambda: chi2_interval(1.0, 5, True), r"confidence must be a number .*got True"),
         (lambda: chi2_interval("a", 5, 0.9), r"deviation and edf must be numbers"),
-        (lambda: bias_factor("mtot2", 0, 1, 10), r"statistic must be one of .*'mtot2'"),
+        (lambda: bias_factor("mtot2", 0, 1, 10), r"unknown statistic 'mtot2'"),
         (lambda: barnes_b2(0.0, 1.0), r"r \(T/tau\) must be finite and > 0, got 0.0"),
         (lambda: barnes_b2(1.0, 2.0), r"mu must be a number in \[-2, 2\), got 2.0"),
         (lambda: simple_oadev_edf(0, 5, 10), r"m must lie in \[1, 4\], got 5"),
@@ -263,12 +257,21 @@ def test_theo1_formulas():
     ffm = (2 * n * n - 1.3 * n * r - 3.5 * r) / (n * r) * r**3 / (r**3 + 2.3)
     u = 4.4 * n - 1
     rwfm = (4.4 * n - 2) / (2.9 * r) * (u * u - 8.6 * r * u + 11.4 * r * r) / (4.4 * n - 3) ** 2
-    for stat in ("theo1", "theobr", "theoh"):
+    for stat in ("theo1", "theobr"):
         assert edf_for(stat, 2, m, n) == pytest.approx(wpm)
         assert edf_for(stat, 0, m, n) == pytest.approx(wfm)
         assert edf_for(stat, -1, m, n) == pytest.approx(ffm)
         assert edf_for(stat, -2, m, n) == pytest.approx(rwfm)
         assert edf_for(stat, 1, m, n) == pytest.approx(min(wpm, wfm))
+
+
+def test_theoh_takes_the_model_of_the_estimator_used_at_each_tau():
+    # ThêoH is OADEV at 0.75 m up to 10 % of the record, TheoBR beyond (SP 1065 eq. 32),
+    # so its rows take the EDF model of whichever estimator made them.
+    n = 1000
+    for a in ALPHAS:
+        assert edf_for("theoh", a, 40, n) == edf_for("oadev", a, 30, n)  # tau 30 <= 99.9
+        assert edf_for("theoh", a, 400, n) == edf_for("theo1", a, 400, n)  # tau 300 > 99.9
 
 
 def test_unknown_alpha_takes_the_smallest_edf():

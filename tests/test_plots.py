@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
 from datetime import UTC, datetime
 
 import numpy as np
@@ -34,14 +35,14 @@ def qualified(table):
     The values only exercise the drawing: a +-20 % interval on all rows but
     the last, and a noise label that changes from WFM to FFM.
     """
-    for r in table:
+    results = {}
+    for name, r in table.results.items():
         n = len(r)
-        r.ci_low = r.deviation * 0.8
-        r.ci_high = r.deviation * 1.25
-        r.ci_low[-1] = np.nan
-        r.ci_high[-1] = np.nan
-        r.noise = ["WFM"] * (n - 3) + ["FFM"] * 2 + [""]
-    return table
+        low, high = r.deviation * 0.8, r.deviation * 1.25
+        low[-1] = high[-1] = np.nan
+        noise = ["WFM"] * (n - 3) + ["FFM"] * 2 + [""]
+        results[name] = replace(r, ci_low=low, ci_high=high, noise=tuple(noise))
+    return replace(table, results=results)
 
 
 def _is_nontrivial_png(path, min_bytes=20_000):

@@ -23,8 +23,8 @@ from stability.files import sha256_file
 from stability.reports import record as record_mod
 from stability.reports.record import CAUTION, build_record, write_record
 from stability.reports.tables import format_tau
+from stability.run import run_analysis
 from stability.spec import judge, load_info, load_spec
-from stability.workflow import run_analysis
 
 SPEC = """statistic = "oadev"
 confidence = 0.95

@@ -6,6 +6,7 @@ import hashlib
 import json
 import math
 import os
+from dataclasses import replace
 from datetime import UTC, datetime, timedelta, timezone
 from pathlib import Path
 
@@ -36,7 +37,7 @@ from stability.reports import (
     terminal_table,
 )
 from stability.reports.tables import format_tau, format_value
-from stability.table import COLUMNS
+from stability.table import COLUMNS, StatisticResult
 
 
 # ---------------------------------------------------------------------- fixtures
@@ -47,16 +48,11 @@ def _white_fm(n: int = 4096, seed: int = 20240601) -> np.ndarray:
 
 def _strip_qualification(table):
     """Empty the qualification columns, whatever analyze filled in (a raw-estimate table)."""
-    for r in table:
-        n = len(r)
-        r.ci_low = np.full(n, np.nan)
-        r.ci_high = np.full(n, np.nan)
-        r.edf = np.full(n, np.nan)
-        r.alpha = np.full(n, np.nan)
-        r.noise = [""] * n
-        r.noise_method = [""] * n
-    table.extras.clear()
-    return table
+    results = {
+        name: StatisticResult.build(r.statistic, r.tau, r.m, r.n_terms, r.raw_deviation)
+        for name, r in table.results.items()
+    }
+    return replace(table, results=results, extras={})
 
 
 @pytest.fixture
@@ -72,20 +68,23 @@ def qualified(table):
     The numbers are not computed by the qualification layer: they only exercise
     the writers (some rows left empty on purpose).
     """
-    for r in table:
+    results = {}
+    for name, r in table.results.items():
         n = len(r)
-        r.ci_low = r.deviation * 0.9
-        r.ci_high = r.deviation * 1.12
-        r.edf = np.linspace(4000.0, 3.5, n)
+        low, high = r.deviation * 0.9, r.deviation * 1.12
+        edf = np.linspace(4000.0, 3.5, n)
         alpha = np.zeros(n)
-        alpha[-1] = np.nan
-        r.alpha = alpha
-        r.noise = ["WFM"] * (n - 1) + [""]
-        r.noise_method = ["lag1 acf"] * (n - 1) + [""]
-        r.ci_low[-1] = np.nan
-        r.ci_high[-1] = np.nan
-        r.edf[-1] = np.nan
-    return table
+        alpha[-1] = low[-1] = high[-1] = edf[-1] = np.nan
+        results[name] = replace(
+            r,
+            ci_low=low,
+            ci_high=high,
+            edf=edf,
+            alpha=alpha,
+            noise=("WFM",) * (n - 1) + ("",),
+            noise_method=("lag1 acf",) * (n - 1) + ("",),
+        )
+    return replace(table, results=results)
 
 
 @pytest.fixture
@@ -286,7 +285,7 @@ def test_csv_columns_and_round_trip(tmp_path, qualified):
     assert lines[0] == ",".join(COLUMNS)
     assert lines[0].split(",") == [
         "statistic", "tau_s", "m", "n_terms", "deviation", "ci_low", "ci_high",
-        "edf", "alpha", "noise", "noise_method",
+        "edf", "alpha", "noise", "noise_method", "raw_deviation", "bias_factor",
     ]  # fmt: skip
     assert len(lines) == 1 + len(qualified)
     path = tmp_path / "table.csv"
@@ -294,7 +293,7 @@ def test_csv_columns_and_round_trip(tmp_path, qualified):
     back = read_table_csv(path)
     expected = qualified.to_frame()
     assert list(back.columns) == list(COLUMNS)
-    for name in ("tau_s", "deviation", "ci_low", "ci_high", "edf"):
+    for name in ("tau_s", "deviation", "ci_low", "ci_high", "edf", "raw_deviation", "bias_factor"):
         # exact: the shortest repr reads back to the same binary64 (IEEE 754 5.12.2)
         np.testing.assert_array_equal(back[name].to_numpy(), expected[name].to_numpy())
     for name in ("m", "n_terms"):
@@ -314,7 +313,8 @@ def test_csv_empty_cells_for_missing(table):
     text = table_csv(table)  # no qualification: intervals, edf, alpha, noise empty
     for line in text.splitlines()[1:]:
         cells = line.split(",")
-        assert cells[5:] == ["", "", "", "", "", ""]
+        assert cells[5:11] == ["", "", "", "", "", ""]
+        assert float(cells[11]) == float(cells[4]) and float(cells[12]) == 1.0  # raw, no bias
         assert "nan" not in line.lower()
 
 

@@ -16,8 +16,8 @@ import numpy as np
 import pytest
 
 import stability
-from stability.confidence import chi2_interval
 from stability.errors import SpecError
+from stability.intervals import chi2_interval
 from stability.spec import (
     Reference,
     Spec,
@@ -155,12 +155,12 @@ def test_example_files_read():
 # ---------------------------------------------------------------------- verdict logic
 def _table(tau, dev, low, high, edf, confidence=0.95, stat="oadev"):
     tau = np.asarray(tau, dtype=float)
-    result = StatisticResult(
-        statistic=stat,
-        tau=tau,
-        m=tau.astype(int),
-        n_terms=np.full(tau.size, 100),
-        deviation=dev,
+    result = StatisticResult.build(
+        stat,
+        tau,
+        tau.astype(int),
+        np.full(tau.size, 100),
+        dev,
         edf=edf,
         ci_low=low,
         ci_high=high,

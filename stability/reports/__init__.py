@@ -9,7 +9,7 @@ References
    section 10 (reporting stability analyses).
 """
 
-from .summary import SUMMARY_FIELDS, build_summary, summary_json
+from ..summary import SUMMARY_FIELDS, build_summary, summary_json
 from .tables import read_table_csv, table_csv, table_markdown, terminal_table
 
 __all__ = [

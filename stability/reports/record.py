@@ -50,6 +50,8 @@ from matplotlib.figure import Figure
 from .._version import __version__
 from ..errors import InputError
 from ..files import atomic_output, ensure_folder, jsonable, refuse_overwrite, settings_hash
+from ..plots import series_figure, stability_figure
+from ..run import AnalysisRun
 from ..spec import Info, Judgement, reference_contribution
 from .tables import format_tau, format_value, statistic_unit
 
@@ -82,12 +84,10 @@ _MONO = "DejaVu Sans Mono"
 
 # ---------------------------------------------------------------------- content
 def _validate_record_args(run: Any, judgement: Any, info: Any) -> None:
-    from ..workflow import AnalysisRun
-
     if not isinstance(run, AnalysisRun):
         raise InputError(
-            f"run must be a stability.workflow.AnalysisRun, got {type(run).__name__}",
-            hint="build one with stability.workflow.run_analysis",
+            f"run must be a stability.AnalysisRun, got {type(run).__name__}",
+            hint="build one with stability.run_analysis",
         )
     if not isinstance(judgement, Judgement):
         raise InputError(
@@ -448,7 +448,6 @@ def _table_pages(record: dict[str, Any]) -> list[Figure]:
 
 def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list[Figure]:
     """The pages of record.pdf as A4 figures, footers included."""
-    from ..plots import series_figure, stability_figure
 
     pages = [_identification_page(record)]
     plot = stability_figure(

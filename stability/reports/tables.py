@@ -37,6 +37,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from ..deviations.registry import get_statistic
 from ..errors import InputError
 from ..table import COLUMNS, StabilityTable
 
@@ -50,7 +51,7 @@ __all__ = [
     "statistic_unit",
 ]
 
-_FLOAT_COLUMNS = ("tau_s", "deviation", "ci_low", "ci_high", "edf")
+_FLOAT_COLUMNS = ("tau_s", "deviation", "ci_low", "ci_high", "edf", "raw_deviation", "bias_factor")
 _INT_COLUMNS = ("m", "n_terms")
 _TEXT_COLUMNS = ("statistic", "noise", "noise_method")
 _PREFIXES = ((1.0, ""), (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"), (1e-12, "p"), (1e-15, "f"))
@@ -67,8 +68,6 @@ def _validate_table(table: Any) -> StabilityTable:
 
 def statistic_unit(name: str) -> str:
     """``"s"`` for statistics in seconds (TDEV, MTIE, ...), ``""`` for fractional frequency."""
-    from ..deviations import get_statistic
-
     try:
         return get_statistic(name).unit
     except InputError:

@@ -17,7 +17,7 @@ import pytest
 from typer.testing import CliRunner
 
 from cli.main import app
-from stability.reports.summary import SUMMARY_FIELDS
+from stability.summary import SUMMARY_FIELDS
 from stability.table import COLUMNS
 
 runner = CliRunner()

@@ -64,10 +64,11 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from .._version import __version__
-from ..errors import InputError
-from ..files import jsonable, settings_hash
-from ..table import COLUMNS, StabilityTable
+from ._version import __version__
+from .deviations.registry import get_statistic
+from .errors import InputError
+from .files import jsonable, settings_hash
+from .table import COLUMNS, StabilityTable
 
 __all__ = ["build_summary", "summary_json", "SUMMARY_FIELDS", "input_section", "table_rows"]
 
@@ -167,8 +168,6 @@ def table_rows(table: StabilityTable) -> list[dict[str, Any]]:
 
 
 def _statistics_section(table: StabilityTable) -> dict[str, Any]:
-    from ..deviations import get_statistic
-
     section = {}
     for result in table:
         try:

@@ -1,0 +1,221 @@
+"""One analysis as a value: read, prepare, analyse and qualify, kept with its settings.
+
+``run_analysis`` is what ``stability analyze`` computes, as a library function::
+
+    run = stability.run_analysis("counter.csv", nominal="10MHz", stats="oadev,mdev")
+    run.table.to_frame()          # the qualified results table
+    run.summary()                 # everything summary.json holds
+
+The :class:`AnalysisRun` sits below the presentation layers (figures, tables,
+the record), which take it as input; writing its files is
+:mod:`stability.workflow`'s job.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from datetime import UTC, datetime
+from typing import Any
+
+import numpy as np
+
+from .analysis import analyze
+from .errors import InputError
+from .ingest import read_log
+from .measurement import Measurement
+from .prepare import PreparationReport, prepare, require_variation
+from .qualify import model_curve
+from .settings import RunSettings
+from .summary import build_summary
+from .table import StabilityTable
+from .taus import parse_taus
+
+__all__ = [
+    "AnalysisRun",
+    "read_and_prepare",
+    "run_analysis",
+    "analyse_prepared",
+    "resolve_settings",
+]
+
+#: Called with (bytes read, bytes in all) while a log is read.
+ReadProgress = Callable[[int, int], None]
+#: Called with a short label after each statistic and after the qualification.
+StepProgress = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class AnalysisRun:
+    """One analysis, from the data as read to the qualified table.
+
+    Attributes
+    ----------
+    source
+        The measurement as read (before preparation).
+    measurement
+        The prepared measurement the statistics were computed from.
+    preparation
+        What preparation did.
+    table
+        The qualified results table.
+    settings
+        Every setting of the run (reading, preparation and analysis), flat.
+    analysis_time
+        When the analysis ran (UTC).
+    """
+
+    source: Measurement
+    measurement: Measurement
+    preparation: PreparationReport
+    table: StabilityTable
+    settings: dict[str, Any]
+    analysis_time: datetime = field(default_factory=lambda: datetime.now(UTC))
+
+    @property
+    def sha256(self) -> str | None:
+        return self.source.provenance.sha256
+
+    def summary(self) -> dict[str, Any]:
+        """The summary (the content of summary.json)."""
+        return build_summary(
+            self.table,
+            preparation=self.preparation.to_dict(),
+            input_report=self.source.provenance.details or None,
+            analysis_time=self.analysis_time,
+        )
+
+    def model_curves(self) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+        """The fitted power-law model as (tau, sigma) for the Allan-type statistics."""
+        model = self.table.extras.get("power_law_model")
+        out = {}
+        for name in ("oadev", "adev"):
+            if name in self.table.results:
+                out[name] = model_curve(model, self.table[name].tau)
+        return {k: v for k, v in out.items() if v[0].size}
+
+    def series_inputs(self) -> tuple[Measurement, np.ndarray | None, np.ndarray]:
+        """Measurement, drift curve and outlier indices to draw the data over time."""
+        prep = self.preparation
+        if prep.average_factor == 1:
+            shown = self.source
+            outliers = np.array([o.index for o in prep.outliers.samples], dtype=np.int64)
+        else:
+            shown = self.measurement
+            outliers = np.empty(0, dtype=np.int64)
+        fit = prep.removed_drift if prep.removed_drift is not None else prep.linear_drift
+        drift = None
+        if fit is not None and fit.y_model.shape == (shown.n - 1,):
+            drift = fit.y_model + (shown.frequency_offset if fit.model == "none" else 0.0)
+        return shown, drift, outliers
+
+
+def resolve_settings(settings: RunSettings | None, options: dict[str, Any]) -> RunSettings:
+    """The run's settings: ``settings`` with any keyword settings applied on top."""
+    if settings is not None and not isinstance(settings, RunSettings):
+        raise InputError(
+            f"settings must be a stability.RunSettings, got {type(settings).__name__}",
+            hint="build one with RunSettings.from_options(...) or pass keyword settings",
+        )
+    if settings is None:
+        return RunSettings.from_options(**options)
+    return settings.replace(**options) if options else settings
+
+
+def read_and_prepare(
+    log: str | os.PathLike[str] | Measurement,
+    settings: RunSettings | None = None,
+    *,
+    on_progress: ReadProgress | None = None,
+    **options: Any,
+) -> tuple[Measurement, Measurement, PreparationReport]:
+    """Read (unless given a Measurement) and prepare: (as read, prepared, report).
+
+    ``settings`` (or the keyword names of :meth:`RunSettings.from_options`) say
+    how to read and prepare. A log without any variation (a stuck counter) is
+    refused here, for every command.
+    """
+    settings = resolve_settings(settings, options)
+    if isinstance(log, Measurement):
+        source = log
+    else:
+        extra = {} if on_progress is None else {"on_progress": on_progress}
+        source = read_log(log, **settings.read.as_kwargs(), **extra)
+    require_variation(source)
+    prepared, report = prepare(source, **settings.prepare.as_kwargs())
+    return source, prepared, report
+
+
+def analyse_prepared(
+    source: Measurement,
+    prepared: Measurement,
+    report: PreparationReport,
+    settings: RunSettings,
+    *,
+    moment: datetime | None = None,
+    on_step: StepProgress | None = None,
+) -> AnalysisRun:
+    """The analysis part of :func:`run_analysis`, on data already read and prepared."""
+    spec = settings.analysis
+    taus = parse_taus(spec.taus) if isinstance(spec.taus, str) else spec.taus
+    # Offset and drift are reported for the data before any drift removal.
+    before = source if report.average_factor == 1 else None
+    table = analyze(
+        prepared,
+        stats=spec.stats,
+        taus=taus,
+        confidence=spec.confidence,
+        f_h=spec.f_h,
+        offset_source=before,
+        on_step=on_step,
+    )
+    flat = {
+        **settings.read.describe(),
+        "outliers": settings.prepare.outliers,
+        "drift": settings.prepare.drift,
+        "average": settings.prepare.average,
+        **table.settings,
+    }
+    table = StabilityTable(
+        results=table.results,
+        confidence=table.confidence,
+        settings=flat,
+        measurement=table.measurement,
+        extras=table.extras,
+    )
+    return AnalysisRun(
+        source=source,
+        measurement=prepared,
+        preparation=report,
+        table=table,
+        settings=flat,
+        analysis_time=moment or datetime.now(UTC),
+    )
+
+
+def run_analysis(
+    log: str | os.PathLike[str] | Measurement,
+    settings: RunSettings | None = None,
+    *,
+    on_progress: ReadProgress | None = None,
+    on_step: StepProgress | None = None,
+    **options: Any,
+) -> AnalysisRun:
+    """Read (unless given a Measurement), prepare, analyse and qualify.
+
+    Parameters
+    ----------
+    log
+        A log file or a :class:`Measurement`.
+    settings
+        A :class:`RunSettings`; or give the settings by keyword instead: the
+        reading hints of :func:`stability.read_log` (kind, column, time_column,
+        tau0, nominal, wrap, strict), the preparation (outliers, drift,
+        average) and the analysis (stats, taus, confidence, f_h).
+    on_progress, on_step
+        Progress callbacks for reading (bytes) and for the statistics.
+    """
+    settings = resolve_settings(settings, options)
+    source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+    return analyse_prepared(source, prepared, report, settings, on_step=on_step)
