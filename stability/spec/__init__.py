@@ -13,7 +13,7 @@ The package has three parts:
 
 :mod:`stability.spec.model`
     the data types (:class:`Spec`, :class:`Reference`, :class:`Info`,
-    :class:`Check`, :class:`Judgement`) and the verdict words;
+    :class:`Check`, :class:`Judgement`) and the verdicts (:class:`Verdict`);
 :mod:`stability.spec.reading`
     reading and checking the specification and information files;
 :mod:`stability.spec.judging`
@@ -23,10 +23,11 @@ The package has three parts:
 from __future__ import annotations
 
 from .judging import judge, overall_verdict, reference_contribution, verdict_for
-from .model import REFERENCE_RATIO, VERDICTS, Check, Info, Judgement, Reference, Spec
+from .model import REFERENCE_RATIO, VERDICTS, Check, Info, Judgement, Reference, Spec, Verdict
 from .reading import load_info, load_spec, parse_info, parse_spec
 
 __all__ = [
+    "Verdict",
     "VERDICTS",
     "REFERENCE_RATIO",
     "Spec",

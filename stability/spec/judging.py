@@ -58,18 +58,19 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from typing import Any
 
 import numpy as np
 
 from ..errors import InputError, SpecError
 from ..table import StabilityTable
-from .model import _REL_TOL, REFERENCE_RATIO, Check, Judgement, Reference, Spec
+from .model import _REL_TOL, REFERENCE_RATIO, Check, Judgement, Reference, Spec, Verdict
 
 __all__ = ["judge", "reference_contribution", "verdict_for", "overall_verdict"]
 
 
-def verdict_for(low: float, high: float, limit: float, deviation: float = math.nan) -> str:
+def verdict_for(low: float, high: float, limit: float, deviation: float = math.nan) -> Verdict:
     """The verdict of one estimate against one limit (see the module notes).
 
     ``pass`` when ``high <= limit``, ``fail`` when ``low > limit``,
@@ -78,25 +79,30 @@ def verdict_for(low: float, high: float, limit: float, deviation: float = math.n
     """
     if math.isfinite(low) and math.isfinite(high):
         if high <= limit:
-            return "pass"
+            return Verdict.PASS
         if low > limit:
-            return "fail"
-        return "inconclusive"
+            return Verdict.FAIL
+        return Verdict.INCONCLUSIVE
     if math.isfinite(deviation):
-        return "inconclusive"
-    return "not measured"
+        return Verdict.INCONCLUSIVE
+    return Verdict.NOT_MEASURED
 
 
-def overall_verdict(verdicts: list[str]) -> str:
-    """``fail`` if any fails; ``pass`` if all pass; ``not measured`` if none judged."""
-    judged = [v for v in verdicts if v != "not measured"]
-    if any(v == "fail" for v in verdicts):
-        return "fail"
+def overall_verdict(verdicts: Iterable[Verdict | str]) -> Verdict:
+    """``fail`` if any fails; ``pass`` if all pass; ``not measured`` if none judged.
+
+    The verdicts may be :class:`Verdict` members or their words; ``inconclusive``
+    otherwise.
+    """
+    verdicts = list(verdicts)
+    judged = [v for v in verdicts if v != Verdict.NOT_MEASURED]
+    if any(v == Verdict.FAIL for v in verdicts):
+        return Verdict.FAIL
     if not judged:
-        return "not measured"
-    if all(v == "pass" for v in verdicts):
-        return "pass"
-    return "inconclusive"
+        return Verdict.NOT_MEASURED
+    if all(v == Verdict.PASS for v in verdicts):
+        return Verdict.PASS
+    return Verdict.INCONCLUSIVE
 
 
 def _validate_judge_args(table: Any, spec: Any) -> None:
@@ -180,9 +186,9 @@ def judge(table: StabilityTable, spec: Spec, *, reference: Reference | None = No
         d, lo, hi = float(dev[i]), float(low_all[i]), float(high_all[i])
         verdict = verdict_for(lo, hi, limit, d)
         note = ""
-        if verdict == "inconclusive" and not (math.isfinite(lo) and math.isfinite(hi)):
+        if verdict is Verdict.INCONCLUSIVE and not (math.isfinite(lo) and math.isfinite(hi)):
             note = "no confidence interval at this tau (no EDF)"
-        if verdict == "not measured":
+        if verdict is Verdict.NOT_MEASURED:
             note = "no estimate at this tau"
         return Check(
             tau_s=float(tau),
@@ -211,7 +217,7 @@ def judge(table: StabilityTable, spec: Spec, *, reference: Reference | None = No
             ci_high=math.nan,
             edf=math.nan,
             interpolated=False,
-            verdict="not measured",
+            verdict=Verdict.NOT_MEASURED,
         )
         measured = taus[usable]
         if not spec.interpolate:

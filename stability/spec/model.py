@@ -8,7 +8,8 @@ lab and the procedure. :func:`stability.spec.judge` turns a results table and
 a specification into a :class:`Judgement`: one :class:`Check` per judged tau
 and an overall verdict.
 
-The verdict words, in the order they are reported (the rules that give them
+A verdict is a :class:`Verdict`, a ``str`` enumeration whose values are the
+words a user sees, in the order they are reported (the rules that give them
 are in :mod:`stability.spec.judging`):
 
 ``pass``
@@ -33,14 +34,17 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from enum import StrEnum
 from typing import Any
 
 import numpy as np
 
+from ..errors import InputError
 from ..files import jsonable
 from ..powerlaw import model_from_levels
 
 __all__ = [
+    "Verdict",
     "VERDICTS",
     "REFERENCE_RATIO",
     "Spec",
@@ -50,8 +54,60 @@ __all__ = [
     "Judgement",
 ]
 
-#: The verdict words, in the order they are reported.
-VERDICTS = ("pass", "fail", "inconclusive", "not measured")
+
+class Verdict(StrEnum):
+    """The verdict at one tau, or overall.
+
+    A ``str`` whose value is the word a user sees: members compare equal to
+    their words (``Verdict.PASS == "pass"``) and print as them, so tables,
+    JSON and messages show exactly those words, while code tests members
+    (``verdict is Verdict.FAIL``) instead of reading words.
+    """
+
+    PASS = "pass"
+    FAIL = "fail"
+    INCONCLUSIVE = "inconclusive"
+    NOT_MEASURED = "not measured"
+
+    @classmethod
+    def parse(cls, value: Any, *, where: str | None = None) -> Verdict:
+        """The verdict a caller means by ``value``.
+
+        Accepts a :class:`Verdict`, None (not measured), or a word in any case
+        with ``_`` or ``-`` for spaces, including a few plain synonyms
+        (``passed``, ``ok``, ``failed``, ``undecided``, ``marginal``,
+        ``untested``, ``not tested``, ``none``, ``n/a``).
+
+        Raises
+        ------
+        InputError
+            For any other value, naming it and ``where`` it was found.
+        """
+        if isinstance(value, cls):
+            return value
+        if value is None:
+            return cls.NOT_MEASURED
+        word = str(value).strip().lower().replace("_", " ").replace("-", " ")
+        if word in _VERDICT_WORDS:
+            return _VERDICT_WORDS[word]
+        place = f" in {where}" if where else ""
+        raise InputError(
+            f"unknown verdict {value!r}{place}",
+            hint="use pass, fail, inconclusive or None (not measured)",
+        )
+
+
+#: Words (lower case, spaces for ``_`` and ``-``) that :meth:`Verdict.parse` reads.
+_VERDICT_WORDS = {
+    **{w: Verdict.NOT_MEASURED for w in ("", "none", "untested", "not tested", "n/a")},
+    **{w: Verdict.PASS for w in ("passed", "ok")},
+    **{w: Verdict.FAIL for w in ("failed",)},
+    **{w: Verdict.INCONCLUSIVE for w in ("undecided", "marginal")},
+    **{v.value: v for v in Verdict},
+}
+
+#: The verdicts, in the order they are reported.
+VERDICTS = tuple(Verdict)
 
 #: A reference should be at least this many times more stable than the device (common practice).
 REFERENCE_RATIO = 3.0
@@ -61,6 +117,17 @@ _REL_TOL = 1e-9
 
 #: Names of the power-law coefficients h_alpha in an information file -> alpha.
 _LEVEL_NAMES = {"h2": 2, "h1": 1, "h0": 0, "h_1": -1, "h_2": -2}
+
+
+def _as_verdict(value: Any, name: str) -> Verdict:
+    """``value`` as a :class:`Verdict`: a member or its exact word; else an InputError."""
+    try:
+        return Verdict(value)
+    except ValueError:
+        raise InputError(
+            f"{name} must be one of {', '.join(repr(v.value) for v in Verdict)}, got {value!r}",
+            hint="use a stability.spec.Verdict",
+        ) from None
 
 
 @dataclass
@@ -225,7 +292,7 @@ class Check:
     interpolated
         The estimate and bounds were interpolated log-log between measured taus.
     verdict
-        One of :data:`VERDICTS`.
+        A :class:`Verdict` (its exact word is accepted when building one).
     reference, reference_limited, device_only
         The reference's stated stability at this tau, whether it exceeds one
         third of the measured value, and the device-only estimate
@@ -242,11 +309,14 @@ class Check:
     ci_high: float
     edf: float
     interpolated: bool
-    verdict: str
+    verdict: Verdict
     reference: float = math.nan
     reference_limited: bool = False
     device_only: float = math.nan
     note: str = ""
+
+    def __post_init__(self) -> None:
+        self.verdict = _as_verdict(self.verdict, "verdict")
 
     def to_dict(self) -> dict[str, Any]:
         return jsonable(
@@ -259,7 +329,7 @@ class Check:
                 "ci_high": self.ci_high,
                 "edf": self.edf,
                 "interpolated": self.interpolated,
-                "verdict": self.verdict,
+                "verdict": self.verdict.value,
                 "reference": self.reference,
                 "reference_limited": self.reference_limited,
                 "device_only": self.device_only,
@@ -274,8 +344,11 @@ class Judgement:
 
     spec: Spec
     checks: list[Check]
-    overall: str
+    overall: Verdict
     notes: list[str] = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        self.overall = _as_verdict(self.overall, "overall")
 
     @property
     def statistic(self) -> str:
@@ -293,7 +366,7 @@ class Judgement:
     def plot_limits(self) -> list[tuple[float, float, str | None]]:
         """``(tau_s, max, verdict)`` rows for :func:`stability.plots.stability_figure`."""
         return [
-            (c.tau_s, c.limit, None if c.verdict == "not measured" else c.verdict)
+            (c.tau_s, c.limit, None if c.verdict is Verdict.NOT_MEASURED else c.verdict)
             for c in self.listed
         ]
 
@@ -308,7 +381,7 @@ class Judgement:
         return {
             "statistic": self.statistic,
             "confidence": self.confidence,
-            "overall": self.overall,
+            "overall": self.overall.value,
             "checks": [c.to_dict() for c in self.checks],
             "notes": list(self.notes),
         }
