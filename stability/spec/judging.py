@@ -59,6 +59,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -146,6 +147,135 @@ def reference_contribution(deviation: Any, reference: Any) -> tuple[np.ndarray, 
     return limited, device
 
 
+@dataclass(frozen=True)
+class _Rows:
+    """The rows of one statistic with their interval at the specification's confidence."""
+
+    tau: np.ndarray
+    deviation: np.ndarray
+    low: np.ndarray
+    high: np.ndarray
+    edf: np.ndarray
+
+    @classmethod
+    def of(cls, result: Any, confidence: float) -> _Rows:
+        low, high = result.interval(confidence)
+        return cls(
+            tau=result.tau,
+            deviation=result.deviation,
+            low=np.atleast_1d(np.asarray(low, dtype=float)),
+            high=np.atleast_1d(np.asarray(high, dtype=float)),
+            edf=result.edf,
+        )
+
+    @property
+    def usable(self) -> np.ndarray:
+        """Rows with an estimate (finite and positive)."""
+        return np.isfinite(self.deviation) & (self.deviation > 0)
+
+    @property
+    def bounded(self) -> np.ndarray:
+        """Rows with an estimate and both (positive) bounds."""
+        return self.usable & np.isfinite(self.low) & np.isfinite(self.high) & (self.low > 0)
+
+    def index(self, tau: float) -> int | None:
+        """The row at ``tau`` (to 1e-9 relative), if any."""
+        close = np.flatnonzero(np.abs(self.tau - tau) <= _REL_TOL * tau)
+        return int(close[0]) if close.size else None
+
+    def check(self, i: int, tau: float, limit: float, listed: bool) -> Check:
+        """The check of row ``i`` against ``limit``."""
+        d, lo, hi = float(self.deviation[i]), float(self.low[i]), float(self.high[i])
+        verdict = verdict_for(lo, hi, limit, d)
+        note = ""
+        if verdict is Verdict.INCONCLUSIVE and not (math.isfinite(lo) and math.isfinite(hi)):
+            note = "no confidence interval at this tau (no EDF)"
+        if verdict is Verdict.NOT_MEASURED:
+            note = "no estimate at this tau"
+        return Check(
+            tau_s=float(tau),
+            limit=float(limit),
+            listed=listed,
+            deviation=d,
+            ci_low=lo,
+            ci_high=hi,
+            edf=float(self.edf[i]),
+            interpolated=False,
+            verdict=verdict,
+            note=note,
+        )
+
+
+def _listed_check(rows: _Rows, tau: float, limit: float, interpolate: bool) -> Check:
+    """The check at a listed tau: on its row, interpolated between rows, or not measured."""
+    i = rows.index(tau)
+    if i is not None:
+        return rows.check(i, tau, limit, True)
+    check = Check(
+        tau_s=tau,
+        limit=limit,
+        listed=True,
+        deviation=math.nan,
+        ci_low=math.nan,
+        ci_high=math.nan,
+        edf=math.nan,
+        interpolated=False,
+        verdict=Verdict.NOT_MEASURED,
+    )
+    usable, bounded, taus = rows.usable, rows.bounded, rows.tau
+    measured = taus[usable]
+    if not interpolate:
+        check.note = "tau not in the analysis grid and interpolation is off"
+    elif measured.size < 2 or not measured.min() < tau < measured.max():
+        check.note = "outside the measured taus (record too short or grid too narrow)"
+    else:
+        # Neighbouring measured taus with an estimate; bounds only if both have them.
+        below = np.flatnonzero(usable & (taus < tau))[-1]
+        above = np.flatnonzero(usable & (taus > tau))[0]
+        pair = np.array([below, above])
+        check.deviation = _loglog(tau, taus[pair], rows.deviation[pair])
+        check.interpolated = True
+        if bounded[pair].all():
+            check.ci_low = _loglog(tau, taus[pair], rows.low[pair])
+            check.ci_high = _loglog(tau, taus[pair], rows.high[pair])
+            check.note = (
+                f"estimate and bounds interpolated log-log between {taus[below]:g} s "
+                f"and {taus[above]:g} s"
+            )
+        else:
+            check.note = "estimate interpolated; a neighbour has no confidence interval"
+        check.verdict = verdict_for(check.ci_low, check.ci_high, limit, check.deviation)
+    return check
+
+
+def _between_checks(rows: _Rows, spec: Spec) -> list[Check]:
+    """Checks of the measured taus strictly between the listed ones, on the limit line."""
+    listed = [t for t, _ in spec.limits]
+    taus = rows.tau
+    between = [
+        i
+        for i in range(len(taus))
+        if spec.limits[0][0] < taus[i] < spec.limits[-1][0]
+        and not any(math.isclose(taus[i], t, rel_tol=_REL_TOL) for t in listed)
+    ]
+    return [rows.check(i, float(taus[i]), float(spec.limit_at(taus[i])), False) for i in between]
+
+
+def _add_reference(checks: list[Check], reference: Reference, f_h: float) -> list[str]:
+    """Fill in each check's reference, flag and device-only estimate; return the notes."""
+    values, notes = reference.deviation([c.tau_s for c in checks], f_h=f_h)
+    limited, device = reference_contribution([c.deviation for c in checks], values)
+    for c, r, lim, d in zip(checks, values, limited, device, strict=True):
+        c.reference, c.reference_limited, c.device_only = float(r), bool(lim), float(d)
+    if limited.any():
+        notes.append(
+            "reference-limited at "
+            + ", ".join(f"{c.tau_s:g} s" for c in checks if c.reference_limited)
+            + ": the reference's stated stability exceeds one third of the measured value"
+        )
+    return notes
+
+
 def judge(table: StabilityTable, spec: Spec, *, reference: Reference | None = None) -> Judgement:
     """Judge a results table against a specification.
 
@@ -163,96 +293,16 @@ def judge(table: StabilityTable, spec: Spec, *, reference: Reference | None = No
     Returns
     -------
     Judgement
-        One :class:`Check` per listed tau (in order) and, with interpolation
-        on, one per measured tau between them; the overall verdict.
+        One :class:`Check` per listed tau and, with interpolation on, one per
+        measured tau between them, in increasing tau; the overall verdict.
     """
     _validate_judge_args(table, spec)
-    result = table[spec.statistic]
-    low_all, high_all = result.interval(spec.confidence)
-    low_all = np.atleast_1d(np.asarray(low_all, dtype=float))
-    high_all = np.atleast_1d(np.asarray(high_all, dtype=float))
-    taus = result.tau
-    dev = result.deviation
-    usable = np.isfinite(dev) & (dev > 0)
-    bounded = usable & np.isfinite(low_all) & np.isfinite(high_all) & (low_all > 0)
+    rows = _Rows.of(table[spec.statistic], spec.confidence)
     notes: list[str] = []
-    checks: list[Check] = []
-
-    def row_index(tau: float) -> int | None:
-        close = np.flatnonzero(np.abs(taus - tau) <= _REL_TOL * tau)
-        return int(close[0]) if close.size else None
-
-    def from_row(i: int, tau: float, limit: float, listed: bool) -> Check:
-        d, lo, hi = float(dev[i]), float(low_all[i]), float(high_all[i])
-        verdict = verdict_for(lo, hi, limit, d)
-        note = ""
-        if verdict is Verdict.INCONCLUSIVE and not (math.isfinite(lo) and math.isfinite(hi)):
-            note = "no confidence interval at this tau (no EDF)"
-        if verdict is Verdict.NOT_MEASURED:
-            note = "no estimate at this tau"
-        return Check(
-            tau_s=float(tau),
-            limit=float(limit),
-            listed=listed,
-            deviation=d,
-            ci_low=lo,
-            ci_high=hi,
-            edf=float(result.edf[i]),
-            interpolated=False,
-            verdict=verdict,
-            note=note,
-        )
-
-    for tau, limit in spec.limits:
-        i = row_index(tau)
-        if i is not None:
-            checks.append(from_row(i, tau, limit, True))
-            continue
-        check = Check(
-            tau_s=tau,
-            limit=limit,
-            listed=True,
-            deviation=math.nan,
-            ci_low=math.nan,
-            ci_high=math.nan,
-            edf=math.nan,
-            interpolated=False,
-            verdict=Verdict.NOT_MEASURED,
-        )
-        measured = taus[usable]
-        if not spec.interpolate:
-            check.note = "tau not in the analysis grid and interpolation is off"
-        elif measured.size < 2 or not measured.min() < tau < measured.max():
-            check.note = "outside the measured taus (record too short or grid too narrow)"
-        else:
-            # Neighbouring measured taus with an estimate; bounds only if both have them.
-            below = np.flatnonzero(usable & (taus < tau))[-1]
-            above = np.flatnonzero(usable & (taus > tau))[0]
-            pair = np.array([below, above])
-            check.deviation = _loglog(tau, taus[pair], dev[pair])
-            check.interpolated = True
-            if bounded[pair].all():
-                check.ci_low = _loglog(tau, taus[pair], low_all[pair])
-                check.ci_high = _loglog(tau, taus[pair], high_all[pair])
-                check.note = (
-                    f"estimate and bounds interpolated log-log between {taus[below]:g} s "
-                    f"and {taus[above]:g} s"
-                )
-            else:
-                check.note = "estimate interpolated; a neighbour has no confidence interval"
-            check.verdict = verdict_for(check.ci_low, check.ci_high, limit, check.deviation)
-        checks.append(check)
+    checks = [_listed_check(rows, tau, limit, spec.interpolate) for tau, limit in spec.limits]
     if spec.interpolate and len(spec.limits) > 1:
-        listed = [t for t, _ in spec.limits]
-        between = [
-            i
-            for i in range(len(taus))
-            if spec.limits[0][0] < taus[i] < spec.limits[-1][0]
-            and not any(math.isclose(taus[i], t, rel_tol=_REL_TOL) for t in listed)
-        ]
-        for i in between:
-            limit = float(spec.limit_at(taus[i]))
-            checks.append(from_row(i, float(taus[i]), limit, False))
+        between = _between_checks(rows, spec)
+        checks.extend(between)
         if between:
             notes.append(
                 f"{len(between)} measured tau(s) between the listed limits judged against "
@@ -260,20 +310,11 @@ def judge(table: StabilityTable, spec: Spec, *, reference: Reference | None = No
             )
     checks.sort(key=lambda c: c.tau_s)
     if reference is not None and reference.has_stability:
+        # Level models without their own f_h use the analysis bandwidth, else 1 / (2 tau0).
         f_h = float(table.settings.get("f_h_hz") or 0.0) or 0.5 / float(
             getattr(table.measurement, "tau0", 1.0) or 1.0
         )
-        values, ref_notes = reference.deviation([c.tau_s for c in checks], f_h=f_h)
-        limited, device = reference_contribution([c.deviation for c in checks], values)
-        for c, r, lim, d in zip(checks, values, limited, device, strict=True):
-            c.reference, c.reference_limited, c.device_only = float(r), bool(lim), float(d)
-        notes.extend(ref_notes)
-        if limited.any():
-            notes.append(
-                "reference-limited at "
-                + ", ".join(f"{c.tau_s:g} s" for c in checks if c.reference_limited)
-                + ": the reference's stated stability exceeds one third of the measured value"
-            )
+        notes.extend(_add_reference(checks, reference, f_h))
     return Judgement(
         spec=spec, checks=checks, overall=overall_verdict([c.verdict for c in checks]), notes=notes
     )
