@@ -76,6 +76,7 @@ from .reports.labels import analysis_date as _analysis_date
 from .reports.labels import default_footer
 from .reports.labels import default_title as _default_title
 from .reports.labels import tool_footer as _tool_footer
+from .spec import Verdict
 from .table import StabilityTable
 
 __all__ = [
@@ -301,22 +302,8 @@ def _put_footer(fig: Figure, text: str) -> None:
     fig.text(0.01, 0.008, text, fontsize=6.5, color="#777777", ha="left", va="bottom")
 
 
-def _normal_verdict(verdict: Any) -> str:
-    if verdict is None:
-        return "not measured"
-    word = str(verdict).strip().lower().replace("_", " ").replace("-", " ")
-    if word in ("", "none", "untested", "not tested", "not measured", "n/a"):
-        return "not measured"
-    if word in ("pass", "passed", "ok"):
-        return "pass"
-    if word in ("fail", "failed"):
-        return "fail"
-    if word in ("inconclusive", "undecided", "marginal"):
-        return "inconclusive"
-    raise InputError(
-        f"unknown verdict {verdict!r} in limits",
-        hint="use pass, fail, inconclusive or None (not measured)",
-    )
+def _normal_verdict(verdict: Any) -> Verdict:
+    return Verdict.parse(verdict, where="limits")
 
 
 # ---------------------------------------------------------------------- stability plot

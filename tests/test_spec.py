@@ -16,11 +16,15 @@ import numpy as np
 import pytest
 
 import stability
-from stability.errors import SpecError
+from stability.errors import InputError, SpecError
 from stability.intervals import chi2_interval
 from stability.spec import (
+    VERDICTS,
+    Check,
+    Judgement,
     Reference,
     Spec,
+    Verdict,
     judge,
     load_info,
     load_spec,
@@ -239,6 +243,42 @@ def test_overall_combinations():
     assert overall_verdict(["pass", "not measured"]) == "inconclusive"
     assert overall_verdict(["not measured", "not measured"]) == "not measured"
     assert overall_verdict(["fail", "not measured"]) == "fail"
+
+
+def test_verdicts_are_structured_values_that_read_as_the_words():
+    # The words a user sees, in report order; code tests members, not words.
+    assert [str(v) for v in VERDICTS] == ["pass", "fail", "inconclusive", "not measured"]
+    assert VERDICTS == tuple(Verdict)
+    assert verdict_for(1.0, 2.0, 2.0) is Verdict.PASS
+    assert verdict_for(math.nan, math.nan, 1.0) is Verdict.NOT_MEASURED
+    assert overall_verdict([Verdict.PASS, "fail"]) is Verdict.FAIL
+    assert f"{Verdict.NOT_MEASURED:<14}|" == "not measured  |"
+    tau = np.array([1.0, 10.0])
+    dev = np.array([1e-11, 1e-12])
+    j = judge(_table(tau, dev, 0.9 * dev, 1.1 * dev, np.full(2, 30.0)), _spec([(1.0, 2e-11)]))
+    assert j.overall is Verdict.PASS and j.listed[0].verdict is Verdict.PASS
+    assert type(j.to_dict()["overall"]) is str and j.to_dict()["overall"] == "pass"
+    assert type(j.checks[0].to_dict()["verdict"]) is str
+    # built by hand from the exact word, a check holds the member; other words are refused
+    nan = math.nan
+    check = Check(1.0, 1e-11, True, 5e-12, nan, nan, nan, False, "inconclusive")
+    assert check.verdict is Verdict.INCONCLUSIVE
+    with pytest.raises(InputError, match="verdict must be one of 'pass', .* got 'passed'"):
+        Check(1.0, 1e-11, True, 5e-12, nan, nan, nan, False, "passed")
+    with pytest.raises(InputError, match="overall must be one of"):
+        Judgement(spec=_spec([(1.0, 2e-11)]), checks=[], overall="ok")
+
+
+def test_verdict_parse_reads_plain_words():
+    assert Verdict.parse(Verdict.FAIL) is Verdict.FAIL
+    assert Verdict.parse(None) is Verdict.NOT_MEASURED
+    assert Verdict.parse(" Not_Measured ") is Verdict.NOT_MEASURED
+    assert Verdict.parse("not-tested") is Verdict.NOT_MEASURED
+    assert Verdict.parse("OK") is Verdict.PASS and Verdict.parse("Passed") is Verdict.PASS
+    assert Verdict.parse("FAILED") is Verdict.FAIL
+    assert Verdict.parse("marginal") is Verdict.INCONCLUSIVE
+    with pytest.raises(InputError, match="unknown verdict 'maybe' in limits.*pass, fail"):
+        Verdict.parse("maybe", where="limits")
 
 
 def test_intervals_recomputed_at_spec_confidence():
