@@ -4,8 +4,9 @@ A stability variance estimate s^2 of a power-law noise process is treated as
 chi-squared distributed, ``nu * s^2 / sigma^2 ~ chi2(nu)``, with an *equivalent
 degrees of freedom* (EDF) ``nu`` that depends on the statistic, the noise type
 alpha (exponent of S_y(f)), the averaging factor m and the record length N
-(number of phase samples). This module computes that EDF, the interval that
-follows from it, and the bias factors of the total and Theo families.
+(number of phase samples). This module holds the EDF models and the bias
+factors of the total and Theo families; the statistics registry says which
+model and which bias rule each statistic uses.
 
 EDF models
 ----------
@@ -39,10 +40,8 @@ alpha = -2..2 is used, i.e. the widest interval. Every EDF where a model applies
 is finite and at least 1 (smaller values, which empirical formulas give near the
 end of the record, are raised to 1).
 
-Confidence intervals
---------------------
-``nu s^2 / chi2_{1-p/2}(nu) <= sigma^2 <= nu s^2 / chi2_{p/2}(nu)``, p = 1 -
-confidence, square-rooted for the deviation [2]_ (section 5.3).
+The chi-squared interval that follows from an EDF is
+:func:`stability.intervals.chi2_interval`.
 
 Bias
 ----

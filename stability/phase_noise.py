@@ -65,8 +65,6 @@ References
 from __future__ import annotations
 
 import math
-import os
-import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
@@ -75,6 +73,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import AnalysisError, InputError
+from .phase_noise_table import positive, read_phase_noise_table, validate_table
 from .taus import GRIDS, parse_taus
 
 __all__ = [
@@ -111,179 +110,6 @@ _PER_DECADE = 64  # Simpson intervals per decade on the logarithmic grids
 _U_MIN_DECADES = 8  # the log grid starts 8 decades below its upper end
 
 
-# ---------------------------------------------------------------------------- the table
-_SPLIT = re.compile(r"[,;\t ]+")
-
-
-def _decode_table(data: bytes) -> str:
-    """Text of a table file: UTF-16 with a BOM, UTF-8 with or without one, else Latin-1."""
-    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
-        return data.decode("utf-16")
-    try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        return data.decode("latin-1")
-
-
-_COMMENT = ("#", "%", ";", "//", "!")
-
-
-def read_phase_noise_table(path: str | os.PathLike[str]) -> tuple[np.ndarray, np.ndarray]:
-    """Read a phase-noise table: offset frequency (Hz) and L(f) (dBc/Hz).
-
-    The file holds two numeric columns separated by commas, semicolons, tabs
-    or spaces. Blank lines and lines starting with ``#``, ``%``, ``;``,
-    ``//`` or ``!`` are skipped; the first other line may be a header.
-
-    Parameters
-    ----------
-    path
-        The table file.
-
-    Returns
-    -------
-    offsets, L
-        Float64 arrays: offsets strictly increasing and positive, L finite.
-
-    Raises
-    ------
-    InputError
-        When the file cannot be read, a row is not two numbers, the offsets
-        do not increase, or fewer than two rows remain.
-    """
-    name = os.fspath(path)
-    try:
-        with open(name, "rb") as handle:
-            text = _decode_table(handle.read())
-    except FileNotFoundError:
-        raise InputError("phase-noise table not found", path=name) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(
-            f"cannot read the phase-noise table: {exc.__class__.__name__}",
-            path=name,
-            hint="pass a UTF-8 text file with two columns: offset in Hz and L(f) in dBc/Hz",
-        ) from None
-    offsets: list[float] = []
-    levels: list[float] = []
-    rows: list[int] = []
-    seen_data = False
-    for number, raw in enumerate(text.splitlines(), start=1):
-        line = raw.strip()
-        if not line or line.startswith(_COMMENT):
-            continue
-        if ";" in line or "\t" in line:
-            # A semicolon or tab delimiter leaves the comma free as a decimal mark.
-            fields = [f.strip().replace(",", ".") for f in re.split(r"[;\t]+", line)]
-            fields = [f for f in fields if f]
-        else:
-            fields = [f for f in _SPLIT.split(line) if f]
-        values = []
-        bad_column = None
-        for col, item in enumerate(fields[:2], start=1):
-            try:
-                values.append(float(item))
-            except ValueError:
-                bad_column = col
-                break
-        if bad_column is not None:
-            if not seen_data and not offsets:
-                seen_data = True  # a header line, once, before any data
-                continue
-            raise InputError(
-                f"not a number: {fields[bad_column - 1]!r}",
-                path=name,
-                line=number,
-                column=bad_column,
-                hint="every data row needs two numbers: offset in Hz and L(f) in dBc/Hz",
-            )
-        seen_data = True
-        if len(fields) != 2:
-            raise InputError(
-                f"expected two columns, found {len(fields)}",
-                path=name,
-                line=number,
-                hint="keep only the offset (Hz) and L(f) (dBc/Hz) columns",
-            )
-        if not all(math.isfinite(v) for v in values):
-            raise InputError(
-                "offset and L(f) must be finite numbers",
-                path=name,
-                line=number,
-            )
-        offsets.append(values[0])
-        levels.append(values[1])
-        rows.append(number)
-    if len(offsets) < 2:
-        raise InputError(
-            f"the phase-noise table has {len(offsets)} data row(s); at least 2 are needed",
-            path=name,
-            hint="give L(f) at two or more offset frequencies",
-        )
-    f = np.asarray(offsets, dtype=np.float64)
-    level = np.asarray(levels, dtype=np.float64)
-    if (level > 0).any():
-        k = int(np.flatnonzero(level > 0)[0])
-        raise InputError(
-            f"L(f) of {level[k]:g} dBc/Hz is above the carrier",
-            path=name,
-            line=rows[k],
-            column=2,
-            hint="L(f) is negative dBc/Hz where it is meaningful; check the sign, "
-            "or drop the rows closest to the carrier",
-        )
-    if f[0] <= 0:
-        raise InputError(
-            f"offset frequencies must be positive, got {f[0]:g} Hz",
-            path=name,
-            line=rows[0],
-            column=1,
-        )
-    steps = np.diff(f)
-    if (steps <= 0).any():
-        k = int(np.flatnonzero(steps <= 0)[0]) + 1
-        raise InputError(
-            f"offset frequencies must increase strictly: {f[k]:g} Hz follows {f[k - 1]:g} Hz",
-            path=name,
-            line=rows[k],
-            column=1,
-            hint="sort the table by offset and drop repeated rows",
-        )
-    return f, level
-
-
-def _validate_table(offsets: Any, levels: Any) -> tuple[np.ndarray, np.ndarray]:
-    try:
-        f = np.asarray(offsets, dtype=np.float64)
-        level = np.asarray(levels, dtype=np.float64)
-    except (TypeError, ValueError):
-        raise InputError("offsets_hz and L_dbc_hz must be arrays of numbers") from None
-    if f.ndim != 1 or level.ndim != 1 or f.size != level.size:
-        raise InputError(
-            f"offsets_hz and L_dbc_hz must be 1-D of equal length, got shapes "
-            f"{f.shape} and {level.shape}"
-        )
-    if f.size < 2:
-        raise InputError(f"the phase-noise table needs at least 2 rows, got {f.size}")
-    if not (np.isfinite(f).all() and np.isfinite(level).all()):
-        raise InputError("offsets_hz and L_dbc_hz must be finite (no NaN or inf)")
-    if f[0] <= 0 or (np.diff(f) <= 0).any():
-        raise InputError(
-            "offsets_hz must be positive and strictly increasing",
-            hint="sort the table by offset and drop repeated rows",
-        )
-    return f, level
-
-
-def _positive(value: Any, name: str, unit: str) -> float:
-    try:
-        out = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} must be a positive number in {unit}, got {value!r}") from None
-    if not math.isfinite(out) or out <= 0:
-        raise InputError(f"{name} must be a positive, finite number in {unit}, got {value!r}")
-    return out
-
-
 # ---------------------------------------------------------------------------- conversions
 def phase_noise_to_frequency_psd(offsets_hz: Any, L_dbc_hz: Any, *, nominal: float) -> np.ndarray:
     """S_y(f) = (f/nu0)^2 * 2 * 10^(L/10) at the table offsets (IEEE Std 1139).
@@ -295,8 +121,8 @@ def phase_noise_to_frequency_psd(offsets_hz: Any, L_dbc_hz: Any, *, nominal: flo
     nominal
         Carrier (nominal) frequency nu0 in Hz.
     """
-    f, level = _validate_table(offsets_hz, L_dbc_hz)
-    nu0 = _positive(nominal, "nominal", "Hz")
+    f, level = validate_table(offsets_hz, L_dbc_hz)
+    nu0 = positive(nominal, "nominal", "Hz")
     return (f / nu0) ** 2 * 2.0 * 10.0 ** (level / 10.0)
 
 
@@ -312,7 +138,7 @@ def frequency_psd_to_phase_noise(offsets_hz: Any, s_y: Any, *, nominal: float) -
     nominal
         Carrier (nominal) frequency nu0 in Hz.
     """
-    nu0 = _positive(nominal, "nominal", "Hz")
+    nu0 = positive(nominal, "nominal", "Hz")
     try:
         f = np.asarray(offsets_hz, dtype=np.float64)
         s = np.asarray(s_y, dtype=np.float64)
@@ -350,7 +176,7 @@ def _validate_model(h: Any, nominal: Any, offsets: Any) -> tuple[dict[int, float
         model[alpha] = level
     if not any(v > 0 for v in model.values()):
         raise InputError("h: at least one coefficient must be positive")
-    nu0 = _positive(nominal, "nominal", "Hz")
+    nu0 = positive(nominal, "nominal", "Hz")
     try:
         f = np.asarray(offsets, dtype=np.float64)
     except (TypeError, ValueError):
@@ -561,9 +387,9 @@ def _validate_conversion(
     stats: Any,
     beyond: Any,
 ) -> tuple[np.ndarray, np.ndarray, float, float, np.ndarray, list[str], str]:
-    f, level = _validate_table(offsets_hz, L_dbc_hz)
-    nu0 = _positive(nominal, "nominal", "Hz")
-    bandwidth = _positive(f_h, "f_h", "Hz")
+    f, level = validate_table(offsets_hz, L_dbc_hz)
+    nu0 = positive(nominal, "nominal", "Hz")
+    bandwidth = positive(f_h, "f_h", "Hz")
     if isinstance(taus, str):
         if taus.strip().lower() in GRIDS:
             raise InputError(

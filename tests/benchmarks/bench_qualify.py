@@ -23,7 +23,7 @@ import allantools
 import numpy as np
 
 from stability import Measurement, StabilityWarning, analyze
-from stability.noise import _expected_on_grid
+from stability.noise_methods import _expected_on_grid
 
 __all__ = ["main"]
 
