@@ -682,12 +682,12 @@ def _read(path: str | os.PathLike[str], hints: _Hints) -> tuple[Measurement, Log
         bad = bad | newly_bad
     bad_rows = np.flatnonzero(bad & keep_rows)
     if hints.strict:
-        first_bad = min(
-            [int(lines[bad_rows[0]])]
-            if bad_rows.size
-            else [] + [e["line"] for e in rep.junk_lines[:1]] + ([min(skipped)] if skipped else []),
-            default=None,
-        )
+        # the first bad line in file order: a junk or skipped line may come before
+        # the first unreadable value
+        firsts = [e["line"] for e in rep.junk_lines[:1]] + ([min(skipped)] if skipped else [])
+        if bad_rows.size:
+            firsts.append(int(lines[bad_rows[0]]))
+        first_bad = min(firsts, default=None)
         if first_bad is not None:
             text = fetch.get(np.array([first_bad]))[0]
             raise InputError(
