@@ -158,14 +158,55 @@ def _computing_bar(show: bool, ana_opts: dict[str, Any]):
         yield lambda label: bar.update(job, advance=1, description=f"computed {label}")
 
 
+#: Logs smaller than this are read without a progress bar (it would only flicker).
+_READING_BAR_BYTES = 50 * 1024 * 1024
+
+
+class _ReadingBar:
+    """Progress callback of :func:`read_log`: a bar over the bytes of a large log."""
+
+    def __init__(self) -> None:
+        self.bar: Any = None
+        self.job: Any = None
+
+    def __call__(self, done: int, total: int) -> None:
+        if total < _READING_BAR_BYTES:
+            return
+        if self.bar is None:  # made on the first report of a large log
+            from rich.progress import Progress
+
+            self.bar = Progress(transient=True)
+            self.bar.start()
+            self.job = self.bar.add_task("reading", total=total)
+        self.bar.update(self.job, completed=done, total=total)
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.stop()
+
+
+@contextlib.contextmanager
+def _reading_bar(show: bool):
+    """A :class:`_ReadingBar` on an interactive terminal; None otherwise."""
+    if not (show and sys.stderr.isatty()):
+        yield None
+        return
+    bar = _ReadingBar()
+    try:
+        yield bar
+    finally:
+        bar.close()
+
+
 def read_and_prepare(
     log: str | os.PathLike[str] | Measurement, **options: Any
 ) -> tuple[Measurement, Measurement, PreparationReport]:
     """Read (unless given a Measurement) and prepare: (as read, prepared, report).
 
     Options: the reading hints of :func:`stability.read_log` and the
-    preparation settings of :func:`stability.prepare.prepare`. A log without
-    any variation (a stuck counter) is refused here, for every command.
+    preparation settings of :func:`stability.prepare.prepare`; ``progress=True``
+    draws a bar while a large log is read, on an interactive terminal. A log
+    without any variation (a stuck counter) is refused here, for every command.
     """
     read_opts, prep_opts, rest = _split_options(options)
     if rest:
@@ -173,7 +214,8 @@ def read_and_prepare(
     if isinstance(log, Measurement):
         source = log
     else:
-        source = read_log(log, progress=bool(options.get("progress", False)), **read_opts)
+        with _reading_bar(bool(options.get("progress", False))) as on_progress:
+            source = read_log(log, on_progress=on_progress, **read_opts)
     require_variation(source)
     prepared, report = prepare(source, **prep_opts)
     return source, prepared, report
@@ -186,7 +228,7 @@ def run_analysis(log: str | os.PathLike[str] | Measurement, **options: Any) -> A
     time_column, tau0, nominal, wrap, strict), the preparation settings of
     :func:`stability.prepare.prepare` (outliers, drift, average), and the
     analysis settings of :func:`stability.analyze` (stats, taus, confidence,
-    f_h).
+    f_h); ``progress=True`` draws progress bars on an interactive terminal.
     """
     read_opts, prep_opts, ana_opts = _split_options(options)
     source, prepared, report = read_and_prepare(

@@ -29,8 +29,6 @@ class ReadHints:
         Period of wrap-around of time-interval readings in seconds, or None.
     strict
         Make the first unreadable row an error instead of a reported gap.
-    progress
-        Show a progress bar while reading files over 50 MB.
     """
 
     kind: str = "auto"
@@ -40,4 +38,3 @@ class ReadHints:
     nominal: float | None = None
     wrap: float | None = None
     strict: bool = False
-    progress: bool = False

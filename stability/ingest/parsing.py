@@ -21,6 +21,7 @@ import codecs
 import math
 import re
 import warnings
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -48,7 +49,6 @@ __all__ = [
 #: bytes when every line allows it; ``"general"`` always lets pandas parse them.
 STAMP_PATHS = ("auto", "general")
 _CHUNK_ROWS = 1_000_000
-_PROGRESS_BYTES = 50 * 1024 * 1024
 _PARSE_ERRORS = (
     ValueError,
     TypeError,
@@ -111,7 +111,7 @@ def parse_rows(
     exact: bool,
     suffix: bool,
     stamps: str = "auto",
-    progress: bool = False,
+    on_progress: Callable[[int, int], None] | None = None,
 ) -> ParsedRows:
     """Parse the time and value columns of every data row.
 
@@ -123,33 +123,52 @@ def parse_rows(
         Values carry a unit suffix (``10.000000012 MHz``).
     stamps
         One of :data:`STAMP_PATHS`.
-    progress
-        Show a progress bar while reading files over 50 MB.
+    on_progress
+        Called with (bytes parsed, bytes in all) as parsing advances; the bytes
+        parsed are estimated from the lines parsed, and equal the total at the
+        end. They start again from zero when the fixed-stamp path gives way to
+        the general one.
     """
     if stamps not in STAMP_PATHS:
         raise ValueError(f"stamps must be one of {', '.join(STAMP_PATHS)}, got {stamps!r}")
     as_text = set(plan.time_cols) if plan.time_fmt and plan.time_fmt.style == "datetime" else set()
     if exact or suffix:
         as_text.add(plan.value_col)
-    parts = dict(as_text=as_text, exact=exact, suffix=suffix, show=progress)
+    progress = None if on_progress is None else _ByteProgress(src, d, on_progress)
+
+    def parse(ticks: np.ndarray | None) -> ParsedRows | None:
+        return _parse_chunks(
+            src, d, plan, as_text, exact=exact, suffix=suffix, progress=progress, stamps=ticks
+        )
+
     parsed = None
     ticks = fixed_stamp_ticks(src, d, plan) if stamps == "auto" else None
     if ticks is not None:
-        parsed = _parse_chunks(src, d, plan, **parts, stamps=ticks)
+        parsed = parse(ticks)
         del ticks
     if parsed is None:  # the general path: pandas parses the time column(s) as text
-        parsed = _parse_chunks(src, d, plan, **parts, stamps=None)
+        parsed = parse(None)
+    if progress is not None:
+        progress.finished()
     return parsed
 
 
-def _progress(src: RawSource, show: bool):
-    if not show or src.size < _PROGRESS_BYTES:
-        return None
-    try:
-        from rich.progress import Progress
-    except ImportError:  # pragma: no cover - rich comes with typer
-        return None
-    return Progress(transient=True)
+class _ByteProgress:
+    """Reports (bytes parsed, bytes in all), estimated from the last line parsed."""
+
+    def __init__(self, src: RawSource, d: Dialect, callback: Callable[[int, int], None]) -> None:
+        self.callback = callback
+        self.total = len(src.buffer) if src.buffer is not None else src.size
+        body = src.sample[d.first_data_line - 1 :] or src.sample
+        size = sum(len(s.encode("utf-8", errors="replace")) + 1 for s in body)
+        self.per_line = size / max(1, len(body))
+        callback(0, self.total)
+
+    def at_line(self, line: int) -> None:
+        self.callback(min(self.total, int(line * self.per_line)), self.total)
+
+    def finished(self) -> None:
+        self.callback(self.total, self.total)
 
 
 def fixed_stamp_ticks(src: RawSource, d: Dialect, plan: ColumnPlan) -> np.ndarray | None:
@@ -216,11 +235,11 @@ def _parse_chunks(
     src: RawSource,
     d: Dialect,
     plan: ColumnPlan,
-    *,
     as_text: set[int],
+    *,
     exact: bool,
     suffix: bool,
-    show: bool,
+    progress: _ByteProgress | None,
     stamps: np.ndarray | None,
 ) -> ParsedRows | None:
     """Parse the log in chunks; with ``stamps``, pandas reads the value column only.
@@ -231,20 +250,14 @@ def _parse_chunks(
     """
     fast = stamps is not None
     parts = _Parts(d, plan, exact=exact, suffix=suffix, stamps=stamps)
-    bar = _progress(src, show)
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
-            reader = _read_chunks(src, d, plan, as_text, with_time=not fast)
-            if bar is not None:
-                bar.start()
-                avg = max(1.0, src.size / max(1, len(src.sample)))
-                job = bar.add_task("reading", total=src.size / avg)
-            with reader:
+            with _read_chunks(src, d, plan, as_text, with_time=not fast) as reader:
                 for chunk in reader:
                     parts.add(chunk)
-                    if bar is not None:
-                        bar.update(job, advance=len(chunk))
+                    if progress is not None:
+                        progress.at_line(parts.last_line)
     except InputError:
         if fast:
             return None
@@ -257,9 +270,6 @@ def _parse_chunks(
             path=src.path,
             hint="check the delimiter and columns with 'stability inspect'",
         ) from None
-    finally:
-        if bar is not None:
-            bar.stop()
     skipped = [int(m.group(1)) for w in caught for m in re.finditer(r"line (\d+)", str(w.message))]
     if fast and (skipped or parts.done != stamps.size):
         return None
@@ -287,11 +297,13 @@ class _Parts:
         self.texts: list[np.ndarray] = []
         self.units: list[np.ndarray] = []
         self.done = 0  # rows parsed
+        self.last_line = 0  # file line of the last row parsed (lines skipped not counted)
 
     def add(self, chunk: pd.DataFrame) -> None:
         n = len(chunk)
         first = int(chunk.index[0]) + self.d.first_data_line if n else 0
         self.lines.append(np.arange(n, dtype=np.int64) + first if n else np.empty(0, np.int64))
+        self.last_line = max(self.last_line, first + n - 1)
         if self.stamps is None and self.plan.time_fmt is not None:
             t, ok = ts.parse_times(_time_text(chunk, self.plan), self.plan.time_fmt)
             self.ticks.append(t)

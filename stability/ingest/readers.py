@@ -19,6 +19,7 @@ References
 from __future__ import annotations
 
 import os
+from collections.abc import Callable
 from typing import Any
 
 from ..errors import InputError
@@ -43,6 +44,9 @@ __all__ = ["read_log", "inspect_log", "validate_read_args", "KINDS"]
 
 KINDS = ("auto", "phase", "frequency", "fractional")
 
+#: Called with (bytes parsed, bytes in all) as reading advances.
+ProgressCallback = Callable[[int, int], None]
+
 
 def validate_read_args(
     kind: Any = "auto",
@@ -52,7 +56,6 @@ def validate_read_args(
     nominal: Any = None,
     wrap: Any = None,
     strict: Any = False,
-    progress: Any = False,
 ) -> ReadHints:
     """Check the options of :func:`read_log`; raise :class:`InputError` naming the bad one."""
     k = str(kind).strip().lower() if kind is not None else "auto"
@@ -71,14 +74,23 @@ def validate_read_args(
         nominal=None if nominal is None else parse_frequency(nominal, "nominal"),
         wrap=None if wrap is None else parse_duration(wrap, "wrap"),
         strict=bool(strict),
-        progress=bool(progress),
     )
+
+
+def _check_callback(on_progress: Any) -> ProgressCallback | None:
+    if on_progress is not None and not callable(on_progress):
+        raise InputError(
+            "on_progress must be a function of (bytes done, bytes total) or None, "
+            f"got {on_progress!r}"
+        )
+    return on_progress
 
 
 def _read(
     path: str | os.PathLike[str],
     hints: ReadHints,
     *,
+    on_progress: ProgressCallback | None = None,
     stamps: str = "auto",
 ) -> tuple[Measurement, LogReport]:
     """Read a log: the measurement and the report of how it was read.
@@ -97,7 +109,7 @@ def _read(
     rep.kind, rep.unit, rep.kind_reason = vk.kind, vk.unit, vk.reason
     exact = needs_decimal_text(sample, d, vk)
     parsed = parse_rows(
-        src, d, plan, exact=exact, suffix=suffix, stamps=stamps, progress=hints.progress
+        src, d, plan, exact=exact, suffix=suffix, stamps=stamps, on_progress=on_progress
     )
     rows, total_rows = data_rows(src, d, plan, vk.scale, parsed, hints.strict, rep)
     del parsed
@@ -145,7 +157,7 @@ def read_log(
     nominal: float | str | None = None,
     wrap: float | str | None = None,
     strict: bool = False,
-    progress: bool = False,
+    on_progress: ProgressCallback | None = None,
 ) -> Measurement:
     """Read a frequency-counter or time-interval log into a :class:`Measurement`.
 
@@ -168,8 +180,11 @@ def read_log(
     strict
         Make the first bad line (an unreadable value, or a line that is not a
         data row) an error instead of a reported gap.
-    progress
-        Show a progress bar while reading files over 50 MB.
+    on_progress
+        Called as parsing advances with (bytes parsed, bytes in all) of the
+        log's text; the bytes parsed are estimated from the lines parsed and
+        equal the total at the end. It may start again from zero when a fast
+        path gives way to the general one.
 
     Returns
     -------
@@ -182,8 +197,8 @@ def read_log(
     InputError
         The file cannot be read as a log, or a hint is invalid.
     """
-    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict, progress)
-    return _read(path, hints)[0]
+    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict)
+    return _read(path, hints, on_progress=_check_callback(on_progress))[0]
 
 
 def inspect_log(
@@ -196,11 +211,11 @@ def inspect_log(
     nominal: float | str | None = None,
     wrap: float | str | None = None,
     strict: bool = False,
-    progress: bool = False,
+    on_progress: ProgressCallback | None = None,
 ) -> LogReport:
     """Say what is in a log and how :func:`read_log` reads it.
 
     Takes the same options as :func:`read_log` and returns the :class:`LogReport`.
     """
-    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict, progress)
-    return _read(path, hints)[1]
+    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict)
+    return _read(path, hints, on_progress=_check_callback(on_progress))[1]
