@@ -80,7 +80,7 @@ def validate_read_args(
 def _check_callback(on_progress: Any) -> ProgressCallback | None:
     if on_progress is not None and not callable(on_progress):
         raise InputError(
-            "on_progress must be a function of (bytes done, bytes total) or None, "
+            "on_progress must be a function of (bytes parsed, bytes in all) or None, "
             f"got {on_progress!r}"
         )
     return on_progress
