@@ -140,8 +140,7 @@ def read_and_prepare(
     if isinstance(log, Measurement):
         source = log
     else:
-        extra = {} if on_progress is None else {"on_progress": on_progress}
-        source = read_log(log, **settings.read.as_kwargs(), **extra)
+        source = read_log(log, **settings.read.as_kwargs(), on_progress=on_progress)
     require_variation(source)
     prepared, report = prepare(source, **settings.prepare.as_kwargs())
     return source, prepared, report

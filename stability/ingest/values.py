@@ -39,6 +39,7 @@ import pandas as pd
 
 __all__ = [
     "STANDARD_NOMINALS",
+    "NOMINAL_TOLERANCE",
     "SENTINEL",
     "ValueKind",
     "kind_from_name",
@@ -56,6 +57,10 @@ STANDARD_NOMINALS: tuple[float, ...] = (
     100e6, 122.88e6, 125e6, 155.52e6, 156.25e6, 200e6, 245.76e6, 250e6, 312.5e6,
     622.08e6, 625e6, 1e9, 2.5e9, 5e9, 6.8e9, 9.192631770e9, 10e9,
 )  # fmt: skip
+
+#: Absolute frequency readings all within this fraction of a nominal frequency are
+#: taken to be readings of an oscillator at that nominal.
+NOMINAL_TOLERANCE = 1e-4
 
 #: Readings at or above this magnitude are instrument sentinels (SCPI 9.9e37, 9.91e37).
 SENTINEL = 9.9e37

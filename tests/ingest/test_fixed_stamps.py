@@ -1,7 +1,8 @@
 """Fixed-width date-time stamps read from the bytes: same instants, same reading as pandas.
 
-Every log here is read twice, once with the fast path and once with it switched
-off (the general path, pandas ``read_csv`` + ``to_datetime``), and the two
+Every log here is read twice, once with the fast path and once with the general
+path (pandas ``read_csv`` + ``to_datetime``, chosen with the reader's private
+``stamps="general"``), and the two
 results are compared field by field: measurement, line numbers, notes,
 provenance and the whole reading report.
 """
@@ -21,8 +22,8 @@ from hypothesis import strategies as st
 
 from stability import InputError
 from stability.ingest import fixed_stamps as fs
-from stability.ingest import inspect_log, read_log
-from stability.ingest import readers as rd
+from stability.ingest import inspect_log, parsing, read_log, validate_read_args
+from stability.ingest.readers import _read
 from stability.ingest.timestamps import TimeFormat
 
 T0 = datetime(2024, 2, 28, 23, 59, 55, 125000)
@@ -82,24 +83,28 @@ def _same(a, b, where: str = "") -> None:
         assert type(a) is type(b) and a == b, f"{where}: {a!r} != {b!r}"
 
 
+def _read_with(path, stamps: str, **kwargs):
+    """(measurement, report) of ``path`` read with the given stamp path."""
+    return _read(path, validate_read_args(**kwargs), stamps=stamps)
+
+
 def _read_both(monkeypatch, path, **kwargs) -> bool:
     """Read ``path`` with and without the fast path; assert equal; return whether it was used."""
-    used = []
-    real = rd._parse_chunks
+    calls = []  # (given stamps from the bytes, gave rows) of each parse
+    real = parsing._parse_chunks
 
-    def spy(*args):
-        out = real(*args)
-        used.append(args[-1] is not None and out is not None)
+    def spy(*args, **kw):
+        out = real(*args, **kw)
+        calls.append((kw["stamps"] is not None, out is not None))
         return out
 
-    monkeypatch.setattr(rd, "_parse_chunks", spy)
-    monkeypatch.setattr(rd, "_FAST_STAMPS", True)
+    monkeypatch.setattr(parsing, "_parse_chunks", spy)
     m_fast = read_log(path, **kwargs)
+    fast_used = calls[0] == (True, True)
     r_fast = inspect_log(path, **kwargs)
-    fast_used = used[0]
-    monkeypatch.setattr(rd, "_FAST_STAMPS", False)
-    m_slow = read_log(path, **kwargs)
-    r_slow = inspect_log(path, **kwargs)
+    before = len(calls)
+    m_slow, r_slow = _read_with(path, "general", **kwargs)
+    assert calls[before:] == [(False, True)]  # one parse, without the stamps from the bytes
     _same(m_fast, m_slow, "measurement")
     _same(r_fast.to_dict(), r_slow.to_dict(), "report")
     return fast_used
@@ -257,7 +262,7 @@ def test_styles_same_as_general_path(tmp_path, monkeypatch, fmt, fast, newline):
 
 @pytest.mark.parametrize("chunk", [7, 1_000_000])
 def test_chunks_and_compression(tmp_path, monkeypatch, chunk):
-    monkeypatch.setattr(rd, "_CHUNK_ROWS", chunk)
+    monkeypatch.setattr(parsing, "_CHUNK_ROWS", chunk)
     n = 50
     lines = [
         f"{s},{v}" for s, v in zip(_stamps("%Y-%m-%dT%H:%M:%S.%fZ", n), _values(n), strict=True)
@@ -394,10 +399,9 @@ def test_strict_error_is_the_same(tmp_path, monkeypatch):
     lines = [f"{s},{v}" for s, v in zip(_stamps("%Y-%m-%dT%H:%M:%SZ", n), vals, strict=True)]
     p = _write(tmp_path / "strict.csv", lines)
     messages = []
-    for switch in (True, False):
-        monkeypatch.setattr(rd, "_FAST_STAMPS", switch)
+    for stamps in ("auto", "general"):
         with pytest.raises(InputError) as info:
-            read_log(p, strict=True)
+            _read_with(p, stamps, strict=True)
         messages.append(str(info.value))
     assert messages[0] == messages[1]
     assert ":9" in messages[0]  # line 9: header + 7 rows before it
@@ -413,9 +417,9 @@ _BASE = [
 ]
 
 
-def _outcome(path):
+def _outcome(path, stamps: str):
     try:
-        m = read_log(path, kind="fractional")
+        m, _ = _read_with(path, stamps, kind="fractional")
     except InputError as exc:
         return str(exc)
     return m
@@ -434,14 +438,8 @@ def test_any_one_byte_change_reads_the_same(tmp_path_factory, row, col, char):
     line = lines[row]
     lines[row] = line[:col] + char + line[col + 1 :] if col < len(line) else line + char
     p = _write(tmp_path_factory.mktemp("fuzz") / "f.csv", lines)
-    saved = rd._FAST_STAMPS
-    try:
-        rd._FAST_STAMPS = True
-        fast = _outcome(p)
-        rd._FAST_STAMPS = False
-        slow = _outcome(p)
-    finally:
-        rd._FAST_STAMPS = saved
+    fast = _outcome(p, "auto")
+    slow = _outcome(p, "general")
     assert type(fast) is type(slow)
     if isinstance(fast, str):
         assert fast == slow

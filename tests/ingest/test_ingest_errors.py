@@ -29,6 +29,7 @@ def _good(tmp_path):
         ({"tau0": "fast"}, "cannot read tau0"),
         ({"nominal": "0Hz"}, "nominal must be a positive frequency"),
         ({"wrap": "1 parsec"}, "unknown unit"),
+        ({"on_progress": 5}, "on_progress must be a function of"),
     ],
 )
 def test_validation_messages(tmp_path, kwargs, match):

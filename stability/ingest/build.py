@@ -1,0 +1,387 @@
+"""From the data rows of a log to the canonical :class:`~stability.measurement.Measurement`.
+
+The rows are placed on a uniform time grid (:mod:`stability.ingest.grid`: gaps
+inserted, duplicated stamps dropped), wrap-arounds of time-interval readings and
+carrier phase are unwrapped, and the readings are converted to the canonical
+form: fractional frequency y = (f - f0)/f0 for absolute frequency, time error
+x = cycles/f0 for carrier phase, seconds for time error. The measurement carries
+the file's SHA-256 and the whole reading report as its provenance.
+
+References
+----------
+1. W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065 (2008),
+   sections 5.2 (phase and frequency data) and 5.14 (gaps).
+2. IEEE Std 1139-2008 (fractional frequency deviation y = (f - f0)/f0; carrier
+   phase and time error x = phi/(2 pi f0)).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import threading
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from ..errors import InputError
+from ..files import sha256_file
+from ..measurement import Measurement, Provenance
+from ..units import format_duration, format_frequency
+from . import timestamps as ts
+from . import values as vals
+from .columns import ColumnPlan, columns_info
+from .grid import Grid, build_grid, unwrap
+from .hints import ReadHints
+from .report import LIST_LIMIT, LogReport
+from .rows import DataRows
+
+__all__ = [
+    "InputHasher",
+    "GridPlacement",
+    "place_on_grid",
+    "unwrap_readings",
+    "canonical_series",
+    "finish_report",
+    "make_measurement",
+]
+
+# A given nominal further than this from the readings is a mistake (fractional).
+_GIVEN_NOMINAL_LIMIT = 1e-2
+
+
+class InputHasher(threading.Thread):
+    """SHA-256 of a file on a second thread: hashlib releases the GIL on large
+    blocks, so hashing overlaps with parsing instead of adding a pass."""
+
+    def __init__(self, path: str, data: bytes | None = None) -> None:
+        super().__init__(daemon=True)
+        self.path = path
+        self.data = data  # the file's bytes when already in memory
+        self.digest: str | None = None
+        self.error: Exception | None = None
+        self.start()
+
+    def run(self) -> None:
+        try:
+            if self.data is not None:
+                self.digest = hashlib.sha256(self.data).hexdigest()
+                return
+            self.digest = sha256_file(self.path)
+        except (OSError, InputError) as exc:  # reported when the digest is asked for
+            self.error = exc
+
+    def result(self) -> str:
+        """The hex digest, once hashing is done."""
+        self.join()
+        if self.error is not None:
+            raise self.error
+        return str(self.digest)
+
+
+@dataclass
+class GridPlacement:
+    """Where the data rows land on the uniform grid.
+
+    Attributes
+    ----------
+    tau0
+        Sample interval, seconds.
+    size
+        Length of the grid.
+    position
+        Grid index of each data row.
+    start
+        Time of the first sample (a pandas Timestamp), or None without date-time stamps.
+    """
+
+    tau0: float
+    size: int
+    position: np.ndarray
+    start: Any = None
+
+
+def place_on_grid(
+    rows: DataRows, plan: ColumnPlan, hints: ReadHints, path: str, rep: LogReport
+) -> tuple[DataRows, GridPlacement]:
+    """The rows kept on the grid (duplicated stamps dropped) and where they land.
+
+    Raises
+    ------
+    InputError
+        No time column and no ``tau0``; a time stamp out of order (see
+        :func:`stability.ingest.grid.build_grid`).
+    """
+    if plan.time_fmt is None:
+        if hints.tau0 is None:
+            raise InputError(
+                "the log has no time column, so the sample interval is unknown",
+                path=path,
+                hint="pass --tau0, e.g. --tau0 1s",
+            )
+        rep.tau0_source = "given (the log has no time stamps)"
+        rep.tau0 = hints.tau0
+        return rows, GridPlacement(hints.tau0, rows.values.size, np.arange(rows.values.size))
+    seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
+    rep.time_column = " + ".join(plan.display[c] for c in plan.time_cols)
+    rep.time_format = plan.time_fmt.description
+    grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column)
+    _report_spacing(grid, hints.tau0, rep)
+    _report_dropped(grid, rows.lines, rep)
+    if grid.duplicates.size:  # otherwise every row is kept
+        rows, seconds = rows.take(grid.keep), seconds[grid.keep]
+    _report_gaps(grid, rows.lines, rep)
+    rep.tau0 = grid.tau0
+    rep.first_time = _stamp(start, 0.0)
+    rep.last_time = _stamp(start, float(seconds[-1]))
+    return rows, GridPlacement(grid.tau0, grid.size, grid.position, start)
+
+
+def _report_spacing(grid: Grid, tau0: float | None, rep: LogReport) -> None:
+    rep.median_spacing = grid.median_spacing
+    if tau0 is None:
+        rep.tau0_source = "median spacing of the time stamps"
+        return
+    rep.tau0_source = (
+        f"given (median spacing of the time stamps is {format_duration(grid.median_spacing)})"
+    )
+    if abs(grid.median_spacing - tau0) > 1e-6 * tau0:
+        rep.note(
+            f"tau0 {format_duration(tau0)} as given overrides the median "
+            f"spacing of the time stamps, {format_duration(grid.median_spacing)}."
+        )
+
+
+def _report_dropped(grid: Grid, lines: np.ndarray, rep: LogReport) -> None:
+    """Duplicated stamps (dropped) and samples off the grid, by line (before dropping)."""
+    dup = grid.duplicates
+    rep.duplicate_count = int(dup.size)
+    rep.duplicates = [{"line": int(lines[i])} for i in dup[:LIST_LIMIT]]
+    if dup.size:
+        rep.note(f"{dup.size} duplicated or crowded time stamp(s) dropped (first kept).")
+    oi, oo = grid.off_grid
+    rep.off_grid_count = int(oi.size)
+    rep.off_grid = [
+        {"line": int(lines[i]), "offset_s": float(o)}
+        for i, o in zip(oi[:LIST_LIMIT], oo[:LIST_LIMIT], strict=True)
+    ]
+    if oi.size:
+        rep.note(f"{oi.size} sample(s) lie off the grid by more than 10% of tau0.")
+
+
+def _report_gaps(grid: Grid, kept_lines: np.ndarray, rep: LogReport) -> None:
+    """Missing samples inserted as gaps, after the line of the row before each gap."""
+    rep.gaps_inserted = [
+        {"after_line": int(kept_lines[i]) if i >= 0 else None, "missing": m}
+        for i, m in ((_pos_in_kept(grid.keep, i), m) for i, m in grid.gaps)
+    ]
+    rep.gap_samples = int(grid.size - grid.position.size)
+    if rep.gap_samples:
+        rep.note(f"{rep.gap_samples} missing sample(s) in the time stamps inserted as gaps.")
+
+
+def _pos_in_kept(keep: np.ndarray, row: int) -> int:
+    return int(np.count_nonzero(keep[:row]))
+
+
+def _stamp(start: Any, offset: float) -> str:
+    if start is not None:
+        return (pd.Timestamp(start) + pd.Timedelta(seconds=offset)).isoformat()
+    return f"{offset:.9g} s"
+
+
+def unwrap_readings(
+    rows: DataRows, vk: vals.ValueKind, hints: ReadHints, rep: LogReport
+) -> np.ndarray:
+    """The readings (their exact differences where kept) with wrap-arounds removed.
+
+    Time error wraps at the counter's period (``wrap``, else 1 s when every
+    reading lies within 1 s); carrier phase at one cycle (NIST SP 1065, 5.13).
+    """
+    readings = rows.delta if rows.delta is not None else rows.values
+    if vk.kind not in ("phase", "carrier"):
+        return readings
+    if vk.kind == "carrier":
+        period = 1.0 / vk.scale  # one cycle in the written unit
+        if hints.wrap is not None and hints.nominal:
+            period = hints.wrap * hints.nominal / vk.scale
+    else:
+        period = (hints.wrap if hints.wrap is not None else 1.0) / vk.scale
+    absolute = rows.values[np.isfinite(rows.values)] * vk.scale
+    applies = (
+        hints.wrap is not None
+        or vk.kind == "carrier"
+        or (absolute.size and float(np.max(np.abs(absolute))) <= 1.0)
+    )
+    if not applies:
+        return readings
+    readings, where = unwrap(readings, period)
+    if where.size:
+        rep.wrap_period = float(period * vk.scale)
+        rep.wrap_count = int(where.size)
+        rep.wraps = [{"line": int(rows.lines[i])} for i in where[:LIST_LIMIT]]
+        rep.note(
+            f"{where.size} wrap-around(s) of one period "
+            f"({period:g} {vk.unit or 'units'}) unwrapped."
+        )
+    return readings
+
+
+def canonical_series(
+    rows: DataRows,
+    readings: np.ndarray,
+    vk: vals.ValueKind,
+    hints: ReadHints,
+    path: str,
+    column: str,
+    rep: LogReport,
+) -> tuple[np.ndarray, float | None]:
+    """Fractional frequency or time error in seconds, and the nominal frequency used.
+
+    y = (f - f0)/f0 for absolute frequency and x = cycles/f0 for carrier phase
+    (IEEE Std 1139-2008).
+    """
+    nominal = hints.nominal
+    if vk.kind == "frequency":
+        nominal = _frequency_nominal(rows.values * vk.scale, nominal, path, column, rep)
+        if rows.delta is not None and rows.ref_text is not None:
+            off = vals.decimal_offset(rows.ref_text, vk.scale, nominal)
+            series = (off + readings * vk.scale) / nominal
+        else:
+            series = (readings * vk.scale - nominal) / nominal
+    elif vk.kind == "fractional":
+        series = readings * vk.scale
+    elif vk.kind == "carrier":
+        if nominal is None:
+            raise InputError(
+                f"carrier phase in {vk.unit} needs the nominal frequency",
+                path=path,
+                column=column,
+                hint="pass --nominal, e.g. --nominal 10MHz",
+            )
+        rep.nominal_source = "given"
+        series = readings * vk.scale / nominal
+    else:
+        series = readings * vk.scale
+        if nominal is not None:
+            rep.nominal_source = "given"
+    rep.nominal = nominal
+    return series, nominal
+
+
+def _frequency_nominal(
+    hz: np.ndarray, given: float | None, path: str, column: str, rep: LogReport
+) -> float:
+    """The nominal frequency of absolute frequency readings: checked if given, else inferred."""
+    finite = hz[np.isfinite(hz)]
+    if given is not None:
+        _check_given_nominal(finite, given, path, column)
+        rep.nominal_source = "given"
+        return given
+    guess = vals.infer_nominal(float(np.median(finite)))
+    if guess is None or np.any(np.abs(finite - guess) > vals.NOMINAL_TOLERANCE * guess):
+        raise InputError(
+            f"absolute frequency readings near {format_frequency(float(np.median(finite)))}"
+            " match no standard nominal frequency",
+            path=path,
+            column=column,
+            hint="pass --nominal, e.g. --nominal 10MHz",
+        )
+    rep.nominal_source = "inferred: nearest standard value to the readings"
+    rep.note(
+        f"Nominal frequency {format_frequency(guess)} inferred from the readings"
+        " (pass --nominal to set it)."
+    )
+    return guess
+
+
+def _check_given_nominal(readings: np.ndarray, nominal: float, path: Any, column: Any) -> None:
+    """A given nominal must match absolute frequency readings to within 1 %.
+
+    A counter log of a 5 MHz oscillator read with ``--nominal 10MHz`` would
+    otherwise be analysed as a fractional offset of -0.5.
+    """
+    if readings.size == 0:
+        return
+    typical = float(np.median(readings))
+    if abs(typical - nominal) <= _GIVEN_NOMINAL_LIMIT * nominal:
+        return
+    guess = vals.infer_nominal(typical)
+    near = (
+        f"pass --nominal {format_frequency(guess).replace(' ', '')}"
+        if guess is not None and abs(typical - guess) <= vals.NOMINAL_TOLERANCE * guess
+        else "pass the nominal frequency of the oscillator with --nominal"
+    )
+    raise InputError(
+        f"absolute frequency readings near {format_frequency(typical)} lie "
+        f"{abs(typical - nominal) / nominal:.3g} (fractional) from the given nominal "
+        f"{format_frequency(nominal)}",
+        path=path,
+        column=column,
+        hint=f"{near}, or --kind fractional if the column is not in Hz",
+    )
+
+
+def finish_report(
+    rep: LogReport, plan: ColumnPlan, vk: vals.ValueKind, samples: int, sha256: str
+) -> None:
+    """The last fields and notes of the reading report."""
+    rep.samples = samples
+    rep.value_column = plan.display[plan.value_col]
+    rep.channels = [plan.display[c] for c in plan.channels]
+    rep.columns = columns_info(plan, vk, rep)
+    if rep.bad_value_count:
+        rep.note(
+            f"{rep.bad_value_count} unreadable value(s) (instrument errors, sentinels, "
+            "empty fields) turned into gaps."
+        )
+    if rep.junk_line_count:
+        rep.note(f"{rep.junk_line_count} line(s) that are not data rows skipped.")
+    rep.note(f"Values read as {vk.kind} in {vk.unit or 'no unit'} ({vk.reason}).")
+    rep.sha256 = sha256
+
+
+def make_measurement(
+    series: np.ndarray,
+    lines: np.ndarray,
+    placement: GridPlacement,
+    vk: vals.ValueKind,
+    nominal: float | None,
+    total_rows: int,
+    rep: LogReport,
+) -> Measurement:
+    """The measurement on the grid (NaN in the gaps), with the report as provenance.
+
+    Raises
+    ------
+    InputError
+        Fewer than two samples on the grid.
+    """
+    n_grid = placement.size
+    grid_vals = np.full(n_grid, np.nan)
+    grid_vals[placement.position] = series
+    grid_lines = np.zeros(n_grid, dtype=np.int64)
+    grid_lines[placement.position] = lines
+    meta = dict(
+        nominal=nominal,
+        start=placement.start,
+        lines=grid_lines,
+        provenance=Provenance(
+            path=rep.path,
+            sha256=rep.sha256,
+            rows=total_rows,
+            reader=rep.summary(),
+            details=rep.to_dict(),
+        ),
+        notes=list(rep.notes),
+    )
+    if n_grid < 2:
+        raise InputError(
+            "a single data row: at least two samples are needed",
+            path=rep.path,
+            hint="give a longer log",
+        )
+    if vk.kind in ("frequency", "fractional"):
+        return Measurement.from_frequency(grid_vals, placement.tau0, **meta)
+    return Measurement.from_phase(grid_vals, placement.tau0, **meta)

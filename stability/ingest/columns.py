@@ -1,0 +1,329 @@
+"""Which columns of a log to read, and what the value column holds.
+
+From the first lines of the log (the sniffer's sample) the reader picks the time
+column (a named time column first, then date + time-of-day pairs, then the first
+column of stamps beside numeric columns), the value column (as given, else the
+first numeric column; the others are reported as channels), and the kind and
+unit of the values: from a unit written after each value, from the header, or,
+for absolute frequency, from readings that lie near a standard nominal frequency.
+
+References
+----------
+1. W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065 (2008),
+   section 5.2 (phase and frequency data).
+2. IEEE Std 1139-2008 (fractional frequency y = (f - f0)/f0).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..units import format_frequency
+from . import timestamps as ts
+from . import values as vals
+from .hints import ReadHints
+from .report import ColumnInfo, LogReport
+from .sniff import Dialect, RawSource, _field_kind, split_fields
+
+__all__ = ["ColumnPlan", "column_samples", "plan_columns", "decide_kind", "columns_info"]
+
+
+@dataclass
+class ColumnPlan:
+    """The columns to read (0-based numbers) and the role of each.
+
+    Attributes
+    ----------
+    names
+        Header names, ``""`` where a column has none.
+    time_cols
+        The time column, or the date and time-of-day columns, or empty.
+    time_fmt
+        Format of the time stamps, or None without a time column.
+    value_col
+        The value column analysed.
+    channels
+        Every numeric value column, the analysed one included.
+    roles
+        Role of each column by number (``"time"``, ``"value"``, ``"channel"`` ...).
+    """
+
+    names: list[str]
+    time_cols: list[int]
+    time_fmt: ts.TimeFormat | None
+    value_col: int
+    channels: list[int]
+    roles: dict[int, str]
+
+    @property
+    def display(self) -> list[str]:
+        """Column names for messages: the header name, else ``column N``."""
+        return [n or f"column {i + 1}" for i, n in enumerate(self.names)]
+
+
+def column_samples(src: RawSource, d: Dialect) -> list[list[str]]:
+    """The fields of each column in the sampled data rows of full width."""
+    cols: list[list[str]] = [[] for _ in range(d.ncols)]
+    for ln in src.sample[d.first_data_line - 1 :]:
+        if not ln.strip():
+            continue
+        fields = split_fields(ln, d.delimiter)
+        if len(fields) != d.ncols:
+            continue
+        for j, f in enumerate(fields):
+            cols[j].append(f)
+    return cols
+
+
+def _resolve(spec: int | str, names: list[str], what: str, path: str) -> int:
+    listing = ", ".join(f"{i + 1}={n!r}" if n else str(i + 1) for i, n in enumerate(names))
+    if isinstance(spec, int) or (isinstance(spec, str) and spec.strip().isdigit()):
+        num = int(spec)
+        if 1 <= num <= len(names):
+            return num - 1
+        raise InputError(
+            f"{what} {spec} does not exist: the log has {len(names)} column(s)",
+            path=path,
+            hint=f"choose one of {listing}",
+        )
+    want = spec.strip().lower()
+    for i, n in enumerate(names):
+        if n.strip().lower() == want:
+            return i
+    raise InputError(f"no {what} named {spec!r}", path=path, hint=f"choose one of {listing}")
+
+
+def plan_columns(src: RawSource, d: Dialect, hints: ReadHints, rep: LogReport) -> ColumnPlan:
+    """Pick the time and value columns of a log (notes a choice among several channels)."""
+    samples = column_samples(src, d)
+    names = [n if n else "" for n in (d.header or [""] * d.ncols)]
+    names += [""] * (d.ncols - len(names))
+    empty = [not any(s for s in samples[i]) and not names[i] for i in range(d.ncols)]
+    if hints.time_column is not None:
+        time_cols, fmt = _given_time_columns(hints.time_column, samples, names, src.path)
+    else:
+        time_cols, fmt = _found_time_columns(samples, names, empty)
+    channels = [
+        i
+        for i in range(d.ncols)
+        if i not in time_cols and not empty[i] and _mostly_numbers(samples[i], d.decimal)
+    ]
+    v = _value_column(hints.column, names, time_cols, channels, src.path, rep)
+    if v not in channels:
+        channels.insert(0, v)
+    roles: dict[int, str] = {t: "time" for t in time_cols}
+    if len(time_cols) == 2:
+        roles[time_cols[0]], roles[time_cols[1]] = "date", "time of day"
+    for c in channels:
+        roles[c] = "value" if c == v else "channel"
+    return ColumnPlan(names, time_cols, fmt, v, channels, roles)
+
+
+def _given_time_columns(
+    spec: int | str, samples: list[list[str]], names: list[str], path: str
+) -> tuple[list[int], ts.TimeFormat]:
+    """The time column the user named (with the next one when it is a date-only column)."""
+    t = _resolve(spec, names, "time column", path)
+    time_cols: list[int] = []
+    fmt = ts.detect_time_format(samples[t], names[t])
+    if fmt is None and t + 1 < len(names) and ts.is_date_only(samples[t]):
+        fmt = ts.detect_time_format(
+            [a + " " + b for a, b in zip(samples[t], samples[t + 1], strict=False)]
+        )
+        time_cols = [t, t + 1] if fmt else []
+    if fmt is None:
+        shown = names[t] or f"column {t + 1}"
+        raise InputError(
+            f"column {shown!r} does not hold time stamps in a known format",
+            path=path,
+            column=shown,
+            hint="use ISO 8601, dd.mm.yyyy hh:mm:ss, epoch seconds, MJD or elapsed seconds",
+        )
+    return time_cols or [t], fmt
+
+
+def _found_time_columns(
+    samples: list[list[str]], names: list[str], empty: list[bool]
+) -> tuple[list[int], ts.TimeFormat | None]:
+    """The time column(s) found without a hint: named ones first, then left to right."""
+    ncols = len(names)
+    order = sorted(range(ncols), key=lambda i: (not ts.is_time_name(names[i]), i))
+    for i in order:
+        if empty[i]:
+            continue
+        if i + 1 < ncols and ts.is_date_only(samples[i]) and ts.is_time_of_day(samples[i + 1]):
+            fmt = ts.detect_time_format(
+                [a + " " + b for a, b in zip(samples[i], samples[i + 1], strict=False)]
+            )
+            if fmt:
+                return [i, i + 1], fmt
+        f = ts.detect_time_format(samples[i], names[i])
+        if f is None:
+            continue
+        if (
+            f.style == "datetime"
+            or ts.is_time_name(names[i])
+            or (
+                i == 0
+                and ncols >= 2
+                and vals.kind_from_name(names[i]) is None
+                and _numeric_others(samples, empty, i)
+            )
+        ):
+            return [i], f
+    return [], None
+
+
+def _value_column(
+    spec: int | str | None,
+    names: list[str],
+    time_cols: list[int],
+    channels: list[int],
+    path: str,
+    rep: LogReport,
+) -> int:
+    """The value column: as given, else the first numeric one."""
+    display = [n or f"column {i + 1}" for i, n in enumerate(names)]
+    if spec is not None:
+        v = _resolve(spec, names, "column", path)
+        if v in time_cols:
+            raise InputError(
+                f"column {display[v]!r} is the time column, not a value column",
+                path=path,
+                hint="pass --column with a value column",
+            )
+        return v
+    if not channels:
+        raise InputError(
+            "no column of numeric values found",
+            path=path,
+            hint="pass --column with the value column's number or name",
+        )
+    v = channels[0]
+    if len(channels) > 1:
+        rep.note(
+            f"The log has {len(channels)} value columns "
+            f"({', '.join(display[c] for c in channels)}); analysing the first, "
+            f"{display[v]!r} (choose another with --column)."
+        )
+    return v
+
+
+def _mostly_numbers(sample: list[str], decimal: str) -> bool:
+    kinds = [_field_kind(s, decimal) for s in sample]
+    return bool(kinds) and sum(k in ("num", "bad", "empty") for k in kinds) >= 0.5 * len(kinds)
+
+
+def _numeric_others(samples: list[list[str]], empty: list[bool], skip: int) -> bool:
+    return any(
+        not empty[j] and _mostly_numbers(samples[j], ".") or _mostly_numbers(samples[j], ",")
+        for j in range(len(samples))
+        if j != skip and not empty[j]
+    )
+
+
+# ---------------------------------------------------------------------------- kinds
+_SUFFIX_SAMPLE = re.compile(
+    r"^[-+]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][-+]?\d+)?\s*([A-Za-zµμ%]{1,7})$"
+)
+
+
+def decide_kind(
+    sample: list[str], name: str, d: Dialect, hints: ReadHints, path: str
+) -> tuple[vals.ValueKind, bool]:
+    """Kind and unit of the value column, and whether each value carries a unit suffix."""
+    suffixes = [m.group(1) for s in sample if (m := _SUFFIX_SAMPLE.match(s.strip()))]
+    suffix = len(suffixes) >= 0.5 * max(1, len([s for s in sample if s.strip()]))
+    found: vals.ValueKind | None = None
+    if suffix:
+        unit = max(set(suffixes), key=suffixes.count)
+        k = vals.kind_from_unit(unit)
+        if k:
+            found = vals.ValueKind(k[0], unit, k[1], f"unit {unit!r} written after each value")
+    if found is None:
+        found = vals.kind_from_name(name) if name else None
+    if hints.kind != "auto":
+        return _given_kind(hints.kind, found, name, path), suffix
+    if found is None:
+        found = _kind_from_readings(_sample_numbers(sample, d.decimal), hints.nominal)
+    if found is not None:
+        return found, suffix
+    raise InputError(
+        f"cannot tell what the values in column {name or 'of values'!r} are",
+        path=path,
+        hint="pass --kind phase (seconds), --kind frequency (Hz) or --kind fractional",
+    )
+
+
+def _given_kind(kind: str, found: vals.ValueKind | None, name: str, path: str) -> vals.ValueKind:
+    """The kind given with ``--kind``, checked against a unit written in the log."""
+    compatible = {
+        "phase": ("phase", "carrier"),
+        "frequency": ("frequency",),
+        "fractional": ("fractional",),
+    }[kind]
+    if found is not None and found.kind in compatible:
+        found.reason += f"; kind {kind} as given"
+        return found
+    if found is not None and found.unit:
+        # A written unit contradicts --kind: reading Hz as seconds (say) would give
+        # numbers that look plausible and mean nothing.
+        raise InputError(
+            f"--kind {kind} contradicts the unit {found.unit!r} of column {name!r} "
+            f"({found.reason})",
+            path=path,
+            column=name,
+            hint="drop --kind, or pick another column with --column",
+        )
+    default = {"phase": ("s", 1.0), "frequency": ("Hz", 1.0), "fractional": ("", 1.0)}
+    unit, scale = default[kind]
+    why = "given with --kind" + (f" (the header suggested {found.kind})" if found else "")
+    return vals.ValueKind(kind, unit, scale, why)
+
+
+def _kind_from_readings(numbers: np.ndarray, nominal: float | None) -> vals.ValueKind | None:
+    """Absolute frequency when every sampled reading lies near one nominal frequency."""
+    if not numbers.size:
+        return None
+    nominal = nominal or vals.infer_nominal(float(np.median(numbers)))
+    tol = vals.NOMINAL_TOLERANCE
+    if nominal and np.all(np.abs(numbers - nominal) <= tol * nominal):
+        return vals.ValueKind(
+            "frequency", "Hz", 1.0, f"values lie within {tol:g} of {format_frequency(nominal)}"
+        )
+    return None
+
+
+def _sample_numbers(sample: list[str], decimal: str) -> np.ndarray:
+    out = []
+    for s in sample:
+        t = s.strip().replace(",", ".") if decimal == "," else s.strip()
+        try:
+            v = float(t)
+        except ValueError:
+            continue
+        if math.isfinite(v) and abs(v) < vals.SENTINEL:
+            out.append(v)
+    return np.asarray(out, dtype=np.float64)
+
+
+def columns_info(plan: ColumnPlan, vk: vals.ValueKind, rep: LogReport) -> list[ColumnInfo]:
+    """Every column of the log with its role and, for time and values, its format."""
+    out = []
+    for i, name in enumerate(plan.names):
+        role = plan.roles.get(i, "other")
+        detail = ""
+        if role in ("time", "date", "time of day"):
+            detail = rep.time_format or ""
+        elif role == "value":
+            detail = f"{vk.kind}, {vk.unit or 'no unit'}"
+        elif role == "channel":
+            k = vals.kind_from_name(name)
+            detail = f"{k.kind}, {k.unit or 'no unit'}" if k else ""
+        out.append(ColumnInfo(i + 1, name, role, detail))
+    return out
