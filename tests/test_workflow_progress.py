@@ -28,7 +28,5 @@ def test_reading_progress_follows_the_bytes_of_the_log(tmp_path):
 
 def test_each_statistic_and_the_qualification_are_reported(tmp_path):
     steps: list[str] = []
-    stability.run_analysis(
-        _log(tmp_path), tau0=1.0, stats="oadev,mdev,tdev", on_step=steps.append
-    )
+    stability.run_analysis(_log(tmp_path), tau0=1.0, stats="oadev,mdev,tdev", on_step=steps.append)
     assert steps == ["oadev", "mdev", "tdev", "qualification"]
