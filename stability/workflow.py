@@ -4,24 +4,23 @@
 
     run, files = stability.workflow.analyze_into("counter.csv", "out/", nominal="10MHz")
 
-Every file is first written under a hidden pending name in the output folder;
-the five are moved into place only once all of them exist, so a failed run
-leaves no file of its own behind and changes no earlier output, and folders
-made for the run are removed again. Figures are drawn in this process.
+The files of a run are written all or nothing through
+:class:`stability.outputs.OutputSet`: a failed or interrupted run leaves no file
+of its own behind and changes no earlier output, and folders made for the run
+are removed again. Figures are drawn in this process.
 """
 
 from __future__ import annotations
 
-import contextlib
 import os
-import secrets
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
 from .errors import InputError
-from .files import atomic_write_text, ensure_folder
+from .files import atomic_write_text
 from .measurement import Measurement
+from .outputs import OutputSet
 from .plots import save_figure, series_figure, stability_figure
 from .reports.labels import default_footer, default_title
 from .reports.tables import table_csv, table_markdown
@@ -36,7 +35,14 @@ from .run import (
 from .settings import RunSettings
 from .summary import summary_json
 
-__all__ = ["analyze_into", "write_analysis", "PLOT_FORMATS", "OUTPUT_NAMES", "check_plot_format"]
+__all__ = [
+    "analyze_into",
+    "write_analysis",
+    "output_names",
+    "PLOT_FORMATS",
+    "OUTPUT_NAMES",
+    "check_plot_format",
+]
 
 PLOT_FORMATS = ("png", "svg", "pdf")
 OUTPUT_NAMES = ("table.csv", "table.md", "summary.json", "sigma_tau", "series")
@@ -53,11 +59,6 @@ def check_plot_format(plot_format: Any) -> str:
             f"unknown plot format {plot_format!r}", hint=f"choose {', '.join(PLOT_FORMATS)}"
         )
     return fmt
-
-
-def _pending_path(folder: Path, name: str) -> Path:
-    """A hidden, unique name beside ``name`` for a file that is moved into place later."""
-    return folder / f".{name}.{os.getpid()}.{secrets.token_hex(4)}.pending"
 
 
 def _draw_series(
@@ -121,6 +122,19 @@ def _write_all(
     _draw_series(paths["series"], fmt, run, series_title, series_footer)
 
 
+def output_names(plot_format: str) -> tuple[list[str], list[str]]:
+    """(files an analysis writes, files of another plot format it replaces)."""
+    fmt = check_plot_format(plot_format)
+    names = [*_TEXT_NAMES, f"sigma_tau.{fmt}", f"series.{fmt}"]
+    stale = [f"{fig}.{other}" for fig in ("sigma_tau", "series") for other in PLOT_FORMATS]
+    return names, [n for n in stale if n not in names]
+
+
+def _paths(files: dict[str, Path], fmt: str) -> dict[str, Path]:
+    """Output key (:data:`OUTPUT_NAMES`) -> path, from file name -> path."""
+    return {key: files[key if key in _TEXT_NAMES else f"{key}.{fmt}"] for key in OUTPUT_NAMES}
+
+
 def analyze_into(
     log: str | os.PathLike[str] | Measurement,
     folder: str | os.PathLike[str],
@@ -136,31 +150,24 @@ def analyze_into(
     """Read, prepare, analyse and write the five outputs into ``folder``: (run, files).
 
     ``settings`` (or keyword settings as :func:`stability.run_analysis` takes
-    them) say what to do. All five files appear together or not at all.
+    them) say what to do. The five files appear together or not at all
+    (:class:`stability.outputs.OutputSet`): an output that would overwrite the
+    log is refused before anything is read, a folder another run is writing
+    into is refused, and the figures of another plot format from an earlier
+    run in the folder are removed, so the folder describes this run only.
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
-    target = Path(folder)
-    made = [p for p in (target, *target.parents) if not p.exists()]  # nearest first
-    pending: dict[str, Path] = {}
-    try:
+    names, stale = output_names(fmt)
+    inputs = [] if isinstance(log, Measurement) else [log]
+    with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
-        out = ensure_folder(target)
         moment = datetime.now(UTC)
         run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
-        finals = {name: f"{name}.{fmt}" for name in ("sigma_tau", "series")}
-        finals.update({name: name for name in _TEXT_NAMES})
-        pending = {name: _pending_path(out, final) for name, final in finals.items()}
+        pending = _paths(out.pending, fmt)
         _write_all(run, pending, fmt, limits, limits_statistic, titled=True)
-        written = {name: pending[name].replace(out / finals[name]) for name in finals}
-    except BaseException:
-        for path in pending.values():
-            path.unlink(missing_ok=True)
-        for path in made:  # folders made for this run go again (when left empty)
-            with contextlib.suppress(OSError):
-                path.rmdir()
-        raise
-    return run, {name: written[name] for name in OUTPUT_NAMES}
+        files = out.commit()
+    return run, _paths(files, fmt)
 
 
 def write_analysis(
@@ -173,8 +180,9 @@ def write_analysis(
 ) -> dict[str, Path]:
     """Write table.csv, table.md, summary.json and both plots of a run into ``folder``."""
     fmt = check_plot_format(plot_format)
-    out = ensure_folder(folder)
-    paths = {name: out / name for name in _TEXT_NAMES}
-    paths.update({name: out / f"{name}.{fmt}" for name in ("sigma_tau", "series")})
-    _write_all(run, paths, fmt, limits, limits_statistic, titled=False)
-    return paths
+    names, stale = output_names(fmt)
+    inputs = [run.source.provenance.path] if run.source.provenance.path else []
+    with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
+        _write_all(run, _paths(out.pending, fmt), fmt, limits, limits_statistic, titled=False)
+        files = out.commit()
+    return _paths(files, fmt)
