@@ -22,7 +22,7 @@ from .intervals import check_confidence
 from .measurement import Measurement
 from .qualify import qualify as qualify_table
 from .table import StabilityTable, StatisticResult
-from .taus import GRIDS, tau_grid
+from .taus import GRIDS, MAX_FACTOR, tau_grid
 
 __all__ = ["analyze", "estimate", "DEFAULT_STATS", "validate_analysis_args"]
 
@@ -137,7 +137,7 @@ def _estimate(
     unit = measurement.tau0 * stat.tau_factor  # tau = tau_factor * m * tau0
     ms = tau_grid(taus, max_m, unit, step=stat.m_step)
     if not isinstance(taus, str):
-        asked = tau_grid(taus, 10**18, unit, step=stat.m_step)
+        asked = tau_grid(taus, MAX_FACTOR, unit, step=stat.m_step)
         too_long = asked[asked > max_m]
         if too_long.size:
             tau = too_long[0] * measurement.tau0 * stat.tau_factor
@@ -148,6 +148,7 @@ def _estimate(
             )
     if ms.size == 0:
         raise AnalysisError(f"no tau of the requested grid fits {stat.name} on {n} samples")
+    _check_cost(stat, ms, n, taus)
     x = measurement.phase_with_offset() if stat.family == "time_error" else measurement.phase
     seg = measurement.segments
     tau0 = measurement.tau0
@@ -157,7 +158,13 @@ def _estimate(
     used = np.array([k for _, k in values], dtype=np.int64)
     keep = used > 0
     if not keep.any():
-        raise AnalysisError(f"{stat.name}: every term touches a gap; nothing can be computed")
+        where = measurement.provenance.path
+        raise AnalysisError(
+            f"{stat.name}: every term touches a gap at every tau; nothing can be computed",
+            path=where,
+            hint="the record is too broken up for this statistic: check the gaps with "
+            "stability inspect, or pass a shorter tau list",
+        )
     notes = []
     if stat.note is not None:
         remark = stat.note(n, tau0, ms[keep])
@@ -177,6 +184,23 @@ def _estimate(
         dev[keep],
         notes=notes,
     )
+
+
+#: Work allowed for one statistic, in sample-steps (taus x samples): a few
+#: seconds of numpy kernels. A grid beyond it (``all`` on a long record) is
+#: refused with what it would cost rather than left to run for hours.
+WORK_BUDGET = 2e10
+
+
+def _check_cost(stat: Statistic, ms: np.ndarray, n: int, taus: Any) -> None:
+    work = float(ms.size) * float(n)
+    if stat.multi is None and work > WORK_BUDGET:
+        grid = taus if isinstance(taus, str) else "the tau list"
+        raise AnalysisError(
+            f"{grid} asks for {ms.size} taus of {stat.name} on {n} samples, about "
+            f"{work:.1e} sample-steps (hours of computing)",
+            hint="use --taus decade or octave, a shorter list, or --average first",
+        )
 
 
 def _model_source(measurement: Measurement, stats: list[Statistic], memo: dict):

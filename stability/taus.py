@@ -18,12 +18,16 @@ import numpy as np
 from .errors import InputError
 from .units import parse_duration
 
-__all__ = ["GRIDS", "tau_grid", "parse_taus"]
+__all__ = ["GRIDS", "MAX_FACTOR", "tau_grid", "parse_taus"]
 
 GRIDS = ("octave", "decade", "all")
 
 #: Relative tolerance for "a whole multiple of tau0".
 _MULTIPLE_RTOL = 1e-6
+
+#: Largest averaging factor any grid may ask for (far beyond any record; keeps
+#: the factors inside int64).
+MAX_FACTOR = 2**53
 
 
 def parse_taus(spec: str | Sequence[float]) -> str | list[float]:
@@ -52,6 +56,11 @@ def _multiples(taus: Iterable[float], tau0: float) -> list[int]:
         if not math.isfinite(tau) or tau <= 0:
             raise InputError(f"tau must be a positive number of seconds, got {tau!r}")
         ratio = tau / tau0
+        if not math.isfinite(ratio) or ratio > MAX_FACTOR:
+            raise InputError(
+                f"tau {tau:g} s is far longer than any record at tau0 {tau0:g} s",
+                hint="choose taus up to the record length, or use --taus octave",
+            )
         m = round(ratio)
         if m < 1 or abs(ratio - m) > _MULTIPLE_RTOL * max(1.0, ratio):
             raise InputError(
