@@ -11,7 +11,6 @@
 from __future__ import annotations
 
 import contextlib
-import copy
 import os
 import secrets
 import sys
@@ -23,13 +22,11 @@ from typing import Any
 import numpy as np
 
 from .analysis import analyze
-from .background import BackgroundWorker
 from .errors import InputError
 from .ingest import read_log
 from .measurement import Measurement
 from .prepare import PreparationReport, prepare, require_variation
 from .qualify import model_curve
-from .reports.labels import default_footer, default_title
 from .taus import parse_taus
 
 __all__ = [
@@ -247,66 +244,26 @@ def analyze_into(
 ) -> tuple[AnalysisRun, dict[str, Path]]:
     """:func:`run_analysis` and :func:`write_analysis` in one go: (run, files written).
 
-    The figures are drawn beside the computation (:mod:`stability.background`):
-    the data-over-time figure while the statistics are computed, the stability
-    plot while the tables are written. Every file is first written under a
-    hidden pending name and all five are put in place only once the whole run
-    has succeeded; if anything fails, no file of this run is left behind, and
-    folders made for the run are removed again.
+    Every file is first written under a hidden pending name and all five are
+    put in place only once the whole run has succeeded; if anything fails, no
+    file of this run is left behind, and folders made for the run are removed
+    again.
     """
     from .files import ensure_folder
 
     fmt = _check_plot_format(plot_format)
-    read_opts, prep_opts, _ = _split_options(options)
-    # two lanes: the series figure and the stability plot are drawn side by side
-    worker = BackgroundWorker(label="drawing the figures", warm_up=("stability.plots",), lanes=2)
     target = Path(folder)
     made = [p for p in (target, *target.parents) if not p.exists()]  # nearest first
     pending: dict[str, Path] = {}
     try:
-        source, prepared, report = read_and_prepare(
-            log, progress=bool(options.get("progress", False)), **read_opts, **prep_opts
-        )
+        run = run_analysis(log, **options)
         out = ensure_folder(target)
-        moment = datetime.now(UTC)
         finals = {name: f"{name}.{fmt}" for name in ("sigma_tau", "series")}
         finals.update({name: name for name in _TEXT_NAMES})
         pending = {name: _pending_path(out, final) for name, final in finals.items()}
-        shown, drift, outliers = _series_inputs(source, prepared, report)
-        worker.submit_to(
-            0,
-            _draw_series,
-            pending["series"],
-            fmt,
-            _without_lines(shown),
-            drift,
-            outliers,
-            moment,
-            default_title(shown, "data over time"),
-            default_footer(shown, analysis_time=moment),
-        )
-        run = _qualified_run(source, prepared, report, options, moment)
-        # the worker needs the results, not the measurement behind them (a large array)
-        results = copy.copy(run.table)
-        results.measurement = None
-        worker.submit_to(
-            1,
-            _draw_stability,
-            pending["sigma_tau"],
-            fmt,
-            results,
-            run.model_curves(),
-            limits,
-            limits_statistic,
-            moment,
-            default_title(run.table.measurement, "stability"),
-            default_footer(run.table, analysis_time=moment),
-        )
-        _write_texts(run, {name: pending[name] for name in _TEXT_NAMES})
-        worker.wait()
+        _write_outputs(run, pending, fmt, limits, limits_statistic)
         written = {name: pending[name].replace(out / finals[name]) for name in finals}
     except BaseException:
-        worker.cancel()
         for path in pending.values():
             path.unlink(missing_ok=True)
         for path in made:  # folders made for this run go again (when left empty)
@@ -330,59 +287,31 @@ def _pending_path(folder: Path, name: str) -> Path:
     return folder / f".{name}.{os.getpid()}.{secrets.token_hex(4)}.pending"
 
 
-def _without_lines(measurement: Measurement) -> Measurement:
-    """A shallow copy without the source line numbers (not drawn; as large as the data)."""
-    slim = copy.copy(measurement)
-    slim.lines = None
-    return slim
-
-
-def _draw_series(
-    target: Path,
+def _write_outputs(
+    run: AnalysisRun,
+    paths: dict[str, Path],
     fmt: str,
-    shown: Measurement,
-    drift: np.ndarray | None,
-    outliers: np.ndarray,
-    moment: datetime,
-    title: str | None = None,
-    footer: str | None = None,
-) -> Path:
-    from .plots import save_figure, series_figure
-
-    fig = series_figure(
-        shown,
-        drift_curve=drift,
-        outlier_indices=outliers,
-        analysis_time=moment,
-        title=title,
-        footer=footer,
-    )
-    return save_figure(fig, target, fmt)
-
-
-def _draw_stability(
-    target: Path,
-    fmt: str,
-    table: Any,
-    model: dict[str, tuple[np.ndarray, np.ndarray]],
     limits: Any,
     limits_statistic: str | None,
-    moment: datetime,
-    title: str | None = None,
-    footer: str | None = None,
-) -> Path:
-    from .plots import save_figure, stability_figure
+) -> dict[str, Path]:
+    """Write the text outputs and both figures of a run to the given paths."""
+    from .plots import save_figure, series_figure, stability_figure
 
-    fig = stability_figure(
-        table,
-        model_curve=model,
+    written = _write_texts(run, {name: paths[name] for name in _TEXT_NAMES})
+    plot = stability_figure(
+        run.table,
+        model_curve=run.model_curves(),
         limits=limits,
         limits_statistic=limits_statistic,
-        analysis_time=moment,
-        title=title,
-        footer=footer,
+        analysis_time=run.analysis_time,
     )
-    return save_figure(fig, target, fmt)
+    written["sigma_tau"] = save_figure(plot, paths["sigma_tau"], fmt)
+    shown, drift, outliers = run.series_inputs()
+    series = series_figure(
+        shown, drift_curve=drift, outlier_indices=outliers, analysis_time=run.analysis_time
+    )
+    written["series"] = save_figure(series, paths["series"], fmt)
+    return written
 
 
 #: The text outputs of an analysis.
@@ -416,17 +345,8 @@ def write_analysis(
 
     fmt = _check_plot_format(plot_format)
     out = ensure_folder(folder)
-    written = _write_texts(run, {name: out / name for name in _TEXT_NAMES})
-    written["sigma_tau"] = _draw_stability(
-        out / f"sigma_tau.{fmt}",
-        fmt,
-        run.table,
-        run.model_curves(),
-        limits,
-        limits_statistic,
-        run.analysis_time,
+    names = {name: name for name in _TEXT_NAMES}
+    names.update({name: f"{name}.{fmt}" for name in ("sigma_tau", "series")})
+    return _write_outputs(
+        run, {key: out / name for key, name in names.items()}, fmt, limits, limits_statistic
     )
-    written["series"] = _draw_series(
-        out / f"series.{fmt}", fmt, *run.series_inputs(), run.analysis_time
-    )
-    return written
