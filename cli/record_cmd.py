@@ -14,6 +14,7 @@ from typing import Annotated
 import typer
 
 from stability.files import refuse_overwrite
+from stability.reports.record import RECORD_NAMES, write_record
 from stability.reports.tables import format_tau, format_value, statistic_unit
 from stability.spec import judge, load_info, load_spec
 from stability.workflow import run_analysis, write_analysis
@@ -97,8 +98,6 @@ def record(
 
     Example: stability record counter.csv --spec spec.toml --info info.toml --out rec/
     """
-    from stability.reports.record import RECORD_NAMES, write_record  # matplotlib loads here
-
     the_spec = load_spec(spec)
     the_info = load_info(info)
     folder = out if out is not None else Path.cwd() / f"{log.name}-stability"

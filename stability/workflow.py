@@ -23,6 +23,7 @@ import numpy as np
 
 from .analysis import analyze
 from .errors import InputError
+from .figures import save_figure, series_figure, stability_figure
 from .ingest import read_log
 from .measurement import Measurement
 from .prepare import PreparationReport, prepare, require_variation
@@ -295,8 +296,6 @@ def _write_outputs(
     limits_statistic: str | None,
 ) -> dict[str, Path]:
     """Write the text outputs and both figures of a run to the given paths."""
-    from .plots import save_figure, series_figure, stability_figure
-
     written = _write_texts(run, {name: paths[name] for name in _TEXT_NAMES})
     plot = stability_figure(
         run.table,

@@ -49,6 +49,7 @@ from matplotlib.figure import Figure
 
 from .._version import __version__
 from ..errors import InputError
+from ..figures import series_figure, stability_figure
 from ..files import atomic_output, ensure_folder, jsonable, refuse_overwrite, settings_hash
 from ..spec import Info, Judgement, reference_contribution
 from .tables import format_tau, format_value, statistic_unit
@@ -448,8 +449,6 @@ def _table_pages(record: dict[str, Any]) -> list[Figure]:
 
 def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list[Figure]:
     """The pages of record.pdf as A4 figures, footers included."""
-    from ..plots import series_figure, stability_figure
-
     pages = [_identification_page(record)]
     plot = stability_figure(
         run.table,
@@ -461,7 +460,7 @@ def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list
     checks = ", ".join(f"{format_tau(c.tau_s)} {c.verdict}" for c in judgement.listed)
     pages.append(
         _image_page(
-            plot,
+            plot.figure,
             "Stability",
             f"Limits of {judgement.statistic} marked with their verdicts ({checks}). Error bars "
             f"are at the analysis confidence level {100 * run.table.confidence:.3g} %.",
@@ -474,7 +473,7 @@ def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list
     )
     pages.append(
         _image_page(
-            series,
+            series.figure,
             "Data over time",
             "Fractional frequency and phase residual as read; removed outliers are marked and "
             "gaps shaded.",
