@@ -41,6 +41,7 @@ from .style import (
     deviation_label,
     is_time_statistic,
     log_axes,
+    log_paper,
     new_figure,
     put_footer,
     short_name,
@@ -221,6 +222,7 @@ def overlay_figure(
         ax.set_xlabel(TAU_LABEL, fontsize=LABEL_SIZE)
         size = LABEL_SIZE if len(group) == 1 else SMALL_LABEL_SIZE
         ax.set_ylabel(deviation_label(group, several="titles"), fontsize=size)
+        log_paper(ax)
         if any(ax is a for a in panel.values()):
             ax.legend(fontsize=LEGEND_SIZE, frameon=False, loc="best")
     fig.suptitle(title or " vs ".join(checked), fontsize=TITLE_SIZE)

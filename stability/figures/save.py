@@ -75,6 +75,8 @@ def save_figure(
     metadata = {"Software": software} if fmt == "png" else {"Creator": software}
     if not isinstance(figure.canvas, FigureCanvasAgg):
         FigureCanvasAgg(figure)
+    # zlib level 3 instead of 6: a third less encoding time for files about 15 % larger
+    extra = {"pil_kwargs": {"compress_level": 3}} if fmt == "png" else {}
     with atomic_output(target, "wb") as handle:
-        figure.savefig(handle, format=fmt, dpi=dpi, metadata=metadata)
+        figure.savefig(handle, format=fmt, dpi=dpi, metadata=metadata, **extra)
     return target

@@ -65,6 +65,7 @@ from .style import (
     deviation_label,
     is_time_statistic,
     log_axes,
+    log_paper,
     new_figure,
     put_footer,
     short_name,
@@ -371,6 +372,7 @@ def _draw_panel(
     drawn = np.concatenate(points) if points else np.empty((0, 2))
     if drawn.size:
         _draw_slope_key(ax, names, drawn)
+    log_paper(ax)
     if entries > 1:
         ax.legend(fontsize=LEGEND_SIZE, frameon=False, loc="best")
 

@@ -12,9 +12,10 @@ Colours and markers
     Things that are not statistics (the oscillators of a three-cornered hat,
     the quantities of the data-over-time figure) take the whole palette.
 Type and layout
-    Font sizes, grid lines, the fixed margins of the figures with a known
-    arrangement, the resolution, and the footer strip (:func:`new_figure`,
-    :func:`put_footer`).
+    Font sizes, grid lines (on log-log panels the minor grid is one line
+    collection, :func:`log_paper`, since matplotlib's minor ticks are several
+    artists each), the fixed margins of the figures with a known arrangement,
+    the resolution, and the footer strip (:func:`new_figure`, :func:`put_footer`).
 Ticks
     Log axes are labelled in plain text with superscript powers of ten
     (10⁻¹², 2×10⁻¹², :class:`PowerLabels`); where the view holds fewer than
@@ -50,8 +51,10 @@ from typing import Literal
 import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure
-from matplotlib.ticker import Formatter, LogFormatter
+from matplotlib.ticker import Formatter, LogFormatter, NullLocator
+from matplotlib.transforms import blended_transform_factory
 
 from ..deviations.registry import get_statistic
 
@@ -93,6 +96,7 @@ __all__ = [
     "new_figure",
     "style_axes",
     "log_axes",
+    "log_paper",
     "put_footer",
 ]
 
@@ -281,6 +285,50 @@ def log_axes(ax: Axes, which: Literal["xy", "x", "y"] = "xy") -> None:
         axis = getattr(ax, f"{name}axis")
         axis.set_major_formatter(PowerLabels())
         axis.set_minor_formatter(PowerLabels(minor=True))
+
+
+#: An axis spanning more decades than this gets its minor grid as one line collection.
+_GRID_DECADES = 1.5
+
+
+def log_paper(ax: Axes) -> None:
+    """Minor grid lines at 2..9 x 10^k on a finished log-log panel, drawn as one collection.
+
+    Matplotlib builds several artists for every minor tick, which on a panel
+    spanning many decades is most of the drawing time of the figure. The
+    limits are fixed at their autoscaled values and the lines drawn for them,
+    looking as the ordinary minor grid does, without minor tick marks. An
+    axis spanning less than 1.5 decades keeps matplotlib's minor ticks, which
+    then carry labels (:class:`PowerLabels`). Call it after everything else
+    is drawn on the panel.
+    """
+    ax.autoscale_view()
+    for axis, vertical in ((ax.xaxis, True), (ax.yaxis, False)):
+        lo, hi = sorted(ax.get_xlim() if vertical else ax.get_ylim())
+        if not (lo > 0 and math.isfinite(hi)) or math.log10(hi / lo) < _GRID_DECADES:
+            continue
+        decades = 10.0 ** np.arange(math.floor(math.log10(lo)), math.ceil(math.log10(hi)) + 1)
+        at = (np.arange(2.0, 10.0)[None, :] * decades[:, None]).ravel()
+        at = at[(at > lo) & (at < hi)]
+        ends = np.zeros_like(at), np.ones_like(at)
+        if vertical:
+            pairs = np.stack([np.column_stack([at, ends[0]]), np.column_stack([at, ends[1]])], 1)
+            transform = blended_transform_factory(ax.transData, ax.transAxes)
+        else:
+            pairs = np.stack([np.column_stack([ends[0], at]), np.column_stack([ends[1], at])], 1)
+            transform = blended_transform_factory(ax.transAxes, ax.transData)
+        axis.set_minor_locator(NullLocator())
+        (ax.set_xlim if vertical else ax.set_ylim)(lo, hi)
+        grid = LineCollection(
+            pairs,
+            transform=transform,
+            colors=_MINOR_GRID["color"],
+            linewidths=_MINOR_GRID["linewidth"],
+            alpha=_MINOR_GRID["alpha"],
+            zorder=0.9,
+            gid="minor-grid",
+        )
+        ax.add_collection(grid, autolim=False)
 
 
 def put_footer(fig: Figure, text: str) -> None:
