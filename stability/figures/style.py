@@ -183,7 +183,7 @@ VERDICT_COLORS = {
     "not measured": "#9a9a9a",
 }
 
-#: Colours of series that are not statistics (oscillators, logs), in drawing order.
+#: Colours of series that are not statistics (the oscillators of a hat), in drawing order.
 ORDERED_COLORS = tuple(
     OKABE_ITO[c]
     for c in ("blue", "vermillion", "bluish green", "reddish purple", "sky blue", "orange", "black")

@@ -49,7 +49,7 @@ from matplotlib.figure import Figure
 
 from .._version import __version__
 from ..errors import InputError
-from ..figures import series_figure, stability_figure
+from ..figures import VERDICT_COLORS, series_figure, stability_figure
 from ..files import atomic_output, ensure_folder, jsonable, refuse_overwrite, settings_hash
 from ..spec import Info, Judgement, reference_contribution
 from .tables import format_tau, format_value, statistic_unit
@@ -264,14 +264,6 @@ def _wrap(text: str, width: int) -> str:
     return "\n".join(textwrap.wrap(text, width)) if text else ""
 
 
-_VERDICT_COLORS = {
-    "pass": "#1a7f37",
-    "fail": "#b42318",
-    "inconclusive": "#b54708",
-    "not measured": "#555555",
-}
-
-
 def _identification_page(record: dict[str, Any]) -> Figure:
     ident = record["identification"]
     spec = record["specification"]
@@ -351,7 +343,7 @@ def _identification_page(record: dict[str, Any]) -> Figure:
         weight="bold",
         ha="center",
         va="top",
-        color=_VERDICT_COLORS.get(verdict, "black"),
+        color=VERDICT_COLORS.get(verdict, "black"),
     )
     limited = record["reference_limited_taus"]
     if limited:
