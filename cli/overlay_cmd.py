@@ -34,6 +34,7 @@ import typer
 
 import stability
 from stability.errors import InputError
+from stability.figures import overlay_figure, save_figure
 from stability.files import atomic_write_text, ensure_folder
 from stability.reports.tables import table_csv, table_markdown, terminal_table
 from stability.run import AnalysisRun, run_analysis
@@ -294,11 +295,9 @@ def overlay(
     moment = datetime.now(UTC)
     folder = ensure_folder(out if out is not None else Path.cwd() / "overlay-stability")
     fmt = plot_format.lower()
-    from stability.plots import overlay_figure, save_figure  # matplotlib loads only here
-
-    fig = overlay_figure(tables, title=title, analysis_time=moment)
+    drawn = overlay_figure(tables, title=title, analysis_time=moment)
     written = [
-        save_figure(fig, folder / f"overlay.{fmt}", fmt),
+        save_figure(drawn, folder / f"overlay.{fmt}", fmt),
         atomic_write_text(folder / "table.csv", combined_csv(tables)),
         atomic_write_text(folder / "table.md", combined_markdown(tables)),
     ]

@@ -31,6 +31,7 @@ import typer
 
 import stability
 from stability.errors import InputError
+from stability.figures import phase_noise_figure, save_figure
 from stability.files import atomic_write_text, ensure_folder, jsonable, sha256_file
 from stability.phase_noise import (
     PhaseNoiseStability,
@@ -288,9 +289,7 @@ def phase_noise_command(
         f"inputs SHA-256 {', '.join(hashes)} · stability {stability.__version__} · "
         f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
     )
-    from stability.plots import phase_noise_figure, save_figure  # matplotlib loads only here
-
-    fig = phase_noise_figure(
+    drawn = phase_noise_figure(
         conversion,
         table=(offsets, level),
         measured=measured,
@@ -298,7 +297,7 @@ def phase_noise_command(
         title=f"stability from phase noise: {table.name}",
         footer=footer,
     )
-    written.append(save_figure(fig, folder / "phase_noise.png", "png"))
+    written.append(save_figure(drawn, folder / "phase_noise.png", "png"))
     if json_out:
         document = {
             "table": {"path": str(table), "sha256": sha},

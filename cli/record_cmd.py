@@ -14,6 +14,7 @@ from typing import Annotated
 import typer
 
 from stability.files import refuse_overwrite
+from stability.reports.record import RECORD_NAMES, write_record
 from stability.reports.tables import format_tau, format_value, statistic_unit
 from stability.run import run_analysis
 from stability.spec import judge, load_info, load_spec
@@ -98,8 +99,6 @@ def record(
 
     Example: stability record counter.csv --spec spec.toml --info info.toml --out rec/
     """
-    from stability.reports.record import RECORD_NAMES, write_record  # matplotlib loads here
-
     the_spec = load_spec(spec)
     the_info = load_info(info)
     folder = out if out is not None else Path.cwd() / f"{log.name}-stability"

@@ -23,6 +23,7 @@ import typer
 
 import stability
 from stability.errors import InputError
+from stability.figures import hat_figure, save_figure
 from stability.files import atomic_write_text, ensure_folder, jsonable
 from stability.hat import STATUS_OK, HatResult, separate
 from stability.measurement import Measurement
@@ -362,10 +363,8 @@ def separate_command(
             folder / "separated_pairs.csv", _csv(list(pair_frames[0].columns), pair_rows)
         )
     )
-    from stability.plots import hat_figure, save_figure  # matplotlib loads only here
-
-    fig = hat_figure(results, footer=_footer(inputs, moment))
-    written.append(save_figure(fig, folder / "separated.png", "png"))
+    drawn = hat_figure(results, footer=_footer(inputs, moment))
+    written.append(save_figure(drawn, folder / "separated.png", "png"))
     if json_out:
         document = {
             "settings": settings,

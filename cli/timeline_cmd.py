@@ -22,6 +22,7 @@ import typer
 import stability
 from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
 from stability.errors import InputError, StabilityWarning
+from stability.figures import save_figure, timeline_figure
 from stability.files import atomic_write_text, ensure_folder, jsonable
 from stability.reports.tables import format_tau, format_value
 from stability.run import read_and_prepare
@@ -201,10 +202,8 @@ def timeline_command(
         f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
     )
     written = [atomic_write_text(folder / "timeline.csv", timeline_csv(result))]
-    from stability.plots import save_figure, timeline_figure  # matplotlib loads only here
-
-    fig = timeline_figure(result, title=f"stability over time: {log.name}", footer=footer)
-    written.append(save_figure(fig, folder / "timeline.png", "png"))
+    drawn = timeline_figure(result, title=f"stability over time: {log.name}", footer=footer)
+    written.append(save_figure(drawn, folder / "timeline.png", "png"))
     summary = timeline_summary(result)
     removed = "no drift removed" if drift == "none" else f"{report.drift_model} drift removed"
     summary.append(

@@ -18,11 +18,11 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError
+from .figures import save_figure, series_figure, stability_figure
+from .figures.labels import default_footer, default_title
 from .files import atomic_write_text
 from .measurement import Measurement
 from .outputs import OutputSet
-from .plots import save_figure, series_figure, stability_figure
-from .reports.labels import default_footer, default_title
 from .reports.tables import table_csv, table_markdown
 from .run import (
     AnalysisRun,

@@ -49,8 +49,8 @@ from matplotlib.figure import Figure
 
 from .._version import __version__
 from ..errors import InputError
+from ..figures import VERDICT_COLORS, series_figure, stability_figure
 from ..files import atomic_output, ensure_folder, jsonable, refuse_overwrite, settings_hash
-from ..plots import series_figure, stability_figure
 from ..run import AnalysisRun
 from ..spec import Info, Judgement, reference_contribution
 from .tables import format_tau, format_value, statistic_unit
@@ -263,14 +263,6 @@ def _wrap(text: str, width: int) -> str:
     return "\n".join(textwrap.wrap(text, width)) if text else ""
 
 
-_VERDICT_COLORS = {
-    "pass": "#1a7f37",
-    "fail": "#b42318",
-    "inconclusive": "#b54708",
-    "not measured": "#555555",
-}
-
-
 def _identification_page(record: dict[str, Any]) -> Figure:
     ident = record["identification"]
     spec = record["specification"]
@@ -350,7 +342,7 @@ def _identification_page(record: dict[str, Any]) -> Figure:
         weight="bold",
         ha="center",
         va="top",
-        color=_VERDICT_COLORS.get(verdict, "black"),
+        color=VERDICT_COLORS.get(verdict, "black"),
     )
     limited = record["reference_limited_taus"]
     if limited:
@@ -448,7 +440,6 @@ def _table_pages(record: dict[str, Any]) -> list[Figure]:
 
 def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list[Figure]:
     """The pages of record.pdf as A4 figures, footers included."""
-
     pages = [_identification_page(record)]
     plot = stability_figure(
         run.table,
@@ -460,7 +451,7 @@ def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list
     checks = ", ".join(f"{format_tau(c.tau_s)} {c.verdict}" for c in judgement.listed)
     pages.append(
         _image_page(
-            plot,
+            plot.figure,
             "Stability",
             f"Limits of {judgement.statistic} marked with their verdicts ({checks}). Error bars "
             f"are at the analysis confidence level {100 * run.table.confidence:.3g} %.",
@@ -473,7 +464,7 @@ def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list
     )
     pages.append(
         _image_page(
-            series,
+            series.figure,
             "Data over time",
             "Fractional frequency and phase residual as read; removed outliers are marked and "
             "gaps shaded.",

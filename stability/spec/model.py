@@ -364,7 +364,7 @@ class Judgement:
         return [c for c in self.checks if c.listed]
 
     def plot_limits(self) -> list[tuple[float, float, str | None]]:
-        """``(tau_s, max, verdict)`` rows for :func:`stability.plots.stability_figure`."""
+        """``(tau_s, max, verdict)`` rows for :func:`stability.figures.stability_figure`."""
         return [
             (c.tau_s, c.limit, None if c.verdict is Verdict.NOT_MEASURED else c.verdict)
             for c in self.listed

@@ -1,4 +1,4 @@
-"""``stability overlay`` and :func:`stability.plots.overlay_figure`."""
+"""``stability overlay``: several logs on one plot (the figure: tests/figures)."""
 
 from __future__ import annotations
 
@@ -7,14 +7,11 @@ import json
 
 import numpy as np
 import pytest
-from matplotlib.colors import to_hex
 from typer.testing import CliRunner
 
 from cli.main import app
 from cli.overlay_cmd import PER_LOG_KEYS, parse_log_spec
-from stability import Measurement, analyze
 from stability.errors import InputError
-from stability.plots import overlay_figure
 from stability.simulate import h_from_deviation, simulate
 from stability.table import COLUMNS
 
@@ -141,50 +138,3 @@ def test_overlay_json_and_svg(logs, tmp_path):
     data = json.loads(result.stdout)
     assert data["labels"] == ["ocxo.csv", "rb.csv"]  # default labels: the file names
     assert (out / "overlay.svg").is_file()
-
-
-def _tables():
-    out = {}
-    for label, level, seed in (("a", 1e-11, 4), ("b", 2e-12, 5)):
-        y = simulate(1024, 1.0, levels={0: h_from_deviation(0, level, 1.0)}, seed=seed)
-        out[label] = analyze(Measurement.from_frequency(y, 1.0), stats="oadev,mdev,tdev")
-    return out
-
-
-def test_overlay_figure_draws_every_series():
-    tables = _tables()
-    fig = overlay_figure(tables, analysis_time=None)
-    assert set(fig.overlay_series) == {(lab, s) for lab in "ab" for s in ("oadev", "mdev", "tdev")}
-    # one colour per label, one marker per statistic
-    assert fig.overlay_colors["a"] != fig.overlay_colors["b"]
-    assert len(set(fig.overlay_markers.values())) == 3
-    # fractional statistics and TDEV (seconds) on separate panels
-    assert fig.overlay_axes[("a", "oadev")] is fig.overlay_axes[("b", "mdev")]
-    assert fig.overlay_axes[("a", "tdev")] is not fig.overlay_axes[("a", "oadev")]
-    ax = fig.overlay_axes[("a", "oadev")]
-    lines = {line.get_label(): line for line in ax.get_lines()}
-    assert to_hex(lines["a: OADEV"].get_color()) == fig.overlay_colors["a"]
-    assert lines["a: OADEV"].get_marker() == fig.overlay_markers["oadev"]
-    tau, dev, _, _ = fig.overlay_series[("a", "oadev")]
-    np.testing.assert_allclose(lines["a: OADEV"].get_xdata(), tau)
-    np.testing.assert_allclose(lines["a: OADEV"].get_ydata(), dev)
-    assert "Allan deviation" in ax.get_ylabel()
-    assert "time deviation" in fig.overlay_axes[("a", "tdev")].get_ylabel().lower()
-    footer = fig.texts[-1].get_text()
-    assert "a (no file hash)" in footer and "b (no file hash)" in footer
-
-
-def test_overlay_figure_subset_and_validation():
-    tables = _tables()
-    fig = overlay_figure(tables, stats="mdev", title="two oscillators")
-    assert set(fig.overlay_series) == {("a", "mdev"), ("b", "mdev")}
-    assert fig._suptitle.get_text() == "two oscillators"
-    assert "modified allan" in fig.overlay_axes[("a", "mdev")].get_ylabel().lower()
-    with pytest.raises(InputError, match="non-empty mapping"):
-        overlay_figure({})
-    with pytest.raises(InputError, match="must be a stability.StabilityTable"):
-        overlay_figure({"a": "table"})
-    with pytest.raises(InputError, match="hdev are in none of the tables"):
-        overlay_figure(tables, stats=["hdev"])
-    with pytest.raises(InputError, match="title must be a str"):
-        overlay_figure(tables, title=3)

@@ -1,8 +1,9 @@
 """Titles and footers of figures: which input, which tool version, when.
 
-Kept apart from :mod:`stability.plots` so that they can be decided without
-loading the plotting library (for example by a process that hands the drawing
-to a worker, :mod:`stability.background`).
+Every figure carries a footer naming its input (the SHA-256 prefix of the log
+file), the tool version and the analysis date, so that a figure separated from
+its folder can still be traced (DESIGN: provenance on every output). The
+helpers here build those texts without drawing anything.
 """
 
 from __future__ import annotations
@@ -12,10 +13,11 @@ from pathlib import Path
 from typing import Any
 
 from .._version import __version__
+from ..errors import InputError
 from ..measurement import Measurement
 from ..table import StabilityTable
 
-__all__ = ["analysis_date", "default_footer", "default_title", "tool_footer"]
+__all__ = ["analysis_date", "check_text", "default_footer", "default_title", "tool_footer"]
 
 
 def analysis_date(moment: datetime | None) -> str:
@@ -50,3 +52,10 @@ def tool_footer(analysis_time: datetime | None) -> str:
     """Footer of a figure drawn from several inputs or none: tool version and analysis date."""
 
     return f"stability {__version__} · analysed {analysis_date(analysis_time)}"
+
+
+def check_text(**texts: object) -> None:
+    """Raise an InputError naming the first of ``texts`` (title, footer) not a str or None."""
+    for name, value in texts.items():
+        if value is not None and not isinstance(value, str):
+            raise InputError(f"{name} must be a str or None, got {type(value).__name__}")

@@ -1,0 +1,59 @@
+"""Figures: one module per figure, one style module, all drawn with matplotlib.
+
+``style``        colours and markers per statistic, verdict colours, fonts, ticks,
+                 axis wording, margins, :func:`new_figure`, the :class:`Drawn` result
+``labels``       titles and footers (input SHA-256, tool version, analysis date)
+``sigma_tau``    the stability plot of one analysis (:func:`stability_figure`)
+``series``       the data over time (:func:`series_figure`)
+``hat``          the three-cornered hat (:func:`hat_figure`)
+``phase_noise``  stability from a phase-noise table (:func:`phase_noise_figure`)
+``timeline``     stability over time (:func:`timeline_figure`)
+``overlay``      several analyses on one plot (:func:`overlay_figure`)
+``save``         writing PNG, SVG or PDF atomically (:func:`save_figure`)
+
+Every figure function validates its input, draws on a new ``Figure`` with the
+Agg canvas (never pyplot's global state) and returns a frozen dataclass, a
+subclass of :class:`Drawn`: the figure, its data panels and the data as
+drawn. Importing this package loads matplotlib; nothing on the reading and
+analysis path imports it.
+"""
+
+from .hat import HatDrawn, hat_figure
+from .labels import analysis_date, default_footer, default_title, tool_footer
+from .overlay import OverlayDrawn, overlay_figure, overlay_footer
+from .phase_noise import PhaseNoiseDrawn, phase_noise_figure
+from .save import FORMATS, save_figure
+from .series import SeriesDrawn, envelope, series_figure
+from .sigma_tau import SLOPES, StabilityDrawn, slope_key, stability_figure, stability_series
+from .style import STATISTIC_STYLES, VERDICT_COLORS, Drawn, statistic_style
+from .timeline import TimelineDrawn, timeline_figure
+
+__all__ = [
+    "stability_figure",
+    "stability_series",
+    "slope_key",
+    "series_figure",
+    "envelope",
+    "hat_figure",
+    "phase_noise_figure",
+    "timeline_figure",
+    "overlay_figure",
+    "overlay_footer",
+    "save_figure",
+    "default_footer",
+    "default_title",
+    "tool_footer",
+    "analysis_date",
+    "statistic_style",
+    "Drawn",
+    "StabilityDrawn",
+    "SeriesDrawn",
+    "HatDrawn",
+    "PhaseNoiseDrawn",
+    "TimelineDrawn",
+    "OverlayDrawn",
+    "FORMATS",
+    "SLOPES",
+    "STATISTIC_STYLES",
+    "VERDICT_COLORS",
+]
