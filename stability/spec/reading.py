@@ -62,6 +62,12 @@ def _read_toml(path: str | os.PathLike[str], what: str) -> tuple[dict[str, Any],
         ) from None
     try:
         table = tomllib.loads(text)
+    except RecursionError:
+        raise SpecError(
+            f"the {what} file nests tables or arrays too deeply",
+            path=str(source),
+            hint="check the file; a specification nests at most a few levels",
+        ) from None
     except tomllib.TOMLDecodeError as exc:
         message = str(exc)
         found = re.search(r"\(at line (\d+), column (\d+)\)", message)
@@ -114,7 +120,10 @@ def _header_line(text: str | None, name: str) -> int:
 def _number(value: Any) -> float | None:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         return None
-    number = float(value)
+    try:
+        number = float(value)
+    except OverflowError:  # an integer of hundreds of digits
+        return None
     return number if math.isfinite(number) else None
 
 
