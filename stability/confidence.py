@@ -15,13 +15,19 @@ EDF models
   beyond ``Jmax = 100`` terms the paper's asymptotic forms (its tables 1-3) are
   used. The case structure follows the paper; the tables and the half-weighted
   end term of its eq. (10) agree with the independent implementation in
-  allantools, against which the tests check this code to 1e-6.
+  allantools, against which the tests check this code to 1e-6. At m = 1 every one
+  of these is the mean square of the N - d sampled d-th phase differences and the
+  exact EDF of the sampled power law is used instead
+  (:func:`~stability.confidence_models.increment_edf`): the paper's F = m filter
+  models phase averaged over tau0 and gives 17 to 24 % more degrees of freedom than
+  sampled WFM, FFM and RWFM noise has (a simulation test decides this).
 * Total variance: the empirical ``edf = b T/tau - c`` of Howe [3]_, NIST SP 1065
-  [2]_ (from memory), for WFM, FFM and RWFM. No model is published for WPM or FPM:
-  there the overlapping Allan EDF is used. TOTVAR has at least the EDF of OAVAR at
-  the same tau [3]_, so this is a conservative fallback.
+  [2]_ (from memory), for WFM, FFM and RWFM; at m = 1, where TOTDEV is OADEV, the
+  OADEV EDF. For WPM and FPM the reflected ends share their end samples and cost
+  degrees of freedom at long tau (far below OAVAR's): models fitted to the exact
+  moments (:func:`~stability.confidence_models.totvar_edf_pm`).
 * Modified total and time total variances: ``edf = b T/tau - c`` for all five
-  noise types [2]_ (from memory).
+  noise types [2]_ (from memory); at m = 1, where MTOT^2 = MVAR/2, MVAR's EDF.
 * Hadamard total variance: no EDF coefficients could be confirmed here, so the
   overlapping Hadamard EDF (Greenhall, d = 3, F = m, S = m) is used. HTOT has at
   least the EDF of OHVAR at the same tau, so this is conservative.
@@ -48,8 +54,10 @@ Bias
 ----
 The total and Theo1 estimators are biased against the Allan (or Hadamard,
 modified Allan) variance for some noise types; :func:`bias_factor` returns the
-factor B with corrected variance = raw variance / B [2]_, [3]_, [4]_ (from
-memory, see the project's reference notes).
+factor B with corrected variance = raw variance / B. The TOTVAR (WPM, FPM), MTOT
+and HTOT factors are exact ratios of expectations (:mod:`stability.confidence_models`);
+the TOTVAR FFM/RWFM and Theo1 factors are from [2]_, [3]_, [4]_ (from memory, see
+the project's reference notes).
 
 References
 ----------
@@ -80,6 +88,7 @@ from typing import Any
 
 import numpy as np
 
+from .confidence_models import htot_bias, increment_edf, mtot_bias, totvar_bias, totvar_edf_pm
 from .errors import InputError
 from .special import binomial, chi2_upper_quantile
 from .table import ConfidenceInterval
@@ -153,10 +162,8 @@ _TABLE3 = ((6.0, 4.0), (15.23, 12.0), (47.8, 40.0))
 _TOT_BC = {0: (1.50, 0.0), -1: (1.17, 0.22), -2: (0.93, 0.36)}
 _MTOT_BC = {2: (1.90, 2.10), 1: (1.20, 1.40), 0: (1.10, 1.20), -1: (0.85, 0.50), -2: (0.75, 0.31)}
 
-# Bias coefficients, SP 1065 [2] section 5.2.11-5.2.14 (from memory, see module docstring).
-_TOT_BIAS_A = {2: 0.0, 1: 0.0, 0: 0.0, -1: 0.481, -2: 0.750}  # TOTVAR/AVAR = 1 - a tau/T
-_MTOT_BIAS = {2: 0.94, 1: 0.83, 0: 0.73, -1: 0.70, -2: 0.69}  # MTOT/MVAR
-_HTOT_BIAS_A = {2: 0.0, 1: 0.0, 0: -0.005, -1: -0.149, -2: -0.229}  # HTOT/HVAR = 1 + a
+# TOTVAR, MTOT and HTOT bias: stability.confidence_models (exact moments; FFM and RWFM
+# TOTVAR from SP 1065 section 5.2.11). Theo1 (SP 1065, from memory):
 # AVAR/Theo1 = a + b / tau^c, tau in units of tau0 (= 0.75 m).
 _THEO1_BIAS = {
     2: (0.09, 0.74, 0.40),
@@ -458,6 +465,10 @@ def greenhall_edf(
 
 def _greenhall_for(statistic: str, alpha: int, m: int, n: int) -> float:
     d, modified, overlapping = _GREENHALL_KIND[statistic]
+    if m == 1:
+        # Every one of these is the mean square of the N - d d-th phase differences at
+        # m = 1: the exact EDF of the sampled power law (confidence_models.increment_edf).
+        return increment_edf(alpha, d, n - d) if n > d else 1.0
     f = 1.0 if modified else float(m)
     s = m if overlapping else 1
     if n < (m / f) + m * d:
@@ -489,14 +500,19 @@ def _edf_known(statistic: str, alpha: int, m: int, n: int) -> float:
         return math.nan
     ratio = (n - 1) / m  # T / tau with T = (N - 1) tau0
     if statistic == "totdev":
-        if alpha in _TOT_BC:
+        if m == 1:  # TOTDEV(tau0) is OADEV(tau0)
+            edf = _greenhall_for("oadev", alpha, 1, n)
+        elif alpha in _TOT_BC:
             b, c = _TOT_BC[alpha]
             edf = b * ratio - c
-        else:  # WPM / FPM: no TOTVAR model; OAVAR's EDF is a lower bound.
-            edf = _greenhall_for("oadev", alpha, m, n)
+        else:  # WPM / FPM: derived from the exact moments (confidence_models)
+            edf = totvar_edf_pm(alpha, m, n, _greenhall_for("oadev", alpha, m, n))
     elif statistic in ("mtot", "ttot"):
-        b, c = _MTOT_BC[alpha]
-        edf = b * ratio - c
+        if m == 1:  # MTOT(tau0)^2 = MVAR(tau0)/2 exactly: MVAR's EDF
+            edf = _greenhall_for("mdev", alpha, 1, n)
+        else:
+            b, c = _MTOT_BC[alpha]
+            edf = b * ratio - c
     elif statistic in ("theo1", "theobr", "theoh"):
         with np.errstate(all="ignore"):
             edf = _theo1_edf(alpha, m, n)
@@ -632,27 +648,33 @@ def chi2_interval(deviation: Any, edf: Any, confidence: float = 0.683) -> Confid
 def bias_factor(statistic: str, alpha: int | None, m: int, n: int) -> float:
     """Bias factor B of a statistic: corrected variance = raw variance / B.
 
-    * totdev: TOTVAR/AVAR = 1 - a tau/T, a = 0 (WPM, FPM, WFM), 0.481 (FFM),
-      0.750 (RWFM); T = (N - 1) tau0.
-    * mtot, ttot: MTOT/MVAR = 0.94, 0.83, 0.73, 0.70, 0.69 (WPM .. RWFM).
-    * htot: HTOT/HVAR = 1 + a, a = 0 (WPM, FPM), -0.005 (WFM), -0.149 (FFM),
-      -0.229 (RWFM).
+    * totdev: TOTVAR/AVAR (:func:`~stability.confidence_models.totvar_bias`): 1 at
+      m = 1; WPM 1 + 4(m - 1 + [m even])/(3(N - 2)) (exact); FPM
+      1 + (0.818 m - 0.37)/(N - 2); WFM 1; FFM, RWFM 1 - a tau/T, a = 0.481, 0.750,
+      T = (N - 1) tau0.
+    * mtot, ttot: MTOT/MVAR (:func:`~stability.confidence_models.mtot_bias`): 1/2 at
+      m = 1 (exact for any data), the exact ratio for m >= 2 (about 0.995, 0.851,
+      0.771, 0.718, 0.679, WPM .. RWFM).
+    * htot: HTOT/HVAR (:func:`~stability.confidence_models.htot_bias`): 1 at m = 1
+      (HTOT is OHDEV there), the exact ratio for m >= 2 (WPM 1.25-1.38, FPM
+      1.11-1.28, WFM 0.995, FFM 0.85, RWFM 0.77).
     * theo1: AVAR/Theo1 = a + b / tau^c (tau = 0.75 m in units of tau0), so
       B = 1 / (a + b / tau^c).
 
-    Sources: NIST SP 1065 sections 5.2.11-5.2.14 and Howe's papers (coefficients
-    from memory, see the module docstring). Every other statistic, and an unknown
+    Sources: exact moments of the estimators (stability.confidence_models), NIST SP
+    1065 sections 5.2.11 and 5.2.14 and Howe's papers (Theo1 and the FFM/RWFM TOTVAR
+    coefficients from memory, see the module docstring). Every other statistic, and an unknown
     alpha, gives 1.0 (no correction).
     """
     statistic, alpha, m, n = _validate_edf_for(statistic, alpha, m, n)
     if alpha is None or statistic not in BIAS_CORRECTED:
         return 1.0
     if statistic == "totdev":
-        return 1.0 - _TOT_BIAS_A[alpha] * min(m / (n - 1), 1.0)
+        return totvar_bias(alpha, m, n)
     if statistic in ("mtot", "ttot"):
-        return _MTOT_BIAS[alpha]
+        return mtot_bias(alpha, m)
     if statistic == "htot":
-        return 1.0 + _HTOT_BIAS_A[alpha]
+        return htot_bias(alpha, m)
     a, b, c = _THEO1_BIAS[alpha]
     ratio = a + b / (0.75 * m) ** c
     return 1.0 / ratio if ratio > 0 else 1.0
