@@ -103,6 +103,7 @@ __all__ = [
     "bias_factor",
     "barnes_b2",
     "simple_oadev_edf",
+    "theo1_interval",
 ]
 
 #: Statistic identifiers :func:`edf_for` and :func:`bias_factor` understand.
@@ -678,6 +679,70 @@ def bias_factor(statistic: str, alpha: int | None, m: int, n: int) -> float:
     a, b, c = _THEO1_BIAS[alpha]
     ratio = a + b / (0.75 * m) ** c
     return 1.0 / ratio if ratio > 0 else 1.0
+
+
+def theo1_interval(
+    raw_deviation: float,
+    alpha: int,
+    m: int,
+    n: int,
+    confidence: float = 0.683,
+    *,
+    uncertain: bool | float = True,
+) -> tuple[float, ConfidenceInterval, tuple[int, ...]]:
+    """Theo1 deviation and an interval that covers the plausible noise types.
+
+    Theo1's bias factor (AVAR/Theo1 = a + b/tau^c) changes by a factor of up to 3
+    between neighbouring noise types at long tau, so a missed identification moves
+    the corrected value far more than its chi-squared interval is wide. When the
+    identification is uncertain, the interval returned is the union of the
+    intervals for the identified type and its neighbours alpha - 1 and alpha + 1
+    (within -2..2), each with its own bias correction and EDF; the point estimate
+    stays the one for the identified type.
+
+    Parameters
+    ----------
+    raw_deviation
+        Theo1 deviation before any bias correction.
+    alpha
+        Identified power-law exponent, -2..2.
+    m, n
+        Averaging factor (tau = 0.75 m tau0) and number of phase samples.
+    confidence
+        Two-sided confidence level.
+    uncertain
+        True: take the union with the neighbours; False: the identified type only; a
+        number in [0, 1]: the probability that a neighbouring type is the true one,
+        and the neighbours are taken when it is at least 0.05.
+
+    Returns
+    -------
+    (deviation, interval, alphas)
+        The bias-corrected deviation for ``alpha``, the interval, and the noise types
+        whose intervals it joins.
+    """
+    statistic, alpha, m, n = _validate_edf_for("theo1", alpha, m, n)
+    if alpha is None:
+        raise InputError("alpha must be an identified type in -2..2 for theo1_interval")
+    if isinstance(uncertain, bool):
+        wide = uncertain
+    elif isinstance(uncertain, Real) and 0.0 <= float(uncertain) <= 1.0:
+        wide = float(uncertain) >= 0.05
+    else:
+        raise InputError(
+            f"uncertain must be True, False or a probability in [0, 1], got {uncertain!r}"
+        )
+    alphas = tuple(a for a in (alpha - 1, alpha, alpha + 1) if -2 <= a <= 2) if wide else (alpha,)
+    lows, highs = [], []
+    point = math.nan
+    for a in alphas:
+        dev = float(raw_deviation) / math.sqrt(bias_factor(statistic, a, m, n))
+        low, high = chi2_interval(dev, edf_for(statistic, a, m, n), confidence)
+        lows.append(low)
+        highs.append(high)
+        if a == alpha:
+            point = dev
+    return point, ConfidenceInterval(min(lows), max(highs)), alphas
 
 
 # --------------------------------------------------------------------------- other forms
