@@ -16,29 +16,29 @@ EDF models
   beyond ``Jmax = 100`` terms the paper's asymptotic forms (its tables 1-3) are
   used. The case structure follows the paper; the tables and the half-weighted
   end term of its eq. (10) agree with the independent implementation in
-  allantools, against which the tests check this code to 1e-6.
+  allantools, against which the tests check this code to 1e-6. At m = 1 every one
+  of these is the mean square of the N - d sampled d-th phase differences and the
+  exact EDF of the sampled power law is used instead
+  (:func:`~stability.confidence_models.increment_edf`): the paper's F = m filter
+  models phase averaged over tau0 and gives 17 to 24 % more degrees of freedom than
+  sampled WFM, FFM and RWFM noise has (a simulation test decides this).
 * Total variance: the empirical ``edf = b T/tau - c`` of Howe [3]_, NIST SP 1065
-  [2]_ (from memory), for WFM, FFM and RWFM. No model is published for WPM or FPM:
-  there the overlapping Allan EDF is used. TOTVAR has at least the EDF of OAVAR at
-  the same tau [3]_, so this is a conservative fallback.
+  [2]_ (from memory), for WFM, FFM and RWFM; at m = 1, where TOTDEV is OADEV, the
+  OADEV EDF. For WPM and FPM the reflected ends share their end samples and cost
+  degrees of freedom at long tau (far below OAVAR's): models fitted to the exact
+  moments (:func:`~stability.confidence_models.totvar_edf_pm`).
 * Modified total and time total variances: ``edf = b T/tau - c`` for all five
-  noise types [2]_ (from memory).
+  noise types [2]_ (from memory); at m = 1, where MTOT^2 = MVAR/2, MVAR's EDF.
 * Hadamard total variance: no EDF coefficients could be confirmed here, so the
   overlapping Hadamard EDF (Greenhall, d = 3, F = m, S = m) is used. HTOT has at
   least the EDF of OHVAR at the same tau, so this is conservative.
 * Theo1, TheoBR, ThêoH: Howe's Theo1 EDF formulas with r = 0.75 m [4]_ (from
   memory, see the project's reference notes). For FPM no formula is at hand: the
-  smaller of the WPM and WFM values (its neighbours) is used. ThêoH at taus where
-  it is computed as OADEV is qualified by the caller as ``oadev``.
+  smaller of the WPM and WFM values (its neighbours) is used.
 * Parabolic variance: the modified Allan EDF (Greenhall, d = 2, F = 1, S = m).
   This is a fallback recalled, not read, from Vernotte et al. [5]_, who report
   PVAR confidence close to that of MVAR (from memory).
-* MTIE and TIE rms are not chi-squared distributed: their EDF is NaN.
-
-When the noise type is unknown (``alpha=None``) the smallest EDF over
-alpha = -2..2 is used, i.e. the widest interval. Every EDF where a model applies
-is finite and at least 1 (smaller values, which empirical formulas give near the
-end of the record, are raised to 1).
+* MTIE and TIE rms are not chi-squared distributed: no EDF (the registry says so).
 
 The chi-squared interval that follows from an EDF is
 :func:`stability.intervals.chi2_interval`.
@@ -46,9 +46,11 @@ The chi-squared interval that follows from an EDF is
 Bias
 ----
 The total and Theo1 estimators are biased against the Allan (or Hadamard,
-modified Allan) variance for some noise types; :func:`bias_factor` returns the
-factor B with corrected variance = raw variance / B [2]_, [3]_, [4]_ (from
-memory, see the project's reference notes).
+modified Allan) variance for some noise types; each bias rule returns the factor
+B with corrected variance = raw variance / B. The TOTVAR (WPM, FPM), MTOT and
+HTOT factors are exact ratios of expectations (:mod:`stability.confidence_models`);
+the TOTVAR FFM/RWFM and Theo1 factors are from [2]_, [3]_, [4]_ (from memory, see
+the project's reference notes).
 
 References
 ----------
@@ -79,6 +81,7 @@ from typing import Any
 
 import numpy as np
 
+from . import confidence_models as exact
 from .errors import InputError
 
 __all__ = [
@@ -94,7 +97,6 @@ __all__ = [
     "theo1_bias",
     "check_alpha",
     "check_row",
-    "barnes_b2",
     "simple_oadev_edf",
 ]
 
@@ -131,10 +133,6 @@ _TABLE3 = ((6.0, 4.0), (15.23, 12.0), (47.8, 40.0))
 _TOT_BC = {0: (1.50, 0.0), -1: (1.17, 0.22), -2: (0.93, 0.36)}
 _MTOT_BC = {2: (1.90, 2.10), 1: (1.20, 1.40), 0: (1.10, 1.20), -1: (0.85, 0.50), -2: (0.75, 0.31)}
 
-# Bias coefficients, SP 1065 [2] section 5.2.11-5.2.14 (from memory, see module docstring).
-_TOT_BIAS_A = {2: 0.0, 1: 0.0, 0: 0.0, -1: 0.481, -2: 0.750}  # TOTVAR/AVAR = 1 - a tau/T
-_MTOT_BIAS = {2: 0.94, 1: 0.83, 0: 0.73, -1: 0.70, -2: 0.69}  # MTOT/MVAR
-_HTOT_BIAS_A = {2: 0.0, 1: 0.0, 0: -0.005, -1: -0.149, -2: -0.229}  # HTOT/HVAR = 1 + a
 # AVAR/Theo1 = a + b / tau^c, tau in units of tau0 (= 0.75 m).
 _THEO1_BIAS = {
     2: (0.09, 0.74, 0.40),
@@ -419,6 +417,13 @@ class GreenhallModel:
     overlapping: bool
 
     def __call__(self, alpha: int, m: int, n: int) -> float:
+        if m == 1:
+            # At m = 1 each of these variances is the mean square of the N - d sampled
+            # d-th phase differences: the exact EDF of the sampled power law
+            # (confidence_models.increment_edf). The paper's F = m filter models phase
+            # averaged over tau0 and gives 17 to 24 % more degrees of freedom than
+            # sampled WFM, FFM and RWFM noise has (tests/test_confidence_exact.py).
+            return exact.increment_edf(alpha, self.d, n - self.d) if n > self.d else 1.0
         f = 1.0 if self.modified else float(m)
         s = m if self.overlapping else 1
         if n < (m / f) + m * self.d:
@@ -428,23 +433,30 @@ class GreenhallModel:
 
 
 _OADEV_MODEL = GreenhallModel(2, modified=False, overlapping=True)
+_MDEV_MODEL = GreenhallModel(2, modified=True, overlapping=True)
 
 
 def totvar_edf(alpha: int, m: int, n: int) -> float:
-    """TOTVAR EDF ``b T/tau - c`` (NIST SP 1065 [2]_, table 11; from memory).
+    """TOTVAR EDF.
 
-    Coefficients for WFM, FFM and RWFM; WPM and FPM have no published model here
-    and take the overlapping Allan EDF, a lower bound (TOTVAR has at least the EDF
-    of OAVAR at the same tau [3]_).
+    At m = 1, where TOTDEV is OADEV, OADEV's. For WFM, FFM and RWFM the empirical
+    ``b T/tau - c`` of NIST SP 1065 [2]_ table 11 (from memory); for WPM and FPM the
+    models fitted to the exact moments (:func:`confidence_models.totvar_edf_pm`):
+    the reflected ends cost degrees of freedom at long tau, far below OAVAR's.
     """
+    if m == 1:
+        return _OADEV_MODEL(alpha, 1, n)
     if alpha not in _TOT_BC:
-        return _OADEV_MODEL(alpha, m, n)
+        return exact.totvar_edf_pm(alpha, m, n, _OADEV_MODEL(alpha, m, n))
     b, c = _TOT_BC[alpha]
     return b * (n - 1) / m - c  # T / tau with T = (N - 1) tau0
 
 
 def mtot_edf(alpha: int, m: int, n: int) -> float:
-    """MTOT and TTOT EDF ``b T/tau - c`` for all five types (SP 1065 [2]_ table 12; from memory)."""
+    """MTOT and TTOT EDF: MVAR's at m = 1 (MTOT^2 = MVAR/2 there); for m >= 2
+    ``b T/tau - c`` for all five types (SP 1065 [2]_ table 12; from memory)."""
+    if m == 1:
+        return _MDEV_MODEL(alpha, 1, n)
     b, c = _MTOT_BC[alpha]
     return b * (n - 1) / m - c
 
@@ -481,18 +493,21 @@ def theo1_edf(alpha: int, m: int, n: int) -> float:
 
 
 def totvar_bias(alpha: int, m: int, n: int) -> float:
-    """TOTVAR/AVAR = 1 - a tau/T, a = 0 (WPM, FPM, WFM), 0.481 (FFM), 0.750 (RWFM)."""
-    return 1.0 - _TOT_BIAS_A[alpha] * min(m / (n - 1), 1.0)
+    """TOTVAR/AVAR (:func:`confidence_models.totvar_bias`): 1 at m = 1; WPM exact, FPM a
+    fit to the exact ratio, WFM 1, FFM and RWFM 1 - a tau/T (SP 1065, from memory)."""
+    return exact.totvar_bias(alpha, m, n)
 
 
 def mtot_bias(alpha: int, m: int, n: int) -> float:
-    """MTOT/MVAR = 0.94, 0.83, 0.73, 0.70, 0.69 (WPM .. RWFM)."""
-    return _MTOT_BIAS[alpha]
+    """MTOT/MVAR: 1/2 at m = 1 (exact for any data), the exact ratio of expectations
+    for m >= 2 (about 0.995, 0.851, 0.771, 0.718, 0.679, WPM .. RWFM)."""
+    return exact.mtot_bias(alpha, m)
 
 
 def htot_bias(alpha: int, m: int, n: int) -> float:
-    """HTOT/HVAR = 1 + a, a = 0 (WPM, FPM), -0.005 (WFM), -0.149 (FFM), -0.229 (RWFM)."""
-    return 1.0 + _HTOT_BIAS_A[alpha]
+    """HTOT/HVAR: 1 at m = 1 (HTOT is OHDEV), the exact ratio for m >= 2 (WPM
+    1.25-1.38, FPM 1.11-1.28, WFM 0.995, FFM 0.85, RWFM 0.77)."""
+    return exact.htot_bias(alpha, m)
 
 
 def theo1_bias(alpha: int, m: int, n: int) -> float:
@@ -503,57 +518,6 @@ def theo1_bias(alpha: int, m: int, n: int) -> float:
 
 
 # --------------------------------------------------------------------------- other forms
-
-
-def _validate_b2(r: Any, mu: Any) -> tuple[np.ndarray, float]:
-    try:
-        rr = np.asarray(r, dtype=float)
-    except (TypeError, ValueError):
-        raise InputError(f"r must be a positive number or array, got {r!r}") from None
-    if rr.size == 0 or not np.all(np.isfinite(rr) & (rr > 0)):
-        raise InputError(f"r (T/tau) must be finite and > 0, got {r!r}")
-    if isinstance(mu, bool) or not isinstance(mu, Real) or not -2.0 <= float(mu) < 2.0:
-        raise InputError(f"mu must be a number in [-2, 2), got {mu!r}")
-    return rr, float(mu)
-
-
-def barnes_b2(r: Any, mu: float) -> Any:
-    """Barnes' bias function B2(r, mu) for dead time between measurements.
-
-    B2 = AVAR with dead time / AVAR without, for r = T/tau (T the repetition
-    interval, tau the averaging time) and mu = -alpha - 1 (NBS TN 375)::
-
-        B2(r, mu) = [(r+1)^(mu+2) - 2 r^(mu+2) + |r-1|^(mu+2) - 2] / [4 (2^mu - 1)]
-
-    At mu = 0 (FFM) the expression is 0/0; its limit is used,
-    [(r+1)^2 ln(r+1) - 2 r^2 ln r + (r-1)^2 ln|r-1|] / (4 ln 2). ``|r-1|^(mu+2)``
-    is taken as 0 at r = 1 (its limit for mu > -2), so B2(1, mu) = 1.
-
-    Parameters
-    ----------
-    r
-        Ratio T/tau > 0, scalar or array.
-    mu
-        Exponent in [-2, 2).
-
-    References
-    ----------
-    .. [1] J. A. Barnes, NBS Technical Note 375 (1969).
-    """
-    rr, mu = _validate_b2(r, mu)
-    e = mu + 2.0
-    near = np.abs(rr - 1.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        if mu == 0.0:
-
-            def xlx(v: np.ndarray) -> np.ndarray:
-                return v * v * np.log(np.where(v > 0, v, 1.0))
-
-            out = (xlx(rr + 1.0) - 2.0 * xlx(rr) + xlx(near)) / (4.0 * math.log(2.0))
-        else:
-            tail = np.where(near > 0, near ** np.where(near > 0, e, 1.0), 0.0)
-            out = ((rr + 1.0) ** e - 2.0 * rr**e + tail - 2.0) / (4.0 * (2.0**mu - 1.0))
-    return float(out) if out.ndim == 0 else out
 
 
 def _validate_simple(alpha: Any, m: Any, n: Any) -> tuple[int, int, int]:

@@ -77,15 +77,55 @@ def _never_whiter(
 
 
 def _rows(stat: Statistic, result: StatisticResult, alpha: np.ndarray, n_eff: int):
-    """EDF and bias factor (on the deviation) of every row."""
+    """EDF, bias factor (on the deviation) and EDF record length of every row."""
     edf = np.empty(len(result))
     factor = np.ones(len(result))
+    points = np.empty(len(result), dtype=np.int64)
     for k, m in enumerate(result.m):
         a = None if math.isnan(alpha[k]) else int(alpha[k])
-        n_row = stat.row_points(int(m), int(result.n_terms[k]), n_eff)
-        edf[k] = stat.edf_for(a, int(m), n_row)
+        points[k] = stat.row_points(int(m), int(result.n_terms[k]), n_eff)
+        edf[k] = stat.edf_for(a, int(m), int(points[k]))
         factor[k] = 1.0 / math.sqrt(stat.bias_factor(a, int(m), n_eff))
-    return edf, factor
+    return edf, factor, points
+
+
+#: Fewest averages (N/m) at which an identification by the lag-1 method counts as
+#: settled for a bias correction that depends on the noise type.
+SETTLED_AVERAGES = 128
+
+
+def _uncertain_rows(stat: Statistic, result: StatisticResult, alpha, methods, n_eff) -> list[int]:
+    """Rows of a bias-corrected statistic whose noise type is not settled."""
+    if stat.bias is None:
+        return []
+    return [
+        k
+        for k, m in enumerate(result.m)
+        if not math.isnan(alpha[k]) and (methods[k] != "acf" or n_eff / float(m) < SETTLED_AVERAGES)
+    ]
+
+
+def _widen(stat, result, alpha, edf_points, n_eff, confidence, rows, low, high) -> str | None:
+    """Intervals over the plausible types (identified +-1) at the unsettled rows, in place."""
+    for k in rows:
+        a = int(alpha[k])
+        plausible = [b for b in (a - 1, a, a + 1) if -2 <= b <= 2]
+        (lo, hi), _ = stat.interval_over_types(
+            float(result.raw_deviation[k]),
+            plausible,
+            int(result.m[k]),
+            n_eff,
+            confidence,
+            edf_points=int(edf_points[k]),
+        )
+        low[k], high[k] = min(low[k], lo), max(high[k], hi)
+    if not rows:
+        return None
+    taus = ", ".join(f"{result.tau[k]:g}" for k in rows)
+    return (
+        f"{stat.name}: at tau {taus} s the noise type is not settled; the interval spans "
+        "the bias corrections of the neighbouring noise types"
+    )
 
 
 def qualify_result(
@@ -117,11 +157,16 @@ def qualify_result(
     ratchet = _never_whiter(stat.name, result.tau, alpha, labels)
     if ratchet:
         notes.append(ratchet)
-    edf, factor = _rows(stat, result, alpha, effective_points(measurement))
+    n_eff = effective_points(measurement)
+    edf, factor, points = _rows(stat, result, alpha, n_eff)
     deviation = result.raw_deviation * factor
     if np.any(factor != 1.0):
         notes.append(f"{stat.name}: bias-corrected for the identified noise type")
-    low, high = chi2_interval(deviation, edf, confidence)
+    low, high = (np.array(v, dtype=float) for v in chi2_interval(deviation, edf, confidence))
+    rows = _uncertain_rows(stat, result, alpha, noise.method, n_eff)
+    widened = _widen(stat, result, alpha, points, n_eff, confidence, rows, low, high)
+    if widened:
+        notes.append(widened)
     return dataclasses.replace(
         result,
         deviation=deviation,
@@ -129,8 +174,8 @@ def qualify_result(
         alpha=alpha,
         noise=tuple(labels),
         noise_method=tuple(noise.method),
-        ci_low=np.asarray(low, dtype=float),
-        ci_high=np.asarray(high, dtype=float),
+        ci_low=low,
+        ci_high=high,
         bias_factor=factor,
         confidence=confidence,
         notes=tuple(notes),

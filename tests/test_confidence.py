@@ -11,7 +11,9 @@ import pytest
 from scipy.stats import binomtest, chi2
 
 from stability import confidence as conf
-from stability.confidence import barnes_b2, greenhall_edf, simple_oadev_edf
+from stability.confidence import greenhall_edf, simple_oadev_edf
+from stability.confidence_models import increment_edf, totvar_edf_pm
+from stability.dead_time import barnes_b2
 from stability.deviations import STATISTICS, bias_factor, edf_for, edf_many, statistic_names
 from stability.errors import InputError
 from stability.intervals import ConfidenceInterval, chi2_interval
@@ -212,7 +214,12 @@ def test_fpm_large_m_keeps_its_digits():
 
 def test_edf_for_dispatch():
     n = 1000
-    for m in (1, 4, 30, 200):
+    for a in ALPHAS:  # m = 1: the exact EDF of the N - d sampled d-th differences
+        for stat in ("adev", "oadev", "mdev", "tdev", "totdev", "mtot", "ttot"):
+            assert edf_for(stat, a, 1, n) == increment_edf(a, 2, n - 2)
+        for stat in ("hdev", "ohdev", "htot"):
+            assert edf_for(stat, a, 1, n) == increment_edf(a, 3, n - 3)
+    for m in (2, 4, 30, 200):
         for a in ALPHAS:
             assert edf_for("adev", a, m, n) == greenhall_edf(a, 2, m, n, F=m, S=1)
             assert edf_for("oadev", a, m, n) == greenhall_edf(a, 2, m, n, F=m, S=m)
@@ -237,8 +244,11 @@ def test_total_family_formulas():
     assert edf_for("totdev", 0, m, n) == pytest.approx(1.50 * ratio)
     assert edf_for("totdev", -1, m, n) == pytest.approx(1.17 * ratio - 0.22)
     assert edf_for("totdev", -2, m, n) == pytest.approx(0.93 * ratio - 0.36)
-    for a in (2, 1):  # no TOTVAR model: the OADEV EDF
-        assert edf_for("totdev", a, m, n) == edf_for("oadev", a, m, n)
+    for a in (2, 1):  # WPM, FPM: models from the exact moments (tests/test_confidence_exact.py)
+        oadev_edf = edf_for("oadev", a, m, n)
+        assert edf_for("totdev", a, m, n) == totvar_edf_pm(a, m, n, oadev_edf)
+        # the reflected ends cost degrees of freedom at long tau (m = N/4)
+        assert edf_for("totdev", a, 250, n) < edf_for("oadev", a, 250, n)
     for a, (b, c) in zip(
         ALPHAS, [(1.90, 2.10), (1.20, 1.40), (1.10, 1.20), (0.85, 0.50), (0.75, 0.31)], strict=True
     ):
@@ -417,17 +427,18 @@ def test_chi2_interval_coverage_overlapping_allan_white_fm():
 
 
 def test_bias_factors_at_tabulated_values():
-    # NIST SP 1065 sections 5.2.11-5.2.14 (all values below from memory).
+    # TOTVAR FFM/RWFM: NIST SP 1065 section 5.2.11 (from memory); the rest are exact
+    # ratios of expectations (tests/quadform.py; checked in tests/test_confidence_exact.py).
     n, m = 1001, 100  # tau/T = 0.1
     assert bias_factor("totdev", 0, m, n) == 1.0
-    assert bias_factor("totdev", 2, m, n) == 1.0
+    assert bias_factor("totdev", 2, m, n) == pytest.approx(1 + 4 * 100 / (3 * 999))
     assert bias_factor("totdev", -1, m, n) == pytest.approx(1 - 0.481 * 0.1)
     assert bias_factor("totdev", -2, m, n) == pytest.approx(1 - 0.750 * 0.1)
-    for a, b in zip(ALPHAS, (0.94, 0.83, 0.73, 0.70, 0.69), strict=True):
-        assert bias_factor("mtot", a, m, n) == b
-        assert bias_factor("ttot", a, m, n) == b
-    for a, b in zip(ALPHAS, (1.0, 1.0, 0.995, 0.851, 0.771), strict=True):
-        assert bias_factor("htot", a, m, n) == pytest.approx(b)
+    for a, b in zip(ALPHAS, (0.9953, 0.8506, 0.7705, 0.7173, 0.6787), strict=True):
+        assert bias_factor("mtot", a, m, n) == pytest.approx(b, abs=5e-4)
+        assert bias_factor("ttot", a, m, n) == bias_factor("mtot", a, m, n)
+    for a, b in zip(ALPHAS, (1.3779, 1.2613, 0.9953, 0.8506, 0.7705), strict=True):
+        assert bias_factor("htot", a, m, n) == pytest.approx(b, abs=5e-4)
     # Theo1: AVAR/Theo1 = a + b/tau^c, tau = 0.75 m; corrected = raw / B = raw (a + b/tau^c)
     # (NIST SP 1065, coefficients from memory).
     m = 8

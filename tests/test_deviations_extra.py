@@ -90,10 +90,14 @@ def test_degenerate_arguments_give_nan():
     [(1, 75.50203, 43.59112), (2, 75.83606, 87.56794)],
 )
 def test_nbs14_mtot_ttot_from_memory(m, mtot_ref, ttot_ref):
-    bias = math.sqrt(0.73)  # MTOT WFM bias factor (SP 1065, from memory)
-    assert mtot(NBS14_X, 1.0, m)[0] / bias == pytest.approx(mtot_ref, rel=2e-7)
-    assert ttot(NBS14_X, 1.0, m)[0] / bias == pytest.approx(ttot_ref, rel=2e-7)
+    # The recalled values are corrected ones: raw / sqrt(0.73), the handbook's WFM factor
+    # (from memory). Compare the raw estimate with the raw value they imply.
+    raw = math.sqrt(0.73)
+    assert mtot(NBS14_X, 1.0, m)[0] == pytest.approx(mtot_ref * raw, rel=2e-7)
+    assert ttot(NBS14_X, 1.0, m)[0] == pytest.approx(ttot_ref * raw, rel=2e-7)
     assert mtot(NBS14_X, 1.0, m)[1] == 10 - 3 * m + 1
+    if m == 1:  # raw MTOT(tau0) = MDEV(tau0)/sqrt(2) = 91.22945/sqrt(2) (SP 1065 MDEV value)
+        assert mtot(NBS14_X, 1.0, 1)[0] == pytest.approx(91.22945 / math.sqrt(2), rel=1e-7)
 
 
 def test_nbs14_htot_m1_is_ohdev():

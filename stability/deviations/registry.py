@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import difflib
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -33,6 +33,7 @@ from ..confidence import (
     totvar_edf,
 )
 from ..errors import InputError
+from ..intervals import ConfidenceInterval, chi2_interval
 from . import allan, hadamard, parabolic, theo, time_error, total
 
 __all__ = [
@@ -161,6 +162,34 @@ class Statistic:
         if not math.isfinite(value) or value < 1.0:
             return 1.0
         return float(value)
+
+    def interval_over_types(
+        self,
+        raw_deviation: float,
+        alphas: Sequence[int],
+        m: int,
+        n: int,
+        confidence: float,
+        edf_points: int | None = None,
+    ) -> tuple[ConfidenceInterval, tuple[int, ...]]:
+        """The union of the intervals for several plausible noise types.
+
+        A bias correction that depends on the noise type (Theo1's changes by up to
+        a factor of 3 between neighbouring types at long tau) moves the corrected
+        value more than its chi-squared interval is wide when the type is missed.
+        Where the identification is uncertain, the interval is taken over every
+        plausible type, each with its own bias correction and EDF; the point
+        estimate stays that of the identified type. ``edf_points`` is the record
+        length for the EDF model (default ``n``).
+        """
+        lows, highs = [], []
+        for a in alphas:
+            dev = float(raw_deviation) / math.sqrt(self.bias_factor(a, m, n))
+            edf = self.edf_for(a, m, n if edf_points is None else edf_points)
+            low, high = chi2_interval(dev, edf, confidence)
+            lows.append(low)
+            highs.append(high)
+        return ConfidenceInterval(min(lows), max(highs)), tuple(alphas)
 
     def bias_factor(self, alpha: Any, m: Any, n: Any) -> float:
         """Bias factor B (corrected variance = raw / B); 1 when unbiased or alpha unknown."""
