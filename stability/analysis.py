@@ -226,6 +226,7 @@ def analyze(
     f_h: float | None = None,
     offset_source: Measurement | None = None,
     on_step: Callable[[str], None] | None = None,
+    bias_correction: bool = True,
 ) -> StabilityTable:
     """Estimate the requested statistics of a measurement.
 
@@ -250,6 +251,9 @@ def analyze(
     on_step
         Called with a short label after each statistic and after the
         qualification (for progress displays); ``len(stats) + 1`` calls.
+    bias_correction
+        Correct the bias of the total and Theo families for the identified noise
+        type (default True); False reports the raw estimates (bias factor 1).
 
     Returns
     -------
@@ -269,6 +273,7 @@ def analyze(
         "taus": taus if isinstance(taus, str) else [float(t) for t in taus],
         "confidence": level,
         "f_h_hz": float(f_h) if f_h is not None else 1.0 / (2.0 * measurement.tau0),
+        "bias_correction": bool(bias_correction),
     }
     results = {name: dataclasses.replace(r, confidence=level) for name, r in results.items()}
     table = StabilityTable(
@@ -280,6 +285,7 @@ def analyze(
             model_source=_model_source(measurement, stat_list, memo),
             f_h=f_h,
             offset_source=offset_source,
+            bias_correction=bias_correction,
         )
     if on_step is not None:
         on_step("qualification")

@@ -76,7 +76,7 @@ def _never_whiter(
     )
 
 
-def _rows(stat: Statistic, result: StatisticResult, alpha: np.ndarray, n_eff: int):
+def _rows(stat: Statistic, result: StatisticResult, alpha: np.ndarray, n_eff: int, correct: bool):
     """EDF, bias factor (on the deviation) and EDF record length of every row."""
     edf = np.empty(len(result))
     factor = np.ones(len(result))
@@ -85,7 +85,8 @@ def _rows(stat: Statistic, result: StatisticResult, alpha: np.ndarray, n_eff: in
         a = None if math.isnan(alpha[k]) else int(alpha[k])
         points[k] = stat.row_points(int(m), int(result.n_terms[k]), n_eff)
         edf[k] = stat.edf_for(a, int(m), int(points[k]))
-        factor[k] = 1.0 / math.sqrt(stat.bias_factor(a, int(m), n_eff))
+        if correct:
+            factor[k] = 1.0 / math.sqrt(stat.bias_factor(a, int(m), n_eff))
     return edf, factor, points
 
 
@@ -135,12 +136,15 @@ def qualify_result(
     *,
     noise: NoiseResult | None = None,
     known: Known | None = None,
+    bias_correction: bool = True,
 ) -> StatisticResult:
     """A new result with the noise, EDF, bias and interval columns of one statistic filled.
 
     ``noise`` is an identification already made for the same data and taus
     (for a statistic that shares it, see :attr:`Statistic.noise_source`);
-    ``known`` holds OADEV and MDEV estimates already made for the data.
+    ``known`` holds OADEV and MDEV estimates already made for the data. With
+    ``bias_correction=False`` the raw estimates are reported (bias factor 1)
+    and their intervals are those of the raw estimator.
     """
     stat = get_statistic(result.statistic)
     if not stat.has_interval:
@@ -158,12 +162,12 @@ def qualify_result(
     if ratchet:
         notes.append(ratchet)
     n_eff = effective_points(measurement)
-    edf, factor, points = _rows(stat, result, alpha, n_eff)
+    edf, factor, points = _rows(stat, result, alpha, n_eff, bias_correction)
     deviation = result.raw_deviation * factor
     if np.any(factor != 1.0):
         notes.append(f"{stat.name}: bias-corrected for the identified noise type")
     low, high = (np.array(v, dtype=float) for v in chi2_interval(deviation, edf, confidence))
-    rows = _uncertain_rows(stat, result, alpha, noise.method, n_eff)
+    rows = _uncertain_rows(stat, result, alpha, noise.method, n_eff) if bias_correction else []
     widened = _widen(stat, result, alpha, points, n_eff, confidence, rows, low, high)
     if widened:
         notes.append(widened)
@@ -199,6 +203,7 @@ def qualify(
     model_source: StatisticResult | None = None,
     f_h: float | None = None,
     offset_source: Measurement | None = None,
+    bias_correction: bool = True,
 ) -> StabilityTable:
     """A new table with every statistic qualified, plus the model, offset and drift.
 
@@ -219,7 +224,11 @@ def qualify(
             if stat.has_interval and key not in identified:
                 identified[key] = identify(measurement, key[0], result.m, known=known)
             results[name] = qualify_result(
-                result, measurement, table.confidence, noise=identified.get(key)
+                result,
+                measurement,
+                table.confidence,
+                noise=identified.get(key),
+                bias_correction=bias_correction,
             )
         f_h = 1.0 / (2.0 * measurement.tau0) if f_h is None else float(f_h)
         source = results.get("oadev")
@@ -244,7 +253,7 @@ def qualify(
         ),
         "bias_corrected": [r.statistic for r in results.values() if r.bias_corrected],
     }
-    settings = {"f_h_hz": f_h, **table.settings}
+    settings = {"f_h_hz": f_h, "bias_correction": bool(bias_correction), **table.settings}
     return dataclasses.replace(table, results=results, extras=extras, settings=settings)
 
 

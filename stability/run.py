@@ -166,6 +166,7 @@ def analyse_prepared(
         taus=taus,
         confidence=spec.confidence,
         f_h=spec.f_h,
+        bias_correction=spec.bias_correction,
         offset_source=before,
         on_step=on_step,
     )

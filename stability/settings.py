@@ -63,12 +63,14 @@ class PrepareSettings:
 
 @dataclass(frozen=True)
 class AnalysisSettings:
-    """What :func:`stability.analyze` computes: statistics, tau grid, confidence level, f_h."""
+    """What :func:`stability.analyze` computes: statistics, tau grid, confidence level, f_h,
+    and whether the total and Theo families are bias-corrected."""
 
     stats: str | Sequence[str] = "oadev,mdev"
     taus: str | Sequence[float] = "octave"
     confidence: float = 0.683
     f_h: float | None = None
+    bias_correction: bool = True
 
 
 @dataclass(frozen=True)

@@ -236,10 +236,18 @@ def _verdict_word(verdict: Any, row: int) -> str:
 
 
 # ---------------------------------------------------------------------- drawing
-def _draw_statistic(ax: Axes, name: str, drawn: Series, noise: np.ndarray, j: int) -> list:
-    """One statistic's points, error bars and noise labels; returns the drawn (x, y) points."""
+def _draw_statistic(
+    ax: Axes, name: str, drawn: Series, noise: np.ndarray, j: int, corrected: bool = False
+) -> list:
+    """One statistic's points, error bars and noise labels; returns the drawn (x, y) points.
+
+    A bias-corrected statistic says so in its legend entry.
+    """
     tau, dev, low, high = drawn
     style = statistic_style(name)
+    label = f"{get_statistic(name).title} ({short_name(name)})"
+    if corrected:
+        label += ", bias-corrected"
     ax.plot(
         tau,
         dev,
@@ -247,7 +255,7 @@ def _draw_statistic(ax: Axes, name: str, drawn: Series, noise: np.ndarray, j: in
         markersize=3.5,
         linewidth=1.0,
         color=style.color,
-        label=f"{get_statistic(name).title} ({short_name(name)})",
+        label=label,
         zorder=3,
     )
     points = [np.column_stack([tau, dev])]
@@ -359,7 +367,8 @@ def _draw_panel(
     entries = 0
     for j, name in enumerate(names):
         noise = np.asarray(table.results[name].noise, dtype=object)[_drawable(table[name])]
-        points += _draw_statistic(ax, name, series[name], noise, j)
+        corrected = table.results[name].bias_corrected
+        points += _draw_statistic(ax, name, series[name], noise, j, corrected)
         entries += 1
         if model_curve is not None and name in model_curve:
             entries += _draw_model(ax, name, model_curve[name])

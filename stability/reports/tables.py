@@ -227,6 +227,7 @@ def _people_rows(table: StabilityTable) -> tuple[list[str], list[list[str]]]:
             method = result.noise_method[i]
             if noise and method:
                 noise = f"{noise} ({method})"
+            factor = float(result.bias_factor[i])
             rows.append(
                 [
                     result.statistic,
@@ -236,22 +237,41 @@ def _people_rows(table: StabilityTable) -> tuple[list[str], list[list[str]]]:
                     _edf(float(result.edf[i])),
                     noise,
                     str(int(result.n_terms[i])),
+                    "" if factor == 1.0 or not math.isfinite(factor) else f"x{factor:.4f}",
                 ]
             )
     return header, rows
+
+
+#: Said under a table that holds bias-corrected rows.
+BIAS_NOTE = (
+    "bias-corrected: deviation = raw estimate x the bias factor (raw values in table.csv, "
+    "column raw_deviation); --bias-correction off reports the raw estimates"
+)
+
+
+def _corrected(rows: list[list[str]]) -> bool:
+    return any(row[7] for row in rows)
 
 
 def table_markdown(table: StabilityTable) -> str:
     """The results table as a GitHub-flavoured Markdown table, rounded for people."""
     _validate_table(table)
     header, rows = _people_rows(table)
-    numeric = {1, 2, 3, 4, 6}
+    corrected = _corrected(rows)
+    if corrected:
+        header = [*header, "bias factor"]
+    else:
+        rows = [row[:7] for row in rows]
+    numeric = {1, 2, 3, 4, 6, 7}
     lines = [
         "| " + " | ".join(header) + " |",
         "|" + "|".join("---:" if j in numeric else ":---" for j in range(len(header))) + "|",
     ]
     for row in rows:
         lines.append("| " + " | ".join(cell.replace("|", "\\|") for cell in row) + " |")
+    if corrected:
+        lines += ["", f"Rows with a bias factor are {BIAS_NOTE}."]
     return "\n".join(lines) + "\n"
 
 
@@ -263,6 +283,9 @@ def terminal_table(table: StabilityTable, *, columns: int | None = None) -> str:
     """
     _validate_table(table)
     header, rows = _people_rows(table)
+    corrected = _corrected(rows)
+    for row in rows:
+        row[2] += " *" if row[7] else ("  " if corrected else "")
     keep = [0, 1, 2, 3, 5]
     if columns is None or columns >= 100:
         keep = [0, 1, 2, 3, 4, 5, 6]
@@ -286,4 +309,6 @@ def terminal_table(table: StabilityTable, *, columns: int | None = None) -> str:
             out.append("")
         out.append(line(row))
         previous = row[0]
+    if corrected:
+        out += ["", f"* {BIAS_NOTE}"]
     return "\n".join(out) + "\n"
