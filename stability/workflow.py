@@ -103,8 +103,12 @@ def _write_all(
     limits: Any,
     limits_statistic: str | None,
     titled: bool,
+    title: str | None = None,
 ) -> None:
-    """Write the five outputs to the given paths (keys: :data:`OUTPUT_NAMES`)."""
+    """Write the five outputs to the given paths (keys: :data:`OUTPUT_NAMES`).
+
+    ``title`` replaces the stability figure's title (the default names the log).
+    """
     texts = {
         "table.csv": lambda: table_csv(run.table),
         "table.md": lambda: table_markdown(run.table),
@@ -116,6 +120,7 @@ def _write_all(
     series_title = default_title(shown, "data over time") if titled else None
     series_footer = default_footer(shown, analysis_time=run.analysis_time) if titled else None
     stab_title = default_title(run.table.measurement, "stability") if titled else None
+    stab_title = title if title is not None else stab_title
     stab_footer = default_footer(run.table, analysis_time=run.analysis_time) if titled else None
     _draw_stability(paths["sigma_tau"], fmt, run, limits, limits_statistic, stab_title, stab_footer)
     _draw_series(paths["series"], fmt, run, series_title, series_footer)
@@ -129,6 +134,7 @@ def analyze_into(
     plot_format: str = "png",
     limits: Any = None,
     limits_statistic: str | None = None,
+    title: str | None = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
     **options: Any,
@@ -136,7 +142,8 @@ def analyze_into(
     """Read, prepare, analyse and write the five outputs into ``folder``: (run, files).
 
     ``settings`` (or keyword settings as :func:`stability.run_analysis` takes
-    them) say what to do. All five files appear together or not at all.
+    them) say what to do; ``title`` replaces the stability figure's title. All
+    five files appear together or not at all.
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
@@ -151,7 +158,7 @@ def analyze_into(
         finals = {name: f"{name}.{fmt}" for name in ("sigma_tau", "series")}
         finals.update({name: name for name in _TEXT_NAMES})
         pending = {name: _pending_path(out, final) for name, final in finals.items()}
-        _write_all(run, pending, fmt, limits, limits_statistic, titled=True)
+        _write_all(run, pending, fmt, limits, limits_statistic, titled=True, title=title)
         written = {name: pending[name].replace(out / finals[name]) for name in finals}
     except BaseException:
         for path in pending.values():
@@ -170,11 +177,15 @@ def write_analysis(
     plot_format: str = "png",
     limits: Any = None,
     limits_statistic: str | None = None,
+    title: str | None = None,
 ) -> dict[str, Path]:
-    """Write table.csv, table.md, summary.json and both plots of a run into ``folder``."""
+    """Write table.csv, table.md, summary.json and both plots of a run into ``folder``.
+
+    ``title`` replaces the stability figure's title.
+    """
     fmt = check_plot_format(plot_format)
     out = ensure_folder(folder)
     paths = {name: out / name for name in _TEXT_NAMES}
     paths.update({name: out / f"{name}.{fmt}" for name in ("sigma_tau", "series")})
-    _write_all(run, paths, fmt, limits, limits_statistic, titled=False)
+    _write_all(run, paths, fmt, limits, limits_statistic, titled=False, title=title)
     return paths
