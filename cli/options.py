@@ -49,6 +49,7 @@ from .common import guarded
 __all__ = [
     "OptionSpec",
     "RunOptions",
+    "build_options",
     "command",
     "checked",
     "duration_check",
@@ -446,7 +447,6 @@ def _subject_label(value: Any) -> str | None:
 def command(
     *groups: tuple[OptionSpec, ...] | OptionSpec,
     variants: tuple[OptionSpec, ...] = (),
-    skip: tuple[str, ...] = (),
     subject: str | None = None,
 ) -> Callable[[F], F]:
     """Give a command the shared options of ``groups`` and run it guarded.
@@ -458,9 +458,7 @@ def command(
         ``--debug`` is always added last.
     variants
         Command-specific variants (:meth:`OptionSpec.but`) replacing the option
-        of the same name.
-    skip
-        Names of options of the groups the command does not take.
+        of the same name in ``groups``.
     subject
         The parameter naming the command's input, for the last-resort error
         message (default: the command's first parameter).
@@ -469,11 +467,13 @@ def command(
     called with ``opts`` a :class:`RunOptions`.
     """
     replaced = {v.name: v for v in variants}
-    specs = [replaced.get(s.name, s) for s in _flatten(groups) if s.name not in skip]
+    specs = [replaced.get(s.name, s) for s in _flatten(groups)]
     specs.append(DEBUG)
     names = [s.name for s in specs]
     if len(set(names)) != len(names):
         raise ValueError(f"an option is given twice: {names}")
+    if set(replaced) - set(names):
+        raise ValueError(f"variants of options not taken: {sorted(set(replaced) - set(names))}")
 
     def decorate(func: F) -> F:
         own = [

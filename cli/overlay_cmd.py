@@ -56,7 +56,15 @@ from .options import (
 )
 from .progress import ProgressDisplay, step_count
 
-__all__ = ["LogSpec", "parse_log_spec", "overlay", "PER_LOG_KEYS"]
+__all__ = [
+    "LogSpec",
+    "parse_log_spec",
+    "overlay",
+    "PER_LOG_KEYS",
+    "combined_csv",
+    "combined_markdown",
+    "combined_terminal",
+]
 
 #: Keys a ``LOG:key=value`` suffix may set: the reading and preparation options.
 PER_LOG_KEYS = (

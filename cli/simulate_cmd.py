@@ -43,7 +43,7 @@ from stability.units import parse_duration, parse_frequency
 from .common import command_line_checks
 from .options import RunOptions, checked, command, duration_check, frequency_check
 
-__all__ = ["simulate_log", "simulated_csv", "parse_start", "VALUE_HEADERS"]
+__all__ = ["simulate_cmd", "simulate_log", "simulated_csv", "parse_start", "VALUE_HEADERS"]
 
 #: Header of the value column for each kind of output.
 VALUE_HEADERS = {
