@@ -154,7 +154,7 @@ def _taus(value: str) -> str:
 
 
 def _confidence(value: float) -> float:
-    return check_confidence(value, "--confidence")
+    return check_confidence(value, "the level")
 
 
 def _stats(choices: tuple[str, ...] | None, one: bool, where: str) -> Callable[[str], str]:

@@ -96,6 +96,6 @@ class ProgressDisplay:
         task = bar.add_task(f"analysing {name}", total=max(count, 1))
 
         def on_step(label: str) -> None:
-            bar.update(task, advance=1, description=f"analysing {name}: {label}")
+            bar.update(task, advance=1, description=f"analysing {name} ({label} done)")
 
         return on_step
