@@ -1,132 +1,125 @@
-"""What every command shares: option declarations, error handling, exit codes.
+"""What every command shares at run time: exit codes, one-line errors, the app's group.
 
-Exit codes (one place): 0 success, 1 input or analysis error (one line on
-standard error), 2 usage error (typer's own).
+Exit codes (the one place they are written down):
+
+* 0: success (also when standard output is a pipe closed early, as by ``| head``);
+* 1: an input or analysis error: a file that cannot be read or used, data the
+  analysis cannot work on; one ``error:`` line on standard error;
+* 2: a usage error: the command line itself is wrong (an unknown option, a missing
+  argument, a value of the wrong form or out of range, options that contradict
+  each other); one ``error:`` line on standard error.
+
+The rule between 1 and 2: what can be judged from the command line alone is a
+usage error; what is found in the files or the data is an input error.
+
+Anything else that goes wrong inside a command is a defect of the tool: it is
+reported as one line naming the input and asking for a report with ``--debug``,
+which shows the traceback. Tests see such a path through that message.
 """
 
 from __future__ import annotations
 
-import functools
+import contextlib
+import errno
+import os
 import sys
 import traceback
 import warnings
-from collections.abc import Callable
-from pathlib import Path
-from typing import Annotated, Any, TypeVar
+from collections.abc import Iterator, Sequence
+from typing import Any
 
 import typer
+from typer.core import TyperGroup
 
-from stability.errors import StabilityError
+from stability.errors import InputError, StabilityError
+
+__all__ = [
+    "EXIT_OK",
+    "EXIT_ERROR",
+    "EXIT_USAGE",
+    "UsageProblem",
+    "StabilityGroup",
+    "command_line_checks",
+    "guarded",
+    "fail",
+    "show_warning",
+]
 
 EXIT_OK = 0
 EXIT_ERROR = 1
 EXIT_USAGE = 2
 
-F = TypeVar("F", bound=Callable[..., Any])
 
-# Common options: one spelling across commands (see DESIGN "The command line").
-LogArg = Annotated[Path, typer.Argument(help="The log file to read.", show_default=False)]
-KindOpt = Annotated[
-    str,
-    typer.Option(
-        "--kind",
-        help="What the value column holds: auto, phase (time error, s), "
-        "frequency (absolute, Hz) or fractional (fractional frequency).",
-    ),
-]
-ColumnOpt = Annotated[
-    str | None, typer.Option("--column", help="Value column: 1-based number or header name.")
-]
-TimeColumnOpt = Annotated[
-    str | None,
-    typer.Option("--time-column", help="Time-stamp column: 1-based number or header name."),
-]
-Tau0Opt = Annotated[
-    str | None,
-    typer.Option("--tau0", help="Sample interval, e.g. 1s or 100ms (needed without time stamps)."),
-]
-NominalOpt = Annotated[str | None, typer.Option("--nominal", help="Nominal frequency, e.g. 10MHz.")]
-StatsOpt = Annotated[
-    str, typer.Option("--stats", help="Comma list of statistics, e.g. oadev,mdev,hdev.")
-]
-TausOpt = Annotated[
-    str, typer.Option("--taus", help="Tau grid: octave, decade, all, or a list in seconds.")
-]
+class UsageProblem(Exception):
+    """The command line is wrong in a way a single option's check cannot see (exit 2)."""
 
 
-def _confidence_level(value: float) -> float:
-    if not 0.0 < value < 1.0:
-        raise typer.BadParameter(f"a level strictly between 0 and 1 (e.g. 0.95), got {value:g}")
-    return value
+class _PipeClosed(Exception):
+    """Standard output was closed by its reader (``| head``); not an ``OSError``, so
+    typer's own handler (which exits 1) lets it pass to :meth:`StabilityGroup.main`."""
 
 
-ConfidenceOpt = Annotated[
-    float,
-    typer.Option(
-        "--confidence",
-        help="Two-sided confidence level of the intervals.",
-        callback=_confidence_level,
-    ),
-]
-OutOpt = Annotated[
-    Path | None,
-    typer.Option("--out", help="Output folder (default: <log name>-stability/ here)."),
-]
-StrictOpt = Annotated[
-    bool, typer.Option("--strict", help="Treat every unreadable row as an error, not a gap.")
-]
-JsonOpt = Annotated[
-    bool, typer.Option("--json", help="Print the machine-readable summary to standard output.")
-]
-DebugOpt = Annotated[bool, typer.Option("--debug", help="Show the full traceback of an error.")]
-OutliersOpt = Annotated[
-    str, typer.Option("--outliers", help="Outlier threshold in robust sigmas, or 'off'.")
-]
-DriftOpt = Annotated[
-    str,
-    typer.Option(
-        "--drift", help="Drift model removed first: none, linear, quadratic, log or diffusion."
-    ),
-]
-AverageOpt = Annotated[
-    int, typer.Option("--average", help="Average N adjacent samples first (longer tau0).")
-]
-WrapOpt = Annotated[
-    str | None,
-    typer.Option("--wrap", help="Unwrap time-interval readings that jump by this period."),
-]
-PlotFormatOpt = Annotated[
-    str, typer.Option("--plot-format", help="Plot file format: png, svg or pdf.")
-]
+def _one_line(text: str) -> str:
+    return " ".join(str(text).split())
 
 
-def fail(message: str) -> None:
-    """Print one error line on standard error and exit with code 1."""
-    typer.echo(f"error: {message}", err=True)
-    raise typer.Exit(EXIT_ERROR)
+def fail(message: str, code: int = EXIT_ERROR) -> None:
+    """Print one ``error:`` line on standard error and exit with ``code``."""
+    typer.echo(f"error: {_one_line(message)}", err=True)
+    raise typer.Exit(code)
 
 
 def show_warning(message: Warning | str, category: type[Warning], *_: Any, **__: Any) -> None:
     """Print a warning as one ``warning:`` line on standard error (no source line)."""
-    text = " ".join(str(message).split())
-    typer.echo(f"warning: {text}", err=True)
+    typer.echo(f"warning: {_one_line(str(message))}", err=True)
 
 
-def handle_errors(func: F) -> F:
-    """Turn the library's errors into one line on standard error and exit code 1.
+@contextlib.contextmanager
+def command_line_checks() -> Iterator[None]:
+    """Checks of the command line run inside: an :class:`InputError` is a usage error."""
+    try:
+        yield
+    except InputError as exc:
+        raise UsageProblem(exc.one_line()) from None
 
-    Warnings are printed as one ``warning:`` line each. The command must take a
-    ``debug`` keyword; with it the traceback (and the warnings' source lines) is shown.
+
+def _quiet_stdout() -> None:
+    """Point standard output at the null device, so the final flush cannot fail again."""
+    with contextlib.suppress(OSError, ValueError, AttributeError):
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+
+
+@contextlib.contextmanager
+def _pipe_guard() -> Iterator[None]:
+    try:
+        yield
+    except OSError as exc:
+        if isinstance(exc, BrokenPipeError) or exc.errno == errno.EPIPE:
+            raise _PipeClosed from exc
+        raise
+
+
+@contextlib.contextmanager
+def guarded(subject: str | None, debug: bool) -> Iterator[None]:
+    """Run a command body: its errors become one line on standard error.
+
+    ``subject`` names the input in the last-resort message (the log, or what
+    the command works on). With ``debug`` the traceback is printed first and
+    warnings keep their usual form; without it each warning is one line.
     """
-
-    @functools.wraps(func)
-    def wrapper(*args: Any, **kwargs: Any) -> Any:
-        debug = bool(kwargs.get("debug", False))
+    where = f"{subject}: " if subject else ""
+    with warnings.catch_warnings():
+        if not debug:
+            warnings.showwarning = show_warning
         try:
-            with warnings.catch_warnings():
-                if not debug:
-                    warnings.showwarning = show_warning
-                return func(*args, **kwargs)
+            yield
+        except (typer.Exit, typer.Abort, typer.TyperException, KeyboardInterrupt):
+            raise
+        except BrokenPipeError:
+            raise
+        except UsageProblem as exc:
+            fail(str(exc), EXIT_USAGE)
         except StabilityError as exc:
             if debug:
                 traceback.print_exc(file=sys.stderr)
@@ -135,19 +128,63 @@ def handle_errors(func: F) -> F:
             if debug:
                 traceback.print_exc(file=sys.stderr)
             fail(f"{type(exc).__name__}: {exc}")
+        except Exception as exc:  # the last resort: a defect of the tool
+            if debug:
+                traceback.print_exc(file=sys.stderr)
+            fail(
+                f"{where}internal error ({type(exc).__name__}: {exc}); "
+                "please report it with the output of --debug"
+            )
 
-    return wrapper  # type: ignore[return-value]
+
+def _usage_line(exc: typer.TyperException) -> str:
+    text = _one_line(exc.format_message())
+    ctx = getattr(exc, "ctx", None)
+    if ctx is not None and exc.exit_code == EXIT_USAGE:
+        text += f" (see '{ctx.command_path} --help')"
+    return text
 
 
-def outliers_value(text: str) -> float | None:
-    """``--outliers``: a threshold in robust sigmas, or ``off``."""
-    word = str(text).strip().lower()
-    if word in ("off", "none", "no"):
-        return None
-    try:
-        value = float(word)
-    except ValueError:
-        raise StabilityError(
-            f"--outliers takes a number of robust sigmas or 'off', got {text!r}"
-        ) from None
-    return value
+class StabilityGroup(TyperGroup):
+    """The app's command group: one-line usage errors and a quiet end on a closed pipe.
+
+    typer would draw usage errors in a box and exit 1 when the reader of
+    standard output goes away; here a usage error is one ``error:`` line on
+    standard error with exit code 2, and a closed pipe ends the run with exit
+    code 0 and no message (the reader wanted no more).
+    """
+
+    def make_context(self, *args: Any, **kwargs: Any) -> Any:
+        with _pipe_guard():
+            return super().make_context(*args, **kwargs)
+
+    def invoke(self, ctx: Any) -> Any:
+        with _pipe_guard():
+            result = super().invoke(ctx)
+            sys.stdout.flush()
+            return result
+
+    def main(
+        self,
+        args: Sequence[str] | None = None,
+        prog_name: str | None = None,
+        complete_var: str | None = None,
+        standalone_mode: bool = True,
+        **extra: Any,
+    ) -> Any:
+        try:
+            code = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
+        except typer.TyperException as exc:
+            typer.echo(f"error: {_usage_line(exc)}", err=True)
+            code = exc.exit_code
+        except typer.Abort:
+            typer.echo("error: aborted", err=True)
+            code = EXIT_ERROR
+        except _PipeClosed:
+            _quiet_stdout()
+            code = EXIT_OK
+        if not isinstance(code, int):
+            code = EXIT_OK
+        if standalone_mode:
+            sys.exit(code)
+        return code

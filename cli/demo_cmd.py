@@ -1,7 +1,8 @@
 """``stability demo``: the whole job on the bundled (invented) demo data.
 
-The demo data (``datasets/demo/``, made by ``make_demo.py`` beside them) are an
-invented oscillator qualification: a counter log of a 10 MHz OCXO against a
+The demo data (``datasets/demo/`` in the repository, made by ``make_demo.py``
+beside them, and installed with the package as ``stability_cli/demo_data/``) are
+an invented oscillator qualification: a counter log of a 10 MHz OCXO against a
 rubidium reference, and a 1 PPS time-interval log of a satellite-disciplined
 receiver against the same reference. The demo runs what a practitioner would:
 
@@ -13,8 +14,8 @@ receiver against the same reference. The demo runs what a practitioner would:
 * the PPS log with ``--stats tdev,mtie,oadev``: time statistics for a timing
   source (ITU-T G.810 [2]_), no drift removed (the frequency offset of the
   reference is part of the time error that MTIE judges);
-* when the ``record`` command and the example specification and information
-  files are there, the calibration record of the counter log.
+* when the example specification and information files are there, the
+  calibration record of the counter log.
 
 References
 ----------
@@ -26,23 +27,21 @@ References
 
 from __future__ import annotations
 
-import importlib
-import importlib.util
+from importlib import resources
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
-import stability
 from stability.errors import InputError
 from stability.reports.tables import terminal_table
 from stability.run import AnalysisRun
+from stability.settings import RunSettings
 from stability.workflow import analyze_into
 
-from . import main as _app_first  # noqa: F401  (the app and analyze load first)
-from .analyze_cmd import summary_block
-from .common import DebugOpt, handle_errors
-from .main import app
+from .options import PLOT_FORMAT, RunOptions, command
+from .progress import ProgressDisplay, step_count
+from .reporting import make_record, record_lines, summary_block
 
 __all__ = [
     "demo",
@@ -67,17 +66,33 @@ PPS_SETTINGS = {"stats": "tdev,mtie,oadev", "drift": "none"}
 
 DemoOutOpt = Annotated[
     Path | None,
-    typer.Option("--out", help="Output folder (default: stability-demo/ here)."),
+    typer.Option(
+        "--out",
+        help="Output folder (default: stability-demo/ in the current folder).",
+        metavar="DIR",
+    ),
 ]
 DataOpt = Annotated[
     Path | None,
-    typer.Option("--data", help="Folder of the demo logs (default: the bundled datasets/demo/)."),
+    typer.Option(
+        "--data",
+        help="Folder of the demo logs (default: the demo data installed with the tool).",
+        metavar="DIR",
+    ),
 ]
 
 
 def default_data_folder() -> Path:
-    """The bundled demo data: ``datasets/demo/`` of the source tree the package runs from."""
-    return Path(stability.__file__).resolve().parents[1] / "datasets" / "demo"
+    """The bundled demo data.
+
+    Installed, they are the package data ``demo_data/`` of the command-line
+    package; in a source tree (or an editable install) they are the
+    repository's ``datasets/demo/`` beside the ``cli/`` folder.
+    """
+    bundled = Path(str(resources.files(__package__ or "stability_cli") / "demo_data"))
+    if bundled.is_dir():
+        return bundled
+    return Path(__file__).resolve().parents[1] / "datasets" / "demo"
 
 
 def _validate_demo_args(data: Path | None) -> tuple[Path, Path, Path]:
@@ -102,10 +117,6 @@ def _validate_demo_args(data: Path | None) -> tuple[Path, Path, Path]:
 
 
 def _record_available(folder: Path) -> bool:
-    if importlib.util.find_spec("cli.record_cmd") is None:
-        return False
-    if importlib.util.find_spec("stability.spec") is None:
-        return False
     return (folder / SPEC_FILE).is_file() and (folder / INFO_FILE).is_file()
 
 
@@ -116,13 +127,22 @@ def _show(title: str, run: AnalysisRun) -> None:
     typer.echo("")
 
 
-@app.command("demo")
-@handle_errors
-def demo(
-    out: DemoOutOpt = None,
-    data: DataOpt = None,
-    debug: DebugOpt = False,
-) -> None:
+def _analysed(
+    log: Path, folder: Path, settings: RunSettings, opts: RunOptions
+) -> tuple[AnalysisRun, dict[str, Path]]:
+    with ProgressDisplay() as bar:
+        return analyze_into(
+            log,
+            folder,
+            settings,
+            plot_format=opts.plot_format,
+            on_progress=bar.reading(log.name),
+            on_step=bar.steps(log.name, step_count(settings.analysis.stats)),
+        )
+
+
+@command(PLOT_FORMAT, subject="data")
+def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> None:
     """Run the whole job on the bundled demo data (an invented OCXO qualification).
 
     Analyses the counter log (oadev, mdev, hdev; log drift model) into counter/,
@@ -135,28 +155,33 @@ def demo(
     target = out if out is not None else Path.cwd() / "stability-demo"
     typer.echo(f"demo data: {folder} (invented scenario, see its README.md)")
 
-    counter_run, counter_files = analyze_into(counter, target / "counter", **COUNTER_SETTINGS)
+    counter_run, counter_files = _analysed(
+        counter, target / "counter", RunSettings.from_options(**COUNTER_SETTINGS), opts
+    )
     _show("OCXO against the rubidium reference (counter log)", counter_run)
 
-    pps_run, pps_files = analyze_into(pps, target / "pps", **PPS_SETTINGS)
+    pps_run, pps_files = _analysed(
+        pps, target / "pps", RunSettings.from_options(**PPS_SETTINGS), opts
+    )
     _show("receiver 1 PPS against the rubidium reference (time-interval log)", pps_run)
 
     record_folder = None
     if _record_available(folder):
-        record_cmd = importlib.import_module("cli.record_cmd")
         record_folder = target / "record"
         typer.echo("== calibration record of the OCXO (example specification)")
-        record_cmd.record(
-            log=counter,
-            spec=folder / SPEC_FILE,
-            info=folder / INFO_FILE,
-            nominal=COUNTER_SETTINGS["nominal"],
-            stats=COUNTER_SETTINGS["stats"],
-            drift=COUNTER_SETTINGS["drift"],
-            out=record_folder,
-            force=True,  # the demo's own record, remade on every run
-            debug=debug,
-        )
+        with ProgressDisplay() as bar:
+            outcome = make_record(
+                counter,
+                folder / SPEC_FILE,
+                folder / INFO_FILE,
+                record_folder,
+                RunSettings.from_options(**COUNTER_SETTINGS),
+                force=True,  # the demo's own record, remade on every run
+                plot_format=opts.plot_format,
+                on_progress=bar.reading(counter.name),
+            )
+        for line in record_lines(outcome):
+            typer.echo(line)
         typer.echo("")
 
     shown: list[tuple[str, Path]] = []
@@ -174,4 +199,4 @@ def demo(
     for what, path in shown:
         typer.echo(f"  {what.ljust(width)}  {path}")
     if record_folder is None:
-        typer.echo("  (no calibration record: the record command or the example files are missing)")
+        typer.echo("  (no calibration record: the example spec and info files are missing)")

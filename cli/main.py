@@ -1,7 +1,12 @@
-"""The ``stability`` command line: one thin function per command.
+"""The ``stability`` command line: the typer app and its commands.
 
-Commands call the library and format its results; no computation lives here.
-Exit codes are in :mod:`cli.common`.
+Each command is a plain function in its own module (``analyze_cmd``, ...) that
+knows nothing of the app; this module makes the app and registers them, so
+importing any command module never imports this one. Exit codes are written
+down in :mod:`.common`, the shared options in :mod:`.options`.
+
+Installed as the import package ``stability_cli``; the console script
+``stability`` and ``python -m stability`` both call :func:`main`.
 """
 
 from __future__ import annotations
@@ -10,43 +15,71 @@ from typing import Annotated
 
 import typer
 
-import stability
+from stability._version import __version__
+
+from . import (
+    analyze_cmd,
+    demo_cmd,
+    inspect_cmd,
+    overlay_cmd,
+    phase_noise_cmd,
+    record_cmd,
+    separate_cmd,
+    simulate_cmd,
+    timeline_cmd,
+)
+from .common import StabilityGroup
+
+__all__ = ["app", "main"]
 
 app = typer.Typer(
     name="stability",
     help="Frequency-stability analysis of oscillator logs: Allan-family deviations "
-    "with noise types and confidence intervals.",
-    no_args_is_help=True,
+    "with noise types and confidence intervals.\n\n"
+    "Exit codes: 0 success, 1 input or analysis error, 2 usage error.",
+    cls=StabilityGroup,
+    context_settings={"max_content_width": 120},
     add_completion=False,
     pretty_exceptions_enable=False,
+    rich_markup_mode=None,
 )
 
 
 def _version(value: bool) -> None:
     if value:
-        typer.echo(f"stability {stability.__version__}")
+        typer.echo(f"stability {__version__}")
         raise typer.Exit(0)
 
 
-@app.callback()
-def main(
+@app.callback(invoke_without_command=True)
+def _root(
+    ctx: typer.Context,
     version: Annotated[
         bool,
         typer.Option("--version", callback=_version, is_eager=True, help="Print the version."),
     ] = False,
 ) -> None:
     """Frequency-stability analysis of oscillator logs."""
+    if ctx.invoked_subcommand is None:
+        typer.echo(ctx.get_help())
+        raise typer.Exit(0)
 
 
-# Commands register themselves on ``app`` when their module is imported.
-from . import (  # noqa: E402
-    analyze_cmd,  # noqa: F401
-    demo_cmd,  # noqa: F401
-    inspect_cmd,  # noqa: F401
-    overlay_cmd,  # noqa: F401
-    phase_noise_cmd,  # noqa: F401
-    record_cmd,  # noqa: F401
-    separate_cmd,  # noqa: F401
-    simulate_cmd,  # noqa: F401
-    timeline_cmd,  # noqa: F401
-)
+app.command("analyze")(analyze_cmd.analyze)
+app.command("inspect")(inspect_cmd.inspect)
+app.command("overlay")(overlay_cmd.overlay)
+app.command("record")(record_cmd.record)
+app.command("separate")(separate_cmd.separate_command)
+app.command("phase-noise")(phase_noise_cmd.phase_noise_command)
+app.command("timeline")(timeline_cmd.timeline_command)
+app.command("simulate")(simulate_cmd.simulate_cmd)
+app.command("demo")(demo_cmd.demo)
+
+
+def main() -> None:
+    """Run the command line (the console script's and ``python -m stability``'s entry)."""
+    app()
+
+
+if __name__ == "__main__":
+    main()

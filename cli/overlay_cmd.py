@@ -2,7 +2,8 @@
 
 Every log is analysed as ``stability analyze`` would (:func:`stability.run.run_analysis`)
 with the shared options, which one log can override with a ``LOG:key=value,...``
-suffix, for example ``ocxo.csv:kind=fractional,tau0=1s``. The keys are the
+suffix (checked like the options themselves: a value of the wrong form is a
+usage error), for example ``ocxo.csv:kind=fractional,tau0=1s``. The keys are the
 reading options (kind, column, time_column, tau0, nominal, wrap) and the
 preparation options (outliers, drift, average). The suffix is split off at the
 last ``:`` only when what follows reads as ``key=value`` pairs and the whole
@@ -32,40 +33,40 @@ from typing import Annotated, Any
 
 import typer
 
-import stability
+from stability._version import __version__
 from stability.errors import InputError
 from stability.figures import overlay_figure, save_figure
 from stability.files import atomic_write_text, ensure_folder
 from stability.reports.tables import table_csv, table_markdown, terminal_table
 from stability.run import AnalysisRun, run_analysis
 from stability.summary import summary_json
-from stability.workflow import PLOT_FORMATS
 
-from . import main as _app_first  # noqa: F401  (the app and analyze load first)
-from .common import (
-    AverageOpt,
-    ColumnOpt,
-    ConfidenceOpt,
-    DebugOpt,
-    DriftOpt,
-    JsonOpt,
-    KindOpt,
-    NominalOpt,
-    OutliersOpt,
-    PlotFormatOpt,
-    StrictOpt,
-    Tau0Opt,
-    TausOpt,
-    TimeColumnOpt,
-    WrapOpt,
-    handle_errors,
-    outliers_value,
+from .common import command_line_checks
+from .options import (
+    ANALYSING,
+    OUT,
+    PREPARING,
+    READING,
+    TITLE,
+    WRITING,
+    OptionSpec,
+    RunOptions,
+    command,
+    stats_option,
 )
-from .main import app
+from .progress import ProgressDisplay, step_count
 
-__all__ = ["LogSpec", "parse_log_spec", "overlay", "PER_LOG_KEYS"]
+__all__ = [
+    "LogSpec",
+    "parse_log_spec",
+    "overlay",
+    "PER_LOG_KEYS",
+    "combined_csv",
+    "combined_markdown",
+    "combined_terminal",
+]
 
-#: Keys a ``LOG:key=value`` suffix may set.
+#: Keys a ``LOG:key=value`` suffix may set: the reading and preparation options.
 PER_LOG_KEYS = (
     "kind",
     "column",
@@ -77,6 +78,7 @@ PER_LOG_KEYS = (
     "drift",
     "average",
 )
+_CHECKS: dict[str, OptionSpec] = {o.name: o for o in READING + PREPARING}
 _PAIR = re.compile(r"^\s*([A-Za-z][A-Za-z0-9_\-]*)\s*=\s*(.*?)\s*$")
 
 LogsArg = Annotated[
@@ -85,21 +87,17 @@ LogsArg = Annotated[
         help="Log files; LOG:key=value,... overrides options for that log "
         "(keys: kind, column, time_column, tau0, nominal, wrap, outliers, drift, average).",
         show_default=False,
-        metavar="LOG[:key=value,...]...",
+        metavar="LOG[:key=value,...]",
     ),
 ]
 LabelsOpt = Annotated[
     str | None,
-    typer.Option("--labels", help="Comma list of labels, one per log (default: file names)."),
+    typer.Option(
+        "--labels",
+        help="Comma list of labels, one per log (default: file names).",
+        metavar="LIST",
+    ),
 ]
-OverlayStatsOpt = Annotated[
-    str, typer.Option("--stats", help="Comma list of statistics to overlay, e.g. oadev,mdev.")
-]
-OverlayOutOpt = Annotated[
-    Path | None,
-    typer.Option("--out", help="Output folder (default: overlay-stability/ here)."),
-]
-TitleOpt = Annotated[str | None, typer.Option("--title", help="Title of the plot.")]
 
 
 @dataclass
@@ -129,14 +127,21 @@ def _option_value(key: str, value: str, argument: str) -> Any:
         return int(value) if value.isdigit() else value
     if key == "average":
         try:
-            return int(value)
+            number = int(value)
         except ValueError:
+            number = 0
+        if number < 1:
             raise InputError(
                 f"average must be a whole number of samples, got {value!r} in {argument!r}"
-            ) from None
-    if key == "outliers":
-        return outliers_value(value)
-    return value
+            )
+        return number
+    check = _CHECKS[key].check
+    if check is None:
+        return value
+    try:
+        return check(value)
+    except InputError as exc:
+        raise InputError(f"{exc.one_line()} in {argument!r}") from None
 
 
 def parse_log_spec(argument: str) -> LogSpec:
@@ -145,7 +150,7 @@ def parse_log_spec(argument: str) -> LogSpec:
     The split is at the last ``:`` and only when the argument is not an existing
     file and what follows reads as ``key=value`` pairs; otherwise the whole
     argument is the path. A pair with an unknown key is an error that lists the
-    known keys.
+    known keys; each value is checked as its option's value is.
     """
     text = str(argument)
     head, sep, tail = text.rpartition(":")
@@ -165,15 +170,9 @@ def parse_log_spec(argument: str) -> LogSpec:
     return LogSpec(Path(head), options, text)
 
 
-def _validate_overlay_args(
-    logs: list[str], labels: str | None, plot_format: str
-) -> tuple[list[LogSpec], list[str]]:
+def _validate_overlay_args(logs: list[str], labels: str | None) -> tuple[list[LogSpec], list[str]]:
     if not logs:
         raise InputError("give at least one log", hint="stability overlay a.csv b.csv")
-    if str(plot_format).lower() not in PLOT_FORMATS:
-        raise InputError(
-            f"--plot-format must be one of {', '.join(PLOT_FORMATS)}, got {plot_format!r}"
-        )
     specs = [parse_log_spec(a) for a in logs]
     if labels is not None:
         names = [s.strip() for s in labels.split(",")]
@@ -235,30 +234,18 @@ def combined_terminal(tables: dict[str, Any]) -> str:
     return "\n".join(out) + "\n"
 
 
-@app.command("overlay")
-@handle_errors
-def overlay(
-    logs: LogsArg,
-    labels: LabelsOpt = None,
-    stats: OverlayStatsOpt = "oadev",
-    kind: KindOpt = "auto",
-    column: ColumnOpt = None,
-    time_column: TimeColumnOpt = None,
-    tau0: Tau0Opt = None,
-    nominal: NominalOpt = None,
-    taus: TausOpt = "octave",
-    confidence: ConfidenceOpt = 0.683,
-    outliers: OutliersOpt = "5",
-    drift: DriftOpt = "none",
-    average: AverageOpt = 1,
-    wrap: WrapOpt = None,
-    out: OverlayOutOpt = None,
-    plot_format: PlotFormatOpt = "png",
-    title: TitleOpt = None,
-    strict: StrictOpt = False,
-    json_out: JsonOpt = False,
-    debug: DebugOpt = False,
-) -> None:
+@command(
+    READING,
+    PREPARING,
+    ANALYSING,
+    WRITING,
+    variants=(
+        stats_option("oadev"),
+        OUT.but(help="Output folder (default: overlay-stability/ in the current folder)."),
+        TITLE.but(help="Title of the overlay figure (default: none)."),
+    ),
+)
+def overlay(logs: LogsArg, labels: LabelsOpt = None, *, opts: RunOptions) -> None:
     """Overlay several logs (or statistics) on one stability plot with a combined table.
 
     Options apply to every log; LOG:key=value,... overrides them for one log
@@ -266,49 +253,37 @@ def overlay(
 
     Example: stability overlay ocxo.csv rb.csv:kind=fractional,tau0=1s --labels ocxo,rb
     """
-    specs, names = _validate_overlay_args(logs, labels, plot_format)
-    shared: dict[str, Any] = {
-        "kind": kind,
-        "column": int(column) if column is not None and column.isdigit() else column,
-        "time_column": (
-            int(time_column) if time_column is not None and time_column.isdigit() else time_column
-        ),
-        "tau0": tau0,
-        "nominal": nominal,
-        "wrap": wrap,
-        "outliers": outliers_value(outliers),
-        "drift": drift,
-        "average": average,
-    }
+    with command_line_checks():
+        specs, names = _validate_overlay_args(logs, labels)
+    steps = step_count(opts.settings.analysis.stats)
     runs: dict[str, AnalysisRun] = {}
-    for label, spec in zip(names, specs, strict=True):
-        options = {**shared, **spec.options}
-        runs[label] = run_analysis(
-            spec.path,
-            strict=strict,
-            stats=stats,
-            taus=taus,
-            confidence=confidence,
-            **options,
-        )
+    with ProgressDisplay(enabled=not opts.json) as bar:
+        for label, spec in zip(names, specs, strict=True):
+            settings = opts.settings.replace(**spec.options) if spec.options else opts.settings
+            runs[label] = run_analysis(
+                spec.path,
+                settings,
+                on_progress=bar.reading(label),
+                on_step=bar.steps(label, steps),
+            )
     tables = {label: run.table for label, run in runs.items()}
     moment = datetime.now(UTC)
-    folder = ensure_folder(out if out is not None else Path.cwd() / "overlay-stability")
-    fmt = plot_format.lower()
-    drawn = overlay_figure(tables, title=title, analysis_time=moment)
+    folder = ensure_folder(opts.folder(Path.cwd() / "overlay-stability"))
+    fmt = opts.plot_format
+    drawn = overlay_figure(tables, title=opts.title, analysis_time=moment)
     written = [
         save_figure(drawn, folder / f"overlay.{fmt}", fmt),
         atomic_write_text(folder / "table.csv", combined_csv(tables)),
         atomic_write_text(folder / "table.md", combined_markdown(tables)),
     ]
     summary = {
-        "tool": {"name": "stability", "version": stability.__version__},
+        "tool": {"name": "stability", "version": __version__},
         "analysis_time": moment,
         "labels": names,
         "inputs": {label: run.summary() for label, run in runs.items()},
     }
     written.append(atomic_write_text(folder / "summary.json", summary_json(summary)))
-    if json_out:
+    if opts.json:
         typer.echo(summary_json(summary), nl=False)
         return
     typer.echo(combined_terminal(tables))

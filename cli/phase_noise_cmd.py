@@ -5,9 +5,11 @@ Reads a two-column table (offset in Hz, L(f) in dBc/Hz) with
 :func:`stability.phase_noise.phase_noise_to_stability` (the integral of S_y(f)
 against each statistic's transfer function up to f_h; NIST SP 1065 section
 9, IEEE Std 1139), and writes ``phase_noise_sigma.csv``, ``phase_noise_sigma.md``
-and ``phase_noise.png``. With ``--compare LOG`` the log is analysed as
-``analyze`` does and its measured curves, and the L(f) of its fitted power-law
-model (:func:`stability.phase_noise.model_to_phase_noise`), are drawn beside.
+and ``phase_noise.png`` (or the ``--plot-format``). With ``--compare LOG`` the
+log is analysed as ``analyze`` does (the shared reading and preparation options
+apply to it, ``--nominal`` being the carrier) and its measured curves, and the
+L(f) of its fitted power-law model
+(:func:`stability.phase_noise.model_to_phase_noise`), are drawn beside.
 
 Default taus. The Allan variance at tau draws most of its value from offsets
 near 1/(2 tau) (the peak of its transfer function sin^4(pi f tau)/(pi f tau)^2
@@ -20,6 +22,7 @@ sequence in the same range; a list gives taus in seconds.
 
 from __future__ import annotations
 
+import inspect
 import json
 import math
 from datetime import UTC, datetime
@@ -29,76 +32,111 @@ from typing import Annotated, Any
 import numpy as np
 import typer
 
-import stability
+from stability._version import __version__
 from stability.errors import InputError
 from stability.figures import phase_noise_figure, save_figure
 from stability.files import atomic_write_text, ensure_folder, jsonable, sha256_file
 from stability.phase_noise import (
+    PHASE_NOISE_STATS,
     PhaseNoiseStability,
     model_to_phase_noise,
     phase_noise_to_stability,
     read_phase_noise_table,
 )
 from stability.reports.tables import format_tau, format_value, terminal_table
-from stability.run import run_analysis
+from stability.run import AnalysisRun, run_analysis
+from stability.taus import parse_taus
 from stability.units import parse_frequency
 
-from .common import (
-    ColumnOpt,
-    ConfidenceOpt,
-    DebugOpt,
-    DriftOpt,
-    JsonOpt,
-    KindOpt,
-    OutliersOpt,
-    OutOpt,
-    StrictOpt,
-    Tau0Opt,
-    TimeColumnOpt,
-    handle_errors,
-    outliers_value,
+from .options import (
+    CONFIDENCE,
+    NOMINAL,
+    OUT,
+    PREPARING,
+    READING,
+    TITLE,
+    WRITING,
+    RunOptions,
+    checked,
+    command,
+    stats_option,
 )
-from .main import app
+from .progress import ProgressDisplay, step_count
+from .reporting import footer, text_table
 
 __all__ = ["phase_noise_command", "default_taus"]
 
 TableArg = Annotated[
     Path,
     typer.Argument(
-        help="Phase-noise table: offset (Hz) and L(f) (dBc/Hz), two columns.", show_default=False
+        help="Phase-noise table: offset (Hz) and L(f) (dBc/Hz), two columns.",
+        show_default=False,
+        metavar="TABLE",
     ),
 ]
-CarrierOpt = Annotated[
-    str, typer.Option("--nominal", help="Carrier (nominal) frequency, e.g. 10MHz.")
-]
+
+
+def _bandwidth(value: str) -> str:
+    parse_frequency(value, "--fh")
+    return value
+
+
+def _beyond(value: str) -> str:
+    word = str(value).strip().lower()
+    if word not in ("flat", "slope"):
+        raise InputError(f"--beyond must be flat or slope, got {value!r}")
+    return word
+
+
+def _tau_grid(value: str) -> str:
+    parse_taus(value)  # the form; "all" is refused later, a table has no sample interval
+    return value
+
+
 BandwidthOpt = Annotated[
     str | None,
     typer.Option(
         "--fh",
         help="Measurement bandwidth f_h, e.g. 100Hz (default: the table's highest offset).",
+        metavar="FREQ",
+        callback=checked(_bandwidth),
     ),
 ]
 PnTausOpt = Annotated[
     str,
     typer.Option(
         "--taus",
-        help="octave or decade from 1/(2 f_h) to 1/(2 f_min), or a list in seconds.",
+        help="octave or decade from 1/(2 f_h) to 1/(2 f_min), or a comma list in seconds.",
+        metavar="octave|decade|LIST",
+        callback=checked(_tau_grid),
     ),
-]
-PnStatsOpt = Annotated[
-    str, typer.Option("--stats", help="Comma list among adev, oadev, mdev, tdev, hdev, ohdev.")
 ]
 BeyondOpt = Annotated[
     str,
     typer.Option(
         "--beyond",
-        help="S_y above the last offset up to f_h: flat (hold the last value) or slope.",
+        help="S_y above the last offset up to f_h: flat (hold the last value) or slope "
+        "(continue the last segment's slope).",
+        metavar="flat|slope",
+        callback=checked(_beyond),
     ),
 ]
 CompareOpt = Annotated[
     Path | None,
-    typer.Option("--compare", help="A measured log to analyse and draw beside the conversion."),
+    typer.Option(
+        "--compare",
+        help="A measured log to analyse and draw beside the conversion.",
+        metavar="LOG",
+    ),
 ]
+
+#: ``--nominal`` of phase-noise: the carrier of the table, required.
+CARRIER = NOMINAL.but(
+    type=str,
+    default=inspect.Parameter.empty,
+    help="Carrier (nominal) frequency of the table, e.g. 10MHz; also the nominal "
+    "frequency of the --compare log.",
+)
 
 _GRID_NAMES = ("octave", "decade")
 
@@ -133,8 +171,6 @@ def _taus(text: str, f_h: float, f_min: float) -> tuple[np.ndarray, str]:
             "--taus all needs a sample interval; a phase-noise table has none",
             hint="use octave, decade or a list of taus in seconds",
         )
-    from stability.taus import parse_taus
-
     return np.asarray(parse_taus(text), dtype=float), "as given"
 
 
@@ -156,7 +192,7 @@ def _markdown(
     ]
     lines += [f"- {key}: {value}" for key, value in settings.items()]
     lines += [
-        f"- tool: stability {stability.__version__}",
+        f"- tool: stability {__version__}",
         f"- analysed: {moment.strftime('%Y-%m-%d %H:%M:%S UTC')}",
         "",
         "| tau | " + " | ".join(n.upper() for n in names) + " |",
@@ -180,11 +216,7 @@ def _text(conversion: PhaseNoiseStability) -> str:
         [format_tau(float(tau))] + [format_value(float(conversion[n][i]), _unit(n)) for n in names]
         for i, tau in enumerate(conversion.tau)
     ]
-    widths = [max([len(header[j])] + [len(r[j]) for r in rows]) for j in range(len(header))]
-    out = ["  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
-    out.append("  ".join("-" * w for w in widths))
-    out += ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in rows]
-    return "\n".join(out)
+    return text_table(header, rows)
 
 
 def _csv(conversion: PhaseNoiseStability) -> str:
@@ -196,34 +228,37 @@ def _csv(conversion: PhaseNoiseStability) -> str:
     return "\n".join(lines) + "\n"
 
 
-@app.command("phase-noise")
-@handle_errors
+#: ``--stats`` of phase-noise: the statistics with a frequency-domain conversion.
+PN_STATS = stats_option("adev,mdev", PHASE_NOISE_STATS)
+
+
+@command(
+    READING,
+    PREPARING,
+    PN_STATS,
+    CONFIDENCE,
+    WRITING,
+    variants=(
+        CARRIER,
+        OUT.but(help="Output folder (default: <table name>-stability/ in the current folder)."),
+        TITLE.but(help="Title of the figure (default: stability from phase noise: <table>)."),
+    ),
+)
 def phase_noise_command(
     table: TableArg,
-    nominal: CarrierOpt,
     fh: BandwidthOpt = None,
     taus: PnTausOpt = "octave",
-    stats: PnStatsOpt = "adev,mdev",
     beyond: BeyondOpt = "flat",
     compare: CompareOpt = None,
-    kind: KindOpt = "auto",
-    column: ColumnOpt = None,
-    time_column: TimeColumnOpt = None,
-    tau0: Tau0Opt = None,
-    confidence: ConfidenceOpt = 0.683,
-    outliers: OutliersOpt = "5",
-    drift: DriftOpt = "none",
-    out: OutOpt = None,
-    strict: StrictOpt = False,
-    json_out: JsonOpt = False,
-    debug: DebugOpt = False,
+    *,
+    opts: RunOptions,
 ) -> None:
     """Convert a phase-noise table L(f) into sigma(tau), optionally beside a measured log.
 
     Example: stability phase-noise ocxo_pn.csv --nominal 10MHz --fh 100Hz --compare counter.csv
     """
     offsets, level = read_phase_noise_table(table)
-    carrier = parse_frequency(nominal, what="--nominal")
+    carrier = parse_frequency(opts.settings.read.nominal, what="--nominal")
     f_h = float(offsets[-1]) if fh is None else parse_frequency(fh, what="--fh")
     if f_h <= offsets[0]:
         raise InputError(
@@ -232,6 +267,7 @@ def phase_noise_command(
             hint="pass the bandwidth of the measurement, above the table's offsets",
         )
     tau, tau_rule = _taus(taus, f_h, float(offsets[0]))
+    stats = opts.settings.analysis.stats
     conversion = phase_noise_to_stability(
         offsets, level, nominal=carrier, f_h=f_h, taus=tau, stats=stats, beyond=beyond
     )
@@ -244,39 +280,11 @@ def phase_noise_command(
         "stats": ",".join(conversion.statistics),
         "beyond the table": beyond,
     }
-    measured = None
-    model_curve = None
     run = None
+    model_curve = None
     if compare is not None:
-        run = run_analysis(
-            compare,
-            kind=kind,
-            column=column,
-            time_column=time_column,
-            tau0=tau0,
-            nominal=nominal,
-            strict=strict,
-            stats=",".join(conversion.statistics),
-            taus="octave",
-            confidence=confidence,
-            outliers=outliers_value(outliers),
-            drift=drift,
-        )
-        measured = run.table
-        settings["compared with"] = f"{compare.name} (SHA-256 {run.sha256 or 'n/a'})"
-        model = run.table.extras.get("power_law_model")
-        if model is not None and any(v > 0 for v in model.h.values()):
-            low = 0.5 / float(model.tau_range[1])
-            grid = np.geomspace(low, max(float(model.f_h), low * 10.0), 200)
-            model_curve = (grid, model_to_phase_noise(model.h, carrier, grid))
-            settings["model"] = ", ".join(
-                f"h{a} = {v:.3g}" for a, v in sorted(model.h.items()) if v > 0
-            )
-        else:
-            conversion.notes.append(
-                "the compared log has no fitted power-law model; no L(f) sketch is drawn"
-            )
-    folder = ensure_folder(out if out is not None else Path.cwd() / f"{table.name}-stability")
+        run, model_curve = _compared(compare, conversion, carrier, opts, settings)
+    folder = ensure_folder(opts.folder(Path.cwd() / f"{table.name}-stability"))
     written = [
         atomic_write_text(folder / "phase_noise_sigma.csv", _csv(conversion)),
         atomic_write_text(
@@ -284,25 +292,22 @@ def phase_noise_command(
             _markdown(conversion, table, sha, settings, moment),
         ),
     ]
-    hashes = [sha[:12]] + ([run.sha256[:12]] if run is not None and run.sha256 else [])
-    footer = (
-        f"inputs SHA-256 {', '.join(hashes)} · stability {stability.__version__} · "
-        f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
-    )
-    drawn = phase_noise_figure(
+    hashes = [sha] + ([run.sha256] if run is not None else [])
+    fig = phase_noise_figure(
         conversion,
         table=(offsets, level),
-        measured=measured,
+        measured=run.table if run is not None else None,
         model=model_curve,
-        title=f"stability from phase noise: {table.name}",
-        footer=footer,
+        title=opts.title or f"stability from phase noise: {table.name}",
+        footer=footer(hashes, moment, several=True),
     )
-    written.append(save_figure(drawn, folder / "phase_noise.png", "png"))
-    if json_out:
+    fmt = opts.plot_format
+    written.append(save_figure(fig, folder / f"phase_noise.{fmt}", fmt))
+    if opts.json:
         document = {
             "table": {"path": str(table), "sha256": sha},
             "settings": settings,
-            "tool": f"stability {stability.__version__}",
+            "tool": f"stability {__version__}",
             "analysis_time": moment,
             "rows": conversion.to_frame().to_dict(orient="records"),
             "notes": conversion.notes,
@@ -311,12 +316,43 @@ def phase_noise_command(
         return
     typer.echo(f"sigma(tau) from {table.name}: carrier {carrier:.10g} Hz, f_h {f_h:.6g} Hz")
     typer.echo(_text(conversion))
-    if measured is not None:
+    if run is not None:
         typer.echo("")
         typer.echo(f"measured: {compare.name}")
-        typer.echo(terminal_table(measured))
+        typer.echo(terminal_table(run.table))
     typer.echo("")
     for note in conversion.notes:
         typer.echo(f"note: {note}")
     typer.echo("")
     typer.echo(f"wrote {len(written)} files into {folder}")
+
+
+def _compared(
+    log: Path,
+    conversion: PhaseNoiseStability,
+    carrier: float,
+    opts: RunOptions,
+    settings: dict[str, Any],
+) -> tuple[AnalysisRun, tuple[np.ndarray, np.ndarray] | None]:
+    """Analyse the --compare log (octave taus, the conversion's statistics) and sketch
+    the L(f) of its fitted power-law model; notes what it did in ``settings``."""
+    stats = ",".join(conversion.statistics)
+    chosen = opts.settings.replace(stats=stats, taus="octave")
+    with ProgressDisplay(enabled=not opts.json) as bar:
+        run = run_analysis(
+            log,
+            chosen,
+            on_progress=bar.reading(log.name),
+            on_step=bar.steps(log.name, step_count(stats)),
+        )
+    settings["compared with"] = f"{log.name} (SHA-256 {run.sha256 or 'n/a'})"
+    model = run.table.extras.get("power_law_model")
+    if model is None or not any(v > 0 for v in model.h.values()):
+        conversion.notes.append(
+            "the compared log has no fitted power-law model; no L(f) sketch is drawn"
+        )
+        return run, None
+    low = 0.5 / float(model.tau_range[1])
+    grid = np.geomspace(low, max(float(model.f_h), low * 10.0), 200)
+    settings["model"] = ", ".join(f"h{a} = {v:.3g}" for a, v in sorted(model.h.items()) if v > 0)
+    return run, (grid, model_to_phase_noise(model.h, carrier, grid))

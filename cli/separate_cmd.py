@@ -2,10 +2,11 @@
 
 Each log holds the difference of two oscillators, first named minus second
 (A-B, B-C, C-A for three logs by default). The command reads and prepares
-every log as ``analyze`` does, then calls :func:`stability.hat.separate`
-(Gray & Allan 1974; NIST SP 1065 section 9.2), which aligns the logs by their
-time stamps, and writes ``separated.csv``, ``separated.md``,
-``separated_pairs.csv`` and the figure ``separated.png``.
+every log as ``analyze`` does (the same reading and preparation options), then
+calls :func:`stability.hat.separate` (Gray & Allan 1974; NIST SP 1065 section
+9.2), which aligns the logs by their time stamps, and writes ``separated.csv``,
+``separated.md``, ``separated_pairs.csv`` and the figure ``separated.png`` (or
+the ``--plot-format``) into ``separated-stability/`` or ``--out``.
 """
 
 from __future__ import annotations
@@ -21,7 +22,7 @@ from typing import Annotated, Any
 
 import typer
 
-import stability
+from stability._version import __version__
 from stability.errors import InputError
 from stability.figures import hat_figure, save_figure
 from stability.files import atomic_write_text, ensure_folder, jsonable
@@ -31,25 +32,20 @@ from stability.reports.tables import format_tau, format_value
 from stability.run import read_and_prepare
 from stability.taus import parse_taus
 
-from .common import (
-    ColumnOpt,
-    ConfidenceOpt,
-    DebugOpt,
-    DriftOpt,
-    JsonOpt,
-    KindOpt,
-    NominalOpt,
-    OutliersOpt,
-    OutOpt,
-    StatsOpt,
-    StrictOpt,
-    Tau0Opt,
-    TausOpt,
-    TimeColumnOpt,
-    handle_errors,
-    outliers_value,
+from .common import command_line_checks
+from .options import (
+    ANALYSING,
+    OUT,
+    PREPARING,
+    READING,
+    TITLE,
+    WRITING,
+    RunOptions,
+    command,
+    stats_option,
 )
-from .main import app
+from .progress import ProgressDisplay
+from .reporting import footer, text_table
 
 __all__ = ["separate_command", "pair_assignment", "SEPARATED_COLUMNS"]
 
@@ -71,17 +67,21 @@ LogsArg = Annotated[
     typer.Argument(
         help="Pair logs, each the first oscillator minus the second (A-B, B-C, C-A).",
         show_default=False,
+        metavar="LOG",
     ),
 ]
 NamesOpt = Annotated[
     str | None,
-    typer.Option("--names", help="Oscillator names, comma list (default A,B,C,...)."),
+    typer.Option(
+        "--names", help="Oscillator names, comma list (default A,B,C,...).", metavar="LIST"
+    ),
 ]
 PairsOpt = Annotated[
     str | None,
     typer.Option(
         "--pairs",
         help="Which pair each log is, in log order, e.g. A-B,B-C,C-A (log = first - second).",
+        metavar="LIST",
     ),
 ]
 
@@ -225,15 +225,6 @@ def _people(result: HatResult, name: str) -> tuple[list[str], list[list[str]]]:
     return header, lines
 
 
-def _text_table(header: list[str], lines: list[list[str]]) -> str:
-    widths = [max([len(header[j])] + [len(r[j]) for r in lines]) for j in range(len(header))]
-    out = ["  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
-    out.append("  ".join("-" * w for w in widths))
-    for row in lines:
-        out.append("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)).rstrip())
-    return "\n".join(out)
-
-
 def _markdown(
     results: list[HatResult],
     order: list[str],
@@ -262,7 +253,7 @@ def _markdown(
     lines += ["", "## Settings", ""]
     lines += [f"- {key}: {value}" for key, value in settings.items()]
     lines += [
-        f"- tool: stability {stability.__version__}",
+        f"- tool: stability {__version__}",
         f"- analysed: {moment.strftime('%Y-%m-%d %H:%M:%S UTC')}",
     ]
     for result in results:
@@ -278,35 +269,23 @@ def _markdown(
     return "\n".join(lines) + "\n"
 
 
-def _footer(inputs: list[tuple[str, Measurement]], moment: datetime) -> str:
-    hashes = [m.provenance.sha256[:12] for _, m in inputs if m.provenance.sha256]
-    where = f"inputs SHA-256 {', '.join(hashes)}" if hashes else "inputs from memory"
-    return (
-        f"{where} · stability {stability.__version__} · "
-        f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
-    )
-
-
-@app.command("separate")
-@handle_errors
+@command(
+    READING,
+    PREPARING,
+    ANALYSING,
+    WRITING,
+    variants=(
+        stats_option("oadev"),
+        OUT.but(help="Output folder (default: separated-stability/ in the current folder)."),
+        TITLE.but(help="Title of the figure (default: three-cornered hat: <names>)."),
+    ),
+)
 def separate_command(
     logs: LogsArg,
     names: NamesOpt = None,
     pairs: PairsOpt = None,
-    kind: KindOpt = "auto",
-    column: ColumnOpt = None,
-    time_column: TimeColumnOpt = None,
-    tau0: Tau0Opt = None,
-    nominal: NominalOpt = None,
-    stats: StatsOpt = "oadev",
-    taus: TausOpt = "octave",
-    confidence: ConfidenceOpt = 0.683,
-    outliers: OutliersOpt = "5",
-    drift: DriftOpt = "none",
-    out: OutOpt = None,
-    strict: StrictOpt = False,
-    json_out: JsonOpt = False,
-    debug: DebugOpt = False,
+    *,
+    opts: RunOptions,
 ) -> None:
     """Separate each oscillator's stability from pair logs A-B, B-C, C-A (three-cornered hat).
 
@@ -314,40 +293,37 @@ def separate_command(
 
     Example: stability separate AB.csv BC.csv CA.csv --names maser,ocxo,rb --stats oadev
     """
-    keys, order = pair_assignment(len(logs), names, pairs)
-    threshold = outliers_value(outliers)
-    statistics = _split_list(stats, "--stats")
-    grid = parse_taus(taus)
+    with command_line_checks():
+        keys, order = pair_assignment(len(logs), names, pairs)
+    spec = opts.settings.analysis
+    statistics = [n for n in str(spec.stats).split(",") if n]
+    grid = parse_taus(spec.taus)
     inputs: list[tuple[str, Measurement]] = []
     measurements = {}
-    for path, key in zip(logs, keys, strict=True):
-        source, prepared, _ = read_and_prepare(
-            path,
-            kind=kind,
-            column=column,
-            time_column=time_column,
-            tau0=tau0,
-            nominal=nominal,
-            strict=strict,
-            outliers=threshold,
-            drift=drift,
-        )
-        measurements[key] = prepared
-        inputs.append((f"{key[0]}-{key[1]}", source))
+    with ProgressDisplay(enabled=not opts.json) as bar:
+        for path, key in zip(logs, keys, strict=True):
+            source, prepared, _ = read_and_prepare(
+                path, opts.settings, on_progress=bar.reading(path.name)
+            )
+            measurements[key] = prepared
+            inputs.append((f"{key[0]}-{key[1]}", source))
     results = [
-        separate(measurements, stat=name, taus=grid, confidence=confidence) for name in statistics
+        separate(measurements, stat=name, taus=grid, confidence=spec.confidence)
+        for name in statistics
     ]
     moment = datetime.now(UTC)
+    threshold = opts.settings.prepare.outliers
     settings = {
         "pairs": ", ".join(f"{a}-{b} = {p.name}" for (a, b), p in zip(keys, logs, strict=True)),
         "sign convention": "each log holds the first oscillator minus the second",
         "stats": ",".join(r.statistic for r in results),
-        "taus": str(taus),
-        "confidence": confidence,
+        "taus": str(spec.taus),
+        "confidence": spec.confidence,
         "outliers": "off" if threshold is None else threshold,
-        "drift": drift,
+        "drift": opts.settings.prepare.drift,
+        "average": opts.settings.prepare.average,
     }
-    folder = ensure_folder(out if out is not None else Path.cwd() / "separated-stability")
+    folder = ensure_folder(opts.folder(Path.cwd() / "separated-stability"))
     rows = _rows(results, order)
     written = [
         atomic_write_text(folder / "separated.csv", _csv(SEPARATED_COLUMNS, rows)),
@@ -363,16 +339,18 @@ def separate_command(
             folder / "separated_pairs.csv", _csv(list(pair_frames[0].columns), pair_rows)
         )
     )
-    drawn = hat_figure(results, footer=_footer(inputs, moment))
-    written.append(save_figure(drawn, folder / "separated.png", "png"))
-    if json_out:
+    hashes = [m.provenance.sha256 for _, m in inputs]
+    fig = hat_figure(results, title=opts.title, footer=footer(hashes, moment, several=True))
+    fmt = opts.plot_format
+    written.append(save_figure(fig, folder / f"separated.{fmt}", fmt))
+    if opts.json:
         document = {
             "settings": settings,
             "inputs": [
                 {"pair": label, "path": m.provenance.path, "sha256": m.provenance.sha256}
                 for label, m in inputs
             ],
-            "tool": f"stability {stability.__version__}",
+            "tool": f"stability {__version__}",
             "analysis_time": moment,
             "rows": [dict(zip(SEPARATED_COLUMNS, row, strict=True)) for row in rows],
             "notes": [n for r in results for n in r.notes],
@@ -387,7 +365,7 @@ def separate_command(
             header, lines = _people(result, name)
             typer.echo("")
             typer.echo(f"{name}  ({result.statistic.upper()})")
-            typer.echo(_text_table(header, lines))
+            typer.echo(text_table(header, lines))
     notes = list(dict.fromkeys(n for r in results for n in r.notes))
     if notes:
         typer.echo("")

@@ -33,17 +33,17 @@ from typing import Annotated, Any
 import numpy as np
 import typer
 
-import stability
+from stability._version import __version__
 from stability.errors import InputError
 from stability.files import atomic_write_bytes, atomic_write_text, refuse_overwrite
 from stability.simulate import h_from_deviation, simulate
 from stability.table import NOISE_LABELS
 from stability.units import parse_duration, parse_frequency
 
-from .common import DebugOpt, NominalOpt, Tau0Opt, handle_errors
-from .main import app
+from .common import command_line_checks
+from .options import RunOptions, checked, command, duration_check, frequency_check
 
-__all__ = ["simulate_log", "simulated_csv", "parse_start", "VALUE_HEADERS"]
+__all__ = ["simulate_cmd", "simulate_log", "simulated_csv", "parse_start", "VALUE_HEADERS"]
 
 #: Header of the value column for each kind of output.
 VALUE_HEADERS = {
@@ -62,30 +62,79 @@ def _level_option(label: str, what: str) -> Any:
         typer.Option(
             f"--{label}",
             help=f"{what}: Allan deviation this noise alone has at --at (e.g. 1e-11).",
+            metavar="ADEV",
         ),
     ]
 
 
-OutArg = Annotated[Path, typer.Argument(help="The CSV file to write.", show_default=False)]
-NOpt = Annotated[int, typer.Option("--n", help="Number of samples.")]
+OutArg = Annotated[
+    Path,
+    typer.Argument(
+        help="The CSV file to write (gzip-compressed when the name ends in .gz).",
+        show_default=False,
+        metavar="OUT",
+    ),
+]
+NOpt = Annotated[int, typer.Option("--n", help="Number of samples.", metavar="N")]
+SimTau0Opt = Annotated[
+    str,
+    typer.Option(
+        "--tau0",
+        help="Sample interval of the simulated log, e.g. 1s or 100ms.",
+        metavar="DURATION",
+        callback=checked(duration_check("--tau0")),
+    ),
+]
+SimNominalOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--nominal",
+        help="Nominal frequency the absolute frequencies lie around, e.g. 10MHz "
+        "(with --absolute only).",
+        metavar="FREQ",
+        callback=checked(frequency_check("--nominal")),
+    ),
+]
 WpmOpt = _level_option("wpm", "White phase noise")
 FpmOpt = _level_option("fpm", "Flicker phase noise")
 WfmOpt = _level_option("wfm", "White frequency noise")
 FfmOpt = _level_option("ffm", "Flicker frequency noise")
 RwfmOpt = _level_option("rwfm", "Random-walk frequency noise")
-AtOpt = Annotated[str, typer.Option("--at", help="Averaging time the levels refer to, e.g. 1s.")]
-DriftPerDayOpt = Annotated[
-    float, typer.Option("--drift-per-day", help="Linear fractional-frequency drift per day.")
+AtOpt = Annotated[
+    str,
+    typer.Option(
+        "--at",
+        help="Averaging time the levels refer to, e.g. 1s.",
+        metavar="DURATION",
+        callback=checked(duration_check("--at")),
+    ),
 ]
-OffsetOpt = Annotated[float, typer.Option("--offset", help="Fractional-frequency offset.")]
+DriftPerDayOpt = Annotated[
+    float,
+    typer.Option(
+        "--drift-per-day", help="Linear fractional-frequency drift per day.", metavar="RATE"
+    ),
+]
+OffsetOpt = Annotated[
+    float, typer.Option("--offset", help="Fractional-frequency offset.", metavar="Y")
+]
 OutputOpt = Annotated[
     str,
-    typer.Option("--output", help="What to write: frequency (fractional) or phase (seconds)."),
+    typer.Option(
+        "--output",
+        help="What to write: frequency (fractional) or phase (time error, seconds).",
+        metavar="frequency|phase",
+    ),
 ]
 StartOpt = Annotated[
-    str, typer.Option("--start", help="Time of the first sample, ISO 8601 (UTC if no zone).")
+    str,
+    typer.Option(
+        "--start",
+        help="Time of the first sample, ISO 8601 (UTC if no zone).",
+        metavar="TIME",
+    ),
 ]
-SeedOpt = Annotated[int, typer.Option("--seed", help="Seed of the random numbers.")]
+SeedOpt = Annotated[int, typer.Option("--seed", help="Seed of the random numbers.", metavar="N")]
 AbsoluteOpt = Annotated[
     bool,
     typer.Option(
@@ -232,7 +281,7 @@ def simulate_log(
     if nominal is not None:
         what = f"absolute frequency in Hz around {nominal:.12g} Hz"
     preamble = [
-        f"simulated power-law noise, written by stability {stability.__version__}",
+        f"simulated power-law noise, written by stability {__version__}",
         f"values: {what}; {n} samples, tau0 = {tau0:g} s, first at {start.isoformat()}",
         f"levels (Allan deviation of each noise alone at {at:g} s): {noise}",
         f"frequency offset {offset:g}, linear drift {drift_per_day:g} per day, seed {seed}",
@@ -244,12 +293,11 @@ def simulate_log(
     return atomic_write_text(out, text)
 
 
-@app.command("simulate")
-@handle_errors
+@command(subject="out")
 def simulate_cmd(
     out: OutArg,
     n: NOpt = 86400,
-    tau0: Tau0Opt = "1s",
+    tau0: SimTau0Opt = "1s",
     wpm: WpmOpt = None,
     fpm: FpmOpt = None,
     wfm: WfmOpt = None,
@@ -261,10 +309,11 @@ def simulate_cmd(
     output: OutputOpt = "frequency",
     start: StartOpt = "2026-01-01T00:00:00Z",
     seed: SeedOpt = 1,
-    nominal: NominalOpt = None,
+    nominal: SimNominalOpt = None,
     absolute: AbsoluteOpt = False,
     force: ForceOpt = False,
-    debug: DebugOpt = False,
+    *,
+    opts: RunOptions,
 ) -> None:
     """Write a CSV log of simulated power-law noise (levels as Allan deviations at --at).
 
@@ -274,9 +323,10 @@ def simulate_cmd(
     Example: stability simulate wfm.csv --n 86400 --tau0 1s --wfm 1e-11 --at 1s --seed 1
     """
     deviations = {"wpm": wpm, "fpm": fpm, "wfm": wfm, "ffm": ffm, "rwfm": rwfm}
-    t0, at_s, levels, kind, f_nominal, moment = _validate_simulate_args(
-        n, tau0, deviations, at, output, nominal, absolute, start, seed
-    )
+    with command_line_checks():
+        t0, at_s, levels, kind, f_nominal, moment = _validate_simulate_args(
+            n, tau0, deviations, at, output, nominal, absolute, start, seed
+        )
     refuse_overwrite(out, force)
     path = simulate_log(
         out,

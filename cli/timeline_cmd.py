@@ -4,7 +4,8 @@ Reads and prepares the log as ``analyze`` does, computes the deviation in a
 window sliding along the record with :func:`stability.dynamic.dynamic_stability`
 (the dynamic Allan deviation of Galleani & Tavella, IEEE UFFC 56(3), 2009),
 and writes ``timeline.csv`` (one row per window and tau) and ``timeline.png``
-(a map over time and tau, and the shortest tau over time with its interval).
+(or the ``--plot-format``: a map over time and tau, and the shortest tau over
+time with its interval).
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ from typing import Annotated, Any
 import numpy as np
 import typer
 
-import stability
+from stability._version import __version__
 from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
 from stability.errors import InputError, StabilityWarning
 from stability.figures import save_figure, timeline_figure
@@ -29,57 +30,64 @@ from stability.run import read_and_prepare
 from stability.taus import parse_taus
 from stability.units import format_duration, parse_duration
 
-from .common import (
-    AverageOpt,
-    ColumnOpt,
-    ConfidenceOpt,
-    DebugOpt,
-    DriftOpt,
-    JsonOpt,
-    KindOpt,
+from .options import (
+    ANALYSING,
+    PREPARING,
+    READING,
+    TITLE,
+    WRITING,
     LogArg,
-    NominalOpt,
-    OutliersOpt,
-    OutOpt,
-    StrictOpt,
-    Tau0Opt,
-    TausOpt,
-    TimeColumnOpt,
-    WrapOpt,
-    handle_errors,
-    outliers_value,
+    RunOptions,
+    checked,
+    command,
+    duration_check,
+    stats_option,
 )
-from .main import app
+from .progress import ProgressDisplay
+from .reporting import footer
 
 __all__ = ["timeline_command", "timeline_csv", "timeline_summary"]
 
 WindowOpt = Annotated[
-    str, typer.Option("--window", help="Window length, e.g. 4h or 3600s.", show_default=False)
+    str,
+    typer.Option(
+        "--window",
+        help="Window length, e.g. 4h or 3600s.",
+        metavar="DURATION",
+        show_default=False,
+        callback=checked(duration_check("--window")),
+    ),
 ]
 StepOpt = Annotated[
     str | None,
-    typer.Option("--step", help="Distance between windows, e.g. 15min (default: window/4)."),
+    typer.Option(
+        "--step",
+        help="Distance between windows, e.g. 15min (default: a quarter of the window).",
+        metavar="DURATION",
+        callback=checked(duration_check("--step")),
+    ),
 ]
-OneStatOpt = Annotated[
-    str, typer.Option("--stats", help=f"One statistic: {', '.join(DYNAMIC_STATS)}.")
-]
+
+
+def _noise(value: str) -> str:
+    word = str(value).strip().lower()
+    if word not in ("window", "record"):
+        raise InputError(f"--noise must be window or record, got {value!r}")
+    return word
+
+
 NoiseOpt = Annotated[
     str,
     typer.Option(
         "--noise",
         help="Identify the noise type in each window (window) or once for the record (record).",
+        metavar="window|record",
+        callback=checked(_noise),
     ),
 ]
 
-
-def _statistic(text: str) -> str:
-    names = [part.strip().lower() for part in str(text).split(",") if part.strip()]
-    if len(names) != 1:
-        raise InputError(
-            f"--stats: timeline draws one statistic, got {text!r}",
-            hint=f"pass one of {', '.join(DYNAMIC_STATS)}",
-        )
-    return names[0]
+#: ``--stats`` of timeline: one statistic that a sliding window can compute.
+ONE_STAT = stats_option("oadev", DYNAMIC_STATS, one=True)
 
 
 def timeline_csv(result: DynamicResult) -> str:
@@ -136,50 +144,35 @@ def timeline_summary(result: DynamicResult) -> list[str]:
     return lines
 
 
-@app.command("timeline")
-@handle_errors
+@command(
+    READING,
+    PREPARING,
+    ANALYSING,
+    WRITING,
+    variants=(
+        ONE_STAT,
+        TITLE.but(help="Title of the figure (default: stability over time: <log name>)."),
+    ),
+)
 def timeline_command(
     log: LogArg,
     window: WindowOpt,
     step: StepOpt = None,
-    kind: KindOpt = "auto",
-    column: ColumnOpt = None,
-    time_column: TimeColumnOpt = None,
-    tau0: Tau0Opt = None,
-    nominal: NominalOpt = None,
-    stats: OneStatOpt = "oadev",
-    taus: TausOpt = "octave",
-    confidence: ConfidenceOpt = 0.683,
     noise: NoiseOpt = "window",
-    outliers: OutliersOpt = "5",
-    drift: DriftOpt = "none",
-    average: AverageOpt = 1,
-    wrap: WrapOpt = None,
-    out: OutOpt = None,
-    strict: StrictOpt = False,
-    json_out: JsonOpt = False,
-    debug: DebugOpt = False,
+    *,
+    opts: RunOptions,
 ) -> None:
     """Stability over time: the deviation in a sliding window (dynamic Allan deviation).
 
     Example: stability timeline counter.csv --nominal 10MHz --window 4h --step 15min
     """
-    name = _statistic(stats)
+    spec = opts.settings.analysis
     window_s = parse_duration(window, what="--window")
     step_s = window_s / 4.0 if step is None else parse_duration(step, what="--step")
-    source, prepared, report = read_and_prepare(
-        log,
-        kind=kind,
-        column=column,
-        time_column=time_column,
-        tau0=tau0,
-        nominal=nominal,
-        wrap=wrap,
-        strict=strict,
-        outliers=outliers_value(outliers),
-        drift=drift,
-        average=average,
-    )
+    with ProgressDisplay(enabled=not opts.json) as bar:
+        source, prepared, report = read_and_prepare(
+            log, opts.settings, on_progress=bar.reading(log.name)
+        )
     if step is None:
         step_s = max(step_s, prepared.tau0)
     with warnings.catch_warnings():
@@ -189,40 +182,42 @@ def timeline_command(
             prepared,
             window=window_s,
             step=step_s,
-            taus=parse_taus(taus),
-            stat=name,
-            confidence=confidence,
+            taus=parse_taus(spec.taus),
+            stat=str(spec.stats),
+            confidence=spec.confidence,
             noise=noise,
         )
     moment = datetime.now(UTC)
-    folder = ensure_folder(out if out is not None else Path.cwd() / f"{log.name}-stability")
+    folder = ensure_folder(opts.folder(Path.cwd() / f"{log.name}-stability"))
     sha = source.provenance.sha256
-    footer = (
-        f"input SHA-256 {sha[:12] if sha else 'n/a'} · stability {stability.__version__} · "
-        f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
-    )
     written = [atomic_write_text(folder / "timeline.csv", timeline_csv(result))]
-    drawn = timeline_figure(result, title=f"stability over time: {log.name}", footer=footer)
-    written.append(save_figure(drawn, folder / "timeline.png", "png"))
+    fig = timeline_figure(
+        result,
+        title=opts.title or f"stability over time: {log.name}",
+        footer=footer([sha], moment),
+    )
+    fmt = opts.plot_format
+    written.append(save_figure(fig, folder / f"timeline.{fmt}", fmt))
     summary = timeline_summary(result)
+    drift = opts.settings.prepare.drift
     removed = "no drift removed" if drift == "none" else f"{report.drift_model} drift removed"
     summary.append(
         f"prepared    {len(report.outliers.samples)} outliers removed, {removed}, "
         f"{report.gaps_after} gap samples"
     )
-    if json_out:
+    if opts.json:
         document: dict[str, Any] = {
             "input": {"path": str(log), "sha256": sha},
             "settings": {
-                "stat": name,
+                "stat": result.statistic,
                 "window_s": result.window_points * prepared.tau0,
                 "step_s": result.step_points * prepared.tau0,
-                "taus": str(taus),
-                "confidence": confidence,
+                "taus": str(spec.taus),
+                "confidence": spec.confidence,
                 "noise": noise,
                 "preparation": report.to_dict(),
             },
-            "tool": f"stability {stability.__version__}",
+            "tool": f"stability {__version__}",
             "analysis_time": moment,
             "summary": summary,
             "notes": result.notes,

@@ -104,8 +104,12 @@ def _write_all(
     limits: Any,
     limits_statistic: str | None,
     titled: bool,
+    title: str | None = None,
 ) -> None:
-    """Write the five outputs to the given paths (keys: :data:`OUTPUT_NAMES`)."""
+    """Write the five outputs to the given paths (keys: :data:`OUTPUT_NAMES`).
+
+    ``title`` replaces the stability figure's title (the default names the log).
+    """
     texts = {
         "table.csv": lambda: table_csv(run.table),
         "table.md": lambda: table_markdown(run.table),
@@ -117,6 +121,7 @@ def _write_all(
     series_title = default_title(shown, "data over time") if titled else None
     series_footer = default_footer(shown, analysis_time=run.analysis_time) if titled else None
     stab_title = default_title(run.table.measurement, "stability") if titled else None
+    stab_title = title if title is not None else stab_title
     stab_footer = default_footer(run.table, analysis_time=run.analysis_time) if titled else None
     _draw_stability(paths["sigma_tau"], fmt, run, limits, limits_statistic, stab_title, stab_footer)
     _draw_series(paths["series"], fmt, run, series_title, series_footer)
@@ -143,6 +148,7 @@ def analyze_into(
     plot_format: str = "png",
     limits: Any = None,
     limits_statistic: str | None = None,
+    title: str | None = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
     **options: Any,
@@ -150,7 +156,8 @@ def analyze_into(
     """Read, prepare, analyse and write the five outputs into ``folder``: (run, files).
 
     ``settings`` (or keyword settings as :func:`stability.run_analysis` takes
-    them) say what to do. The five files appear together or not at all
+    them) say what to do; ``title`` replaces the stability figure's title. The
+    five files appear together or not at all
     (:class:`stability.outputs.OutputSet`): an output that would overwrite the
     log is refused before anything is read, a folder another run is writing
     into is refused, and the figures of another plot format from an earlier
@@ -165,7 +172,7 @@ def analyze_into(
         moment = datetime.now(UTC)
         run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
         pending = _paths(out.pending, fmt)
-        _write_all(run, pending, fmt, limits, limits_statistic, titled=True)
+        _write_all(run, pending, fmt, limits, limits_statistic, titled=True, title=title)
         files = out.commit()
     return run, _paths(files, fmt)
 
@@ -177,12 +184,18 @@ def write_analysis(
     plot_format: str = "png",
     limits: Any = None,
     limits_statistic: str | None = None,
+    title: str | None = None,
 ) -> dict[str, Path]:
-    """Write table.csv, table.md, summary.json and both plots of a run into ``folder``."""
+    """Write table.csv, table.md, summary.json and both plots of a run into ``folder``.
+
+    ``title`` replaces the stability figure's title.
+    """
     fmt = check_plot_format(plot_format)
     names, stale = output_names(fmt)
     inputs = [run.source.provenance.path] if run.source.provenance.path else []
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
-        _write_all(run, _paths(out.pending, fmt), fmt, limits, limits_statistic, titled=False)
+        _write_all(
+            run, _paths(out.pending, fmt), fmt, limits, limits_statistic, titled=False, title=title
+        )
         files = out.commit()
     return _paths(files, fmt)

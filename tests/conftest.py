@@ -10,7 +10,11 @@ References
 
 from __future__ import annotations
 
+import atexit
+import os
+import shutil
 import sys
+import tempfile
 from collections.abc import Callable
 from pathlib import Path
 
@@ -25,6 +29,34 @@ __all__ = [
 ]
 
 REPO = Path(__file__).resolve().parent.parent
+
+
+def _make_cli_importable() -> Path:
+    """Make this checkout's ``cli/`` folder importable as ``stability_cli``, here and in
+    the subprocesses the tests start.
+
+    Installed, the packaging maps ``cli/`` to the import package ``stability_cli``;
+    a source checkout has no such folder. A one-file package ``stability_cli`` in a
+    temporary folder whose ``__path__`` is ``cli/`` stands in for it, put first on
+    ``sys.path`` and on ``PYTHONPATH`` (with the checkout itself), so the tests run
+    this checkout's command line and library, installed or not.
+    """
+    shim = Path(tempfile.mkdtemp(prefix="stability-cli-"))
+    atexit.register(shutil.rmtree, shim, ignore_errors=True)
+    package = shim / "stability_cli"
+    package.mkdir()
+    (package / "__init__.py").write_text(
+        '"""This checkout\'s cli/ folder as the package stability_cli (tests only)."""\n'
+        f"__path__ = [{str(REPO / 'cli')!r}]\n",
+        encoding="utf-8",
+    )
+    sys.path.insert(0, str(shim))
+    paths = [str(shim), str(REPO), os.environ.get("PYTHONPATH", "")]
+    os.environ["PYTHONPATH"] = os.pathsep.join(p for p in paths if p)
+    return shim
+
+
+CLI_SHIM = _make_cli_importable()
 
 
 def _nbs14() -> np.ndarray:
@@ -82,8 +114,5 @@ def power_law_frequency() -> Callable[[float, int, int], np.ndarray]:
 
 @pytest.fixture(scope="session")
 def stability_command() -> list[str]:
-    """The installed ``stability`` console script (beside the interpreter), as an argv prefix."""
-    script = Path(sys.executable).parent / "stability"
-    if script.is_file():
-        return [str(script)]
-    return [sys.executable, "-c", "from cli.main import app; app()"]
+    """The command line of this checkout in a new process (``python -m stability``)."""
+    return [sys.executable, "-m", "stability"]

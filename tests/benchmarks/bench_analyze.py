@@ -82,7 +82,7 @@ def main(scale: float = 1.0, repeat: int | None = None) -> dict[str, float]:
     for name in ("OPENBLAS_CORETYPE", "OPENBLAS_L2_SIZE"):
         print(f"{name} = {os.environ.get(name, '(unset)')}")
     exe = Path(sys.executable).parent / "stability"
-    ours_cmd = [str(exe)] if exe.exists() else [sys.executable, "-m", "cli.main"]
+    ours_cmd = [str(exe)] if exe.exists() else [sys.executable, "-m", "stability"]
     with tempfile.TemporaryDirectory() as tmp:
         log = Path(tmp) / "bench-log.csv"
         write_log(log, rows)

@@ -2,7 +2,8 @@
 
 Exit codes (common practice for command lines, written down in cli/common.py):
 0 success, 1 input or analysis error (one ``error:`` line, no traceback),
-2 usage error.
+2 usage error (one ``error:`` line too): a value the command line alone shows
+to be wrong.
 """
 
 from __future__ import annotations
@@ -16,9 +17,9 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from cli.main import app
 from stability.summary import SUMMARY_FIELDS
 from stability.table import COLUMNS
+from stability_cli.main import app
 
 runner = CliRunner()
 
@@ -52,8 +53,8 @@ def _invoke(args: list[str]):
     return runner.invoke(app, args)
 
 
-def _one_error_line(result) -> str:
-    assert result.exit_code == 1, result.output
+def _one_error_line(result, code: int = 1) -> str:
+    assert result.exit_code == code, result.output
     assert "Traceback" not in result.output, result.output
     lines = [ln for ln in result.output.splitlines() if ln.strip()]
     errors = [ln for ln in lines if ln.startswith("error: ")]
@@ -140,20 +141,27 @@ def test_bad_inputs_exit_1_with_one_line(log, tmp_path):
         "header only": [str(header_only)],
         "single row": [str(single)],
         "binary junk": [str(junk)],
-        "unknown statistic": [str(log), "--stats", "oadev,nosuchdev"],
-        "bad taus": [str(log), "--taus", "1,ten"],
         "tau not multiple": [str(log), "--taus", "1.5"],
-        "bad outliers": [str(log), "--outliers", "many"],
-        "bad drift": [str(log), "--drift", "cubic"],
-        "bad plot format": [str(log), "--plot-format", "gif"],
     }
     for what, args in cases.items():
         result = _invoke(["analyze", *args, "--out", str(tmp_path / "o")])
         line = _one_error_line(result)
         assert len(line) < 400, (what, line)
+    # values of the wrong form are usage errors: one line too, exit code 2
+    usage = {
+        "unknown statistic": [str(log), "--stats", "oadev,nosuchdev"],
+        "bad taus": [str(log), "--taus", "1,ten"],
+        "bad outliers": [str(log), "--outliers", "many"],
+        "bad drift": [str(log), "--drift", "cubic"],
+        "bad plot format": [str(log), "--plot-format", "gif"],
+    }
+    for what, args in usage.items():
+        result = _invoke(["analyze", *args, "--out", str(tmp_path / "o")])
+        line = _one_error_line(result, code=2)
+        assert len(line) < 400, (what, line)
     # the message names the problem
     result = _invoke(["analyze", str(log), "--stats", "nosuchdev", "--out", str(tmp_path / "o")])
-    assert "nosuchdev" in _one_error_line(result)
+    assert "nosuchdev" in _one_error_line(result, code=2)
     result = _invoke(["analyze", str(tmp_path / "missing.csv")])
     assert "missing.csv" in _one_error_line(result)
 
@@ -198,7 +206,7 @@ def _installed_command() -> list[str]:
     script = Path(sys.executable).parent / "stability"
     if script.is_file():
         return [str(script)]
-    return [sys.executable, "-c", "from cli.main import app; app()"]
+    return [sys.executable, "-c", "from stability_cli.main import app; app()"]
 
 
 def test_subprocess_run(log, tmp_path):

@@ -9,11 +9,11 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from cli.demo_cmd import COUNTER_LOG, INFO_FILE, PPS_LOG, SPEC_FILE, default_data_folder
-from cli.main import app
 from stability.errors import InputError
 from stability.ingest import inspect_log
 from stability.reports.tables import read_table_csv
+from stability_cli.demo_cmd import COUNTER_LOG, INFO_FILE, PPS_LOG, SPEC_FILE, default_data_folder
+from stability_cli.main import app
 
 runner = CliRunner()
 DEMO = Path(__file__).resolve().parents[2] / "datasets" / "demo"
@@ -51,7 +51,7 @@ def test_demo_end_to_end(short_data, tmp_path):
     assert "Open these:" in result.output
     assert str(out / "counter" / "sigma_tau.png") in result.output
     record_possible = (
-        importlib.util.find_spec("cli.record_cmd") is not None
+        importlib.util.find_spec("stability_cli.record_cmd") is not None
         and (short_data / SPEC_FILE).is_file()
         and (short_data / INFO_FILE).is_file()
     )

@@ -7,7 +7,7 @@ import subprocess
 
 from typer.testing import CliRunner
 
-from cli.main import app
+from stability_cli.main import app
 
 runner = CliRunner()
 

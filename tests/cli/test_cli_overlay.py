@@ -9,11 +9,11 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from cli.main import app
-from cli.overlay_cmd import PER_LOG_KEYS, parse_log_spec
 from stability.errors import InputError
 from stability.simulate import h_from_deviation, simulate
 from stability.table import COLUMNS
+from stability_cli.main import app
+from stability_cli.overlay_cmd import PER_LOG_KEYS, parse_log_spec
 
 runner = CliRunner()
 
@@ -112,16 +112,19 @@ def test_overlay_writes_plot_and_combined_table(logs, tmp_path):
 def test_overlay_errors(logs, tmp_path):
     a, b, _ = logs
     out = str(tmp_path / "e")
+    # exit 2: the command line alone is wrong; exit 1: a file cannot be used
     cases = [
-        ([str(a), str(b), "--labels", "one"], "--labels"),
-        ([str(a), str(a)], "labels must differ"),
-        ([str(a), f"{b}:speed=3"], "unknown per-log option"),
-        ([str(a), str(tmp_path / "none.csv")], "none.csv"),
-        ([str(a), "--plot-format", "bmp"], "--plot-format"),
+        ([str(a), str(b), "--labels", "one"], "--labels", 2),
+        ([str(a), str(a)], "labels must differ", 2),
+        ([str(a), f"{b}:speed=3"], "unknown per-log option", 2),
+        ([str(a), f"{b}:kind=freq"], "kind must be one of", 2),
+        ([str(a), str(tmp_path / "none.csv")], "none.csv", 1),
+        ([str(a), "--plot-format", "bmp"], "--plot-format", 2),
     ]
-    for args, text in cases:
+    for args, text, code in cases:
         result = runner.invoke(app, ["overlay", *args, "--out", out])
-        assert result.exit_code == 1, result.output
+        assert result.exit_code == code, result.output
+        assert len(result.output.strip().splitlines()) == 1, result.output
         assert "Traceback" not in result.output
         assert text in result.output, result.output
     result = runner.invoke(app, ["overlay", "--out", out])

@@ -10,9 +10,9 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from cli.main import app
-from cli.phase_noise_cmd import default_taus
 from stability.phase_noise import model_to_phase_noise
+from stability_cli.main import app
+from stability_cli.phase_noise_cmd import default_taus
 
 runner = CliRunner()
 
@@ -151,23 +151,24 @@ def test_compare_with_a_simulated_log(wfm_table, tmp_path):
     assert abs(float(measured[0][3]) / converted[1.0] - 1.0) < 0.1
 
 
+# exit 1: the table, or what the conversion can do; exit 2: a value of the wrong form
 @pytest.mark.parametrize(
-    ("text", "extra", "message"),
+    ("text", "extra", "message", "code"),
     [
-        ("1,-100\n10,abc\n", [], "bad.csv:2 column 2: not a number"),
-        ("1,-100\n", [], "at least 2 are needed"),
-        ("1,-100\n10,-110\n", ["--fh", "0.5Hz"], "not above the table's first offset"),
-        ("1,-100\n10,-110\n", ["--taus", "all"], "needs a sample interval"),
-        ("1,-100\n10,-110\n", ["--stats", "mtie"], "no frequency-domain conversion"),
-        ("1,-100\n10,-110\n", ["--nominal", "fast"], "cannot read"),
+        ("1,-100\n10,abc\n", [], "bad.csv:2 column 2: not a number", 1),
+        ("1,-100\n", [], "at least 2 are needed", 1),
+        ("1,-100\n10,-110\n", ["--fh", "0.5Hz"], "not above the table's first offset", 1),
+        ("1,-100\n10,-110\n", ["--taus", "all"], "needs a sample interval", 1),
+        ("1,-100\n10,-110\n", ["--stats", "mtie"], "no frequency-domain conversion", 1),
+        ("1,-100\n10,-110\n", ["--nominal", "fast"], "cannot read", 2),
     ],
 )
-def test_bad_tables_and_options_give_one_line(tmp_path, text, extra, message):
+def test_bad_tables_and_options_give_one_line(tmp_path, text, extra, message, code):
     table = tmp_path / "bad.csv"
     table.write_text(text)
     args = ["phase-noise", str(table), "--nominal", "10MHz", "--out", str(tmp_path / "o"), *extra]
     result = runner.invoke(app, args)
-    assert result.exit_code == 1, result.output
+    assert result.exit_code == code, result.output
     assert message in result.output, result.output
     assert "Traceback" not in result.output
     assert len(result.output.strip().splitlines()) == 1, result.output

@@ -11,7 +11,7 @@ import json
 import numpy as np
 from typer.testing import CliRunner
 
-from cli.main import app
+from stability_cli.main import app
 
 runner = CliRunner()
 

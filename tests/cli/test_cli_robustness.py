@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 from typer.testing import CliRunner
 
-from cli.main import app
+from stability_cli.main import app
 
 runner = CliRunner()
 

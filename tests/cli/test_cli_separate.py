@@ -17,9 +17,9 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from cli.main import app
-from cli.separate_cmd import SEPARATED_COLUMNS, pair_assignment
 from stability.errors import InputError
+from stability_cli.main import app
+from stability_cli.separate_cmd import SEPARATED_COLUMNS, pair_assignment
 
 runner = CliRunner()
 
@@ -186,15 +186,16 @@ def test_below_resolution_is_reported_with_an_upper_bound(one_quiet, tmp_path):
 
 
 def test_misaligned_and_bad_inputs_give_one_line(distinct, tmp_path):
+    # exit 2: the arguments contradict each other; exit 1: a file or what the hat can do
     cases = [
-        (["separate", str(distinct[0]), str(distinct[1])], "at least 3 pair logs"),
-        (["separate", *map(str, distinct), "--pairs", "A-B,B-C"], "2 pair(s) for 3 log(s)"),
-        (["separate", *map(str, distinct[:2]), str(tmp_path / "no.csv")], "no.csv"),
-        (["separate", *map(str, distinct), "--stats", "mtie"], "does not separate"),
+        (["separate", str(distinct[0]), str(distinct[1])], "at least 3 pair logs", 2),
+        (["separate", *map(str, distinct), "--pairs", "A-B,B-C"], "2 pair(s) for 3 log(s)", 2),
+        (["separate", *map(str, distinct[:2]), str(tmp_path / "no.csv")], "no.csv", 1),
+        (["separate", *map(str, distinct), "--stats", "mtie"], "does not separate", 1),
     ]
-    for args, message in cases:
+    for args, message, code in cases:
         result = runner.invoke(app, [*args, "--out", str(tmp_path / "x")])
-        assert result.exit_code == 1, result.output
+        assert result.exit_code == code, result.output
         assert message in result.output, result.output
         assert "Traceback" not in result.output
         assert len(result.output.strip().splitlines()) == 1, result.output

@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from cli.main import app
-from cli.simulate_cmd import parse_start
 from stability.ingest import inspect_log, read_log
+from stability_cli.main import app
+from stability_cli.simulate_cmd import parse_start
 
 runner = CliRunner()
 
@@ -21,9 +21,9 @@ def _ok(args):
     return result
 
 
-def _error(args) -> str:
+def _error(args, code: int = 1) -> str:
     result = runner.invoke(app, args)
-    assert result.exit_code == 1, result.output
+    assert result.exit_code == code, result.output
     assert "Traceback" not in result.output
     lines = [ln for ln in result.output.splitlines() if ln.startswith("error: ")]
     assert len(lines) == 1, result.output
@@ -31,18 +31,23 @@ def _error(args) -> str:
 
 
 def test_validation_messages(tmp_path):
+    # every one is a usage error (exit 2): the command line alone shows it
     out = str(tmp_path / "x.csv")
-    assert "no noise level" in _error(["simulate", out])
-    assert "--absolute needs --nominal" in _error(["simulate", out, "--wfm", "1e-11", "--absolute"])
-    assert "only used with --absolute" in _error(
+
+    def usage(args):
+        return _error(args, code=2)
+
+    assert "no noise level" in usage(["simulate", out])
+    assert "--absolute needs --nominal" in usage(["simulate", out, "--wfm", "1e-11", "--absolute"])
+    assert "only used with --absolute" in usage(
         ["simulate", out, "--wfm", "1e-11", "--nominal", "10MHz"]
     )
-    assert "--output" in _error(["simulate", out, "--wfm", "1e-11", "--output", "cycles"])
-    assert "--start" in _error(["simulate", out, "--wfm", "1e-11", "--start", "yesterday"])
-    assert "--n" in _error(["simulate", out, "--wfm", "1e-11", "--n", "1"])
-    assert "--wfm" in _error(["simulate", out, "--wfm", "-1e-11"])
-    assert "--tau0" in _error(["simulate", out, "--wfm", "1e-11", "--tau0", "0s"])
-    assert "--absolute writes frequency" in _error(
+    assert "--output" in usage(["simulate", out, "--wfm", "1e-11", "--output", "cycles"])
+    assert "--start" in usage(["simulate", out, "--wfm", "1e-11", "--start", "yesterday"])
+    assert "--n" in usage(["simulate", out, "--wfm", "1e-11", "--n", "1"])
+    assert "--wfm" in usage(["simulate", out, "--wfm", "-1e-11"])
+    assert "--tau0" in usage(["simulate", out, "--wfm", "1e-11", "--tau0", "0s"])
+    assert "--absolute writes frequency" in usage(
         ["simulate", out, "--wfm", "1e-11", "--absolute", "--nominal", "10MHz", "--output", "phase"]
     )
     assert not (tmp_path / "x.csv").exists()

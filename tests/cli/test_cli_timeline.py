@@ -11,7 +11,7 @@ import pandas as pd
 import pytest
 from typer.testing import CliRunner
 
-from cli.main import app
+from stability_cli.main import app
 
 runner = CliRunner()
 
@@ -92,13 +92,14 @@ def test_window_longer_than_the_record_is_one_line(step_log, tmp_path):
     assert result.exit_code == 1, result.output
     assert "longer than the record" in result.output
     assert len(result.output.strip().splitlines()) == 1, result.output
-    for args, message in (
-        (["--window", "5min", "--stats", "oadev,mdev"], "one statistic"),
-        (["--window", "5min", "--stats", "totdev"], "not available in a sliding window"),
-        (["--window", "soon"], "cannot read --window"),
+    # exit 2: a value of the wrong form; exit 1: what a sliding window cannot compute
+    for args, message, code in (
+        (["--window", "5min", "--stats", "oadev,mdev"], "one statistic", 2),
+        (["--window", "5min", "--stats", "totdev"], "not available in a sliding window", 1),
+        (["--window", "soon"], "cannot read --window", 2),
     ):
         result = runner.invoke(app, ["timeline", str(step_log), *args, "--out", str(tmp_path)])
-        assert result.exit_code == 1, result.output
+        assert result.exit_code == code, result.output
         assert message in result.output, result.output
         assert "Traceback" not in result.output
 

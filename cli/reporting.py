@@ -1,0 +1,168 @@
+"""What several commands print or write: the summary block, the calibration record, footers.
+
+``analyze`` and ``demo`` print the same summary block under the table;
+``record`` and ``demo`` make a calibration record the same way
+(:func:`make_record`); the figure footers of ``separate``, ``phase-noise`` and
+``timeline`` say the same things in the same words (:func:`footer`). Command
+modules import these from here, never from each other.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass
+from datetime import datetime
+from pathlib import Path
+
+import stability
+from stability.files import refuse_overwrite
+from stability.reports.record import RECORD_NAMES, write_record
+from stability.reports.tables import format_tau, format_value, statistic_unit
+from stability.run import AnalysisRun, run_analysis
+from stability.settings import RunSettings
+from stability.spec import Info, Judgement, judge, load_info, load_spec
+from stability.workflow import write_analysis
+
+__all__ = [
+    "summary_block",
+    "RecordOutcome",
+    "make_record",
+    "record_lines",
+    "footer",
+    "text_table",
+]
+
+
+def _plus_minus(value: float | None, u: float | None) -> str:
+    if value is None:
+        return "n/a"
+    return f"{value:.4g} +/- {u:.2g}" if u is not None else f"{value:.4g}"
+
+
+def summary_block(run: AnalysisRun) -> str:
+    """The short summary printed under the table."""
+    s = run.summary()
+    inp, prep = s["input"], run.preparation
+    od = s.get("offset_drift") or {}
+    lines = [
+        f"file        {inp.get('path')}",
+        f"format      {run.source.provenance.reader or 'n/a'}",
+        f"kind        {run.source.kind}"
+        + (f", nominal {run.source.nominal:g} Hz" if run.source.nominal else ""),
+        f"samples     {run.measurement.n}  tau0 {run.measurement.tau0:g} s  "
+        f"span {run.measurement.span:g} s",
+        f"gaps        {prep.gaps_after}",
+        f"outliers    {len(prep.outliers.samples)} removed",
+        f"drift       {prep.drift_model} removed",
+        f"offset      {_plus_minus(od.get('offset'), od.get('u_offset'))}",
+        f"drift/day   {_plus_minus(od.get('drift_per_day'), od.get('u_drift_per_day'))}",
+    ]
+    return "\n".join(lines)
+
+
+@dataclass(frozen=True)
+class RecordOutcome:
+    """A calibration record made by :func:`make_record`."""
+
+    run: AnalysisRun
+    judgement: Judgement
+    info: Info
+    spec_path: Path
+    files: dict[str, Path]
+
+
+def make_record(
+    log: str | os.PathLike[str],
+    spec_path: Path,
+    info_path: Path,
+    folder: Path,
+    settings: RunSettings,
+    *,
+    confidence: float | None = None,
+    force: bool = False,
+    plot_format: str = "png",
+    title: str | None = None,
+    on_progress: Callable[[int, int], None] | None = None,
+    on_step: Callable[[str], None] | None = None,
+) -> RecordOutcome:
+    """Analyse ``log``, judge it against the specification and write the record.
+
+    The specification's statistic is added to the statistics when missing, and
+    its confidence level is used unless ``confidence`` is given. Writes the
+    analysis outputs (limits drawn on the stability figure) and ``record.pdf``
+    and ``record.json`` into ``folder``; an existing record is refused before
+    anything is computed, unless ``force``.
+    """
+    spec = load_spec(spec_path)
+    info = load_info(info_path)
+    for name in RECORD_NAMES:
+        refuse_overwrite(folder / name, force)
+    stats = settings.analysis.stats
+    names = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
+    names = [n for n in names if n]
+    if spec.statistic not in names:
+        names.append(spec.statistic)
+    level = spec.confidence if confidence is None else confidence
+    settings = settings.replace(stats=",".join(names), confidence=level)
+    run = run_analysis(log, settings, on_progress=on_progress, on_step=on_step)
+    judgement = judge(run.table, spec, reference=info.reference)
+    files = write_analysis(
+        run,
+        folder,
+        plot_format=plot_format,
+        limits=judgement.plot_limits(),
+        limits_statistic=judgement.statistic,
+        title=title,
+    )
+    files.update(write_record(run, judgement, info, folder, force=force))
+    return RecordOutcome(run, judgement, info, Path(spec_path), files)
+
+
+def record_lines(outcome: RecordOutcome) -> list[str]:
+    """The verdict lines printed after a record is made."""
+    judgement, info = outcome.judgement, outcome.info
+    unit = statistic_unit(judgement.statistic)
+    level = 100 * judgement.confidence
+    lines = [
+        f"device {info.device_id}: {judgement.statistic} against {outcome.spec_path} "
+        f"at {level:.3g} % confidence"
+    ]
+    for check in judgement.listed:
+        shown = format_value(check.deviation, unit) or "n/a"
+        extra = " (interpolated)" if check.interpolated else ""
+        extra += " (reference-limited)" if check.reference_limited else ""
+        lines.append(
+            f"  tau {format_tau(check.tau_s):>8}  limit {format_value(check.limit, unit):>9}  "
+            f"measured {shown:>9}  {check.verdict}{extra}"
+        )
+    others = [c for c in judgement.checks if not c.listed]
+    if others:
+        failing = sum(c.verdict == "fail" for c in others)
+        lines.append(
+            f"  {len(others)} measured tau(s) between the limits judged on the limit line"
+            + (f", {failing} fail" if failing else "")
+        )
+    lines.append(f"overall verdict: {judgement.overall}")
+    return lines
+
+
+def footer(hashes: Iterable[str | None], moment: datetime, *, several: bool = False) -> str:
+    """A figure footer: the inputs' SHA-256 prefixes, the tool version, the analysis time."""
+    shown = [h[:12] for h in hashes if h]
+    word = "inputs" if several else "input"
+    where = f"{word} SHA-256 {', '.join(shown)}" if shown else f"{word} SHA-256 n/a"
+    return (
+        f"{where} · stability {stability.__version__} · "
+        f"analysed {moment.strftime('%Y-%m-%d %H:%M UTC')}"
+    )
+
+
+def text_table(header: list[str], rows: list[list[str]]) -> str:
+    """Right-aligned columns under a header and a rule, for the terminal."""
+    widths = [max([len(header[j])] + [len(r[j]) for r in rows]) for j in range(len(header))]
+    out = ["  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True))]
+    out.append("  ".join("-" * w for w in widths))
+    for row in rows:
+        out.append("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)).rstrip())
+    return "\n".join(out)
