@@ -22,6 +22,7 @@ from __future__ import annotations
 import contextlib
 import errno
 import os
+import signal
 import sys
 import traceback
 import warnings
@@ -32,6 +33,7 @@ import typer
 from typer.core import TyperGroup
 
 from stability.errors import InputError, StabilityError
+from stability.outputs import Interrupted
 
 __all__ = [
     "EXIT_OK",
@@ -114,7 +116,9 @@ def guarded(subject: str | None, debug: bool) -> Iterator[None]:
             warnings.showwarning = show_warning
         try:
             yield
-        except (typer.Exit, typer.Abort, typer.TyperException, KeyboardInterrupt):
+        except KeyboardInterrupt as exc:  # Ctrl-C, or SIGTERM/SIGHUP (Interrupted)
+            fail(_stopped(exc), 128 + _signum(exc))
+        except (typer.Exit, typer.Abort, typer.TyperException):
             raise
         except BrokenPipeError:
             raise
@@ -135,6 +139,42 @@ def guarded(subject: str | None, debug: bool) -> Iterator[None]:
                 f"{where}internal error ({type(exc).__name__}: {exc}); "
                 "please report it with the output of --debug"
             )
+
+
+def _signum(exc: KeyboardInterrupt) -> int:
+    return int(exc.signum) if isinstance(exc, Interrupted) else int(signal.SIGINT)
+
+
+def _stopped(exc: KeyboardInterrupt) -> str:
+    """The one line of a run stopped by Ctrl-C or a signal (its outputs were not committed)."""
+    return f"stopped by {signal.Signals(_signum(exc)).name}; no partial output was left"
+
+
+def _interrupted(cause: BaseException | None) -> int:
+    """One line for a run stopped outside a command body; the exit code 128 + signal."""
+    if isinstance(cause, KeyboardInterrupt):
+        typer.echo(f"error: {_stopped(cause)}", err=True)
+        return 128 + _signum(cause)
+    typer.echo("error: aborted", err=True)
+    return EXIT_ERROR
+
+
+def run_program(app: Any) -> None:
+    """Run the app with SIGTERM and SIGHUP handled like Ctrl-C (one line, exit 128 + n).
+
+    Also a Ctrl-C before the command starts (while the libraries load) ends with
+    one line instead of a traceback.
+    """
+
+    def stop(signum: int, frame: Any) -> None:
+        raise Interrupted(signum)
+
+    for signum in (signal.SIGTERM, signal.SIGHUP):
+        signal.signal(signum, stop)
+    try:
+        app()
+    except KeyboardInterrupt as exc:  # outside click's own handling (start-up, shutdown)
+        sys.exit(_interrupted(exc))
 
 
 def _usage_line(exc: typer.TyperException) -> str:
@@ -177,9 +217,8 @@ class StabilityGroup(TyperGroup):
         except typer.TyperException as exc:
             typer.echo(f"error: {_usage_line(exc)}", err=True)
             code = exc.exit_code
-        except typer.Abort:
-            typer.echo("error: aborted", err=True)
-            code = EXIT_ERROR
+        except typer.Abort as exc:
+            code = _interrupted(exc.__cause__ or exc.__context__)
         except _PipeClosed:
             _quiet_stdout()
             code = EXIT_OK

@@ -37,11 +37,11 @@ from stability.errors import InputError
 from stability.reports.tables import terminal_table
 from stability.run import AnalysisRun
 from stability.settings import RunSettings
-from stability.workflow import analyze_into
+from stability.workflow import analyze_into, record_into
 
 from .options import PLOT_FORMAT, RunOptions, command
 from .progress import ProgressDisplay, step_count
-from .reporting import make_record, record_lines, summary_block
+from .reporting import record_lines, summary_block
 
 __all__ = [
     "demo",
@@ -170,11 +170,11 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
         record_folder = target / "record"
         typer.echo("== calibration record of the OCXO (example specification)")
         with ProgressDisplay() as bar:
-            outcome = make_record(
+            outcome = record_into(
                 counter,
+                record_folder,
                 folder / SPEC_FILE,
                 folder / INFO_FILE,
-                record_folder,
                 RunSettings.from_options(**COUNTER_SETTINGS),
                 force=True,  # the demo's own record, remade on every run
                 plot_format=opts.plot_format,

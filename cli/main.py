@@ -28,7 +28,7 @@ from . import (
     simulate_cmd,
     timeline_cmd,
 )
-from .common import StabilityGroup
+from .common import StabilityGroup, run_program
 
 __all__ = ["app", "main"]
 
@@ -77,8 +77,8 @@ app.command("demo")(demo_cmd.demo)
 
 
 def main() -> None:
-    """Run the command line (the console script's and ``python -m stability``'s entry)."""
-    app()
+    """Run the command line (the program's entry is :mod:`stability_cli.entry`)."""
+    run_program(app)
 
 
 if __name__ == "__main__":

@@ -36,7 +36,7 @@ import typer
 from stability._version import __version__
 from stability.errors import InputError
 from stability.figures import overlay_figure, save_figure
-from stability.files import atomic_write_text, ensure_folder
+from stability.outputs import OutputSet
 from stability.reports.tables import table_csv, table_markdown, terminal_table
 from stability.run import AnalysisRun, run_analysis
 from stability.summary import summary_json
@@ -268,21 +268,22 @@ def overlay(logs: LogsArg, labels: LabelsOpt = None, *, opts: RunOptions) -> Non
             )
     tables = {label: run.table for label, run in runs.items()}
     moment = datetime.now(UTC)
-    folder = ensure_folder(opts.folder(Path.cwd() / "overlay-stability"))
+    folder = opts.folder(Path.cwd() / "overlay-stability")
     fmt = opts.plot_format
     drawn = overlay_figure(tables, title=opts.title, analysis_time=moment)
-    written = [
-        save_figure(drawn, folder / f"overlay.{fmt}", fmt),
-        atomic_write_text(folder / "table.csv", combined_csv(tables)),
-        atomic_write_text(folder / "table.md", combined_markdown(tables)),
-    ]
     summary = {
         "tool": {"name": "stability", "version": __version__},
         "analysis_time": moment,
         "labels": names,
         "inputs": {label: run.summary() for label, run in runs.items()},
     }
-    written.append(atomic_write_text(folder / "summary.json", summary_json(summary)))
+    names_out = [f"overlay.{fmt}", "table.csv", "table.md", "summary.json"]
+    with OutputSet(folder, names_out, inputs=[s.path for s in specs]) as out:
+        save_figure(drawn, out.path(f"overlay.{fmt}"), fmt)
+        out.write_text("table.csv", combined_csv(tables))
+        out.write_text("table.md", combined_markdown(tables))
+        out.write_text("summary.json", summary_json(summary))
+        written = list(out.commit().values())
     if opts.json:
         typer.echo(summary_json(summary), nl=False)
         return

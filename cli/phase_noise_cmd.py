@@ -35,7 +35,8 @@ import typer
 from stability._version import __version__
 from stability.errors import InputError
 from stability.figures import phase_noise_figure, save_figure
-from stability.files import atomic_write_text, ensure_folder, jsonable, sha256_file
+from stability.files import jsonable, sha256_file
+from stability.outputs import OutputSet
 from stability.phase_noise import (
     PHASE_NOISE_STATS,
     PhaseNoiseStability,
@@ -284,14 +285,7 @@ def phase_noise_command(
     model_curve = None
     if compare is not None:
         run, model_curve = _compared(compare, conversion, carrier, opts, settings)
-    folder = ensure_folder(opts.folder(Path.cwd() / f"{table.name}-stability"))
-    written = [
-        atomic_write_text(folder / "phase_noise_sigma.csv", _csv(conversion)),
-        atomic_write_text(
-            folder / "phase_noise_sigma.md",
-            _markdown(conversion, table, sha, settings, moment),
-        ),
-    ]
+    folder = opts.folder(Path.cwd() / f"{table.name}-stability")
     hashes = [sha] + ([run.sha256] if run is not None else [])
     fig = phase_noise_figure(
         conversion,
@@ -302,7 +296,13 @@ def phase_noise_command(
         footer=footer(hashes, moment, several=True),
     )
     fmt = opts.plot_format
-    written.append(save_figure(fig, folder / f"phase_noise.{fmt}", fmt))
+    names = ["phase_noise_sigma.csv", "phase_noise_sigma.md", f"phase_noise.{fmt}"]
+    inputs = [table] + ([compare] if compare is not None else [])
+    with OutputSet(folder, names, inputs=inputs) as out:
+        out.write_text("phase_noise_sigma.csv", _csv(conversion))
+        out.write_text("phase_noise_sigma.md", _markdown(conversion, table, sha, settings, moment))
+        save_figure(fig, out.path(f"phase_noise.{fmt}"), fmt)
+        written = list(out.commit().values())
     if opts.json:
         document = {
             "table": {"path": str(table), "sha256": sha},

@@ -19,6 +19,7 @@ from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
 __all__ = ["ProgressDisplay", "step_count"]
 
+
 def step_count(stats: Any) -> int:
     """How many ``on_step`` calls an analysis of ``stats`` makes: one per statistic, plus one."""
     names = stats.split(",") if isinstance(stats, str) else list(stats)

@@ -14,6 +14,8 @@ from typing import Annotated
 
 import typer
 
+from stability.workflow import record_into
+
 from .options import (
     ANALYSING,
     CONFIDENCE,
@@ -26,7 +28,7 @@ from .options import (
     command,
 )
 from .progress import ProgressDisplay, step_count
-from .reporting import make_record, record_lines
+from .reporting import record_lines
 
 __all__ = ["record"]
 
@@ -81,11 +83,11 @@ def record(
     folder = opts.folder(Path.cwd() / f"{log.name}-stability")
     stats = opts.settings.analysis.stats
     with ProgressDisplay(enabled=not opts.json) as bar:
-        outcome = make_record(
+        outcome = record_into(
             log,
+            folder,
             spec,
             info,
-            folder,
             opts.settings,
             confidence=opts.given["confidence"],
             force=force,

@@ -2,32 +2,23 @@
 
 ``analyze`` and ``demo`` print the same summary block under the table;
 ``record`` and ``demo`` make a calibration record the same way
-(:func:`make_record`); the figure footers of ``separate``, ``phase-noise`` and
+(:func:`stability.workflow.record_into`); the figure footers of ``separate``, ``phase-noise`` and
 ``timeline`` say the same things in the same words (:func:`footer`). Command
 modules import these from here, never from each other.
 """
 
 from __future__ import annotations
 
-import os
-from collections.abc import Callable, Iterable
-from dataclasses import dataclass
+from collections.abc import Iterable
 from datetime import datetime
-from pathlib import Path
 
 import stability
-from stability.files import refuse_overwrite
-from stability.reports.record import RECORD_NAMES, write_record
 from stability.reports.tables import format_tau, format_value, statistic_unit
-from stability.run import AnalysisRun, run_analysis
-from stability.settings import RunSettings
-from stability.spec import Info, Judgement, judge, load_info, load_spec
-from stability.workflow import write_analysis
+from stability.run import AnalysisRun
+from stability.workflow import RecordOutcome
 
 __all__ = [
     "summary_block",
-    "RecordOutcome",
-    "make_record",
     "record_lines",
     "footer",
     "text_table",
@@ -59,64 +50,6 @@ def summary_block(run: AnalysisRun) -> str:
         f"drift/day   {_plus_minus(od.get('drift_per_day'), od.get('u_drift_per_day'))}",
     ]
     return "\n".join(lines)
-
-
-@dataclass(frozen=True)
-class RecordOutcome:
-    """A calibration record made by :func:`make_record`."""
-
-    run: AnalysisRun
-    judgement: Judgement
-    info: Info
-    spec_path: Path
-    files: dict[str, Path]
-
-
-def make_record(
-    log: str | os.PathLike[str],
-    spec_path: Path,
-    info_path: Path,
-    folder: Path,
-    settings: RunSettings,
-    *,
-    confidence: float | None = None,
-    force: bool = False,
-    plot_format: str = "png",
-    title: str | None = None,
-    on_progress: Callable[[int, int], None] | None = None,
-    on_step: Callable[[str], None] | None = None,
-) -> RecordOutcome:
-    """Analyse ``log``, judge it against the specification and write the record.
-
-    The specification's statistic is added to the statistics when missing, and
-    its confidence level is used unless ``confidence`` is given. Writes the
-    analysis outputs (limits drawn on the stability figure) and ``record.pdf``
-    and ``record.json`` into ``folder``; an existing record is refused before
-    anything is computed, unless ``force``.
-    """
-    spec = load_spec(spec_path)
-    info = load_info(info_path)
-    for name in RECORD_NAMES:
-        refuse_overwrite(folder / name, force)
-    stats = settings.analysis.stats
-    names = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
-    names = [n for n in names if n]
-    if spec.statistic not in names:
-        names.append(spec.statistic)
-    level = spec.confidence if confidence is None else confidence
-    settings = settings.replace(stats=",".join(names), confidence=level)
-    run = run_analysis(log, settings, on_progress=on_progress, on_step=on_step)
-    judgement = judge(run.table, spec, reference=info.reference)
-    files = write_analysis(
-        run,
-        folder,
-        plot_format=plot_format,
-        limits=judgement.plot_limits(),
-        limits_statistic=judgement.statistic,
-        title=title,
-    )
-    files.update(write_record(run, judgement, info, folder, force=force))
-    return RecordOutcome(run, judgement, info, Path(spec_path), files)
 
 
 def record_lines(outcome: RecordOutcome) -> list[str]:

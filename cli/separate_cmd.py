@@ -25,9 +25,10 @@ import typer
 from stability._version import __version__
 from stability.errors import InputError
 from stability.figures import hat_figure, save_figure
-from stability.files import atomic_write_text, ensure_folder, jsonable
+from stability.files import jsonable
 from stability.hat import STATUS_OK, HatResult, separate
 from stability.measurement import Measurement
+from stability.outputs import OutputSet
 from stability.reports.tables import format_tau, format_value
 from stability.run import read_and_prepare
 from stability.taus import parse_taus
@@ -323,26 +324,22 @@ def separate_command(
         "drift": opts.settings.prepare.drift,
         "average": opts.settings.prepare.average,
     }
-    folder = ensure_folder(opts.folder(Path.cwd() / "separated-stability"))
+    folder = opts.folder(Path.cwd() / "separated-stability")
     rows = _rows(results, order)
-    written = [
-        atomic_write_text(folder / "separated.csv", _csv(SEPARATED_COLUMNS, rows)),
-        atomic_write_text(
-            folder / "separated.md", _markdown(results, order, inputs, settings, moment)
-        ),
-    ]
     pair_frames = [r.pairs_frame() for r in results]
     pair_rows = [list(row) for frame in pair_frames for row in frame.itertuples(index=False)]
     pair_rows = [[float(v) if isinstance(v, float) else v for v in row] for row in pair_rows]
-    written.append(
-        atomic_write_text(
-            folder / "separated_pairs.csv", _csv(list(pair_frames[0].columns), pair_rows)
-        )
-    )
     hashes = [m.provenance.sha256 for _, m in inputs]
     fig = hat_figure(results, title=opts.title, footer=footer(hashes, moment, several=True))
     fmt = opts.plot_format
-    written.append(save_figure(fig, folder / f"separated.{fmt}", fmt))
+    names = ["separated.csv", "separated.md", "separated_pairs.csv", f"separated.{fmt}"]
+    paths = [m.provenance.path for _, m in inputs if m.provenance.path]
+    with OutputSet(folder, names, inputs=paths) as out:
+        out.write_text("separated.csv", _csv(SEPARATED_COLUMNS, rows))
+        out.write_text("separated.md", _markdown(results, order, inputs, settings, moment))
+        out.write_text("separated_pairs.csv", _csv(list(pair_frames[0].columns), pair_rows))
+        save_figure(fig, out.path(f"separated.{fmt}"), fmt)
+        written = list(out.commit().values())
     if opts.json:
         document = {
             "settings": settings,

@@ -24,7 +24,8 @@ from stability._version import __version__
 from stability.dynamic import DYNAMIC_STATS, DynamicResult, dynamic_stability
 from stability.errors import InputError, StabilityWarning
 from stability.figures import save_figure, timeline_figure
-from stability.files import atomic_write_text, ensure_folder, jsonable
+from stability.files import jsonable
+from stability.outputs import OutputSet
 from stability.reports.tables import format_tau, format_value
 from stability.run import read_and_prepare
 from stability.taus import parse_taus
@@ -188,16 +189,18 @@ def timeline_command(
             noise=noise,
         )
     moment = datetime.now(UTC)
-    folder = ensure_folder(opts.folder(Path.cwd() / f"{log.name}-stability"))
+    folder = opts.folder(Path.cwd() / f"{log.name}-stability")
     sha = source.provenance.sha256
-    written = [atomic_write_text(folder / "timeline.csv", timeline_csv(result))]
     fig = timeline_figure(
         result,
         title=opts.title or f"stability over time: {log.name}",
         footer=footer([sha], moment),
     )
     fmt = opts.plot_format
-    written.append(save_figure(fig, folder / f"timeline.{fmt}", fmt))
+    with OutputSet(folder, ["timeline.csv", f"timeline.{fmt}"], inputs=[log]) as out:
+        out.write_text("timeline.csv", timeline_csv(result))
+        save_figure(fig, out.path(f"timeline.{fmt}"), fmt)
+        written = list(out.commit().values())
     summary = timeline_summary(result)
     drift = opts.settings.prepare.drift
     removed = "no drift removed" if drift == "none" else f"{report.drift_model} drift removed"

@@ -8,7 +8,7 @@ layer). It does what the ``stability`` console script does.
 
 from __future__ import annotations
 
-from stability_cli.main import main
+from stability_cli.entry import main
 
 __all__ = ["main"]
 

@@ -138,6 +138,8 @@ class OutputSet:
         ensure_folder(self.folder)
         try:
             self._acquire_lock()
+            if not self.force:  # refuse before anything is computed, not only at commit
+                self._refuse_existing()
             self._catch_signals()
             self._sweep()
             self.pending = {name: self._pending_name(name, "pending") for name in self.names}
@@ -159,6 +161,12 @@ class OutputSet:
 
     def path(self, name: str) -> Path:
         """The pending path to write output ``name`` to."""
+        return self.pending[name]
+
+    def write_text(self, name: str, text: str) -> Path:
+        """Write output ``name`` as UTF-8 text (newlines as ``\\n``) to its pending path."""
+        with open(self.pending[name], "w", encoding="utf-8", newline="\n") as handle:
+            handle.write(text)
         return self.pending[name]
 
     # ------------------------------------------------------------------ lock and signals
@@ -219,6 +227,16 @@ class OutputSet:
                         entry.unlink()
 
     # ------------------------------------------------------------------ commit
+    def _refuse_existing(self) -> None:
+        for name in self.names:
+            target = self.folder / name
+            if target.exists():
+                raise InputError(
+                    "exists already and is not overwritten; nothing was written",
+                    path=str(target),
+                    hint="pass --force to overwrite it",
+                )
+
     def _check_targets(self) -> None:
         for name in self.names:
             if not self.pending[name].exists():
@@ -230,12 +248,8 @@ class OutputSet:
                     path=str(target),
                     hint="move it away or pass another --out",
                 )
-            if target.exists() and not self.force:
-                raise InputError(
-                    "exists already and is not overwritten; nothing was written",
-                    path=str(target),
-                    hint="pass --force to overwrite it",
-                )
+        if not self.force:
+            self._refuse_existing()
 
     def commit(self) -> dict[str, Path]:
         """Move every pending file into place, all or nothing; return name -> final path."""

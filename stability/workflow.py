@@ -13,6 +13,7 @@ are removed again. Figures are drawn in this process.
 from __future__ import annotations
 
 import os
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
@@ -23,6 +24,7 @@ from .figures.labels import default_footer, default_title
 from .files import atomic_write_text
 from .measurement import Measurement
 from .outputs import OutputSet
+from .reports.record import RECORD_NAMES, write_record_files
 from .reports.tables import table_csv, table_markdown
 from .run import (
     AnalysisRun,
@@ -33,10 +35,13 @@ from .run import (
     resolve_settings,
 )
 from .settings import RunSettings
+from .spec import Info, Judgement, judge, load_info, load_spec
 from .summary import summary_json
 
 __all__ = [
     "analyze_into",
+    "record_into",
+    "RecordOutcome",
     "write_analysis",
     "output_names",
     "PLOT_FORMATS",
@@ -167,6 +172,7 @@ def analyze_into(
     settings = resolve_settings(settings, options)
     names, stale = output_names(fmt)
     inputs = [] if isinstance(log, Measurement) else [log]
+    _refuse_record_folder(Path(folder))
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
         moment = datetime.now(UTC)
@@ -199,3 +205,81 @@ def write_analysis(
         )
         files = out.commit()
     return _paths(files, fmt)
+
+
+def _refuse_record_folder(folder: Path) -> None:
+    """An analysis into a folder that holds a calibration record would replace its figures."""
+    if (folder / "record.json").exists():
+        raise InputError(
+            "holds a calibration record; analyze would replace its tables and figures",
+            path=str(folder),
+            hint="pass another --out, or make the record again with stability record --force",
+        )
+
+
+@dataclass(frozen=True)
+class RecordOutcome:
+    """A calibration record made by :func:`record_into`."""
+
+    run: AnalysisRun
+    judgement: Judgement
+    info: Info
+    spec_path: Path
+    files: dict[str, Path]
+
+
+def record_into(
+    log: str | os.PathLike[str],
+    folder: str | os.PathLike[str],
+    spec_path: str | os.PathLike[str],
+    info_path: str | os.PathLike[str],
+    settings: RunSettings | None = None,
+    *,
+    confidence: float | None = None,
+    force: bool = False,
+    plot_format: str = "png",
+    title: str | None = None,
+    on_progress: ReadProgress | None = None,
+    on_step: StepProgress | None = None,
+    **options: Any,
+) -> RecordOutcome:
+    """Analyse ``log``, judge it against a specification and write the calibration record.
+
+    The specification's statistic is added to the statistics when missing, and its
+    confidence level is used unless ``confidence`` is given. The seven files (the
+    five analysis outputs, with the limits drawn on the stability figure, and
+    ``record.pdf``, ``record.json``) are written as one set: all or none, the
+    folder locked for the run, nothing overwritten without ``force`` (refused
+    before anything is computed), and no output may be one of the inputs.
+    """
+    fmt = check_plot_format(plot_format)
+    settings = resolve_settings(settings, options)
+    spec = load_spec(spec_path)
+    info = load_info(info_path)
+    names, stale = output_names(fmt)
+    inputs = [log, spec_path, info_path]
+    stats = settings.analysis.stats
+    wanted = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
+    wanted = [s for s in wanted if s]
+    if spec.statistic not in wanted:
+        wanted.append(spec.statistic)
+    level = spec.confidence if confidence is None else confidence
+    settings = settings.replace(stats=",".join(wanted), confidence=level)
+    # the record's own files first: they are what --force is about
+    with OutputSet(folder, [*RECORD_NAMES, *names], inputs=inputs, force=force, stale=stale) as out:
+        source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+        run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
+        judgement = judge(run.table, spec, reference=info.reference)
+        _write_all(
+            run,
+            _paths(out.pending, fmt),
+            fmt,
+            judgement.plot_limits(),
+            judgement.statistic,
+            titled=True,
+            title=title,
+        )
+        write_record_files(run, judgement, info, out.path("record.pdf"), out.path("record.json"))
+        files = out.commit()
+    paths = {**_paths(files, fmt), **{name: files[name] for name in RECORD_NAMES}}
+    return RecordOutcome(run, judgement, info, Path(spec_path), paths)

@@ -50,7 +50,8 @@ from matplotlib.figure import Figure
 from .._version import __version__
 from ..errors import InputError
 from ..figures import VERDICT_COLORS, series_figure, stability_figure
-from ..files import atomic_output, ensure_folder, jsonable, refuse_overwrite, settings_hash
+from ..files import jsonable, settings_hash
+from ..outputs import OutputSet
 from ..run import AnalysisRun
 from ..spec import Info, Judgement, reference_contribution
 from .tables import format_tau, format_value, statistic_unit
@@ -64,6 +65,7 @@ __all__ = [
     "record_pages",
     "record_rows",
     "write_record",
+    "write_record_files",
 ]
 
 SCHEMA_VERSION = "1"
@@ -500,6 +502,19 @@ def _save_pdf(pages: list[Figure], handle: IO[bytes], record: dict[str, Any]) ->
                 pdf.savefig(fig)
 
 
+def write_record_files(
+    run: Any, judgement: Judgement, info: Info, pdf_path: Path, json_path: Path
+) -> None:
+    """Write record.pdf and record.json to the given (pending) paths of an output set."""
+    _validate_record_args(run, judgement, info)
+    record = build_record(run, judgement, info)
+    text = record_json(record)
+    pages = record_pages(run, judgement, record)
+    with open(pdf_path, "wb") as handle:
+        _save_pdf(pages, handle, record)
+    json_path.write_text(text, encoding="utf-8")
+
+
 def write_record(
     run: Any,
     judgement: Judgement,
@@ -508,7 +523,7 @@ def write_record(
     *,
     force: bool = False,
 ) -> dict[str, Path]:
-    """Write record.pdf and record.json into ``folder`` atomically.
+    """Write record.pdf and record.json into ``folder``, both or neither.
 
     Raises
     ------
@@ -516,15 +531,7 @@ def write_record(
         Before anything is written, when either file exists and ``force`` is false.
     """
     _validate_record_args(run, judgement, info)
-    out = Path(folder)
-    for name in RECORD_NAMES:
-        refuse_overwrite(out / name, force)
-    out = ensure_folder(out)
-    record = build_record(run, judgement, info)
-    text = record_json(record)
-    pages = record_pages(run, judgement, record)
-    with atomic_output(out / "record.pdf", "wb") as handle:
-        _save_pdf(pages, handle, record)
-    with atomic_output(out / "record.json", "w") as handle:
-        handle.write(text)
-    return {"record.pdf": out / "record.pdf", "record.json": out / "record.json"}
+    inputs = [run.source.provenance.path] if run.source.provenance.path else []
+    with OutputSet(folder, RECORD_NAMES, inputs=inputs, force=force) as out:
+        write_record_files(run, judgement, info, out.path("record.pdf"), out.path("record.json"))
+        return out.commit()

@@ -67,7 +67,7 @@ def test_every_package_is_listed_for_the_build():
     mapping = config["tool"]["setuptools"]["package-dir"]
     assert mapping == {"stability_cli": "cli", "stability_cli.demo_data": "datasets/demo"}
     scripts = config["project"]["scripts"]
-    assert scripts == {"stability": "stability_cli.main:main"}
+    assert scripts == {"stability": "stability_cli.entry:main"}
 
 
 @pytest.mark.install
