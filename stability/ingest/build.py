@@ -236,6 +236,7 @@ def canonical_series(
     path: str,
     column: str,
     rep: LogReport,
+    more_hint: str = "",
 ) -> tuple[np.ndarray, float | None]:
     """Fractional frequency or time error in seconds, and the nominal frequency used.
 
@@ -244,7 +245,7 @@ def canonical_series(
     """
     nominal = hints.nominal
     if vk.kind == "frequency":
-        nominal = _frequency_nominal(rows.values * vk.scale, nominal, path, column, rep)
+        nominal = _frequency_nominal(rows.values * vk.scale, nominal, path, column, rep, more_hint)
         if rows.delta is not None and rows.ref_text is not None:
             off = vals.decimal_offset(rows.ref_text, vk.scale, nominal)
             series = (off + readings * vk.scale) / nominal
@@ -271,7 +272,7 @@ def canonical_series(
 
 
 def _frequency_nominal(
-    hz: np.ndarray, given: float | None, path: str, column: str, rep: LogReport
+    hz: np.ndarray, given: float | None, path: str, column: str, rep: LogReport, more_hint: str
 ) -> float:
     """The nominal frequency of absolute frequency readings: checked if given, else inferred."""
     finite = hz[np.isfinite(hz)]
@@ -286,7 +287,7 @@ def _frequency_nominal(
             " match no standard nominal frequency",
             path=path,
             column=column,
-            hint="pass --nominal, e.g. --nominal 10MHz",
+            hint="pass --nominal, e.g. --nominal 10MHz" + more_hint,
         )
     rep.nominal_source = "inferred: nearest standard value to the readings"
     rep.note(

@@ -33,7 +33,7 @@ from .build import (
     place_on_grid,
     unwrap_readings,
 )
-from .columns import column_samples, decide_kind, plan_columns
+from .columns import column_samples, decide_kind, other_columns_hint, plan_columns
 from .hints import ReadHints
 from .parsing import decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
@@ -105,7 +105,10 @@ def _read(
     d = _sniff(src, rep)
     plan = plan_columns(src, d, hints, rep)
     sample = column_samples(src, d)[plan.value_col]
-    vk, suffix = decide_kind(sample, plan.names[plan.value_col], d, hints, src.path)
+    vname = plan.display[plan.value_col]
+    vk, suffix = decide_kind(
+        sample, plan.names[plan.value_col], d, hints, src.path, other_columns_hint(plan)
+    )
     rep.kind, rep.unit, rep.kind_reason = vk.kind, vk.unit, vk.reason
     exact = needs_decimal_text(sample, d, vk)
     parsed = parse_rows(
@@ -117,8 +120,9 @@ def _read(
         rows = _exact_differences(rows, d, rep)
     rows, placement = place_on_grid(rows, plan, hints, src.path, rep)
     readings = unwrap_readings(rows, vk, hints, rep)
-    vname = plan.display[plan.value_col]
-    series, nominal = canonical_series(rows, readings, vk, hints, src.path, vname, rep)
+    series, nominal = canonical_series(
+        rows, readings, vk, hints, src.path, vname, rep, other_columns_hint(plan)
+    )
     finish_report(rep, plan, vk, placement.size, hasher.result())
     m = make_measurement(series, rows.lines, placement, vk, nominal, total_rows, rep)
     return m, rep

@@ -77,7 +77,7 @@ def test_files_that_are_not_logs(tmp_path, content, match):
 
 def test_time_column_hint_errors_list_columns(tmp_path):
     p = _good(tmp_path)
-    with pytest.raises(InputError, match=r"choose one of 1='t', 2='y'"):
+    with pytest.raises(InputError, match=r"pass --time-column with one of 1='t', 2='y'"):
         read_log(p, time_column="when")
     with pytest.raises(InputError, match="not hold time stamps"):
         read_log(p, time_column="y", column="t")
