@@ -103,9 +103,17 @@ class GridPlacement:
 
 
 def place_on_grid(
-    rows: DataRows, plan: ColumnPlan, hints: ReadHints, path: str, rep: LogReport
+    rows: DataRows,
+    plan: ColumnPlan,
+    hints: ReadHints,
+    path: str,
+    rep: LogReport,
+    stated: list[tuple[str, str, float]] | None = None,
 ) -> tuple[DataRows, GridPlacement]:
     """The rows kept on the grid (duplicated stamps dropped) and where they land.
+
+    ``stated`` holds what the log says about the interval elsewhere (source,
+    words, seconds), for the hint when tau0 cannot be found.
 
     Raises
     ------
@@ -115,12 +123,12 @@ def place_on_grid(
     """
     if plan.time_fmt is None:
         if hints.tau0 is None:
-            raise InputError(
-                "the log has no time column, so the sample interval is unknown",
-                path=path,
-                hint="pass --tau0, e.g. --tau0 1s",
-            )
-        rep.tau0_source = "given (the log has no time stamps)"
+            raise _no_tau0(plan, hints, path, stated or [])
+        rep.tau0_source = (
+            "as given (rows read in sequence: --time-column none)"
+            if plan.time_reason.startswith("none")
+            else "as given (the log has no time stamps)"
+        )
         rep.tau0 = hints.tau0
         return rows, GridPlacement(hints.tau0, rows.values.size, np.arange(rows.values.size))
     seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
@@ -138,13 +146,37 @@ def place_on_grid(
     return rows, GridPlacement(grid.tau0, grid.size, grid.position, start)
 
 
+def _no_tau0(
+    plan: ColumnPlan, hints: ReadHints, path: str, stated: list[tuple[str, str, float]]
+) -> InputError:
+    """The error for a log read without a time axis and without a given tau0."""
+    if plan.time_reason.startswith("none"):
+        what = "--time-column none reads the rows in sequence, so the sample interval is needed"
+    else:
+        what = "the log has no time column, so the sample interval is unknown"
+        if plan.row_numbers:
+            c = plan.row_numbers[0]
+            what += f" (column {plan.display[c]!r} counts rows, not seconds)"
+    if stated:
+        source, says, seconds = stated[0]
+        step = format_duration(seconds).replace(" ", "")
+        hint = f"pass --tau0 {step} if the {source} ({says}) is right"
+    else:
+        hint = "pass --tau0 with the interval between rows, e.g. --tau0 1s"
+    if plan.row_numbers and not plan.time_reason.startswith("none"):
+        hint += f", or --time-column {plan.row_numbers[0] + 1} if that column counts seconds"
+    return InputError(what, path=path, hint=hint)
+
+
 def _report_spacing(grid: Grid, tau0: float | None, rep: LogReport) -> None:
     rep.median_spacing = grid.median_spacing
+    stamps = f"{grid.position.size} stamps"
     if tau0 is None:
-        rep.tau0_source = "median spacing of the time stamps"
+        rep.tau0_source = f"from column {rep.time_column!r} (median spacing of {stamps})"
         return
     rep.tau0_source = (
-        f"given (median spacing of the time stamps is {format_duration(grid.median_spacing)})"
+        f"as given (median spacing of {stamps} in column {rep.time_column!r} is "
+        f"{format_duration(grid.median_spacing)})"
     )
     if abs(grid.median_spacing - tau0) > 1e-6 * tau0:
         rep.note(

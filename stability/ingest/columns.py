@@ -133,6 +133,15 @@ def _resolve(spec: int | str, names: list[str], what: str, path: str, option: st
     )
 
 
+_COMMA_NUMBER = re.compile(r"^[-+]?\d+,\d+$")
+
+
+def _point(value: str) -> str:
+    """A decimal-comma number with a point instead (other text unchanged)."""
+    v = value.strip()
+    return v.replace(",", ".") if _COMMA_NUMBER.match(v) else value
+
+
 def _no_time(spec: int | str | None) -> bool:
     return isinstance(spec, str) and spec.strip().lower() == "none"
 
@@ -146,7 +155,10 @@ def plan_columns(src: RawSource, d: Dialect, hints: ReadHints, rep: LogReport) -
     A given ``column`` is never taken as the time axis, and a given
     ``time_column`` never as the value column, so either can be given alone.
     """
-    samples = column_samples(src, d)
+    raw = column_samples(src, d)
+    samples = raw
+    if d.decimal == ",":  # elapsed seconds written 0,1 are numbers to the time detector
+        samples = [[_point(v) for v in col] for col in raw]
     names = [n if n else "" for n in (d.header or [""] * d.ncols)]
     names += [""] * (d.ncols - len(names))
     empty = [not any(s for s in samples[i]) and not names[i] for i in range(d.ncols)]
@@ -192,7 +204,7 @@ def plan_columns(src: RawSource, d: Dialect, hints: ReadHints, rep: LogReport) -
     channels = [
         i
         for i in range(d.ncols)
-        if i not in not_values and not empty[i] and _mostly_numbers(samples[i], d.decimal)
+        if i not in not_values and not empty[i] and _mostly_numbers(raw[i], d.decimal)
     ]
     v = _value_column(given_v, names, time_cols, channels, row_numbers, src.path, rep)
     if v not in channels:

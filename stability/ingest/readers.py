@@ -34,6 +34,7 @@ from .build import (
     unwrap_readings,
 )
 from .columns import column_samples, decide_kind, other_columns_hint, plan_columns
+from .evidence import check_tau0, column_evidence, preamble_evidence
 from .hints import ReadHints
 from .parsing import decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
@@ -118,7 +119,17 @@ def _read(
     del parsed
     if exact:
         rows = _exact_differences(rows, d, rep)
-    rows, placement = place_on_grid(rows, plan, hints, src.path, rep)
+    evidence = preamble_evidence(src, d) + column_evidence(column_samples(src, d), plan)
+    stated = [(e.source, e.says, e.tau0) for e in evidence]
+    rows, placement = place_on_grid(rows, plan, hints, src.path, rep, stated)
+    check_tau0(
+        placement.tau0,
+        rep.tau0_source,
+        evidence,
+        given=hints.tau0 is not None,
+        path=src.path,
+        rep=rep,
+    )
     readings = unwrap_readings(rows, vk, hints, rep)
     series, nominal = canonical_series(
         rows, readings, vk, hints, src.path, vname, rep, other_columns_hint(plan)

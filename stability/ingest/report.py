@@ -79,6 +79,7 @@ class LogReport:
     time_format: str | None = None
     tau0: float | None = None
     tau0_source: str = ""
+    tau0_evidence: list[dict[str, Any]] = field(default_factory=list)
     median_spacing: float | None = None
     kind: str = ""
     unit: str = ""
@@ -186,7 +187,11 @@ class LogReport:
         if self.time_format:
             out.append(f"  column {self.time_column}: {self.time_format}")
         if self.tau0:
-            out.append(f"  tau0 {format_duration(self.tau0)} ({self.tau0_source})")
+            line = f"  tau0 {format_duration(self.tau0)} {self.tau0_source}"
+            for e in self.tau0_evidence:
+                verdict = "agrees" if e["agrees"] else "DISAGREES"
+                line += f"; {e['source']} says {e['says']}: {verdict}"
+            out.append(line)
         if self.first_time is not None:
             out.append(f"  first {self.first_time}, last {self.last_time}")
         out.append(
