@@ -28,11 +28,11 @@ import pandas as pd
 from ..errors import InputError
 from ..files import sha256_file
 from ..measurement import Measurement, Provenance
-from ..units import format_duration, format_frequency
+from ..units import format_duration, format_frequency, format_seconds
 from . import timestamps as ts
 from . import values as vals
 from .columns import ColumnPlan, columns_info
-from .grid import Grid, build_grid, unwrap
+from .grid import DEFAULT_STAMP_TOLERANCE, Grid, build_grid, unwrap
 from .hints import ReadHints
 from .report import LIST_LIMIT, LogReport
 from .rows import DataRows
@@ -134,7 +134,9 @@ def place_on_grid(
     seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
     rep.time_column = " + ".join(plan.display[c] for c in plan.time_cols)
     rep.time_format = plan.time_fmt.description
-    grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column)
+    tolerance = DEFAULT_STAMP_TOLERANCE if hints.stamp_tolerance is None else hints.stamp_tolerance
+    grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column, tolerance)
+    rep.stamp_tolerance = tolerance
     _report_spacing(grid, hints.tau0, rep)
     _report_dropped(grid, rows.lines, rep)
     if grid.duplicates.size:  # otherwise every row is kept
@@ -192,6 +194,7 @@ def _report_dropped(grid: Grid, lines: np.ndarray, rep: LogReport) -> None:
     rep.duplicates = [{"line": int(lines[i])} for i in dup[:LIST_LIMIT]]
     if dup.size:
         rep.note(f"{dup.size} duplicated or crowded time stamp(s) dropped (first kept).")
+    tol = f"{rep.stamp_tolerance:.3g} of tau0"
     oi, oo = grid.off_grid
     rep.off_grid_count = int(oi.size)
     rep.off_grid = [
@@ -199,7 +202,28 @@ def _report_dropped(grid: Grid, lines: np.ndarray, rep: LogReport) -> None:
         for i, o in zip(oi[:LIST_LIMIT], oo[:LIST_LIMIT], strict=True)
     ]
     if oi.size:
-        rep.note(f"{oi.size} sample(s) lie off the grid by more than 10% of tau0.")
+        rep.note(
+            f"{oi.size} sample(s) lie off the grid by more than the stamp tolerance ({tol}); "
+            "each is placed in its nearest slot."
+        )
+    ji, jo = grid.jitter
+    rep.jitter_count = int(ji.size)
+    rep.jitter_max_s = float(np.max(np.abs(jo))) if ji.size else 0.0
+    rep.jitter = [
+        {"line": int(lines[i]), "offset_s": float(o)}
+        for i, o in zip(ji[:LIST_LIMIT], jo[:LIST_LIMIT], strict=True)
+    ]
+    if ji.size:
+        rep.note(
+            f"stamp jitter: max {format_seconds(rep.jitter_max_s)}, {ji.size} rows "
+            f"(within the stamp tolerance, {tol}; snapped to their slots)."
+        )
+    if grid.ambiguous:
+        rep.note(
+            f"{grid.ambiguous} stamp(s) lie more than the stamp tolerance ({tol}) from their "
+            "slot, next to an empty slot, and were read as a duplicate and a gap; if the PC "
+            "stamped them late, pass --stamp-tolerance 0.7 or --time-column none with --tau0."
+        )
 
 
 def _report_gaps(grid: Grid, kept_lines: np.ndarray, rep: LogReport) -> None:

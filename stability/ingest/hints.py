@@ -29,6 +29,9 @@ class ReadHints:
         Period of wrap-around of time-interval readings in seconds, or None.
     strict
         Make the first unreadable row an error instead of a reported gap.
+    stamp_tolerance
+        Fraction of tau0 within which a stamp is snapped to its slot, or None
+        for the default (a third).
     """
 
     kind: str = "auto"
@@ -38,3 +41,4 @@ class ReadHints:
     nominal: float | None = None
     wrap: float | None = None
     strict: bool = False
+    stamp_tolerance: float | None = None

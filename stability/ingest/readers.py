@@ -18,6 +18,7 @@ References
 
 from __future__ import annotations
 
+import math
 import os
 from collections.abc import Callable
 from typing import Any
@@ -57,6 +58,7 @@ def validate_read_args(
     nominal: Any = None,
     wrap: Any = None,
     strict: Any = False,
+    stamp_tolerance: Any = None,
 ) -> ReadHints:
     """Check the options of :func:`read_log`; raise :class:`InputError` naming the bad one."""
     k = str(kind).strip().lower() if kind is not None else "auto"
@@ -75,7 +77,24 @@ def validate_read_args(
         nominal=None if nominal is None else parse_frequency(nominal, "nominal"),
         wrap=None if wrap is None else parse_duration(wrap, "wrap"),
         strict=bool(strict),
+        stamp_tolerance=_stamp_tolerance(stamp_tolerance),
     )
+
+
+def _stamp_tolerance(value: Any) -> float | None:
+    """The stamp tolerance as a fraction of tau0 (0 <= f < 1), or None for the default."""
+    if value is None:
+        return None
+    try:
+        f = float(value) if not isinstance(value, bool) else math.nan
+    except (TypeError, ValueError):
+        f = math.nan
+    if not (0.0 <= f < 1.0):
+        raise InputError(
+            f"stamp_tolerance is a fraction of tau0 from 0 to below 1, got {value!r}",
+            hint="pass --stamp-tolerance 0.3 for stamps up to 0.3 tau0 from their slot",
+        )
+    return f
 
 
 def _check_callback(on_progress: Any) -> ProgressCallback | None:
@@ -172,6 +191,7 @@ def read_log(
     nominal: float | str | None = None,
     wrap: float | str | None = None,
     strict: bool = False,
+    stamp_tolerance: float | str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> Measurement:
     """Read a frequency-counter or time-interval log into a :class:`Measurement`.
@@ -184,10 +204,13 @@ def read_log(
         ``auto``, ``phase`` (time error, seconds), ``frequency`` (absolute, Hz)
         or ``fractional`` (fractional frequency).
     column, time_column
-        Value and time columns: 1-based number or header name.
+        Value and time columns: 1-based number or header name; each may be
+        given alone. ``time_column="none"`` reads the rows in sequence, the
+        stamps only labels (``tau0`` is then required).
     tau0
         Sample interval (seconds or ``"100ms"``); needed without time stamps,
-        overrides the median spacing otherwise.
+        overrides the median spacing otherwise (rows are still placed by
+        their stamps).
     nominal
         Nominal frequency (Hz or ``"10MHz"``) for absolute-frequency and carrier-phase logs.
     wrap
@@ -195,6 +218,11 @@ def read_log(
     strict
         Make the first bad line (an unreadable value, or a line that is not a
         data row) an error instead of a reported gap.
+    stamp_tolerance
+        How far a time stamp may sit from its slot on the uniform grid and still
+        be snapped to it, as a fraction of tau0 (default 1/3; ``0.7`` also puts
+        back stamps written late by more than half tau0). Stamps beyond it are
+        reported as off the grid.
     on_progress
         Called as parsing advances with (bytes parsed, bytes in all) of the
         log's text; the bytes parsed are estimated from the lines parsed and
@@ -212,7 +240,9 @@ def read_log(
     InputError
         The file cannot be read as a log, or a hint is invalid.
     """
-    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict)
+    hints = validate_read_args(
+        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance
+    )
     return _read(path, hints, on_progress=_check_callback(on_progress))[0]
 
 
@@ -226,11 +256,14 @@ def inspect_log(
     nominal: float | str | None = None,
     wrap: float | str | None = None,
     strict: bool = False,
+    stamp_tolerance: float | str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> LogReport:
     """Say what is in a log and how :func:`read_log` reads it.
 
     Takes the same options as :func:`read_log` and returns the :class:`LogReport`.
     """
-    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict)
+    hints = validate_read_args(
+        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance
+    )
     return _read(path, hints, on_progress=_check_callback(on_progress))[1]

@@ -20,7 +20,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from ..units import format_duration, format_frequency
+from ..units import format_duration, format_frequency, format_seconds
 
 __all__ = ["ColumnInfo", "LogReport", "LIST_LIMIT"]
 
@@ -101,6 +101,11 @@ class LogReport:
     duplicate_count: int = 0
     off_grid: list[dict[str, Any]] = field(default_factory=list)
     off_grid_count: int = 0
+    stamp_tolerance: float | None = None
+    jitter: list[dict[str, Any]] = field(default_factory=list)
+    jitter_count: int = 0
+    jitter_max_s: float = 0.0
+    timezone: str | None = None
     wraps: list[dict[str, Any]] = field(default_factory=list)
     wrap_count: int = 0
     wrap_period: float | None = None
@@ -220,9 +225,16 @@ class LogReport:
                 f"  duplicated time stamps dropped: {self.duplicate_count}: "
                 + lines_of(self.duplicates, self.duplicate_count, "line {line}")
             )
-        if self.off_grid_count:
+        if self.jitter_count:
             out.append(
-                f"  samples off the grid by more than 10% of tau0: {self.off_grid_count}: "
+                f"  stamp jitter: max {format_seconds(self.jitter_max_s)}, "
+                f"{self.jitter_count} rows (snapped to the grid): "
+                + lines_of(self.jitter, self.jitter_count, "line {line} ({offset_s:.3g} s)")
+            )
+        if self.off_grid_count:
+            tol = f"{self.stamp_tolerance:.3g}" if self.stamp_tolerance else "?"
+            out.append(
+                f"  samples off the grid by more than {tol} of tau0: {self.off_grid_count}: "
                 + lines_of(self.off_grid, self.off_grid_count, "line {line} ({offset_s:.3g} s)")
             )
         if self.wrap_count:
