@@ -37,6 +37,7 @@ class ReadSettings:
     wrap: float | str | None = None
     strict: bool = False
     stamp_tolerance: float | str | None = None
+    timezone: str | None = None
 
     def as_kwargs(self) -> dict[str, Any]:
         """The hints as keyword arguments of :func:`stability.read_log`."""

@@ -34,6 +34,7 @@ from . import values as vals
 from .columns import ColumnPlan, columns_info
 from .grid import DEFAULT_STAMP_TOLERANCE, Grid, build_grid, unwrap
 from .hints import ReadHints
+from .local_time import daylight_saving_step
 from .report import LIST_LIMIT, LogReport
 from .rows import DataRows
 
@@ -134,6 +135,8 @@ def place_on_grid(
     seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
     rep.time_column = " + ".join(plan.display[c] for c in plan.time_cols)
     rep.time_format = plan.time_fmt.description
+    if plan.time_fmt.style == "datetime" and not plan.time_fmt.aware:
+        _refuse_daylight_saving(seconds, start, rows.lines, hints, path, rep.time_column)
     tolerance = DEFAULT_STAMP_TOLERANCE if hints.stamp_tolerance is None else hints.stamp_tolerance
     grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column, tolerance)
     rep.stamp_tolerance = tolerance
@@ -146,6 +149,28 @@ def place_on_grid(
     rep.first_time = _stamp(start, 0.0)
     rep.last_time = _stamp(start, float(seconds[-1]))
     return rows, GridPlacement(grid.tau0, grid.size, grid.position, start)
+
+
+def _refuse_daylight_saving(
+    seconds: np.ndarray, start: Any, lines: np.ndarray, hints: ReadHints, path: str, column: str
+) -> None:
+    """A one-hour step of zone-less stamps at a daylight-saving change is an error."""
+    found = daylight_saving_step(seconds, start, hints.tau0)
+    if found is None:
+        return
+    row, jump = found
+    at = pd.Timestamp(start) + pd.Timedelta(seconds=float(seconds[row - 1]))
+    way = "forward" if jump > 0 else "back"
+    raise InputError(
+        f"the time stamps step {way} by one hour after {at.isoformat()}, a daylight-saving "
+        "change: they are local time without a zone, and would become "
+        + ("3600 s of invented gaps" if jump > 0 else "time going backward"),
+        path=path,
+        line=int(lines[row]),
+        column=column,
+        hint="pass --timezone with the zone of the logging clock, e.g. --timezone "
+        "Europe/Berlin (or --timezone UTC if the stamps are UTC and the hour a real pause)",
+    )
 
 
 def _no_tau0(

@@ -32,6 +32,8 @@ class ReadHints:
     stamp_tolerance
         Fraction of tau0 within which a stamp is snapped to its slot, or None
         for the default (a third).
+    timezone
+        IANA zone of stamps written without a zone, or None.
     """
 
     kind: str = "auto"
@@ -42,3 +44,4 @@ class ReadHints:
     wrap: float | None = None
     strict: bool = False
     stamp_tolerance: float | None = None
+    timezone: str | None = None

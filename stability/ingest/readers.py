@@ -18,6 +18,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import os
 from collections.abc import Callable
@@ -34,9 +35,10 @@ from .build import (
     place_on_grid,
     unwrap_readings,
 )
-from .columns import column_samples, decide_kind, other_columns_hint, plan_columns
+from .columns import ColumnPlan, column_samples, decide_kind, other_columns_hint, plan_columns
 from .evidence import check_tau0, column_evidence, preamble_evidence
 from .hints import ReadHints
+from .local_time import check_zone, localize
 from .parsing import decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
 from .rows import DataRows, data_rows
@@ -59,6 +61,7 @@ def validate_read_args(
     wrap: Any = None,
     strict: Any = False,
     stamp_tolerance: Any = None,
+    timezone: Any = None,
 ) -> ReadHints:
     """Check the options of :func:`read_log`; raise :class:`InputError` naming the bad one."""
     k = str(kind).strip().lower() if kind is not None else "auto"
@@ -78,6 +81,7 @@ def validate_read_args(
         wrap=None if wrap is None else parse_duration(wrap, "wrap"),
         strict=bool(strict),
         stamp_tolerance=_stamp_tolerance(stamp_tolerance),
+        timezone=None if timezone is None else check_zone(timezone),
     )
 
 
@@ -136,6 +140,8 @@ def _read(
     )
     rows, total_rows = data_rows(src, d, plan, vk.scale, parsed, hints.strict, rep)
     del parsed
+    if hints.timezone is not None:
+        plan = _local_time(rows, plan, hints.timezone, src.path, rep)
     if exact:
         rows = _exact_differences(rows, d, rep)
     evidence = preamble_evidence(src, d) + column_evidence(column_samples(src, d), plan)
@@ -169,6 +175,25 @@ def _sniff(src: RawSource, rep: LogReport) -> Dialect:
     return d
 
 
+def _local_time(
+    rows: DataRows, plan: ColumnPlan, zone: str, path: str, rep: LogReport
+) -> ColumnPlan:
+    """Zone-less date-time stamps read as local time in ``zone`` and converted to UTC."""
+    fmt = plan.time_fmt
+    rep.timezone = zone
+    if fmt is None:
+        rep.note(f"--timezone {zone} not used: the rows are read without time stamps.")
+        return plan
+    if fmt.style != "datetime" or fmt.aware:
+        rep.note(f"--timezone {zone} not used: the time stamps carry their own zone or are UTC.")
+        return plan
+    column = " + ".join(plan.display[c] for c in plan.time_cols)
+    rows.ticks = localize(rows.ticks, rows.lines, zone, path, column)
+    rep.note(f"Time stamps read as local time in {zone} and converted to UTC.")
+    local = dataclasses.replace(fmt, aware=True, description=f"{fmt.description}, {zone} time")
+    return dataclasses.replace(plan, time_fmt=local)
+
+
 def _exact_differences(rows: DataRows, d: Dialect, rep: LogReport) -> DataRows:
     """The rows with readings minus the first one, exact from the decimal text."""
     res = decimal_deltas(rows.texts, rows.values, rows.bad, d.decimal)
@@ -192,6 +217,7 @@ def read_log(
     wrap: float | str | None = None,
     strict: bool = False,
     stamp_tolerance: float | str | None = None,
+    timezone: str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> Measurement:
     """Read a frequency-counter or time-interval log into a :class:`Measurement`.
@@ -223,6 +249,11 @@ def read_log(
         be snapped to it, as a fraction of tau0 (default 1/3; ``0.7`` also puts
         back stamps written late by more than half tau0). Stamps beyond it are
         reported as off the grid.
+    timezone
+        IANA zone name (``"Europe/Berlin"``): date-time stamps without a zone
+        are local time there, converted to UTC (the hour written twice when
+        daylight-saving time ends is resolved by row order). Without it, a
+        one-hour step of such stamps at a daylight-saving change is an error.
     on_progress
         Called as parsing advances with (bytes parsed, bytes in all) of the
         log's text; the bytes parsed are estimated from the lines parsed and
@@ -241,7 +272,7 @@ def read_log(
         The file cannot be read as a log, or a hint is invalid.
     """
     hints = validate_read_args(
-        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance
+        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[0]
 
@@ -257,6 +288,7 @@ def inspect_log(
     wrap: float | str | None = None,
     strict: bool = False,
     stamp_tolerance: float | str | None = None,
+    timezone: str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> LogReport:
     """Say what is in a log and how :func:`read_log` reads it.
@@ -264,6 +296,6 @@ def inspect_log(
     Takes the same options as :func:`read_log` and returns the :class:`LogReport`.
     """
     hints = validate_read_args(
-        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance
+        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[1]
