@@ -38,6 +38,7 @@ class ReadSettings:
     strict: bool = False
     stamp_tolerance: float | str | None = None
     timezone: str | None = None
+    sheet: int | str | None = None
 
     def as_kwargs(self) -> dict[str, Any]:
         """The hints as keyword arguments of :func:`stability.read_log`."""

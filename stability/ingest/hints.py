@@ -34,6 +34,8 @@ class ReadHints:
         for the default (a third).
     timezone
         IANA zone of stamps written without a zone, or None.
+    sheet
+        Sheet of a workbook (1-based number or name), or None for the first.
     """
 
     kind: str = "auto"
@@ -45,3 +47,4 @@ class ReadHints:
     strict: bool = False
     stamp_tolerance: float | None = None
     timezone: str | None = None
+    sheet: int | str | None = None

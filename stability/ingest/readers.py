@@ -62,14 +62,15 @@ def validate_read_args(
     strict: Any = False,
     stamp_tolerance: Any = None,
     timezone: Any = None,
+    sheet: Any = None,
 ) -> ReadHints:
     """Check the options of :func:`read_log`; raise :class:`InputError` naming the bad one."""
     k = str(kind).strip().lower() if kind is not None else "auto"
     if k not in KINDS:
         raise InputError(f"kind must be one of {', '.join(KINDS)}, got {kind!r}")
-    for name, value in (("column", column), ("time_column", time_column)):
+    for name, value in (("column", column), ("time_column", time_column), ("sheet", sheet)):
         if value is not None and not isinstance(value, (int, str)) or isinstance(value, bool):
-            raise InputError(f"{name} must be a 1-based number or a header name, got {value!r}")
+            raise InputError(f"{name} must be a 1-based number or a name, got {value!r}")
         if isinstance(value, int) and value < 1:
             raise InputError(f"{name} numbers start at 1, got {value!r}")
     return ReadHints(
@@ -82,6 +83,7 @@ def validate_read_args(
         strict=bool(strict),
         stamp_tolerance=_stamp_tolerance(stamp_tolerance),
         timezone=None if timezone is None else check_zone(timezone),
+        sheet=sheet,
     )
 
 
@@ -123,8 +125,13 @@ def _read(
     ``"general"``, see :data:`stability.ingest.parsing.STAMP_PATHS`); both give
     the same result.
     """
-    src = open_source(path)
+    src = open_source(path, hints.sheet)
     rep = LogReport(path=str(path), size_bytes=src.size)
+    if len(src.sheets) > 1:
+        rep.note(
+            f"The workbook has {len(src.sheets)} sheets ({', '.join(src.sheets)}); reading "
+            f"{src.member!r} (choose another with --sheet)."
+        )
     hasher = InputHasher(str(path), src.raw)
     d = _sniff(src, rep)
     plan = plan_columns(src, d, hints, rep)
@@ -218,6 +225,7 @@ def read_log(
     strict: bool = False,
     stamp_tolerance: float | str | None = None,
     timezone: str | None = None,
+    sheet: int | str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> Measurement:
     """Read a frequency-counter or time-interval log into a :class:`Measurement`.
@@ -225,7 +233,8 @@ def read_log(
     Parameters
     ----------
     path
-        The log: CSV-like text, optionally gzip, bz2, xz or single-file zip.
+        The log: CSV-like text, optionally gzip, bz2, xz or single-file zip, or
+        an .xlsx workbook (recognised by content; needs openpyxl).
     kind
         ``auto``, ``phase`` (time error, seconds), ``frequency`` (absolute, Hz)
         or ``fractional`` (fractional frequency).
@@ -254,6 +263,8 @@ def read_log(
         are local time there, converted to UTC (the hour written twice when
         daylight-saving time ends is resolved by row order). Without it, a
         one-hour step of such stamps at a daylight-saving change is an error.
+    sheet
+        Sheet of an .xlsx workbook: 1-based number or name (default the first).
     on_progress
         Called as parsing advances with (bytes parsed, bytes in all) of the
         log's text; the bytes parsed are estimated from the lines parsed and
@@ -272,7 +283,7 @@ def read_log(
         The file cannot be read as a log, or a hint is invalid.
     """
     hints = validate_read_args(
-        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone
+        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone, sheet
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[0]
 
@@ -289,6 +300,7 @@ def inspect_log(
     strict: bool = False,
     stamp_tolerance: float | str | None = None,
     timezone: str | None = None,
+    sheet: int | str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> LogReport:
     """Say what is in a log and how :func:`read_log` reads it.
@@ -296,6 +308,6 @@ def inspect_log(
     Takes the same options as :func:`read_log` and returns the :class:`LogReport`.
     """
     hints = validate_read_args(
-        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone
+        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone, sheet
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[1]

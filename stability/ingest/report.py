@@ -158,7 +158,8 @@ class LogReport:
 
         out = [f"Log: {self.path}"]
         out.append(f"  size {self.size_bytes} bytes, SHA-256 {self.sha256}")
-        container = self.container + (f" (member {self.member})" if self.member else "")
+        where = "sheet" if self.container == "xlsx" else "member"
+        container = self.container + (f" ({where} {self.member!r})" if self.member else "")
         out.append(
             f"  container {container}, encoding {self.encoding}, line endings {self.line_endings}"
         )

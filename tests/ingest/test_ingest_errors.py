@@ -23,7 +23,7 @@ def _good(tmp_path):
     [
         ({"kind": "bogus"}, "kind must be one of auto, phase, frequency, fractional"),
         ({"column": 0}, "column numbers start at 1"),
-        ({"column": 1.5}, "column must be a 1-based number or a header name"),
+        ({"column": 1.5}, "column must be a 1-based number or a name"),
         ({"time_column": 0}, "time_column numbers start at 1"),
         ({"tau0": "-1s"}, "tau0 must be a positive duration"),
         ({"tau0": "fast"}, "cannot read tau0"),
