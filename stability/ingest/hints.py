@@ -36,6 +36,8 @@ class ReadHints:
         IANA zone of stamps written without a zone, or None.
     sheet
         Sheet of a workbook (1-based number or name), or None for the first.
+    engine
+        ``"auto"``, ``"pandas"`` or ``"pyarrow"`` (see :func:`stability.ingest.read_log`).
     """
 
     kind: str = "auto"
@@ -48,3 +50,4 @@ class ReadHints:
     stamp_tolerance: float | None = None
     timezone: str | None = None
     sheet: int | str | None = None
+    engine: str = "auto"

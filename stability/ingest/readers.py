@@ -27,6 +27,7 @@ from typing import Any
 from ..errors import InputError
 from ..measurement import Measurement
 from ..units import parse_duration, parse_frequency
+from .arrow_parsing import ENGINES, arrow_layout_problem, arrow_rows
 from .build import (
     InputHasher,
     canonical_series,
@@ -39,6 +40,7 @@ from .columns import ColumnPlan, column_samples, decide_kind, other_columns_hint
 from .evidence import check_tau0, column_evidence, preamble_evidence
 from .hints import ReadHints
 from .local_time import check_zone, localize
+from .memory import check_memory
 from .parsing import decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
 from .rows import DataRows, data_rows
@@ -63,6 +65,7 @@ def validate_read_args(
     stamp_tolerance: Any = None,
     timezone: Any = None,
     sheet: Any = None,
+    engine: Any = "auto",
 ) -> ReadHints:
     """Check the options of :func:`read_log`; raise :class:`InputError` naming the bad one."""
     k = str(kind).strip().lower() if kind is not None else "auto"
@@ -84,7 +87,15 @@ def validate_read_args(
         stamp_tolerance=_stamp_tolerance(stamp_tolerance),
         timezone=None if timezone is None else check_zone(timezone),
         sheet=sheet,
+        engine=_engine(engine),
     )
+
+
+def _engine(value: Any) -> str:
+    e = "auto" if value is None else str(value).strip().lower()
+    if e not in ENGINES:
+        raise InputError(f"engine must be one of {', '.join(ENGINES)}, got {value!r}")
+    return e
 
 
 def _stamp_tolerance(value: Any) -> float | None:
@@ -134,6 +145,7 @@ def _read(
         )
     hasher = InputHasher(str(path), src.raw)
     d = _sniff(src, rep)
+    check_memory(src, d)
     plan = plan_columns(src, d, hints, rep)
     sample = column_samples(src, d)[plan.value_col]
     vname = plan.display[plan.value_col]
@@ -142,9 +154,22 @@ def _read(
     )
     rep.kind, rep.unit, rep.kind_reason = vk.kind, vk.unit, vk.reason
     exact = needs_decimal_text(sample, d, vk)
-    parsed = parse_rows(
-        src, d, plan, exact=exact, suffix=suffix, stamps=stamps, on_progress=on_progress
-    )
+    parsed = None
+    if hints.engine != "pandas":
+        problem = arrow_layout_problem(src, d, plan, exact or suffix)
+        if not problem:
+            parsed = arrow_rows(src, d, plan, on_progress)
+            problem = "" if parsed is not None else "a row does not parse cleanly"
+        if parsed is None and hints.engine == "pyarrow":
+            raise InputError(
+                f"the pyarrow engine cannot read this log: {problem}",
+                path=src.path,
+                hint="pass --engine auto (or pandas), which reads every log",
+            )
+    if parsed is None:
+        parsed = parse_rows(
+            src, d, plan, exact=exact, suffix=suffix, stamps=stamps, on_progress=on_progress
+        )
     rows, total_rows = data_rows(src, d, plan, vk.scale, parsed, hints.strict, rep)
     del parsed
     if hints.timezone is not None:
@@ -226,6 +251,7 @@ def read_log(
     stamp_tolerance: float | str | None = None,
     timezone: str | None = None,
     sheet: int | str | None = None,
+    engine: str = "auto",
     on_progress: ProgressCallback | None = None,
 ) -> Measurement:
     """Read a frequency-counter or time-interval log into a :class:`Measurement`.
@@ -265,6 +291,12 @@ def read_log(
         one-hour step of such stamps at a daylight-saving change is an error.
     sheet
         Sheet of an .xlsx workbook: 1-based number or name (default the first).
+    engine
+        ``"auto"`` (default): pyarrow's multi-threaded CSV reader when it is
+        installed and the log is a clean file of a common layout (one
+        delimiter, ISO 8601 or numeric stamps, plain numbers), else pandas;
+        ``"pandas"``: always pandas' chunked C parser; ``"pyarrow"``: pyarrow
+        or an error saying why not. Every engine gives the same result.
     on_progress
         Called as parsing advances with (bytes parsed, bytes in all) of the
         log's text; the bytes parsed are estimated from the lines parsed and
@@ -283,7 +315,17 @@ def read_log(
         The file cannot be read as a log, or a hint is invalid.
     """
     hints = validate_read_args(
-        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone, sheet
+        kind,
+        column,
+        time_column,
+        tau0,
+        nominal,
+        wrap,
+        strict,
+        stamp_tolerance,
+        timezone,
+        sheet,
+        engine,
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[0]
 
@@ -301,6 +343,7 @@ def inspect_log(
     stamp_tolerance: float | str | None = None,
     timezone: str | None = None,
     sheet: int | str | None = None,
+    engine: str = "auto",
     on_progress: ProgressCallback | None = None,
 ) -> LogReport:
     """Say what is in a log and how :func:`read_log` reads it.
@@ -308,6 +351,16 @@ def inspect_log(
     Takes the same options as :func:`read_log` and returns the :class:`LogReport`.
     """
     hints = validate_read_args(
-        kind, column, time_column, tau0, nominal, wrap, strict, stamp_tolerance, timezone, sheet
+        kind,
+        column,
+        time_column,
+        tau0,
+        nominal,
+        wrap,
+        strict,
+        stamp_tolerance,
+        timezone,
+        sheet,
+        engine,
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[1]

@@ -47,6 +47,8 @@ __all__ = [
 #: Lines looked at to decide the dialect (common practice: a screenful or a few).
 SAMPLE_LINES = 200
 _SAMPLE_BYTES = 256 * 1024
+#: Lines of the data block scored for each candidate dialect.
+_SCORE_LINES = 300
 
 _MAGIC = (
     (b"\x1f\x8b", "gzip"),
@@ -452,6 +454,7 @@ def sniff_dialect(src: RawSource) -> Dialect:
     # the data block is the bulk of the sample: judge the dialect on its later half
     body = [ln for _, ln in candidates] or [ln for _, ln in semicolon_rows]
     tail = body[len(body) // 3 :] if len(body) > 6 else body
+    tail = tail[:_SCORE_LINES]
     best = (0.0, 1, "\t", ".")
     for delim in DELIMITERS:
         for decimal in (".", ","):
