@@ -171,7 +171,7 @@ def build_grid(
             column=column,
             hint="sort the log by time or remove the out-of-order rows",
         )
-    positive = dt[dt > 0]
+    positive = dt if dt.size and dt.min() > 0 else dt[dt > 0]
     if positive.size == 0:
         raise InputError(
             "all time stamps are equal: the sample interval cannot be found",
@@ -183,9 +183,9 @@ def build_grid(
     step = tau0 if tau0 is not None else median
     tol = tolerance * step
     n = seconds.size
-    if bool((np.abs(dt - step) < 0.5 * step).all()):
+    offset = dt - step
+    if bool((np.abs(offset) < 0.5 * step).all()):
         # The common case, every step rounds to one slot: nothing to insert or drop.
-        offset = dt - step
         jitter, off = _displaced(offset, step, tol)
         return Grid(
             keep=np.ones(n, dtype=bool),

@@ -239,7 +239,8 @@ def to_seconds(
     """Seconds since the first good stamp (``ticks[first]``) and that stamp as a datetime."""
     t0 = ticks[first]
     if fmt.style == "datetime":
-        rel = (ticks - t0).astype(np.float64) * 1e-9
+        rel = (ticks - t0).astype(np.float64)
+        rel *= 1e-9  # in place: one array of the log's length fewer
         start = pd.Timestamp(int(t0), unit="ns").to_pydatetime(warn=False)
         if fmt.aware:
             start = start.replace(tzinfo=UTC)
