@@ -96,6 +96,8 @@ def _quiet_stdout() -> None:
 def _pipe_guard() -> Iterator[None]:
     try:
         yield
+    except KeyboardInterrupt as exc:  # outside a command body (option checks, start)
+        fail(_stopped(exc), 128 + _signum(exc))
     except OSError as exc:
         if isinstance(exc, BrokenPipeError) or exc.errno == errno.EPIPE:
             raise _PipeClosed from exc
@@ -159,6 +161,11 @@ def _interrupted(cause: BaseException | None) -> int:
     return EXIT_ERROR
 
 
+def raise_interrupted(signum: int, frame: Any) -> None:
+    """Signal handler: SIGTERM and SIGHUP become :class:`Interrupted`, handled like Ctrl-C."""
+    raise Interrupted(signum)
+
+
 def run_program(app: Any) -> None:
     """Run the app with SIGTERM and SIGHUP handled like Ctrl-C (one line, exit 128 + n).
 
@@ -166,11 +173,8 @@ def run_program(app: Any) -> None:
     one line instead of a traceback.
     """
 
-    def stop(signum: int, frame: Any) -> None:
-        raise Interrupted(signum)
-
     for signum in (signal.SIGTERM, signal.SIGHUP):
-        signal.signal(signum, stop)
+        signal.signal(signum, raise_interrupted)
     try:
         app()
     except KeyboardInterrupt as exc:  # outside click's own handling (start-up, shutdown)

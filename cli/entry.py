@@ -25,11 +25,13 @@ def _quit_while_starting(signum: int, frame: FrameType | None) -> None:
 _STARTING = (signal.SIGINT, signal.SIGTERM, signal.SIGHUP)
 _previous = {signum: signal.signal(signum, _quit_while_starting) for signum in _STARTING}
 
-from .common import run_program  # noqa: E402  (loaded under the start-up handler)
+from .common import raise_interrupted, run_program  # noqa: E402  (under the start-up handler)
 from .main import app  # noqa: E402
 
-for _signum, _handler in _previous.items():
-    signal.signal(_signum, _handler)
+# From here on the app's own handling: Ctrl-C as usual, SIGTERM/SIGHUP like Ctrl-C.
+signal.signal(signal.SIGINT, _previous[signal.SIGINT])
+signal.signal(signal.SIGTERM, raise_interrupted)
+signal.signal(signal.SIGHUP, raise_interrupted)
 
 
 def main() -> None:

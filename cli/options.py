@@ -65,6 +65,10 @@ __all__ = [
     "KIND",
     "COLUMN",
     "TIME_COLUMN",
+    "STAMP_TOLERANCE",
+    "TIMEZONE",
+    "SHEET",
+    "ENGINE",
     "TAU0",
     "NOMINAL",
     "WRAP",
@@ -117,6 +121,16 @@ def duration_check(what: str) -> Callable[[str], str]:
 
     def check(value: str) -> str:
         parse_duration(value, what)
+        return value
+
+    return check
+
+
+def reading_check(name: str) -> Callable[[Any], Any]:
+    """A check of one reading option by the reader's own validation (same messages)."""
+
+    def check(value: Any) -> Any:
+        validate_read_args(**{name: value})
         return value
 
     return check
@@ -241,8 +255,49 @@ TIME_COLUMN = OptionSpec(
     "--time-column",
     str | None,
     None,
-    "Time-stamp column: 1-based number or header name (default: found from the data).",
+    "Time column: 1-based number or header name, or none to read the rows in sequence "
+    "(the stamps only labels; needs --tau0). Default: found from the data, a date-time "
+    "column before a counter.",
+    metavar="NAME|N|none",
+)
+STAMP_TOLERANCE = OptionSpec(
+    "stamp_tolerance",
+    "--stamp-tolerance",
+    str | None,
+    None,
+    "How far a time stamp may sit from its slot on the grid and be snapped to it, as a "
+    "fraction of tau0 (default 0.33; 0.7 also puts back stamps written more than half "
+    "tau0 late).",
+    metavar="FRACTION",
+    check=reading_check("stamp_tolerance"),
+)
+TIMEZONE = OptionSpec(
+    "timezone",
+    "--timezone",
+    str | None,
+    None,
+    "IANA time zone of stamps written without a zone, e.g. Europe/Berlin; they are "
+    "converted to UTC (daylight-saving changes handled).",
+    metavar="ZONE",
+    check=reading_check("timezone"),
+)
+SHEET = OptionSpec(
+    "sheet",
+    "--sheet",
+    str | None,
+    None,
+    "Sheet of an .xlsx workbook: 1-based number or name (default: the first).",
     metavar="NAME|N",
+)
+ENGINE = OptionSpec(
+    "engine",
+    "--engine",
+    str,
+    "auto",
+    "Reading engine: auto takes pyarrow's multi-threaded reader for clean logs when it is "
+    "installed, else pandas; all give the same result.",
+    metavar="auto|pandas|pyarrow",
+    check=reading_check("engine"),
 )
 TAU0 = OptionSpec(
     "tau0",
@@ -381,7 +436,19 @@ JSON = _flag(
 DEBUG = _flag("debug", "--debug", "Show the full traceback of an error.")
 
 #: The option groups, in the order the help lists them.
-READING = (KIND, COLUMN, TIME_COLUMN, TAU0, NOMINAL, WRAP, STRICT)
+READING = (
+    KIND,
+    COLUMN,
+    TIME_COLUMN,
+    TAU0,
+    NOMINAL,
+    WRAP,
+    STAMP_TOLERANCE,
+    TIMEZONE,
+    SHEET,
+    ENGINE,
+    STRICT,
+)
 PREPARING = (OUTLIERS, DRIFT, AVERAGE)
 ANALYSING = (STATS, TAUS, CONFIDENCE)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)

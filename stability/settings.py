@@ -36,6 +36,10 @@ class ReadSettings:
     nominal: float | str | None = None
     wrap: float | str | None = None
     strict: bool = False
+    stamp_tolerance: float | str | None = None
+    timezone: str | None = None
+    sheet: int | str | None = None
+    engine: str = "auto"
 
     def as_kwargs(self) -> dict[str, Any]:
         """The hints as keyword arguments of :func:`stability.read_log`."""

@@ -28,12 +28,13 @@ import pandas as pd
 from ..errors import InputError
 from ..files import sha256_file
 from ..measurement import Measurement, Provenance
-from ..units import format_duration, format_frequency
+from ..units import format_duration, format_frequency, format_seconds
 from . import timestamps as ts
 from . import values as vals
 from .columns import ColumnPlan, columns_info
-from .grid import Grid, build_grid, unwrap
+from .grid import DEFAULT_STAMP_TOLERANCE, Grid, build_grid, unwrap
 from .hints import ReadHints
+from .local_time import daylight_saving_step
 from .report import LIST_LIMIT, LogReport
 from .rows import DataRows
 
@@ -103,9 +104,17 @@ class GridPlacement:
 
 
 def place_on_grid(
-    rows: DataRows, plan: ColumnPlan, hints: ReadHints, path: str, rep: LogReport
+    rows: DataRows,
+    plan: ColumnPlan,
+    hints: ReadHints,
+    path: str,
+    rep: LogReport,
+    stated: list[tuple[str, str, float]] | None = None,
 ) -> tuple[DataRows, GridPlacement]:
     """The rows kept on the grid (duplicated stamps dropped) and where they land.
+
+    ``stated`` holds what the log says about the interval elsewhere (source,
+    words, seconds), for the hint when tau0 cannot be found.
 
     Raises
     ------
@@ -115,18 +124,22 @@ def place_on_grid(
     """
     if plan.time_fmt is None:
         if hints.tau0 is None:
-            raise InputError(
-                "the log has no time column, so the sample interval is unknown",
-                path=path,
-                hint="pass --tau0, e.g. --tau0 1s",
-            )
-        rep.tau0_source = "given (the log has no time stamps)"
+            raise _no_tau0(plan, hints, path, stated or [])
+        rep.tau0_source = (
+            "as given (rows read in sequence: --time-column none)"
+            if plan.time_reason.startswith("none")
+            else "as given (the log has no time stamps)"
+        )
         rep.tau0 = hints.tau0
         return rows, GridPlacement(hints.tau0, rows.values.size, np.arange(rows.values.size))
     seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
     rep.time_column = " + ".join(plan.display[c] for c in plan.time_cols)
     rep.time_format = plan.time_fmt.description
-    grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column)
+    if plan.time_fmt.style == "datetime" and not plan.time_fmt.aware:
+        _refuse_daylight_saving(seconds, start, rows.lines, hints, path, rep.time_column)
+    tolerance = DEFAULT_STAMP_TOLERANCE if hints.stamp_tolerance is None else hints.stamp_tolerance
+    grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column, tolerance)
+    rep.stamp_tolerance = tolerance
     _report_spacing(grid, hints.tau0, rep)
     _report_dropped(grid, rows.lines, rep)
     if grid.duplicates.size:  # otherwise every row is kept
@@ -138,13 +151,59 @@ def place_on_grid(
     return rows, GridPlacement(grid.tau0, grid.size, grid.position, start)
 
 
+def _refuse_daylight_saving(
+    seconds: np.ndarray, start: Any, lines: np.ndarray, hints: ReadHints, path: str, column: str
+) -> None:
+    """A one-hour step of zone-less stamps at a daylight-saving change is an error."""
+    found = daylight_saving_step(seconds, start, hints.tau0)
+    if found is None:
+        return
+    row, jump = found
+    at = pd.Timestamp(start) + pd.Timedelta(seconds=float(seconds[row - 1]))
+    way = "forward" if jump > 0 else "back"
+    raise InputError(
+        f"the time stamps step {way} by one hour after {at.isoformat()}, a daylight-saving "
+        "change: they are local time without a zone, and would become "
+        + ("3600 s of invented gaps" if jump > 0 else "time going backward"),
+        path=path,
+        line=int(lines[row]),
+        column=column,
+        hint="pass --timezone with the zone of the logging clock, e.g. --timezone "
+        "Europe/Berlin (or --timezone UTC if the stamps are UTC and the hour a real pause)",
+    )
+
+
+def _no_tau0(
+    plan: ColumnPlan, hints: ReadHints, path: str, stated: list[tuple[str, str, float]]
+) -> InputError:
+    """The error for a log read without a time axis and without a given tau0."""
+    if plan.time_reason.startswith("none"):
+        what = "--time-column none reads the rows in sequence, so the sample interval is needed"
+    else:
+        what = "the log has no time column, so the sample interval is unknown"
+        if plan.row_numbers:
+            c = plan.row_numbers[0]
+            what += f" (column {plan.display[c]!r} counts rows, not seconds)"
+    if stated:
+        source, says, seconds = stated[0]
+        step = format_duration(seconds).replace(" ", "")
+        hint = f"pass --tau0 {step} if the {source} ({says}) is right"
+    else:
+        hint = "pass --tau0 with the interval between rows, e.g. --tau0 1s"
+    if plan.row_numbers and not plan.time_reason.startswith("none"):
+        hint += f", or --time-column {plan.row_numbers[0] + 1} if that column counts seconds"
+    return InputError(what, path=path, hint=hint)
+
+
 def _report_spacing(grid: Grid, tau0: float | None, rep: LogReport) -> None:
     rep.median_spacing = grid.median_spacing
+    stamps = f"{grid.position.size} stamps"
     if tau0 is None:
-        rep.tau0_source = "median spacing of the time stamps"
+        rep.tau0_source = f"from column {rep.time_column!r} (median spacing of {stamps})"
         return
     rep.tau0_source = (
-        f"given (median spacing of the time stamps is {format_duration(grid.median_spacing)})"
+        f"as given (median spacing of {stamps} in column {rep.time_column!r} is "
+        f"{format_duration(grid.median_spacing)})"
     )
     if abs(grid.median_spacing - tau0) > 1e-6 * tau0:
         rep.note(
@@ -160,6 +219,7 @@ def _report_dropped(grid: Grid, lines: np.ndarray, rep: LogReport) -> None:
     rep.duplicates = [{"line": int(lines[i])} for i in dup[:LIST_LIMIT]]
     if dup.size:
         rep.note(f"{dup.size} duplicated or crowded time stamp(s) dropped (first kept).")
+    tol = f"{rep.stamp_tolerance:.3g} of tau0"
     oi, oo = grid.off_grid
     rep.off_grid_count = int(oi.size)
     rep.off_grid = [
@@ -167,7 +227,28 @@ def _report_dropped(grid: Grid, lines: np.ndarray, rep: LogReport) -> None:
         for i, o in zip(oi[:LIST_LIMIT], oo[:LIST_LIMIT], strict=True)
     ]
     if oi.size:
-        rep.note(f"{oi.size} sample(s) lie off the grid by more than 10% of tau0.")
+        rep.note(
+            f"{oi.size} sample(s) lie off the grid by more than the stamp tolerance ({tol}); "
+            "each is placed in its nearest slot."
+        )
+    ji, jo = grid.jitter
+    rep.jitter_count = int(ji.size)
+    rep.jitter_max_s = float(np.max(np.abs(jo))) if ji.size else 0.0
+    rep.jitter = [
+        {"line": int(lines[i]), "offset_s": float(o)}
+        for i, o in zip(ji[:LIST_LIMIT], jo[:LIST_LIMIT], strict=True)
+    ]
+    if ji.size:
+        rep.note(
+            f"stamp jitter: max {format_seconds(rep.jitter_max_s)}, {ji.size} rows "
+            f"(within the stamp tolerance, {tol}; snapped to their slots)."
+        )
+    if grid.ambiguous:
+        rep.note(
+            f"{grid.ambiguous} stamp(s) lie more than the stamp tolerance ({tol}) from their "
+            "slot, next to an empty slot, and were read as a duplicate and a gap; if the PC "
+            "stamped them late, pass --stamp-tolerance 0.7 or --time-column none with --tau0."
+        )
 
 
 def _report_gaps(grid: Grid, kept_lines: np.ndarray, rep: LogReport) -> None:
@@ -236,6 +317,7 @@ def canonical_series(
     path: str,
     column: str,
     rep: LogReport,
+    more_hint: str = "",
 ) -> tuple[np.ndarray, float | None]:
     """Fractional frequency or time error in seconds, and the nominal frequency used.
 
@@ -244,7 +326,7 @@ def canonical_series(
     """
     nominal = hints.nominal
     if vk.kind == "frequency":
-        nominal = _frequency_nominal(rows.values * vk.scale, nominal, path, column, rep)
+        nominal = _frequency_nominal(rows.values * vk.scale, nominal, path, column, rep, more_hint)
         if rows.delta is not None and rows.ref_text is not None:
             off = vals.decimal_offset(rows.ref_text, vk.scale, nominal)
             series = (off + readings * vk.scale) / nominal
@@ -271,7 +353,7 @@ def canonical_series(
 
 
 def _frequency_nominal(
-    hz: np.ndarray, given: float | None, path: str, column: str, rep: LogReport
+    hz: np.ndarray, given: float | None, path: str, column: str, rep: LogReport, more_hint: str
 ) -> float:
     """The nominal frequency of absolute frequency readings: checked if given, else inferred."""
     finite = hz[np.isfinite(hz)]
@@ -286,7 +368,7 @@ def _frequency_nominal(
             " match no standard nominal frequency",
             path=path,
             column=column,
-            hint="pass --nominal, e.g. --nominal 10MHz",
+            hint="pass --nominal, e.g. --nominal 10MHz" + more_hint,
         )
     rep.nominal_source = "inferred: nearest standard value to the readings"
     rep.note(

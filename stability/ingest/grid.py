@@ -3,8 +3,12 @@
 The sample interval tau0 is the median spacing of the time stamps (robust to a
 few gaps and glitches). Each step between consecutive stamps is rounded to a
 whole number k of tau0: k > 1 means k - 1 missing samples (inserted as NaN gaps),
-k = 0 a duplicated or crowded stamp (the first one is kept), and a step off a
-whole multiple by more than 10% of tau0 is reported. A time-interval counter
+k = 0 two rows in one slot (a duplicate: the first one is kept). A stamp within
+the stamp tolerance (a third of tau0 unless given) of its slot is jitter of the
+stamping clock: snapped to the slot and counted; one beyond it is reported as
+off the grid. A PC that stamps a reading late by more than half tau0 leaves an
+empty slot before it and crowds the next row: within the tolerance the pair is
+put back in consecutive slots. A time-interval counter
 measuring a 1 PPS signal reads modulo its period (1 s), and carrier phase reads
 modulo one cycle: a jump of one period (within 10%) is unwrapped.
 
@@ -23,7 +27,7 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["Grid", "build_grid", "unwrap"]
+__all__ = ["Grid", "build_grid", "unwrap", "DEFAULT_STAMP_TOLERANCE"]
 
 
 @dataclass
@@ -47,7 +51,12 @@ class Grid:
     duplicates
         Row indices dropped as duplicated or crowded stamps.
     off_grid
-        (row index, offset in seconds) pairs.
+        (row indices, offsets in seconds) of stamps beyond the tolerance.
+    jitter
+        (row indices, offsets in seconds) of stamps within the tolerance (snapped).
+    ambiguous
+        Rows displaced by more than half a step next to an empty slot, beyond the
+        tolerance: read as a duplicate and a gap.
     """
 
     keep: np.ndarray
@@ -58,6 +67,8 @@ class Grid:
     gaps: list[tuple[int, int]]
     duplicates: np.ndarray
     off_grid: tuple[np.ndarray, np.ndarray]
+    jitter: tuple[np.ndarray, np.ndarray] = (np.zeros(0, np.int64), np.zeros(0))
+    ambiguous: int = 0
 
 
 #: A grid may hold at most this many missing samples per sample read, and this
@@ -95,10 +106,54 @@ def _check_grid_size(
     )
 
 
+#: Default stamp tolerance: a stamp within this fraction of tau0 of its slot is jitter.
+DEFAULT_STAMP_TOLERANCE = 1.0 / 3.0
+#: Offsets below this fraction of tau0 are the rounding of written stamps, not jitter.
+_JITTER_FLOOR = 1e-3
+
+
+def _repair_displaced(k: np.ndarray, dt: np.ndarray, step: float, tol: float) -> int:
+    """Put back stamps displaced by more than half a step but within the tolerance (in place).
+
+    A stamp written late by more than half a step leaves an empty slot before
+    it and crowds the next row into its slot: the steps round to (2, 0). One
+    written early gives (0, 2). When the displacement is within the tolerance
+    and the two rows belong in consecutive slots, the steps become (1, 1).
+    Returns how many such pairs were left because the displacement exceeds the
+    tolerance.
+    """
+    if k.size < 2:
+        return 0
+    late = (k[:-1] >= 2) & (k[1:] == 0)
+    early = (k[:-1] == 0) & (k[1:] >= 2)
+    if not (late.any() or early.any()):
+        return 0
+    late_by = dt[:-1] - (k[:-1] - 1) * step  # how far past its slot the late stamp is
+    early_by = step - dt[:-1]  # how far before its slot the early stamp is
+    fix_late = np.flatnonzero(late & (late_by <= tol))
+    fix_early = np.flatnonzero(early & (early_by <= tol))
+    k[fix_late] -= 1
+    k[fix_late + 1] = 1
+    k[fix_early] = 1
+    k[fix_early + 1] -= 1
+    return int(late.sum() + early.sum() - fix_late.size - fix_early.size)
+
+
 def build_grid(
-    seconds: np.ndarray, lines: np.ndarray, tau0: float | None, path: str, column: str
+    seconds: np.ndarray,
+    lines: np.ndarray,
+    tau0: float | None,
+    path: str,
+    column: str,
+    tolerance: float = DEFAULT_STAMP_TOLERANCE,
 ) -> Grid:
     """Place time stamps (seconds since the first) on a uniform grid.
+
+    Each row goes to the slot its step from the previous kept row rounds to, so
+    slow drift of the stamping clock never accumulates. A stamp within
+    ``tolerance * tau0`` of its slot is jitter (snapped, counted); beyond it the
+    row is reported as off the grid. Two rows in one slot are duplicates (the
+    first is kept).
 
     Raises
     ------
@@ -116,7 +171,7 @@ def build_grid(
             column=column,
             hint="sort the log by time or remove the out-of-order rows",
         )
-    positive = dt[dt > 0]
+    positive = dt if dt.size and dt.min() > 0 else dt[dt > 0]
     if positive.size == 0:
         raise InputError(
             "all time stamps are equal: the sample interval cannot be found",
@@ -126,10 +181,12 @@ def build_grid(
         )
     median = float(np.median(positive))
     step = tau0 if tau0 is not None else median
-    if bool((np.abs(dt - step) <= 0.1 * step).all()):
-        # The common case, a log on a clean grid: nothing to insert, drop or report.
-        n = seconds.size
-        empty = np.zeros(0, dtype=np.int64)
+    tol = tolerance * step
+    n = seconds.size
+    offset = dt - step
+    if bool((np.abs(offset) < 0.5 * step).all()):
+        # The common case, every step rounds to one slot: nothing to insert or drop.
+        jitter, off = _displaced(offset, step, tol)
         return Grid(
             keep=np.ones(n, dtype=bool),
             position=np.arange(n, dtype=np.int64),
@@ -137,28 +194,30 @@ def build_grid(
             tau0=float(step),
             median_spacing=median,
             gaps=[],
-            duplicates=empty,
-            off_grid=(empty, np.zeros(0)),
+            duplicates=np.zeros(0, dtype=np.int64),
+            off_grid=(off + 1, offset[off]),
+            jitter=(jitter + 1, offset[jitter]),
         )
-    # crowded or duplicated stamps: closer than half a step to the last kept stamp.
-    # Greedy keep-first without a loop: a stamp is dropped when its distance to the
-    # previous stamp is below half a step (runs of duplicates collapse to the first).
-    close = np.concatenate(([False], dt < 0.5 * step))
+    k = np.rint(dt / step).astype(np.int64)
+    ambiguous = _repair_displaced(k, dt, step, tol)
+    # two rows in one slot: a row whose step rounds to zero is a duplicate (runs
+    # of duplicates collapse to the first)
+    close = np.concatenate(([False], k == 0))
     keep = ~close
-    kept_t = seconds[keep]
-    kdt = np.diff(kept_t)
-    k = np.rint(kdt / step).astype(np.int64)
-    k = np.maximum(k, 1)
+    kept_idx = np.flatnonzero(keep)
+    if close.any():
+        kept_t = seconds[keep]
+        kdt = np.diff(kept_t)
+        k = np.maximum(np.rint(kdt / step).astype(np.int64), 0)
+        _repair_displaced(k, kdt, step, tol)
+        k = np.maximum(k, 1)
+    else:
+        kdt = dt
     offset = kdt - k * step
-    flagged = np.abs(offset) > 0.1 * step
-    # a displaced stamp shows twice (off on the way in, back on the way out): report it once
-    back_step = np.zeros_like(flagged)
-    back_step[1:] = flagged[1:] & flagged[:-1] & (np.abs(offset[1:] + offset[:-1]) <= 0.1 * step)
-    off = np.flatnonzero(flagged & ~back_step)
-    position = np.empty(kept_t.size, dtype=np.int64)
+    jitter, off = _displaced(offset, step, tol)
+    position = np.empty(kept_idx.size, dtype=np.int64)
     position[0] = 0
     np.cumsum(k, out=position[1:])
-    kept_idx = np.flatnonzero(keep)
     _check_grid_size(k, step, lines, kept_idx, path, column)
     gap_at = np.flatnonzero(k > 1)
     gaps = [(int(kept_idx[g]), int(k[g] - 1)) for g in gap_at[:1000]]
@@ -173,7 +232,28 @@ def build_grid(
         gaps=gaps,
         duplicates=np.flatnonzero(close),
         off_grid=(kept_idx[off + 1], offset[off]),
+        jitter=(kept_idx[jitter + 1], offset[jitter]),
+        ambiguous=ambiguous,
     )
+
+
+def _displaced(offset: np.ndarray, step: float, tol: float) -> tuple[np.ndarray, np.ndarray]:
+    """Steps whose stamp is off its slot: (within the tolerance, beyond it).
+
+    A displaced stamp shows twice (off on the way in, back on the way out); it
+    is counted once, at the row that is off.
+    """
+    size = np.abs(offset)
+    flagged = size > _JITTER_FLOOR * step
+    if not flagged.any():
+        empty = np.zeros(0, dtype=np.int64)
+        return empty, empty
+    back_step = np.zeros_like(flagged)
+    back_step[1:] = (
+        flagged[1:] & flagged[:-1] & (np.abs(offset[1:] + offset[:-1]) <= _JITTER_FLOOR * step)
+    )
+    shown = flagged & ~back_step
+    return np.flatnonzero(shown & (size <= tol)), np.flatnonzero(shown & (size > tol))
 
 
 def unwrap(values: np.ndarray, period: float) -> tuple[np.ndarray, np.ndarray]:

@@ -29,6 +29,15 @@ class ReadHints:
         Period of wrap-around of time-interval readings in seconds, or None.
     strict
         Make the first unreadable row an error instead of a reported gap.
+    stamp_tolerance
+        Fraction of tau0 within which a stamp is snapped to its slot, or None
+        for the default (a third).
+    timezone
+        IANA zone of stamps written without a zone, or None.
+    sheet
+        Sheet of a workbook (1-based number or name), or None for the first.
+    engine
+        ``"auto"``, ``"pandas"`` or ``"pyarrow"`` (see :func:`stability.ingest.read_log`).
     """
 
     kind: str = "auto"
@@ -38,3 +47,7 @@ class ReadHints:
     nominal: float | None = None
     wrap: float | None = None
     strict: bool = False
+    stamp_tolerance: float | None = None
+    timezone: str | None = None
+    sheet: int | str | None = None
+    engine: str = "auto"

@@ -18,6 +18,8 @@ References
 
 from __future__ import annotations
 
+import dataclasses
+import math
 import os
 from collections.abc import Callable
 from typing import Any
@@ -25,6 +27,7 @@ from typing import Any
 from ..errors import InputError
 from ..measurement import Measurement
 from ..units import parse_duration, parse_frequency
+from .arrow_parsing import ENGINES, arrow_layout_problem, arrow_rows
 from .build import (
     InputHasher,
     canonical_series,
@@ -33,8 +36,11 @@ from .build import (
     place_on_grid,
     unwrap_readings,
 )
-from .columns import column_samples, decide_kind, plan_columns
+from .columns import ColumnPlan, column_samples, decide_kind, other_columns_hint, plan_columns
+from .evidence import check_tau0, column_evidence, preamble_evidence
 from .hints import ReadHints
+from .local_time import check_zone, localize
+from .memory import check_memory
 from .parsing import decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
 from .rows import DataRows, data_rows
@@ -56,14 +62,18 @@ def validate_read_args(
     nominal: Any = None,
     wrap: Any = None,
     strict: Any = False,
+    stamp_tolerance: Any = None,
+    timezone: Any = None,
+    sheet: Any = None,
+    engine: Any = "auto",
 ) -> ReadHints:
     """Check the options of :func:`read_log`; raise :class:`InputError` naming the bad one."""
     k = str(kind).strip().lower() if kind is not None else "auto"
     if k not in KINDS:
         raise InputError(f"kind must be one of {', '.join(KINDS)}, got {kind!r}")
-    for name, value in (("column", column), ("time_column", time_column)):
+    for name, value in (("column", column), ("time_column", time_column), ("sheet", sheet)):
         if value is not None and not isinstance(value, (int, str)) or isinstance(value, bool):
-            raise InputError(f"{name} must be a 1-based number or a header name, got {value!r}")
+            raise InputError(f"{name} must be a 1-based number or a name, got {value!r}")
         if isinstance(value, int) and value < 1:
             raise InputError(f"{name} numbers start at 1, got {value!r}")
     return ReadHints(
@@ -74,7 +84,34 @@ def validate_read_args(
         nominal=None if nominal is None else parse_frequency(nominal, "nominal"),
         wrap=None if wrap is None else parse_duration(wrap, "wrap"),
         strict=bool(strict),
+        stamp_tolerance=_stamp_tolerance(stamp_tolerance),
+        timezone=None if timezone is None else check_zone(timezone),
+        sheet=sheet,
+        engine=_engine(engine),
     )
+
+
+def _engine(value: Any) -> str:
+    e = "auto" if value is None else str(value).strip().lower()
+    if e not in ENGINES:
+        raise InputError(f"engine must be one of {', '.join(ENGINES)}, got {value!r}")
+    return e
+
+
+def _stamp_tolerance(value: Any) -> float | None:
+    """The stamp tolerance as a fraction of tau0 (0 <= f < 1), or None for the default."""
+    if value is None:
+        return None
+    try:
+        f = float(value) if not isinstance(value, bool) else math.nan
+    except (TypeError, ValueError):
+        f = math.nan
+    if not (0.0 <= f < 1.0):
+        raise InputError(
+            f"stamp_tolerance is a fraction of tau0 from 0 to below 1, got {value!r}",
+            hint="pass --stamp-tolerance 0.3 for stamps up to 0.3 tau0 from their slot",
+        )
+    return f
 
 
 def _check_callback(on_progress: Any) -> ProgressCallback | None:
@@ -99,26 +136,61 @@ def _read(
     ``"general"``, see :data:`stability.ingest.parsing.STAMP_PATHS`); both give
     the same result.
     """
-    src = open_source(path)
+    src = open_source(path, hints.sheet)
     rep = LogReport(path=str(path), size_bytes=src.size)
+    if len(src.sheets) > 1:
+        rep.note(
+            f"The workbook has {len(src.sheets)} sheets ({', '.join(src.sheets)}); reading "
+            f"{src.member!r} (choose another with --sheet)."
+        )
     hasher = InputHasher(str(path), src.raw)
     d = _sniff(src, rep)
+    check_memory(src, d)
     plan = plan_columns(src, d, hints, rep)
     sample = column_samples(src, d)[plan.value_col]
-    vk, suffix = decide_kind(sample, plan.names[plan.value_col], d, hints, src.path)
+    vname = plan.display[plan.value_col]
+    vk, suffix = decide_kind(
+        sample, plan.names[plan.value_col], d, hints, src.path, other_columns_hint(plan)
+    )
     rep.kind, rep.unit, rep.kind_reason = vk.kind, vk.unit, vk.reason
     exact = needs_decimal_text(sample, d, vk)
-    parsed = parse_rows(
-        src, d, plan, exact=exact, suffix=suffix, stamps=stamps, on_progress=on_progress
-    )
+    parsed = None
+    if hints.engine != "pandas":
+        problem = arrow_layout_problem(src, d, plan, exact or suffix)
+        if not problem:
+            parsed = arrow_rows(src, d, plan, on_progress)
+            problem = "" if parsed is not None else "a row does not parse cleanly"
+        if parsed is None and hints.engine == "pyarrow":
+            raise InputError(
+                f"the pyarrow engine cannot read this log: {problem}",
+                path=src.path,
+                hint="pass --engine auto (or pandas), which reads every log",
+            )
+    if parsed is None:
+        parsed = parse_rows(
+            src, d, plan, exact=exact, suffix=suffix, stamps=stamps, on_progress=on_progress
+        )
     rows, total_rows = data_rows(src, d, plan, vk.scale, parsed, hints.strict, rep)
     del parsed
+    if hints.timezone is not None:
+        plan = _local_time(rows, plan, hints.timezone, src.path, rep)
     if exact:
         rows = _exact_differences(rows, d, rep)
-    rows, placement = place_on_grid(rows, plan, hints, src.path, rep)
+    evidence = preamble_evidence(src, d) + column_evidence(column_samples(src, d), plan)
+    stated = [(e.source, e.says, e.tau0) for e in evidence]
+    rows, placement = place_on_grid(rows, plan, hints, src.path, rep, stated)
+    check_tau0(
+        placement.tau0,
+        rep.tau0_source,
+        evidence,
+        given=hints.tau0 is not None,
+        path=src.path,
+        rep=rep,
+    )
     readings = unwrap_readings(rows, vk, hints, rep)
-    vname = plan.display[plan.value_col]
-    series, nominal = canonical_series(rows, readings, vk, hints, src.path, vname, rep)
+    series, nominal = canonical_series(
+        rows, readings, vk, hints, src.path, vname, rep, other_columns_hint(plan)
+    )
     finish_report(rep, plan, vk, placement.size, hasher.result())
     m = make_measurement(series, rows.lines, placement, vk, nominal, total_rows, rep)
     return m, rep
@@ -133,6 +205,25 @@ def _sniff(src: RawSource, rep: LogReport) -> Dialect:
     rep.preamble = [{"line": n, "text": t[:200]} for n, t in d.preamble]
     rep.header_line, rep.header = d.header_line, list(d.header)
     return d
+
+
+def _local_time(
+    rows: DataRows, plan: ColumnPlan, zone: str, path: str, rep: LogReport
+) -> ColumnPlan:
+    """Zone-less date-time stamps read as local time in ``zone`` and converted to UTC."""
+    fmt = plan.time_fmt
+    rep.timezone = zone
+    if fmt is None:
+        rep.note(f"--timezone {zone} not used: the rows are read without time stamps.")
+        return plan
+    if fmt.style != "datetime" or fmt.aware:
+        rep.note(f"--timezone {zone} not used: the time stamps carry their own zone or are UTC.")
+        return plan
+    column = " + ".join(plan.display[c] for c in plan.time_cols)
+    rows.ticks = localize(rows.ticks, rows.lines, zone, path, column)
+    rep.note(f"Time stamps read as local time in {zone} and converted to UTC.")
+    local = dataclasses.replace(fmt, aware=True, description=f"{fmt.description}, {zone} time")
+    return dataclasses.replace(plan, time_fmt=local)
 
 
 def _exact_differences(rows: DataRows, d: Dialect, rep: LogReport) -> DataRows:
@@ -157,6 +248,10 @@ def read_log(
     nominal: float | str | None = None,
     wrap: float | str | None = None,
     strict: bool = False,
+    stamp_tolerance: float | str | None = None,
+    timezone: str | None = None,
+    sheet: int | str | None = None,
+    engine: str = "auto",
     on_progress: ProgressCallback | None = None,
 ) -> Measurement:
     """Read a frequency-counter or time-interval log into a :class:`Measurement`.
@@ -164,15 +259,19 @@ def read_log(
     Parameters
     ----------
     path
-        The log: CSV-like text, optionally gzip, bz2, xz or single-file zip.
+        The log: CSV-like text, optionally gzip, bz2, xz or single-file zip, or
+        an .xlsx workbook (recognised by content; needs openpyxl).
     kind
         ``auto``, ``phase`` (time error, seconds), ``frequency`` (absolute, Hz)
         or ``fractional`` (fractional frequency).
     column, time_column
-        Value and time columns: 1-based number or header name.
+        Value and time columns: 1-based number or header name; each may be
+        given alone. ``time_column="none"`` reads the rows in sequence, the
+        stamps only labels (``tau0`` is then required).
     tau0
         Sample interval (seconds or ``"100ms"``); needed without time stamps,
-        overrides the median spacing otherwise.
+        overrides the median spacing otherwise (rows are still placed by
+        their stamps).
     nominal
         Nominal frequency (Hz or ``"10MHz"``) for absolute-frequency and carrier-phase logs.
     wrap
@@ -180,6 +279,24 @@ def read_log(
     strict
         Make the first bad line (an unreadable value, or a line that is not a
         data row) an error instead of a reported gap.
+    stamp_tolerance
+        How far a time stamp may sit from its slot on the uniform grid and still
+        be snapped to it, as a fraction of tau0 (default 1/3; ``0.7`` also puts
+        back stamps written late by more than half tau0). Stamps beyond it are
+        reported as off the grid.
+    timezone
+        IANA zone name (``"Europe/Berlin"``): date-time stamps without a zone
+        are local time there, converted to UTC (the hour written twice when
+        daylight-saving time ends is resolved by row order). Without it, a
+        one-hour step of such stamps at a daylight-saving change is an error.
+    sheet
+        Sheet of an .xlsx workbook: 1-based number or name (default the first).
+    engine
+        ``"auto"`` (default): pyarrow's multi-threaded CSV reader when it is
+        installed and the log is a clean file of a common layout (one
+        delimiter, ISO 8601 or numeric stamps, plain numbers), else pandas;
+        ``"pandas"``: always pandas' chunked C parser; ``"pyarrow"``: pyarrow
+        or an error saying why not. Every engine gives the same result.
     on_progress
         Called as parsing advances with (bytes parsed, bytes in all) of the
         log's text; the bytes parsed are estimated from the lines parsed and
@@ -197,7 +314,19 @@ def read_log(
     InputError
         The file cannot be read as a log, or a hint is invalid.
     """
-    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict)
+    hints = validate_read_args(
+        kind,
+        column,
+        time_column,
+        tau0,
+        nominal,
+        wrap,
+        strict,
+        stamp_tolerance,
+        timezone,
+        sheet,
+        engine,
+    )
     return _read(path, hints, on_progress=_check_callback(on_progress))[0]
 
 
@@ -211,11 +340,27 @@ def inspect_log(
     nominal: float | str | None = None,
     wrap: float | str | None = None,
     strict: bool = False,
+    stamp_tolerance: float | str | None = None,
+    timezone: str | None = None,
+    sheet: int | str | None = None,
+    engine: str = "auto",
     on_progress: ProgressCallback | None = None,
 ) -> LogReport:
     """Say what is in a log and how :func:`read_log` reads it.
 
     Takes the same options as :func:`read_log` and returns the :class:`LogReport`.
     """
-    hints = validate_read_args(kind, column, time_column, tau0, nominal, wrap, strict)
+    hints = validate_read_args(
+        kind,
+        column,
+        time_column,
+        tau0,
+        nominal,
+        wrap,
+        strict,
+        stamp_tolerance,
+        timezone,
+        sheet,
+        engine,
+    )
     return _read(path, hints, on_progress=_check_callback(on_progress))[1]

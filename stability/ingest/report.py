@@ -20,7 +20,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from ..units import format_duration, format_frequency
+from ..units import format_duration, format_frequency, format_seconds
 
 __all__ = ["ColumnInfo", "LogReport", "LIST_LIMIT"]
 
@@ -79,6 +79,7 @@ class LogReport:
     time_format: str | None = None
     tau0: float | None = None
     tau0_source: str = ""
+    tau0_evidence: list[dict[str, Any]] = field(default_factory=list)
     median_spacing: float | None = None
     kind: str = ""
     unit: str = ""
@@ -100,6 +101,11 @@ class LogReport:
     duplicate_count: int = 0
     off_grid: list[dict[str, Any]] = field(default_factory=list)
     off_grid_count: int = 0
+    stamp_tolerance: float | None = None
+    jitter: list[dict[str, Any]] = field(default_factory=list)
+    jitter_count: int = 0
+    jitter_max_s: float = 0.0
+    timezone: str | None = None
     wraps: list[dict[str, Any]] = field(default_factory=list)
     wrap_count: int = 0
     wrap_period: float | None = None
@@ -152,7 +158,8 @@ class LogReport:
 
         out = [f"Log: {self.path}"]
         out.append(f"  size {self.size_bytes} bytes, SHA-256 {self.sha256}")
-        container = self.container + (f" (member {self.member})" if self.member else "")
+        where = "sheet" if self.container == "xlsx" else "member"
+        container = self.container + (f" ({where} {self.member!r})" if self.member else "")
         out.append(
             f"  container {container}, encoding {self.encoding}, line endings {self.line_endings}"
         )
@@ -186,7 +193,11 @@ class LogReport:
         if self.time_format:
             out.append(f"  column {self.time_column}: {self.time_format}")
         if self.tau0:
-            out.append(f"  tau0 {format_duration(self.tau0)} ({self.tau0_source})")
+            line = f"  tau0 {format_duration(self.tau0)} {self.tau0_source}"
+            for e in self.tau0_evidence:
+                verdict = "agrees" if e["agrees"] else "DISAGREES"
+                line += f"; {e['source']} says {e['says']}: {verdict}"
+            out.append(line)
         if self.first_time is not None:
             out.append(f"  first {self.first_time}, last {self.last_time}")
         out.append(
@@ -215,9 +226,16 @@ class LogReport:
                 f"  duplicated time stamps dropped: {self.duplicate_count}: "
                 + lines_of(self.duplicates, self.duplicate_count, "line {line}")
             )
-        if self.off_grid_count:
+        if self.jitter_count:
             out.append(
-                f"  samples off the grid by more than 10% of tau0: {self.off_grid_count}: "
+                f"  stamp jitter: max {format_seconds(self.jitter_max_s)}, "
+                f"{self.jitter_count} rows (snapped to the grid): "
+                + lines_of(self.jitter, self.jitter_count, "line {line} ({offset_s:.3g} s)")
+            )
+        if self.off_grid_count:
+            tol = f"{self.stamp_tolerance:.3g}" if self.stamp_tolerance else "?"
+            out.append(
+                f"  samples off the grid by more than {tol} of tau0: {self.off_grid_count}: "
                 + lines_of(self.off_grid, self.off_grid_count, "line {line} ({offset_s:.3g} s)")
             )
         if self.wrap_count:

@@ -32,6 +32,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from .spreadsheet import refuse_workbook, sheet_text, workbook_kind
 
 __all__ = [
     "SAMPLE_LINES",
@@ -46,6 +47,8 @@ __all__ = [
 #: Lines looked at to decide the dialect (common practice: a screenful or a few).
 SAMPLE_LINES = 200
 _SAMPLE_BYTES = 256 * 1024
+#: Lines of the data block scored for each candidate dialect.
+_SCORE_LINES = 300
 
 _MAGIC = (
     (b"\x1f\x8b", "gzip"),
@@ -79,9 +82,9 @@ class RawSource:
     path
         The file as given.
     container
-        ``"plain"``, ``"gzip"``, ``"bz2"``, ``"xz"`` or ``"zip"``.
+        ``"plain"``, ``"gzip"``, ``"bz2"``, ``"xz"``, ``"zip"`` or ``"xlsx"``.
     member
-        Name of the member of a zip archive, else None.
+        Name of the member of a zip archive or the sheet of a workbook, else None.
     encoding
         Text encoding detected (``utf-8``, ``utf-8-sig``, ``utf-16-le``, ``utf-16-be``,
         ``latin-1``).
@@ -96,6 +99,8 @@ class RawSource:
         re-encoded or normalised; None when pandas can read the file itself.
     pandas_encoding
         Encoding to give pandas when ``buffer`` is None.
+    sheets
+        Names of the sheets of a workbook (empty for a text log).
     """
 
     path: str
@@ -108,6 +113,7 @@ class RawSource:
     buffer: bytes | None = None
     pandas_encoding: str = "utf-8"
     raw: bytes | None = field(default=None, repr=False)
+    sheets: list[str] = field(default_factory=list)
 
     def handle(self) -> io.IOBase | str:
         """What to hand to :func:`pandas.read_csv`."""
@@ -218,13 +224,18 @@ def _line_endings(text: str) -> str:
     return max((crlf, "CRLF"), (lf, "LF"), (cr, "CR"))[1]
 
 
-def open_source(path: str | os.PathLike[str]) -> RawSource:
+def open_source(path: str | os.PathLike[str], sheet: int | str | None = None) -> RawSource:
     """Open a log, find its container, encoding and line endings, and sample its first lines.
+
+    A spreadsheet workbook (recognised by content, whatever its name) becomes
+    the text of one sheet (``sheet``: 1-based number or name, default the
+    first; see :mod:`stability.ingest.spreadsheet`).
 
     Raises
     ------
     InputError
-        The file is missing, a folder, unreadable, empty, binary or a damaged archive.
+        The file is missing, a folder, unreadable, empty, binary, a damaged
+        archive or a workbook that cannot be read.
     """
     p = _check_path(path)
     size = p.stat().st_size
@@ -235,6 +246,15 @@ def open_source(path: str | os.PathLike[str]) -> RawSource:
         raise InputError(f"cannot read the file: {exc.strerror}", path=str(p)) from None
     if not head:
         raise InputError("the file is empty", path=str(p), hint="give a log with data rows")
+    book = workbook_kind(str(p), head)
+    if book is not None:
+        return _workbook_source(p, path, book, sheet, size)
+    if sheet is not None:
+        raise InputError(
+            "--sheet applies to a spreadsheet workbook, and this file is not one",
+            path=str(p),
+            hint="drop --sheet",
+        )
     container = _container(head)
     member = None
     data: bytes | None = None
@@ -288,6 +308,28 @@ def open_source(path: str | os.PathLike[str]) -> RawSource:
         src.pandas_encoding = "utf-8"
     else:
         src.pandas_encoding = {"latin-1": "latin-1", "utf-8": "utf-8"}.get(encoding, "utf-8-sig")
+    return src
+
+
+def _workbook_source(
+    p: Path, path: str | os.PathLike[str], book: str, sheet: int | str | None, size: int
+) -> RawSource:
+    """One sheet of an .xlsx workbook as a log's text; other workbooks refused."""
+    if book != "xlsx":
+        refuse_workbook(book, str(p))
+    text, name, names = sheet_text(str(p), sheet)
+    lines = text.split("\n")[: SAMPLE_LINES * 5]
+    src = RawSource(
+        path=str(path),
+        container="xlsx",
+        member=name,
+        encoding="utf-8",
+        line_endings="LF",
+        sample=lines,
+        size=size,
+    )
+    src.buffer = text.encode("utf-8")
+    src.sheets = names
     return src
 
 
@@ -412,6 +454,7 @@ def sniff_dialect(src: RawSource) -> Dialect:
     # the data block is the bulk of the sample: judge the dialect on its later half
     body = [ln for _, ln in candidates] or [ln for _, ln in semicolon_rows]
     tail = body[len(body) // 3 :] if len(body) > 6 else body
+    tail = tail[:_SCORE_LINES]
     best = (0.0, 1, "\t", ".")
     for delim in DELIMITERS:
         for decimal in (".", ","):

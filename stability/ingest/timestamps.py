@@ -23,7 +23,16 @@ from datetime import UTC, datetime
 import numpy as np
 import pandas as pd
 
-__all__ = ["TimeFormat", "detect_time_format", "parse_times", "is_time_name", "MJD_UNIX_EPOCH"]
+__all__ = [
+    "TimeFormat",
+    "detect_time_format",
+    "parse_times",
+    "is_time_name",
+    "header_time_unit",
+    "says_seconds",
+    "is_counter",
+    "MJD_UNIX_EPOCH",
+]
 
 #: MJD of 1970-01-01 (common practice).
 MJD_UNIX_EPOCH = 40587.0
@@ -38,9 +47,22 @@ _TIME_OF_DAY = re.compile(r"^\d{2}:\d{2}:\d{2}(\.\d+)?(Z|[+-]\d{2}:?\d{2})?$")
 _NUMBER = re.compile(r"^[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?$")
 _TIME_NAME = re.compile(
     r"^(time|timestamp|times|date|datetime|date_?time|utc|tai|gps.?time|mjd|epoch|"
-    r"elapsed|t|sec|seconds|clock|when|unix.*|posix.*)(\b|_|\s|\[|\(|$)",
+    r"elapsed|t|sec|seconds|clock|when|unix.*|posix.*|zeit\w*|uhrzeit|datum\w*|"
+    r"messzeit|laufzeit)(\b|_|\s|\[|\(|/|$)",
     re.I,
 )
+#: Seconds per unit of an elapsed-time header (``elapsed_ms``, ``time [s]``, ``t (us)``).
+_HEADER_TIME_UNITS = {
+    "s": 1.0, "sec": 1.0, "secs": 1.0, "second": 1.0, "seconds": 1.0, "sek": 1.0,
+    "ms": 1e-3, "msec": 1e-3, "millisec": 1e-3, "millisecond": 1e-3, "milliseconds": 1e-3,
+    "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "usec": 1e-6, "microsecond": 1e-6,
+    "microseconds": 1e-6, "ns": 1e-9, "nsec": 1e-9, "nanosecond": 1e-9, "nanoseconds": 1e-9,
+    "min": 60.0, "minute": 60.0, "minutes": 60.0, "h": 3600.0, "hour": 3600.0,
+    "hours": 3600.0,
+}  # fmt: skip
+_UNIT_WORDS = {1.0: "seconds", 1e-3: "milliseconds", 1e-6: "microseconds",
+               1e-9: "nanoseconds", 60.0: "minutes", 3600.0: "hours"}  # fmt: skip
+_INTEGER = re.compile(r"^[-+]?\d+$")
 
 
 @dataclass
@@ -68,9 +90,58 @@ class TimeFormat:
     description: str = ""
 
 
+#: Words that make a time-like header name a measured quantity (``time_interval_s``,
+#: ``Zeitfehler``), not the time axis.
+_QUANTITY_WORDS = re.compile(
+    r"(interval|error|offset|diff|phase|tie|deviation|delay|fehler|abweichung)", re.I
+)
+
+
 def is_time_name(name: str) -> bool:
-    """True for a header name that announces a time column."""
-    return bool(_TIME_NAME.match(name.strip()))
+    """True for a header name that announces a time column (not ``time interval``)."""
+    text = name.strip()
+    return bool(_TIME_NAME.match(text)) and not _QUANTITY_WORDS.search(text)
+
+
+def header_time_unit(name: str) -> float | None:
+    """Seconds per unit named in a time header (``elapsed_ms`` -> 1e-3), or None.
+
+    A unit in brackets wins (``time [s]``); otherwise the last unit word of the
+    name (``elapsed_ms``, ``t_us``, ``Zeit s``). Only a time name can carry one:
+    ``TI (ns)`` is a value column, not a time axis.
+    """
+    if not is_time_name(name):
+        return None
+    bracket = re.search(r"[\[(]\s*([^\])]+?)\s*[\])]", name)
+    if bracket:
+        found = _HEADER_TIME_UNITS.get(bracket.group(1).strip().lower())
+        if found is not None:
+            return found
+    words = re.findall(r"[a-zµμ]+", name.lower())
+    for w in words[1:][::-1]:
+        if w in _HEADER_TIME_UNITS:
+            return _HEADER_TIME_UNITS[w]
+    if words and words[0] in ("sec", "secs", "seconds", "elapsed"):
+        return 1.0
+    return None
+
+
+def says_seconds(name: str) -> bool:
+    """True when a header names elapsed time (a unit, or a word such as ``time``, ``elapsed``)."""
+    return is_time_name(name) and not re.match(r"^(date|datum)", name.strip(), re.I)
+
+
+def is_counter(values: list[str]) -> bool:
+    """True for a column of integers that rise by exactly 1 per row (a row number).
+
+    A few skipped numbers (rows missing from the log) are allowed; a step of
+    zero or backward is not.
+    """
+    vals = [v.strip() for v in values if v.strip()]
+    if len(vals) < 3 or not all(_INTEGER.match(v) for v in vals):
+        return False
+    steps = np.diff(np.array([int(v) for v in vals], dtype=np.int64))
+    return bool(np.all(steps >= 1) and np.count_nonzero(steps == 1) >= 0.9 * steps.size)
 
 
 def detect_time_format(values: list[str], name: str = "") -> TimeFormat | None:
@@ -96,26 +167,28 @@ def detect_time_format(values: list[str], name: str = "") -> TimeFormat | None:
     if share(_NUMBER) < 0.8:
         return None
     nums = np.array([float(v) for v in vals if _NUMBER.match(v)])
-    lowered = name.lower()
-    if "mjd" in lowered:
+    if "mjd" in name.lower():
         return TimeFormat("mjd", scale=86400.0, aware=True, description="Modified Julian Date")
-    if re.search(r"\bms\b|millisec", lowered):
-        return TimeFormat("elapsed", scale=1e-3, description="elapsed milliseconds")
     increasing = nums.size < 2 or bool(np.all(np.diff(nums) >= 0))
     if not increasing and not is_time_name(name):
         return None
+    unit = header_time_unit(name)
     big = float(np.median(np.abs(nums)))
     has_frac = bool(np.any(nums != np.round(nums)))
-    if 40000 <= big <= 80000 and has_frac and float(np.max(np.diff(nums), initial=0)) < 1:
-        return TimeFormat("mjd", scale=86400.0, aware=True, description="Modified Julian Date")
     for low, high, scale, text in (
         (1e8, 1e10, 1.0, "Unix epoch seconds"),
         (1e11, 1e13, 1e-3, "Unix epoch milliseconds"),
         (1e14, 1e16, 1e-6, "Unix epoch microseconds"),
         (1e17, 1e19, 1e-9, "Unix epoch nanoseconds"),
     ):
-        if low <= big < high:
+        # a unit in the header must agree with the unit the magnitude implies
+        if low <= big < high and unit in (None, scale):
             return TimeFormat("epoch", scale=scale, aware=True, description=text)
+    if unit is not None:
+        words = _UNIT_WORDS.get(unit, f"units of {unit:g} s")
+        return TimeFormat("elapsed", scale=unit, description=f"elapsed {words} (unit in header)")
+    if 40000 <= big <= 80000 and has_frac and float(np.max(np.diff(nums), initial=0)) < 1:
+        return TimeFormat("mjd", scale=86400.0, aware=True, description="Modified Julian Date")
     return TimeFormat("elapsed", scale=1.0, description="elapsed seconds")
 
 
@@ -166,7 +239,8 @@ def to_seconds(
     """Seconds since the first good stamp (``ticks[first]``) and that stamp as a datetime."""
     t0 = ticks[first]
     if fmt.style == "datetime":
-        rel = (ticks - t0).astype(np.float64) * 1e-9
+        rel = (ticks - t0).astype(np.float64)
+        rel *= 1e-9  # in place: one array of the log's length fewer
         start = pd.Timestamp(int(t0), unit="ns").to_pydatetime(warn=False)
         if fmt.aware:
             start = start.replace(tzinfo=UTC)

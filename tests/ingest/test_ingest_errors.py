@@ -23,7 +23,7 @@ def _good(tmp_path):
     [
         ({"kind": "bogus"}, "kind must be one of auto, phase, frequency, fractional"),
         ({"column": 0}, "column numbers start at 1"),
-        ({"column": 1.5}, "column must be a 1-based number or a header name"),
+        ({"column": 1.5}, "column must be a 1-based number or a name"),
         ({"time_column": 0}, "time_column numbers start at 1"),
         ({"tau0": "-1s"}, "tau0 must be a positive duration"),
         ({"tau0": "fast"}, "cannot read tau0"),
@@ -77,7 +77,7 @@ def test_files_that_are_not_logs(tmp_path, content, match):
 
 def test_time_column_hint_errors_list_columns(tmp_path):
     p = _good(tmp_path)
-    with pytest.raises(InputError, match=r"choose one of 1='t', 2='y'"):
+    with pytest.raises(InputError, match=r"pass --time-column with one of 1='t', 2='y'"):
         read_log(p, time_column="when")
     with pytest.raises(InputError, match="not hold time stamps"):
         read_log(p, time_column="y", column="t")

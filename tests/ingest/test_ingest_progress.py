@@ -29,7 +29,7 @@ def test_progress_advances_to_the_size_of_the_text(tmp_path, monkeypatch, stamps
     calls: list[tuple[int, int]] = []
     m, _ = _read(
         p,
-        validate_read_args(),
+        validate_read_args(engine="pandas"),  # the pandas engine reports once per chunk
         on_progress=lambda done, total: calls.append((done, total)),
         stamps=stamps,
     )

@@ -152,9 +152,13 @@ def test_semicolon_delimiter_with_empty_first_field_is_data(tmp_path):
 def test_trailing_delimiters_and_no_header(tmp_path):
     p = tmp_path / "trail.csv"
     p.write_text("".join(f"{i},{y:.6e},\n" for i, y in enumerate(Y)))
-    m = read_log(p, kind="fractional")
+    # a first column 0, 1, 2 ... without a header counts rows: the interval must be given
+    with pytest.raises(InputError, match="--tau0"):
+        read_log(p, kind="fractional")
+    m = read_log(p, kind="fractional", tau0="1s")
     _check(m)
-    assert inspect_log(p, kind="fractional").header == []
+    rep = inspect_log(p, kind="fractional", tau0="1s")
+    assert rep.header == [] and rep.columns[0].role == "row number"
 
 
 def test_single_column_needs_tau0(tmp_path):

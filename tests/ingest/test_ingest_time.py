@@ -112,7 +112,11 @@ def test_duplicates_off_grid_and_tau0_override(tmp_path):
     p = _log(tmp_path, secs)
     rep = inspect_log(p)
     assert rep.duplicates == [{"line": 4}]
-    assert [e["line"] for e in rep.off_grid] == [6]
+    # 3.3 s is 0.3 tau0 from its slot: jitter within the default tolerance (a third)
+    assert [e["line"] for e in rep.jitter] == [6] and rep.off_grid == []
+    assert rep.jitter_max_s == pytest.approx(0.3)
+    rep = inspect_log(p, stamp_tolerance=0.2)
+    assert [e["line"] for e in rep.off_grid] == [6] and rep.jitter == []
     m = read_log(p, tau0="0.5s")
     assert m.tau0 == 0.5
     assert any("overrides" in n for n in m.notes)

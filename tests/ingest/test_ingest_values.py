@@ -46,7 +46,7 @@ def test_nominal_inferred_and_announced(tmp_path, nominal, header):
 
 def test_frequency_without_header_found_by_values(tmp_path):
     text = "".join(f"{i},{10e6 + o * 1e-5:.6f}\n" for i, o in enumerate(OFFS))
-    rep = inspect_log(_write(tmp_path, text))
+    rep = inspect_log(_write(tmp_path, text), tau0="1s")  # column 1 counts rows
     assert (rep.kind, rep.nominal) == ("frequency", 10e6)
 
 
@@ -87,7 +87,7 @@ def test_units_from_header(tmp_path, header, scale, kind):
 def test_unit_suffix_on_each_value(tmp_path):
     vals = [10.000000012, 10.000000011, 10.000000013, 10.000000012]
     text = "".join(f"{i}, {v:.9f} MHz\n" for i, v in enumerate(vals))
-    m = read_log(_write(tmp_path, text))
+    m = read_log(_write(tmp_path, text), tau0="1s")  # column 1 counts rows
     np.testing.assert_allclose(m.frequency(), [1.2e-9, 1.1e-9, 1.3e-9, 1.2e-9], atol=1e-18)
     rep = m.provenance.details
     assert rep["unit"] == "MHz" and "after each value" in rep["kind_reason"]
@@ -95,15 +95,15 @@ def test_unit_suffix_on_each_value(tmp_path):
 
 def test_time_suffix_values_are_phase(tmp_path):
     text = "".join(f"{i}\t{v} ns\n" for i, v in enumerate([1.2, 1.4, 1.1, 1.5]))
-    m = read_log(_write(tmp_path, text))
+    m = read_log(_write(tmp_path, text), tau0="1s")  # column 1 counts rows
     np.testing.assert_allclose(m.phase, [0, 0.2e-9, -0.1e-9, 0.3e-9], atol=1e-21)
 
 
 def test_bare_small_numbers_ask_for_kind(tmp_path):
     text = "".join(f"{i},{v:.3e}\n" for i, v in enumerate(OFFS * 1e-12))
     with pytest.raises(InputError, match="--kind"):
-        read_log(_write(tmp_path, text))
-    m = read_log(_write(tmp_path, text), kind="fractional")
+        read_log(_write(tmp_path, text), tau0="1s")
+    m = read_log(_write(tmp_path, text), kind="fractional", tau0="1s")  # column 1 counts rows
     np.testing.assert_allclose(m.frequency(), OFFS * 1e-12, rtol=1e-12, atol=1e-26)
 
 
