@@ -1,0 +1,66 @@
+"""The reading options of the reader reach every command: --time-column none,
+--stamp-tolerance, --timezone, --engine (the rules themselves: tests/ingest)."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import numpy as np
+
+
+def _run(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run(
+        [sys.executable, "-m", "stability", *args], capture_output=True, text=True, timeout=120
+    )
+
+
+def _pc_log(path, late_rows=(), zone_jump=False):
+    # Invented: a lab PC stamps 10 s readings of fractional frequency, some a little late.
+    y = np.random.default_rng(5).normal(0.0, 1e-11, 400)
+    lines = ["time,fractional"]
+    for i, v in enumerate(y):
+        seconds = 10 * i + (4 if i in late_rows else 0)
+        hh, rest = divmod(seconds, 3600)
+        mm, ss = divmod(rest, 60)
+        lines.append(f"2026-03-02 {hh:02d}:{mm:02d}:{ss:02d},{v:.6e}")
+    path.write_text("\n".join(lines) + "\n")
+    return path
+
+
+def _tau0(out) -> float:
+    summary = json.loads((out / "summary.json").read_text())
+    return float(summary["input"]["tau0_s"])
+
+
+def test_time_column_none_reads_rows_in_sequence(tmp_path):
+    log = _pc_log(tmp_path / "pc.csv", late_rows=range(50, 70))
+    done = _run("analyze", str(log), "--time-column", "none", "--tau0", "10s",
+                "--out", str(tmp_path / "a"), "--json")  # fmt: skip
+    assert done.returncode == 0, done.stderr
+    assert _tau0(tmp_path / "a") == 10.0
+    missing = _run("analyze", str(log), "--time-column", "none", "--out", str(tmp_path / "b"))
+    assert missing.returncode != 0 and "--tau0" in missing.stderr
+
+
+def test_stamp_tolerance_is_checked_and_passed(tmp_path):
+    log = _pc_log(tmp_path / "pc.csv", late_rows=range(50, 70))
+    done = _run("analyze", str(log), "--stamp-tolerance", "0.5", "--out", str(tmp_path / "a"),
+                "--json")  # fmt: skip
+    assert done.returncode == 0, done.stderr
+    assert _tau0(tmp_path / "a") == 10.0
+    assert "jitter" in done.stdout  # the report says what snapping did
+    bad = _run("analyze", str(log), "--stamp-tolerance", "2", "--out", str(tmp_path / "c"))
+    assert bad.returncode == 2 and bad.stderr.count("\n") == 1 and "stamp" in bad.stderr
+
+
+def test_timezone_and_engine_are_usage_checked(tmp_path):
+    log = _pc_log(tmp_path / "pc.csv")
+    zone = _run("analyze", str(log), "--timezone", "Mars/Olympus", "--out", str(tmp_path / "z"))
+    assert zone.returncode == 2 and zone.stderr.count("\n") == 1, zone.stderr
+    engine = _run("analyze", str(log), "--engine", "fortran", "--out", str(tmp_path / "e"))
+    assert engine.returncode == 2 and "engine" in engine.stderr, engine.stderr
+    ok = _run("analyze", str(log), "--timezone", "Europe/Berlin", "--engine", "pandas",
+              "--out", str(tmp_path / "ok"), "--json")  # fmt: skip
+    assert ok.returncode == 0, ok.stderr
