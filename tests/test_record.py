@@ -42,6 +42,7 @@ id = "OCXO-7781"
 description = "invented test oscillator"
 [reference]
 id = "REF-1"
+statistic = "oadev"
 stability = [[1, 5e-12], [1000, 5e-12]]
 [lab]
 name = "test lab"

@@ -51,6 +51,7 @@ notes = "overnight run"
 id = "OCXO-42"
 [reference]
 id = "H-maser"
+statistic = "oadev"
 stability = [[1, 5e-13], [100, 5e-14]]
 """
 

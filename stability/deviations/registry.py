@@ -100,6 +100,11 @@ class Statistic:
     note
         Optional ``note(n, tau0, ms) -> str | None``: a remark on how the
         statistic was computed for these averaging factors.
+    estimates
+        The quantity the statistic estimates (``AVAR``, ``MVAR``, ``TVAR``,
+        ``HVAR``, ``PVAR``, ``MTIE``, ``TIE``): figures of two statistics may be
+        compared (a reference's stated stability against a measurement) only
+        when they estimate the same quantity.
     """
 
     name: str
@@ -118,6 +123,7 @@ class Statistic:
     tau_factor: float = 1.0
     m_step: int = 1
     note: Callable[[int, float, np.ndarray], str | None] | None = None
+    estimates: str = "AVAR"
 
     @property
     def label(self) -> str:
@@ -347,6 +353,7 @@ register(
         "modified",
         edf=_MDEV_EDF,
         points_from_terms=lambda t, m: t + 3 * m - 1,
+        estimates="MVAR",
     )
 )
 register(
@@ -362,6 +369,7 @@ register(
         points_from_terms=lambda t, m: t + 3 * m - 1,
         derived=("mdev", _tdev_from_mdev),
         unit="s",
+        estimates="TVAR",
     )
 )
 register(
@@ -374,6 +382,7 @@ register(
         "hadamard",
         edf=_HDEV_EDF,
         points_from_terms=lambda t, m: (t + 2) * m + 1,
+        estimates="HVAR",
     )
 )
 register(
@@ -386,6 +395,7 @@ register(
         "hadamard",
         edf=_OHDEV_EDF,
         points_from_terms=lambda t, m: t + 3 * m,
+        estimates="HVAR",
     )
 )
 register(
@@ -412,6 +422,7 @@ register(
         edf=None,
         unit="s",
         multi=time_error.mtie_many,
+        estimates="MTIE",
     )
 )
 register(
@@ -424,6 +435,7 @@ register(
         "time_error",
         edf=None,
         unit="s",
+        estimates="TIE",
     )
 )
 register(
@@ -436,6 +448,7 @@ register(
         "total_modified",
         edf=mtot_edf,
         bias=mtot_bias,
+        estimates="MVAR",
     )
 )
 register(
@@ -450,6 +463,7 @@ register(
         bias=mtot_bias,
         noise_source="mtot",
         unit="s",
+        estimates="TVAR",
     )
 )
 register(
@@ -462,6 +476,7 @@ register(
         "hadamard_total",
         edf=_OHDEV_EDF,
         bias=htot_bias,
+        estimates="HVAR",
     )
 )
 register(
@@ -515,5 +530,6 @@ register(
         _half,
         "parabolic",
         edf=_MDEV_EDF,
+        estimates="PVAR",
     )
 )

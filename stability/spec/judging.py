@@ -64,6 +64,7 @@ from typing import Any
 
 import numpy as np
 
+from ..deviations.registry import get_statistic
 from ..errors import InputError, SpecError
 from ..table import StabilityTable
 from .model import _REL_TOL, REFERENCE_RATIO, Check, Judgement, Reference, Spec, Verdict
@@ -87,6 +88,25 @@ def verdict_for(low: float, high: float, limit: float, deviation: float = math.n
     if math.isfinite(deviation):
         return Verdict.INCONCLUSIVE
     return Verdict.NOT_MEASURED
+
+
+#: How a statistic without a chi-squared interval (MTIE, TIE rms) is judged.
+VALUE_RULE = (
+    "judged on the measured value (pass when at or below the limit): no confidence "
+    "interval applies to this statistic"
+)
+
+
+def value_verdict(deviation: float, limit: float) -> Verdict:
+    """The verdict of a statistic without an interval: pass when at or below the limit.
+
+    A maximum or rms time error (MTIE, TIE rms) is not chi-squared distributed, so
+    there is no interval to guard the decision with; telecom masks are judged on
+    the measured value (ITU-T G.810 and the clock Recommendations, common practice).
+    """
+    if not math.isfinite(deviation):
+        return Verdict.NOT_MEASURED
+    return Verdict.PASS if deviation <= limit else Verdict.FAIL
 
 
 def overall_verdict(verdicts: Iterable[Verdict | str]) -> Verdict:
@@ -157,6 +177,8 @@ class _Rows:
     high: np.ndarray
     edf: np.ndarray
 
+    on_value: bool = False
+
     @classmethod
     def of(cls, result: Any, confidence: float) -> _Rows:
         low, high = result.interval(confidence)
@@ -166,7 +188,14 @@ class _Rows:
             low=np.atleast_1d(np.asarray(low, dtype=float)),
             high=np.atleast_1d(np.asarray(high, dtype=float)),
             edf=result.edf,
+            on_value=not get_statistic(result.statistic).has_interval,
         )
+
+    def verdict(self, low: float, high: float, limit: float, deviation: float) -> Verdict:
+        """The verdict of one estimate: on its interval, or on the value where none applies."""
+        if self.on_value:
+            return value_verdict(deviation, limit)
+        return verdict_for(low, high, limit, deviation)
 
     @property
     def usable(self) -> np.ndarray:
@@ -186,9 +215,11 @@ class _Rows:
     def check(self, i: int, tau: float, limit: float, listed: bool) -> Check:
         """The check of row ``i`` against ``limit``."""
         d, lo, hi = float(self.deviation[i]), float(self.low[i]), float(self.high[i])
-        verdict = verdict_for(lo, hi, limit, d)
+        verdict = self.verdict(lo, hi, limit, d)
         note = ""
-        if verdict is Verdict.INCONCLUSIVE and not (math.isfinite(lo) and math.isfinite(hi)):
+        if self.on_value and verdict is not Verdict.NOT_MEASURED:
+            note = VALUE_RULE
+        elif verdict is Verdict.INCONCLUSIVE and not (math.isfinite(lo) and math.isfinite(hi)):
             note = "no confidence interval at this tau (no EDF)"
         if verdict is Verdict.NOT_MEASURED:
             note = "no estimate at this tau"
@@ -244,7 +275,9 @@ def _listed_check(rows: _Rows, tau: float, limit: float, interpolate: bool) -> C
             )
         else:
             check.note = "estimate interpolated; a neighbour has no confidence interval"
-        check.verdict = verdict_for(check.ci_low, check.ci_high, limit, check.deviation)
+        check.verdict = rows.verdict(check.ci_low, check.ci_high, limit, check.deviation)
+        if rows.on_value:
+            check.note += f"; {VALUE_RULE}"
     return check
 
 
@@ -259,6 +292,26 @@ def _between_checks(rows: _Rows, spec: Spec) -> list[Check]:
         and not any(math.isclose(taus[i], t, rel_tol=_REL_TOL) for t in listed)
     ]
     return [rows.check(i, float(taus[i]), float(spec.limit_at(taus[i])), False) for i in between]
+
+
+def _check_reference_quantity(spec: Spec, reference: Reference | None) -> None:
+    """Refuse to combine a reference's figures with a measurement of another quantity."""
+    if reference is None or not reference.has_stability:
+        return
+    measured = get_statistic(spec.statistic)
+    stated = reference.quantity()
+    if stated != measured.estimates:
+        said = (
+            "its levels (an Allan variance model)"
+            if reference.levels
+            else (f"{reference.statistic or 'oadev'} figures")
+        )
+        raise SpecError(
+            f"the reference states {said}, which cannot be combined with the "
+            f"specification's {measured.name} ({measured.unit or 'fractional frequency'})",
+            path=spec.path,
+            hint="state the reference's stability as the statistic the specification judges",
+        )
 
 
 def _add_reference(checks: list[Check], reference: Reference, f_h: float) -> list[str]:
@@ -297,6 +350,7 @@ def judge(table: StabilityTable, spec: Spec, *, reference: Reference | None = No
         measured tau between them, in increasing tau; the overall verdict.
     """
     _validate_judge_args(table, spec)
+    _check_reference_quantity(spec, reference)
     rows = _Rows.of(table[spec.statistic], spec.confidence)
     notes: list[str] = []
     checks = [_listed_check(rows, tau, limit, spec.interpolate) for tau, limit in spec.limits]

@@ -39,6 +39,7 @@ from typing import Any
 
 import numpy as np
 
+from ..deviations.registry import get_statistic
 from ..errors import InputError
 from ..files import jsonable
 from ..powerlaw import model_from_levels
@@ -186,10 +187,12 @@ class Spec:
 class Reference:
     """The reference oscillator and, optionally, its stated stability.
 
-    Either ``points`` (``(tau_s, deviation)`` pairs, interpolated log-log and
-    held flat outside their range) or ``levels`` (power-law coefficients
-    alpha -> h_alpha, turned into an Allan deviation by
-    :func:`stability.powerlaw.model_from_levels`) or neither.
+    Either ``points`` (``(tau_s, deviation)`` pairs of the statistic named by
+    ``statistic``, interpolated log-log and held flat outside their range) or
+    ``levels`` (power-law coefficients alpha -> h_alpha, turned into an Allan
+    deviation by :func:`stability.powerlaw.model_from_levels`) or neither. A
+    reference's figures are only ever compared with a measurement of the same
+    quantity (:meth:`quantity`).
     """
 
     id: str = ""
@@ -197,6 +200,15 @@ class Reference:
     points: list[tuple[float, float]] | None = None
     levels: dict[int, float] | None = None
     f_h: float | None = None
+    statistic: str | None = None
+
+    def quantity(self) -> str | None:
+        """The quantity the stated stability is (``AVAR`` for levels), or None without one."""
+        if self.levels:
+            return "AVAR"
+        if self.points:
+            return get_statistic(self.statistic or "oadev").estimates
+        return None
 
     @property
     def has_stability(self) -> bool:
@@ -238,6 +250,7 @@ class Reference:
             if self.levels is None
             else {_level_name(a): v for a, v in self.levels.items()},
             "f_h_hz": self.f_h,
+            "statistic": self.statistic,
         }
 
 

@@ -33,7 +33,7 @@ _SPEC_KEYS = ("statistic", "confidence", "interpolate", "limit", "description")
 _LIMIT_KEYS = ("tau_s", "max")
 _INFO_TABLES = {
     "device": ("id", "description", "nominal", "serial", "model"),
-    "reference": ("id", "description", "stability", "levels", "f_h"),
+    "reference": ("id", "description", "stability", "statistic", "levels", "f_h"),
     "instrument": ("description", "gate_time", "id"),
     "lab": ("name", "operator", "ambient_temperature", "location"),
 }
@@ -294,6 +294,45 @@ def _text(value: Any, key: str, where: str, text: str | None) -> str:
     )
 
 
+def _reference_statistic(
+    raw: dict[str, Any], ref: Reference, where: str, text: str | None
+) -> str | None:
+    """The statistic a reference's stated stability is; required with ``stability``.
+
+    Figures of a time statistic (TDEV, MTIE, in seconds) and of a fractional
+    frequency deviation cannot be combined, so the file must say which it gives.
+    """
+    line = _line_of(text, "statistic") or None
+    if "statistic" not in raw:
+        if ref.points:
+            raise SpecError(
+                "[reference] gives 'stability' without saying which statistic it is",
+                path=where,
+                line=_line_of(text, "stability") or None,
+                hint='add statistic = "oadev" (or the statistic the figures are) to [reference]',
+            )
+        return None
+    name = raw["statistic"]
+    if not isinstance(name, str):
+        raise SpecError(
+            f"key 'reference.statistic' must be a statistic name, got {name!r}",
+            path=where,
+            line=line,
+        )
+    try:
+        stat = get_statistic(name)
+    except InputError as exc:
+        raise SpecError(exc.message, path=where, line=line, hint=exc.hint) from None
+    if ref.levels and stat.estimates != "AVAR":
+        raise SpecError(
+            f"[reference] levels describe the Allan variance, not {stat.name}",
+            path=where,
+            line=line,
+            hint='drop the statistic key or set statistic = "oadev"',
+        )
+    return stat.name
+
+
 def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Reference:
     ref = Reference(
         id=_text(raw.get("id", ""), "reference.id", where, text),
@@ -361,6 +400,7 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
                 )
             out[_LEVEL_NAMES[key]] = number
         ref.levels = out
+    ref.statistic = _reference_statistic(raw, ref, where, text)
     if "f_h" in raw:
         f_h = _number(raw["f_h"])
         if f_h is None or f_h <= 0:
