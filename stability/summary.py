@@ -38,6 +38,8 @@ field                             meaning
 ``statistics.<id>.unit``          ``""`` fractional frequency, ``"s"`` time
 ``statistics.<id>.confidence``    two-sided confidence level of the intervals
 ``statistics.<id>.bias_corrected``  whether the deviations carry a bias correction
+``statistics.<id>.unconfirmed_model``  what of its EDF or bias model is recalled or a
+                                  stand-in, not confirmed against the printed source
 ``statistics.<id>.taus``          number of rows of the statistic
 ``statistics.<id>.notes``         what the estimator noted (dropped taus, ...)
 ``table``                         one object per row with the results-table columns
@@ -170,16 +172,13 @@ def table_rows(table: StabilityTable) -> list[dict[str, Any]]:
 def _statistics_section(table: StabilityTable) -> dict[str, Any]:
     section = {}
     for result in table:
-        try:
-            stat = get_statistic(result.statistic)
-            title, unit = stat.title, stat.unit
-        except InputError:
-            title, unit = result.statistic.upper(), ""
+        stat = get_statistic(result.statistic)
         section[result.statistic] = {
-            "title": title,
-            "unit": unit,
+            "title": stat.title,
+            "unit": stat.unit,
             "confidence": float(result.confidence),
             "bias_corrected": bool(result.bias_corrected),
+            "unconfirmed_model": stat.unconfirmed or None,
             "taus": len(result),
             "notes": list(result.notes),
         }

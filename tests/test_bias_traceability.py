@@ -85,3 +85,11 @@ def test_the_stability_figure_says_which_statistics_are_bias_corrected():
     ]
     assert any("MTOT" in s and "bias-corrected" in s for s in labels), labels
     assert not any("OADEV" in s and "bias-corrected" in s for s in labels), labels
+
+
+def test_the_summary_names_every_model_that_is_not_confirmed():
+    run = stability.run_analysis(_white_fm(), stats="oadev,totdev,theo1")
+    stats = run.summary()["statistics"]
+    assert stats["oadev"]["unconfirmed_model"] is None  # Greenhall & Riley, checked
+    assert "recalled" in stats["totdev"]["unconfirmed_model"]
+    assert "recalled" in stats["theo1"]["unconfirmed_model"]

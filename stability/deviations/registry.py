@@ -105,6 +105,11 @@ class Statistic:
         ``HVAR``, ``PVAR``, ``MTIE``, ``TIE``): figures of two statistics may be
         compared (a reference's stated stability against a measurement) only
         when they estimate the same quantity.
+    unconfirmed
+        What of this statistic's EDF or bias model is recalled from the
+        literature rather than confirmed against the printed source, or a
+        stand-in; empty when everything is confirmed or exact. Every summary
+        lists these for the statistics it holds.
     """
 
     name: str
@@ -124,6 +129,7 @@ class Statistic:
     m_step: int = 1
     note: Callable[[int, float, np.ndarray], str | None] | None = None
     estimates: str = "AVAR"
+    unconfirmed: str = ""
 
     @property
     def label(self) -> str:
@@ -317,6 +323,30 @@ def _all_but_one(n: int) -> int:
     return n - 1
 
 
+# What of a statistic's model is recalled or a stand-in (see Statistic.unconfirmed).
+_TOTDEV_RECALLED = (
+    "EDF b T/tau - c (WFM, FFM, RWFM) and the FFM/RWFM bias a tau/T recalled from "
+    "NIST SP 1065, not checked against the printed tables (T = (N - 1) tau0 assumed);"
+    " WPM/FPM models fitted to exact moments"
+)
+_MTOT_RECALLED = (
+    "EDF b T/tau - c for m >= 2 recalled from NIST SP 1065, not checked against the printed table"
+)
+_HTOT_STAND_IN = "EDF: the overlapping Hadamard EDF stands in (no HTOT model confirmed)"
+_THEO1_RECALLED = (
+    "EDF formulas and bias coefficients recalled from Howe's papers and NIST SP 1065;"
+    " the FPM EDF is a stand-in"
+)
+_THEOBR_RECALLED = (
+    "EDF formulas recalled from Howe's papers and NIST SP 1065; the FPM EDF is a stand-in"
+)
+_THEOH_RECALLED = (
+    "EDF formulas recalled from Howe's papers and NIST SP 1065 beyond the Allan part;"
+    " the FPM EDF is a stand-in"
+)
+_PDEV_STAND_IN = "EDF: the modified Allan EDF stands in (recalled from Vernotte et al. 2016)"
+
+
 # The record length N that gives ``terms`` terms at averaging factor m (the
 # inverse of each estimator's term count).
 register(
@@ -409,6 +439,7 @@ register(
         edf=totvar_edf,
         bias=totvar_bias,
         points_from_terms=lambda t, m: t + 2,
+        unconfirmed=_TOTDEV_RECALLED,
     )
 )
 register(
@@ -449,6 +480,7 @@ register(
         edf=mtot_edf,
         bias=mtot_bias,
         estimates="MVAR",
+        unconfirmed=_MTOT_RECALLED,
     )
 )
 register(
@@ -464,6 +496,7 @@ register(
         noise_source="mtot",
         unit="s",
         estimates="TVAR",
+        unconfirmed=_MTOT_RECALLED,
     )
 )
 register(
@@ -477,6 +510,7 @@ register(
         edf=_OHDEV_EDF,
         bias=htot_bias,
         estimates="HVAR",
+        unconfirmed=_HTOT_STAND_IN,
     )
 )
 register(
@@ -491,6 +525,7 @@ register(
         bias=theo1_bias,
         tau_factor=0.75,
         m_step=2,
+        unconfirmed=_THEO1_RECALLED,
     )
 )
 register(
@@ -504,6 +539,7 @@ register(
         edf=theo1_edf,
         tau_factor=0.75,
         m_step=2,
+        unconfirmed=_THEOBR_RECALLED,
     )
 )
 register(
@@ -519,6 +555,7 @@ register(
         tau_factor=0.75,
         m_step=2,
         note=_theoh_note,
+        unconfirmed=_THEOH_RECALLED,
     )
 )
 register(
@@ -531,5 +568,6 @@ register(
         "parabolic",
         edf=_MDEV_EDF,
         estimates="PVAR",
+        unconfirmed=_PDEV_STAND_IN,
     )
 )
