@@ -48,7 +48,7 @@ from .files import ensure_folder
 
 __all__ = ["OutputSet", "Interrupted", "same_file"]
 
-_PENDING = re.compile(r"^\.(?P<name>.+)\.(?P<pid>\d+)\.[0-9a-f]{8}\.(pending|old)$")
+_PENDING = re.compile(r"^\.+(?P<name>.+?)\.(?P<pid>\d+)\.[0-9a-f]{8}\.(pending|old)(\..*)?$")
 
 
 class Interrupted(KeyboardInterrupt):
@@ -153,6 +153,8 @@ class OutputSet:
             if not self._committed:
                 for path in self.pending.values():
                     path.unlink(missing_ok=True)
+                    for part in path.parent.glob(f".{path.name}.*"):  # a writer's own temp
+                        part.unlink(missing_ok=True)
                 for path in self._made:  # folders made for this run (when left empty)
                     with contextlib.suppress(OSError):
                         path.rmdir()

@@ -21,7 +21,6 @@ from typing import Any
 from .errors import InputError
 from .figures import save_figure, series_figure, stability_figure
 from .figures.labels import default_footer, default_title
-from .files import atomic_write_text
 from .measurement import Measurement
 from .outputs import OutputSet
 from .reports.record import RECORD_NAMES, write_record_files
@@ -121,7 +120,7 @@ def _write_all(
         "summary.json": lambda: summary_json(run.summary()),
     }
     for name in _TEXT_NAMES:
-        atomic_write_text(paths[name], texts[name]())
+        paths[name].write_text(texts[name](), encoding="utf-8")  # a pending file of the set
     shown = run.series_inputs()[0]
     series_title = default_title(shown, "data over time") if titled else None
     series_footer = default_footer(shown, analysis_time=run.analysis_time) if titled else None

@@ -172,13 +172,14 @@ def test_analyze_stopped_by_a_signal_says_one_line_and_leaves_nothing(tmp_path, 
     time.sleep(2.0)
     child.send_signal(signum)
     _, err = child.communicate(timeout=300)
+    whole = ["series.png", "sigma_tau.png", "summary.json", "table.csv", "table.md"]
     if child.returncode == 0:  # finished before the signal: the whole set is there
-        assert _visible(folder) == sorted(
-            ["series.png", "sigma_tau.png", "summary.json", "table.csv", "table.md"]
-        )
+        assert _visible(folder) == whole
         return
-    if child.returncode == -signum:  # killed while the interpreter itself was starting
-        assert not folder.exists()
+    if child.returncode == -signum:
+        # killed while the interpreter was starting or shutting down (its own signal
+        # handlers are not in place then): nothing, or the whole set
+        assert not folder.exists() or (_visible(folder) in ([], whole) and not _hidden(folder))
         return
     assert child.returncode == 128 + signum, err
     assert err.count("\n") == 1, err
