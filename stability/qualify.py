@@ -152,6 +152,7 @@ def qualify(
     table: StabilityTable,
     *,
     model_source: StatisticResult | None = None,
+    drift_model_source: tuple[Measurement, StatisticResult] | None = None,
     f_h: float | None = None,
     offset_source: Measurement | None = None,
 ) -> StabilityTable:
@@ -161,6 +162,10 @@ def qualify(
     the table holds none (the caller computes it; qualification does not call
     the estimators' orchestration). ``offset_source`` is the measurement whose
     frequency offset and drift are reported (default: the analysed one).
+    ``drift_model_source`` is (linearly detrended data, its raw OADEV): the
+    noise model behind the offset and drift uncertainties is fitted to it, so
+    that a drift in the data is not read as random-walk noise (without it the
+    table's own model is used).
     """
     measurement = table.measurement
     known = _known_estimates(table.results)
@@ -185,6 +190,11 @@ def qualify(
             if source is None
             else fit_power_law(source.tau, source.deviation, source.edf, f_h=f_h)
         )
+        drift_model = model
+        if drift_model_source is not None:
+            detrended, raw = drift_model_source
+            fitted = qualify_result(raw, detrended, table.confidence)
+            drift_model = fit_power_law(fitted.tau, fitted.deviation, fitted.edf, f_h=f_h)
     if model is None:
         warnings.warn(
             "too few Allan deviation points to fit a power-law noise model",
@@ -195,7 +205,9 @@ def qualify(
         **table.extras,
         "power_law_model": model,
         "offset_drift": offset_and_drift_of(
-            measurement if offset_source is None else offset_source, model
+            measurement if offset_source is None else offset_source,
+            drift_model,
+            detrended=drift_model_source is not None,
         ),
         "bias_corrected": [r.statistic for r in results.values() if r.bias_corrected],
     }
