@@ -15,8 +15,9 @@ so the model is linear in the coefficients and is fitted to an overlapping
 Allan variance curve by non-negative weighted least squares, each point
 weighted by its equivalent degrees of freedom and the model's own value there
 (the variance of a chi-squared variance estimate with nu degrees of freedom
-is 2 sigma^4 / nu; iteratively reweighted, reference 4), a term kept only
-where it earns its place by Akaike's criterion (reference 5).
+is 2 sigma^4 / nu; the gamma quasi-likelihood by iteratively reweighted least
+squares, reference 4), a term kept only where the data support it (a
+likelihood-ratio test on the deviance at the 1 % level, references 5 and 6).
 
 The same model gives honest uncertainties of the mean frequency offset and
 of a linear drift: a weighted mean of y with weight function w(t) has variance
@@ -39,7 +40,11 @@ References
    & Hall (1989), sections 2.5 (iteratively reweighted least squares) and 8.3
    (gamma-distributed observations).
 5. H. Akaike, "A new look at the statistical model identification", IEEE
-   Transactions on Automatic Control 19, 716-723 (1974).
+   Transactions on Automatic Control 19, 716-723 (1974) (selection of a
+   model by its likelihood plus a price per parameter).
+6. S. G. Self, K.-Y. Liang, "Asymptotic properties of maximum likelihood
+   estimators and likelihood ratio tests under nonstandard conditions",
+   Journal of the American Statistical Association 82, 605-610 (1987).
 """
 
 from __future__ import annotations
@@ -71,9 +76,11 @@ _LN2 = math.log(2.0)
 _DAY = 86400.0
 #: Most reweighting steps of the power-law fit (it settles in a handful).
 _IRLS_STEPS = 30
-#: A noise term enters the fitted model only if it lowers the weighted chi-squared
-#: by more than this (Akaike's criterion: 2 per parameter).
-_TERM_PENALTY = 2.0
+#: A noise term enters the fitted model only if it lowers the deviance by more
+#: than this: the likelihood-ratio test of its absence at the 1 % level, whose
+#: null law for a coefficient held at >= 0 is half chi-squared(0) plus half
+#: chi-squared(1) (Self & Liang, reference 6), so P(chi2_1 > 5.41) / 2 = 0.01.
+_TERM_PENALTY = 5.41
 
 
 def avar_kernel(alpha: int, tau: Any, f_h: float) -> np.ndarray:
@@ -160,21 +167,15 @@ def _validate_fit(tau: np.ndarray, dev: np.ndarray, edf: np.ndarray, f_h: float)
         raise InputError("tau, deviation and edf must have the same length")
 
 
-def nonnegative_least_squares(a: np.ndarray, b: np.ndarray, *, penalty: float = 0.0) -> np.ndarray:
-    """Minimise ||a x - b||^2 + penalty * (number of x > 0) subject to x >= 0.
+def nonnegative_least_squares(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Minimise ||a x - b|| subject to x >= 0, for a handful of columns (at most 12).
 
-    For at most 12 columns. The solution of a non-negative least-squares problem
-    is the unconstrained least-squares solution on its own support, with every
-    coefficient there positive (the Karush-Kuhn-Tucker conditions; C. L. Lawson,
-    R. J. Hanson, *Solving Least Squares Problems*, SIAM (1995), chapter 23).
-    With five noise terms there are only 31 supports, so trying each and keeping
-    the feasible one of least residual finds that solution exactly, without an
-    iterative solver. With ``penalty`` > 0 each coefficient on the support costs
-    that much residual: on a chi-squared scale 2 is Akaike's information
-    criterion (H. Akaike, "A new look at the statistical model
-    identification", IEEE Trans. Automatic Control 19, 716-723 (1974)), which
-    keeps a term that the data barely support out of the model. The default 0
-    is plain non-negative least squares.
+    The solution of a non-negative least-squares problem is the unconstrained
+    least-squares solution on its own support, with every coefficient there
+    positive (the Karush-Kuhn-Tucker conditions; C. L. Lawson, R. J. Hanson,
+    *Solving Least Squares Problems*, SIAM (1995), chapter 23). With five noise
+    terms there are only 31 supports, so trying each and keeping the feasible one
+    of least residual finds that solution exactly, without an iterative solver.
     """
     a = np.asarray(a, dtype=float)
     b = np.asarray(b, dtype=float)
@@ -184,7 +185,6 @@ def nonnegative_least_squares(a: np.ndarray, b: np.ndarray, *, penalty: float = 
     best = np.zeros(k)
     best_sse = float(b @ b)
     best_size = 0
-    best_score = best_sse
     for size in range(1, k + 1):
         for support in itertools.combinations(range(k), size):
             cols = list(support)
@@ -193,30 +193,51 @@ def nonnegative_least_squares(a: np.ndarray, b: np.ndarray, *, penalty: float = 
                 continue
             resid = b - a[:, cols] @ x
             sse = float(resid @ resid)
-            score = sse + penalty * size
-            # a larger support must lower the score by more than rounding to win
-            if score < best_score * (1.0 - 1e-12) or (score <= best_score and size == best_size):
+            # a larger support must lower the residual by more than rounding to win
+            if sse < best_sse * (1.0 - 1e-12) or (sse <= best_sse and size == best_size):
                 best = np.zeros(k)
                 best[cols] = x
-                best_sse, best_size, best_score = sse, size, score
+                best_sse, best_size = sse, size
     return best
 
 
-def _weighted_fit(
-    design: np.ndarray, avar: np.ndarray, nu: np.ndarray, expected: np.ndarray
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Non-negative weighted least squares with weights sqrt(nu / 2) / expected.
-
-    Returns the coefficients, the weighted design scaled to unit columns, the
-    weighted target and the column scales.
-    """
+def _weighted(design: np.ndarray, avar: np.ndarray, nu: np.ndarray, expected: np.ndarray):
+    """Design and target weighted by sqrt(nu / 2) / expected, columns scaled to unit norm."""
     weight = np.sqrt(nu / 2.0) / expected
     a_w = design * weight[:, None]
-    b_w = avar * weight
-    # Scale columns so that NNLS works on numbers of order one.
     scale = np.linalg.norm(a_w, axis=0)
-    coef_scaled = nonnegative_least_squares(a_w / scale, b_w, penalty=_TERM_PENALTY)
-    return coef_scaled / scale, a_w / scale, b_w, scale
+    return a_w / scale, avar * weight, scale
+
+
+def _gamma_fit(design: np.ndarray, avar: np.ndarray, nu: np.ndarray) -> np.ndarray | None:
+    """Quasi-likelihood fit of AVAR = design @ h for gamma-distributed estimates.
+
+    Iteratively reweighted least squares, the weight of each point the inverse
+    standard deviation sqrt(nu / 2) / AVAR of a chi-squared variance estimate
+    taken at the model's own value (McCullagh & Nelder, reference 4). None
+    unless every coefficient comes out positive.
+    """
+    expected = avar
+    coef = None
+    for _ in range(_IRLS_STEPS):
+        a_n, b_w, scale = _weighted(design, avar, nu, expected)
+        solution, *_ = np.linalg.lstsq(a_n, b_w, rcond=None)
+        coef = solution / scale
+        model = design @ coef
+        if not np.all(model > 0):
+            return None  # a model that vanishes somewhere cannot weight the points
+        settled = np.allclose(model, expected, rtol=1e-9, atol=0.0)
+        expected = model
+        if settled:
+            break
+    return coef if coef is not None and np.all(coef > 0) else None
+
+
+def _deviance(avar: np.ndarray, model: np.ndarray, nu: np.ndarray) -> float:
+    """Gamma deviance sum nu [avar / model - 1 - ln(avar / model)] (-2 log-likelihood
+    up to a constant for chi-squared estimates with nu degrees of freedom)."""
+    ratio = avar / model
+    return float(np.sum(nu * (ratio - 1.0 - np.log(ratio))))
 
 
 def fit_power_law(
@@ -229,21 +250,25 @@ def fit_power_law(
 ) -> PowerLawModel | None:
     """Fit h_alpha to an overlapping Allan deviation curve.
 
-    Non-negative least squares on the Allan variance, each point weighted by
-    sqrt(edf / 2) / AVAR, the inverse standard deviation of a chi-squared
-    variance estimate. The AVAR in the weight is the model's own value, found
-    by iterating the fit (iteratively reweighted least squares for estimates
-    with a gamma distribution, whose solution is the quasi-likelihood
-    estimate: P. McCullagh, J. A. Nelder, *Generalized Linear Models*, 2nd ed.,
-    Chapman & Hall (1989), sections 2.5 and 8.3). Weighting by the observed
-    value instead gives a point that happens to fall low the largest weight
-    and pulls the whole model down: a single nearly empty estimate at the
-    longest tau could halve the fitted white FM level. A term enters the
-    model only where it lowers the weighted chi-squared by more than 2
-    (Akaike's criterion, see :func:`nonnegative_least_squares`): without it a
-    random rise of the last few points adds a small random-walk term to white
-    FM data in four fits of ten, and such a term multiplies the uncertainty of
-    a drift. Returns None when fewer than two usable points exist.
+    Each Allan variance estimate is taken as chi-squared distributed with its
+    equivalent degrees of freedom nu (a gamma law of shape nu / 2 about the
+    model value). For every set of noise terms the coefficients are the
+    quasi-likelihood estimate, found by iteratively reweighted least squares
+    with weights sqrt(nu / 2) / AVAR at the model's own value (reference 4);
+    sets with a coefficient <= 0 are dropped (the non-negative solution lies on
+    a smaller set). The set kept minimises the deviance plus 5.41 per term:
+    a term enters only where it lowers the deviance by more than the 1 %
+    point of the likelihood-ratio test of its absence (a coefficient held at
+    >= 0 has the null law chi-squared(0)/2 + chi-squared(1)/2, reference 6),
+    the price per parameter of an information criterion (reference 5).
+    Weighting by the observed value instead would give a point that happens
+    to fall low the largest weight and pull the whole model down (a single
+    nearly empty estimate at the longest tau could halve a white FM level);
+    with Akaike's price of 2 per term a random rise of the last few points of
+    white FM data brings in a small flicker or random-walk term in about one
+    fit of seven, which multiplies the uncertainty of a drift and turns the
+    noise type red at long tau. Returns None when fewer than two usable
+    points exist.
 
     Parameters
     ----------
@@ -264,35 +289,34 @@ def fit_power_law(
         return None
     tau, avar, nu = tau[ok], dev[ok] ** 2, nu[ok]
     design = np.column_stack([avar_kernel(a, tau, f_h) for a in alphas])
-    usable = np.all(design > 0, axis=0)
-    design = design[:, usable]
-    expected = avar
-    for _ in range(_IRLS_STEPS):
-        coef, a_n, b_w, scale = _weighted_fit(design, avar, nu, expected)
-        model = design @ coef
-        if not np.all(model > 0):
-            break  # a model that vanishes somewhere cannot weight the points
-        converged = np.allclose(model, expected, rtol=1e-6, atol=0.0)
-        expected = model
-        if converged:
-            break
+    columns = [k for k in range(len(alphas)) if np.all(design[:, k] > 0)]
+    best: tuple[float, list[int], np.ndarray] | None = None
+    for size in range(1, len(columns) + 1):
+        for support in itertools.combinations(columns, size):
+            cols = list(support)
+            coef = _gamma_fit(design[:, cols], avar, nu)
+            if coef is None:
+                continue
+            score = _deviance(avar, design[:, cols] @ coef, nu) + _TERM_PENALTY * size
+            if best is None or score < best[0] - 1e-9 * abs(best[0]):
+                best = (score, cols, coef)
     h = dict.fromkeys(alphas, 0.0)
     u = dict.fromkeys(alphas, math.nan)
-    used_alphas = [a for a, keep in zip(alphas, usable, strict=True) if keep]
-    for a, c in zip(used_alphas, coef, strict=True):
-        h[a] = float(c)
-    active = [k for k, c in enumerate(coef) if c > 0]
     notes = []
-    if active:
-        sub = a_n[:, active]
+    if best is not None:
+        _, cols, coef = best
+        for k, c in zip(cols, coef, strict=True):
+            h[alphas[k]] = float(c)
+        model = design[:, cols] @ coef
+        a_n, b_w, scale = _weighted(design[:, cols], avar, nu, model)
         resid = b_w - a_n @ (coef * scale)
-        dof = max(1, len(tau) - len(active))
+        dof = max(1, len(tau) - len(cols))
         # Reduced chi-squared inflates the covariance when the model does not fit.
         s2 = max(1.0, float(resid @ resid) / dof)
         try:
-            cov = np.linalg.inv(sub.T @ sub) * s2
-            for k, idx in enumerate(active):
-                u[used_alphas[idx]] = float(math.sqrt(max(cov[k, k], 0.0)) / scale[idx])
+            cov = np.linalg.inv(a_n.T @ a_n) * s2
+            for j, k in enumerate(cols):
+                u[alphas[k]] = float(math.sqrt(max(cov[j, j], 0.0)) / scale[j])
         except np.linalg.LinAlgError:
             notes.append("the fitted noise terms are not separable: no uncertainties")
     return PowerLawModel(
