@@ -20,7 +20,7 @@ from .deviations.registry import Statistic, get_statistic
 from .errors import AnalysisError, InputError, StabilityError
 from .intervals import check_confidence
 from .measurement import Measurement
-from .powerlaw import offset_and_drift_of
+from .powerlaw import frequency_slope
 from .qualify import qualify as qualify_table
 from .table import StabilityTable, StatisticResult
 from .taus import GRIDS, tau_grid
@@ -28,7 +28,6 @@ from .taus import GRIDS, tau_grid
 __all__ = ["analyze", "estimate", "DEFAULT_STATS", "validate_analysis_args"]
 
 DEFAULT_STATS = ("oadev", "mdev")
-_DAY = 86400.0
 
 
 def _stat_list(stats: str | Sequence[str]) -> list[Statistic]:
@@ -252,7 +251,7 @@ def _drift_model_source(
     oadev = get_statistic("oadev")
     if oadev.allowed_m(measurement.n) < 1:
         return None
-    slope = offset_and_drift_of(measurement, None).drift_per_day / _DAY
+    slope = frequency_slope(measurement)
     if not math.isfinite(slope):
         return None
     t = np.arange(measurement.n, dtype=np.float64) * measurement.tau0

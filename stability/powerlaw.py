@@ -68,6 +68,7 @@ __all__ = [
     "OffsetDrift",
     "offset_and_drift",
     "offset_and_drift_of",
+    "frequency_slope",
     "model_from_levels",
 ]
 
@@ -76,6 +77,8 @@ _LN2 = math.log(2.0)
 _DAY = 86400.0
 #: Most reweighting steps of the power-law fit (it settles in a handful).
 _IRLS_STEPS = 30
+#: The reweighting stops when no model value moves by more than this fraction.
+_IRLS_RTOL = 1e-7
 #: A noise term enters the fitted model only if it lowers the deviance by more
 #: than this: the likelihood-ratio test of its absence at the 1 % level, whose
 #: null law for a coefficient held at >= 0 is half chi-squared(0) plus half
@@ -219,14 +222,21 @@ def _gamma_fit(design: np.ndarray, avar: np.ndarray, nu: np.ndarray) -> np.ndarr
     """
     expected = avar
     coef = None
-    for _ in range(_IRLS_STEPS):
+    for step in range(_IRLS_STEPS):
         a_n, b_w, scale = _weighted(design, avar, nu, expected)
-        solution, *_ = np.linalg.lstsq(a_n, b_w, rcond=None)
+        try:
+            # normal equations of at most five unit-norm columns
+            solution = np.linalg.solve(a_n.T @ a_n, a_n.T @ b_w)
+        except np.linalg.LinAlgError:
+            return None  # terms that cannot be told apart on these taus
         coef = solution / scale
         model = design @ coef
-        if not np.all(model > 0):
-            return None  # a model that vanishes somewhere cannot weight the points
-        settled = np.allclose(model, expected, rtol=1e-9, atol=0.0)
+        if not np.all(model > 0) or (step > 0 and not np.all(coef > 0)):
+            # a model that vanishes somewhere cannot weight the points; a coefficient
+            # still negative once the weights come from a model marks a set whose
+            # non-negative solution lies on a smaller set
+            return None
+        settled = float(np.max(np.abs(model / expected - 1.0))) < _IRLS_RTOL
         expected = model
         if settled:
             break
@@ -463,29 +473,44 @@ def model_from_levels(levels: Mapping[int, float], f_h: float) -> PowerLawModel:
     return PowerLawModel(h=h, u_h=dict.fromkeys(ALPHAS, math.nan), f_h=f_h, tau_range=(0.0, 0.0))
 
 
-def offset_and_drift_of(
-    measurement: Any, model: PowerLawModel | None, *, detrended: bool = False
-) -> OffsetDrift:
-    """:func:`offset_and_drift` of a measurement's fractional frequency.
+def _phase_sums(measurement: Any) -> tuple[float, float, float] | None:
+    """(offset, slope per second, span) of an unbroken record from its phase, else None.
 
-    For an unbroken record the sums come from the phase directly, in one pass
-    and without forming the frequency: with y_k = (x_{k+1} - x_k)/tau0 for
-    k = 0..M-1, summation by parts gives
+    With y_k = (x_{k+1} - x_k)/tau0 for k = 0..M-1, summation by parts gives
     sum k y_k = [(M - 1) x_M - sum_{j=1}^{M-1} x_j] / tau0 and mean(y) =
     (x_M - x_0) / (M tau0), to which the removed offset is added back.
     """
     x = measurement.phase
     tau0 = measurement.tau0
     if measurement.has_gaps or x.size < 4:
-        return offset_and_drift(measurement.frequency(), tau0, model, detrended=detrended)
+        return None
     count = x.size - 1
     offset = float(x[-1] - x[0]) / (count * tau0) + measurement.frequency_offset
     k_mean = (count - 1) / 2.0
     skk = count * (count * count - 1) / 12.0  # sum (k - mean)^2 over k = 0..M-1
     sum_ky = ((count - 1) * float(x[-1]) - float(np.sum(x[1:-1]))) / tau0
     sky = sum_ky - k_mean * (float(x[-1] - x[0]) / tau0)
-    slope = sky / skk / tau0
-    span = count * tau0
-    if _usable(model):
-        return _with_model(offset, slope, span, model, detrended)
-    return offset_and_drift(measurement.frequency(), tau0, model, detrended=detrended)
+    return offset, sky / skk / tau0, count * tau0
+
+
+def frequency_slope(measurement: Any) -> float:
+    """Least-squares slope (per second) of a measurement's fractional frequency."""
+    sums = _phase_sums(measurement)
+    if sums is not None:
+        return sums[1]
+    return offset_and_drift(measurement.frequency(), measurement.tau0, None).drift_per_day / _DAY
+
+
+def offset_and_drift_of(
+    measurement: Any, model: PowerLawModel | None, *, detrended: bool = False
+) -> OffsetDrift:
+    """:func:`offset_and_drift` of a measurement's fractional frequency.
+
+    For an unbroken record with a usable model the sums come from the phase
+    directly, in one pass and without forming the frequency (see
+    :func:`_phase_sums`).
+    """
+    sums = _phase_sums(measurement)
+    if sums is not None and _usable(model):
+        return _with_model(*sums, model, detrended)
+    return offset_and_drift(measurement.frequency(), measurement.tau0, model, detrended=detrended)
