@@ -87,7 +87,7 @@ def test_totdev_is_bias_corrected_and_says_so():
 
 def test_identified_noise_never_gets_whiter_with_tau():
     # A sum of power laws: the dominant exponent can only fall as tau grows
-    # (IEEE 1139 power-law model; the reason is in qualify._never_whiter).
+    # (IEEE 1139 power-law model; the monotone fit of stability.noise_evidence).
     for seed in range(6):
         y = simulate(3000, 1.0, levels={0: 1.0}, seed=seed)
         r = _analyze(y, stats="oadev")["oadev"]
