@@ -19,6 +19,7 @@ from stability.hat import (
     hat_variances,
     separate,
 )
+from stability.hat_intervals import combination_variance, difference_matrix, null_multiple
 
 N = 2**14
 
@@ -314,3 +315,30 @@ def test_rows_marked_ok_cover_at_their_level_with_three_equal_oscillators():
     ok, _ = _judge_ok_rows(_coverage_rows(levels, range(60), 0.683), 0.683)
     # Every oscillator is resolved at short tau, where the pair EDFs are in the thousands.
     assert {r[0] for r in ok if r[1] == 1} == {"A", "B", "C"}
+
+
+# ---------------------------------------------------------------------------- interval algebra
+def test_combination_variance_is_the_closed_form_for_three_oscillators():
+    # Var s_C^2 = (2 s_C^4 + s_A^2 s_C^2 + s_B^2 s_C^2 + s_A^2 s_B^2) / nu for one EDF nu
+    # (Isserlis 1918 on the quadratic forms of the Gray & Allan 1974 combination; derived
+    # in stability.hat_intervals).
+    names = ["A", "B", "C"]
+    coefs = hat_coefficients(TRIANGLE, names)
+    diff = difference_matrix(TRIANGLE, names)
+    s2 = np.array([[3.0], [2.0], [0.5]])  # sigma^2 of A, B, C at one tau
+    nu = 40.0
+    var = combination_variance(coefs, diff, s2, np.full((3, 1), nu))
+    a, b, c = s2[:, 0]
+    np.testing.assert_allclose(var[2, 0], (2 * c * c + a * c + b * c + a * b) / nu, rtol=1e-12)
+    np.testing.assert_allclose(var[0, 0], (2 * a * a + a * b + a * c + b * c) / nu, rtol=1e-12)
+
+
+def test_null_multiple_matches_the_laplace_law_at_two_degrees_of_freedom():
+    # With nu = 2, (X - Y) / 2 for X, Y independent chi-squared(2) is Laplace of scale 1,
+    # so P[(X - Y) / (2 sqrt 2) > t] = exp(-t sqrt 2) / 2 (exponential variables).
+    tail = 0.00135
+    expected = math.log(0.5 / tail) / math.sqrt(2.0)
+    assert null_multiple(2.0, tail) == pytest.approx(expected, rel=1e-6)
+    # Many degrees of freedom: the normal quantile; few: heavier tails, a larger multiple.
+    assert null_multiple(5000.0, tail) == pytest.approx(3.0, abs=0.01)
+    assert null_multiple(1.0, tail) > null_multiple(10.0, tail) > null_multiple(100.0, tail)
