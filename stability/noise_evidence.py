@@ -20,10 +20,14 @@ the calls with the rest of the evidence in three steps:
    number of averages N/m (the pool-adjacent-violators algorithm [3]_,
    ``scipy.optimize.isotonic_regression``), and rounded to the nearest type
    (halves to the redder one). A call that says whiter than a better-supported
-   call at a shorter tau is outvoted; one that says redder than many poorer
-   calls at longer taus is outvoted too. Method ``"monotone"`` where this
-   changed a type. (The rule it replaces kept every shorter tau's type, so one
-   miss toward red at a short tau locked every longer tau.)
+   call at a shorter tau is outvoted; one that says redder than the calls at
+   longer taus is outvoted where those hold more averages together (on an
+   octave grid one tau holds about as many as all longer taus together, so
+   there a confident call stands). Method ``"monotone"`` where this changed a
+   type. Weak calls, the usual misses, were decided by the model in step 1,
+   which does not follow a single point. (The rule this replaces kept every
+   shorter tau's type, so one miss toward red at any tau, however weak, locked
+   every longer tau.)
 3. **Boundaries are said.** Where the fitted model shows two terms of
    comparable size at a tau, or the label or the raw call there lies between
    the two largest terms (a mixture of white PM and white FM reads as flicker
