@@ -20,6 +20,7 @@ from .deviations.registry import Statistic, get_statistic
 from .errors import AnalysisError, InputError, StabilityError
 from .intervals import check_confidence
 from .measurement import Measurement
+from .powerlaw import frequency_slope
 from .qualify import qualify as qualify_table
 from .table import StabilityTable, StatisticResult
 from .taus import GRIDS, MAX_FACTOR, tau_grid
@@ -216,6 +217,79 @@ def _model_source(measurement: Measurement, stats: list[Statistic], memo: dict):
         return None
 
 
+#: Above this ratio of the drift terms to the detrended Allan variance the
+#: shortcut of :func:`_detrended_oadev` would lose more than half its digits.
+_CANCELLATION_LIMIT = 1e8
+
+
+def _detrended_oadev(
+    detrended: Measurement, base: StatisticResult, slope: float, original: np.ndarray
+) -> StatisticResult:
+    """OADEV of unbroken data with a linear frequency drift ``slope`` (1/s) removed.
+
+    With D_k = (x_{k+2m} - 2 x_{k+m} + x_k) / tau the terms of the Allan
+    variance of the original phase, the detrended terms are D_k - slope * tau
+    (the second difference of slope t^2 / 2 at step tau), so
+    AVAR' = AVAR - slope tau mean(D) + slope^2 tau^2 / 2, and mean(D) telescopes
+    to 2m phase differences at the two ends of the record. Each tau then costs
+    O(m) instead of O(N); where the drift terms would cancel too many digits
+    the estimator runs on the detrended phase instead.
+    """
+    oadev = get_statistic("oadev")
+    x = original
+    n = x.size
+    tau0 = detrended.tau0
+    values = np.empty(len(base))
+    for i, (m, dev) in enumerate(zip(base.m, base.deviation, strict=True)):
+        m = int(m)
+        count = n - 2 * m
+        tau = m * tau0
+        tail = float(np.sum(x[count + m : count + 2 * m] - x[count : count + m]))
+        head = float(np.sum(x[m : 2 * m] - x[:m]))
+        mean_d = (tail - head) / (count * tau)
+        avar = float(dev) ** 2
+        drift_part = abs(slope * tau * mean_d) + 0.5 * (slope * tau) ** 2
+        new = avar - slope * tau * mean_d + 0.5 * (slope * tau) ** 2
+        if new > 0 and (avar + drift_part) < _CANCELLATION_LIMIT * new:
+            values[i] = math.sqrt(new)
+        else:
+            values[i] = oadev.func(detrended.phase, tau0, m, None)[0]
+    return StatisticResult.build("oadev", base.tau, base.m, base.n_terms, values)
+
+
+def _drift_model_source(
+    measurement: Measurement, base: StatisticResult | None
+) -> tuple[Measurement, StatisticResult] | None:
+    """The linearly detrended data and their raw OADEV.
+
+    The noise model behind the uncertainties of the frequency offset and drift
+    is fitted to these, whatever drift the analysis removed: a drift left in
+    the data would otherwise be read as random-walk FM and inflate the drift's
+    own uncertainty many times over. A linear frequency drift D is the phase
+    D t^2 / 2; with the least-squares D of the frequency that term is
+    subtracted (a straight line left in the phase does not change OADEV).
+    ``base`` is the raw OADEV of the data already computed (the table's or the
+    model source's): on unbroken data the detrended values follow from it
+    (:func:`_detrended_oadev`); otherwise OADEV is estimated on the octave grid.
+    """
+    oadev = get_statistic("oadev")
+    if oadev.allowed_m(measurement.n) < 1:
+        return None
+    slope = frequency_slope(measurement)
+    if not math.isfinite(slope):
+        return None
+    t = np.arange(measurement.n, dtype=np.float64) * measurement.tau0
+    t *= t
+    t *= 0.5 * slope
+    detrended = measurement.replace(phase=measurement.phase - t)
+    if base is not None and not measurement.has_gaps and len(base):
+        return detrended, _detrended_oadev(detrended, base, slope, measurement.phase)
+    try:
+        return detrended, _estimate(detrended, oadev, "octave", None)
+    except StabilityError:
+        return None
+
+
 def analyze(
     measurement: Measurement,
     stats: str | Sequence[str] = DEFAULT_STATS,
@@ -247,7 +321,9 @@ def analyze(
         High cut-off frequency of the power-law model in Hz (default 1/(2 tau0)).
     offset_source
         The measurement whose frequency offset and drift are reported
-        (default: the analysed one); pass the data before drift removal.
+        (default: the analysed one); pass the data before drift removal. Their
+        uncertainties come from a noise model fitted to the OADEV of the
+        analysed data with a linear drift removed.
     on_step
         Called with a short label after each statistic and after the
         qualification (for progress displays); ``len(stats) + 1`` calls.
@@ -280,9 +356,12 @@ def analyze(
         results=results, confidence=level, settings=settings, measurement=measurement
     )
     if qualify:
+        model_source = _model_source(measurement, stat_list, memo)
+        base = results.get("oadev", model_source)
         table = qualify_table(
             table,
-            model_source=_model_source(measurement, stat_list, memo),
+            model_source=model_source,
+            drift_model_source=_drift_model_source(measurement, base),
             f_h=f_h,
             offset_source=offset_source,
             bias_correction=bias_correction,

@@ -15,34 +15,30 @@ form above (c = +-1/2) for three oscillators.
 
 Intervals. Every pair curve is qualified as a single measurement would be:
 noise type identified, equivalent degrees of freedom nu_k from
-:mod:`stability.confidence` (Greenhall's algorithm). The EDF of the linear
-combination follows Satterthwaite's approximation (reference 3)::
+:mod:`stability.confidence` (Greenhall's algorithm). The pair estimates share
+oscillators and are correlated; the variance of the combination follows
+from the pair EDFs with those correlations (Isserlis' theorem, reference 4),
+and :mod:`stability.hat_intervals` gives the details.
 
-    nu_eff = (sum_k c_k v_k)^2 / sum_k [(c_k v_k)^2 / nu_k]
-
-and the chi-squared interval at the requested level is taken with nu_eff.
-
-Negative estimates. When an oscillator is much better than the others, or the
-record is short, the combination can come out negative or zero. Such a point
-is reported with ``status = "below resolution"``, ``deviation`` NaN and an
-upper bound, never as NaN alone or a silent zero. The upper bound is the
-resolution of the hat at that tau: the variance estimate has standard
-deviation sd = sqrt(sum_k 2 (c_k v_k)^2 / nu_k) (a chi-squared variance with
-nu degrees of freedom has variance 2 sigma^4 / nu), and a true variance above
-z * sd, z the normal quantile of the upper end of the two-sided interval,
-would have made an estimate <= 0 improbable at that level; so the bound is
-sqrt(z * sd). Where no EDF is available it falls back to the cap below.
+Resolution. When an oscillator is much better than the others, or the record
+is short, the combination is dominated by the scatter of the other
+oscillators' estimates and can even come out negative (reference 1). The
+scatter that the estimate of a noiseless oscillator would have is the
+resolution of the hat at that tau. An estimate above three times the
+resolution (a little more with few degrees of freedom, see
+:mod:`stability.hat_intervals`) is reported with ``status = "ok"`` and the
+chi-squared interval with the equivalent degrees of freedom of the
+combination (Satterthwaite, reference 3). Any other estimate is reported
+with ``status = "below resolution"``, ``deviation`` NaN, and an upper bound
+from the normal distribution of the difference of the pair estimates (the
+interval is [0, upper bound]), never from a chi-squared law with a fraction
+of a degree of freedom, whose lower bound collapses onto the estimate.
 
 Cap. No oscillator is noisier than a difference it takes part in, so every
 upper bound (``ci_high`` of an ``ok`` point, and the bound of a point below
 resolution) is capped at the smallest upper interval bound of the pairs that
-contain the oscillator (their deviation when they have no interval). This
-keeps the bound finite where nu_eff is tiny and the chi-squared bound runs
-away. For points with status ``"ok"``, ``upper_bound`` repeats ``ci_high``.
-
-Satterthwaite's approximation assumes independent variance estimates; the
-pair estimates share oscillators and are correlated, so nu_eff is an
-approximation (reference 2 discusses the limits of the hat).
+contain the oscillator (their deviation when they have no interval). For
+points with status ``"ok"``, ``upper_bound`` repeats ``ci_high``.
 
 Alignment. Pair logs are aligned in time before the statistics
 (:func:`align`): with time stamps, sample k of a log is at start + k tau0;
@@ -59,6 +55,9 @@ References
    (2008), section 9.2 (three-cornered hat).
 3. F. E. Satterthwaite, "An approximate distribution of estimates of variance
    components", Biometrics Bulletin 2(6), 110-114 (1946).
+4. L. Isserlis, "On a formula for the product-moment coefficient of any
+   order of a normal frequency distribution in any number of variables",
+   Biometrika 12, 134-139 (1918).
 """
 
 from __future__ import annotations
@@ -76,7 +75,8 @@ import pandas as pd
 from .analysis import estimate
 from .deviations.registry import get_statistic
 from .errors import AnalysisError, InputError
-from .intervals import check_confidence, chi2_interval
+from .hat_intervals import difference_matrix, hat_intervals
+from .intervals import check_confidence
 from .measurement import Measurement
 from .qualify import qualify_result
 from .table import StatisticResult
@@ -327,10 +327,13 @@ class OscillatorStability:
     """The separated stability of one oscillator.
 
     Arrays have one entry per tau. ``variance`` is the signed estimate of
-    the oscillator's variance (negative where below resolution);
+    the oscillator's variance (it can be negative below resolution);
     ``deviation`` its square root, NaN only where ``status`` is
     ``"below resolution"``, in which case ``upper_bound`` holds the bound
-    described in the module docstring.
+    described in the module docstring and the interval is
+    [0, ``upper_bound``]. ``resolution`` is the standard deviation a
+    noiseless oscillator's variance estimate would have at that tau (a
+    variance); ``edf`` is NaN below resolution.
     """
 
     name: str
@@ -344,6 +347,7 @@ class OscillatorStability:
     edf: np.ndarray
     status: list[str]
     upper_bound: np.ndarray
+    resolution: np.ndarray
 
     def to_frame(self) -> pd.DataFrame:
         """One row per tau."""
@@ -360,6 +364,7 @@ class OscillatorStability:
                 "status": list(self.status),
                 "upper_bound": self.upper_bound,
                 "variance": self.variance,
+                "resolution": self.resolution,
             }
         )
 
@@ -400,7 +405,7 @@ class HatResult:
 
     def to_frame(self) -> pd.DataFrame:
         """One row per (oscillator, tau): oscillator, statistic, tau_s, m, deviation,
-        ci_low, ci_high, edf, status, upper_bound, variance."""
+        ci_low, ci_high, edf, status, upper_bound, variance, resolution."""
         return pd.concat([o.to_frame() for o in self.oscillators.values()], ignore_index=True)
 
     def pairs_frame(self) -> pd.DataFrame:
@@ -427,47 +432,14 @@ def _qualify_pairs(
         }
 
 
-def _combine(
-    coefs: np.ndarray,
-    variances: np.ndarray,
-    edfs: np.ndarray,
-    pair_high: np.ndarray,
-    members: np.ndarray,
-    confidence: float,
-) -> tuple[np.ndarray, ...]:
-    """Satterthwaite EDF, interval and status of every oscillator at every tau."""
-    from scipy.special import ndtri
+def _pair_cap(pair_high: np.ndarray, variances: np.ndarray, members: np.ndarray) -> np.ndarray:
+    """Smallest upper bound (or, without intervals, deviation) of the pairs of each oscillator.
 
-    estimate = coefs @ variances  # (osc, tau)
-    parts = coefs[:, :, None] * variances[None, :, :]  # c_k v_k: (osc, pair, tau)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        nu_eff = estimate**2 / np.sum(parts**2 / edfs[None, :, :], axis=1)
-        spread = np.sqrt(np.sum(2.0 * parts**2 / edfs[None, :, :], axis=1))
-    ok = estimate > 0
-    deviation = np.where(ok, np.sqrt(np.where(ok, estimate, 0.0)), np.nan)
-    edf = np.where(ok, nu_eff, np.nan)
-    low = np.full_like(estimate, np.nan)
-    high = np.full_like(estimate, np.nan)
-    if ok.any() and np.isfinite(edf[ok]).any():
-        good = ok & np.isfinite(edf) & (edf > 0)
-        lo, hi = chi2_interval(deviation[good], edf[good], confidence)
-        low[good] = np.asarray(lo, dtype=float)
-        high[good] = np.asarray(hi, dtype=float)
-    z = float(ndtri(0.5 + confidence / 2.0))
-    resolution = np.sqrt(z * spread)
-    # No oscillator is noisier than a difference it takes part in: the smallest upper
-    # bound (or, without intervals, deviation) of its pairs caps every upper bound.
+    No oscillator is noisier than a difference it takes part in.
+    """
     pair_cap = np.where(np.isfinite(pair_high), pair_high, np.sqrt(variances))  # (pair, tau)
     member_cap = np.where(members[:, :, None], pair_cap[None, :, :], np.inf)
-    cap = member_cap.min(axis=1)
-    # The cap tightens an interval only where it lies above the estimate: an estimate
-    # above a pair's bound means the pairs disagree, and clipping the interval there
-    # would show no upward uncertainty at all; the chi-squared bound is kept instead.
-    high = np.where(ok & (cap >= deviation), np.minimum(high, cap), high)
-    below_bound = np.where(np.isfinite(resolution) & (resolution > 0), resolution, cap)
-    below_bound = np.minimum(below_bound, cap)
-    upper = np.where(ok, np.where(np.isnan(high), cap, high), below_bound)
-    return estimate, deviation, low, high, edf, upper
+    return member_cap.min(axis=1)
 
 
 def separate(
@@ -532,32 +504,32 @@ def separate(
     variances = np.array([results[k].deviation ** 2 for k in keys])  # (pair, tau)
     edfs = np.array([results[k].edf for k in keys])
     members = np.array([[n in k for k in keys] for n in names])
-    pair_high = np.array([results[k].ci_high for k in keys])
-    estimate_, deviation, low, high, edf, upper = _combine(
-        coefs, variances, edfs, pair_high, members, level
-    )
+    cap = _pair_cap(np.array([results[k].ci_high for k in keys]), variances, members)
+    found = hat_intervals(coefs, difference_matrix(keys, names), variances, edfs, cap, level)
     tau = results[keys[0]].tau
     oscillators = {}
     for i, name in enumerate(names):
-        status = [STATUS_OK if e > 0 else STATUS_BELOW for e in estimate_[i]]
+        status = [STATUS_OK if r else STATUS_BELOW for r in found.resolved[i]]
         oscillators[name] = OscillatorStability(
             name=name,
             statistic=statistic.name,
             tau=tau.copy(),
             m=ms.copy(),
-            variance=estimate_[i],
-            deviation=deviation[i],
-            ci_low=low[i],
-            ci_high=high[i],
-            edf=edf[i],
+            variance=found.estimate[i],
+            deviation=found.deviation[i],
+            ci_low=found.ci_low[i],
+            ci_high=found.ci_high[i],
+            edf=found.edf[i],
             status=status,
-            upper_bound=upper[i],
+            upper_bound=found.upper_bound[i],
+            resolution=found.resolution[i],
         )
         below = int(sum(s == STATUS_BELOW for s in status))
         if below:
             notes.append(
                 f"{name}: {below} of {len(status)} taus below the resolution of the hat "
-                "(negative variance estimate); an upper bound is given"
+                "(estimate not clearly above the scatter a noiseless oscillator's "
+                "estimate would have); an upper bound is given"
             )
     if not math.isfinite(float(np.nansum(variances))):
         raise AnalysisError("the pair variances are not finite; check the data for huge values")

@@ -88,7 +88,7 @@ from .noise_methods import (
     B1_MIN_AVERAGES,
     _detrend,
     _lag1_loop,
-    _nearest_alpha,
+    acf_neighbour,
     b1_expected,
     b1_noise_id,
     expected_acf_estimate,
@@ -146,11 +146,21 @@ class NoiseResult:
     noise
         Labels WPM, FPM, WFM, FFM, RWFM; ``""`` where not identified.
     method
-        ``"acf"`` (lag-1 autocorrelation), ``"b1"`` (B1 ratio), ``"rn"``
-        (B1 then R(n)), ``"carried"`` (copied from the nearest identified m,
-        only with ``carry=True``) or ``""``.
+        What decided each label: ``"acf"`` (lag-1 autocorrelation), ``"b1"``
+        (B1 ratio), ``"rn"`` (B1 then R(n)), ``"carried"`` (copied from the
+        nearest identified m, only with ``carry=True``) or ``""``; after
+        :func:`stability.noise_evidence.weigh_evidence` also ``"model"`` (the
+        dominant term of the fitted power-law model) and ``"monotone"`` (the
+        weighted monotone fit over tau).
     estimate
         The unrounded alpha of the lag-1 method (p, or p + 2 for phase); NaN otherwise.
+    uncertain
+        True where the identification is weak: B1 or R(n) on a few averages, or
+        a lag-1 estimate within two standard errors of the boundary between two
+        types.
+    neighbour
+        For a lag-1 estimate near a boundary, the alpha on the other side of it
+        (NaN otherwise).
     notes
         Plain sentences about what was done.
     """
@@ -161,7 +171,16 @@ class NoiseResult:
     noise: list[str]
     method: list[str]
     estimate: np.ndarray
+    uncertain: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
+    neighbour: np.ndarray = field(default_factory=lambda: np.zeros(0))
     notes: list[str] = field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        count = len(self.m)
+        if self.uncertain.size != count:
+            self.uncertain = np.zeros(count, dtype=bool)
+        if self.neighbour.size != count:
+            self.neighbour = np.full(count, np.nan)
 
     def to_frame(self) -> pd.DataFrame:
         """One row per averaging factor: m, alpha, noise, noise_method, alpha_estimate."""
@@ -268,7 +287,7 @@ def _b1_rn(
     return None if alpha is None else (alpha, "rn")
 
 
-def _carry(alpha: np.ndarray, method: list[str]) -> None:
+def _carry(alpha: np.ndarray, method: list[str], uncertain: np.ndarray) -> None:
     """Fill unidentified entries with the nearest identified one (smaller m preferred)."""
     known = np.flatnonzero(np.isfinite(alpha))
     if known.size == 0:
@@ -278,6 +297,7 @@ def _carry(alpha: np.ndarray, method: list[str]) -> None:
         src = before[-1] if before.size else known[known > i][0]
         alpha[i] = alpha[src]
         method[i] = "carried"
+        uncertain[i] = True
 
 
 def identify(
@@ -321,6 +341,8 @@ def identify(
     count = m_arr.size
     alpha = np.full(count, np.nan)
     estimate = np.full(count, np.nan)
+    uncertain = np.zeros(count, dtype=bool)
+    neighbour = np.full(count, np.nan)
     method = [""] * count
     unbroken = seg is None and not bool(np.isnan(x).any())
     notes: list[str] = []
@@ -347,21 +369,26 @@ def identify(
                     continue  # enough points but no noise left after drift removal
                 p, d = found
                 d_phase = d if data == "phase" else d + 1
-                alpha[i] = _nearest_alpha(p, d_phase, m, z.size * m, dmax)
+                label, other = acf_neighbour(p, d_phase, m, z.size * m, dmax, z.size - d)
+                alpha[i] = label
                 estimate[i] = p
                 method[i] = "acf"
+                if other is not None:
+                    uncertain[i] = True
+                    neighbour[i] = other
                 continue
             if yb is None:  # unbroken phase: a block mean of y is a phase difference
                 yb = np.diff(x[::m][: (x.size - 1) // m + 1]) / (m * tau0)
             b1 = _b1_rn(x, seg, tau0, m, yb, cache)
             if b1 is not None:
                 alpha[i], method[i] = float(b1[0]), b1[1]
+                uncertain[i] = True  # a few averages
     if not unbroken:
         notes.append(
             "noise identification used m-averaged frequencies, dropping blocks that touch a gap"
         )
     if carry:
-        _carry(alpha, method)
+        _carry(alpha, method, uncertain)
     labels = [NOISE_LABELS[int(a)] if np.isfinite(a) else "" for a in alpha]
     return NoiseResult(
         statistic=name,
@@ -370,5 +397,7 @@ def identify(
         noise=labels,
         method=method,
         estimate=estimate,
+        uncertain=uncertain,
+        neighbour=neighbour,
         notes=notes,
     )

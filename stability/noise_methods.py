@@ -24,7 +24,10 @@ __all__ = [
     "b1_noise_id",
     "rn_expected",
     "rn_noise_id",
+    "acf_standard_error",
+    "acf_neighbour",
     "ACF_MIN_POINTS",
+    "ACF_BOUNDARY_Z",
     "B1_MIN_AVERAGES",
 ]
 
@@ -227,14 +230,49 @@ def _expected_on_grid(alphas: tuple[int, ...], d: int, m: int, span: int) -> dic
     return out
 
 
-def _nearest_alpha(p: float, d_phase: int, m: int, span: int, dmax_phase: int) -> int:
-    """The candidate alpha whose expected lag-1 estimate at (d, m) is nearest to p, clipped."""
+#: A lag-1 estimate within this many standard errors of the boundary between two
+#: types is uncertain (about 95 % of estimates of either type fall outside).
+ACF_BOUNDARY_Z = 2.0
+
+
+def acf_standard_error(p: float, d_phase: int, points: int) -> float:
+    """Standard error of the lag-1 estimate p (alpha scale, phase convention).
+
+    p = 2 - 2 (delta + d) with delta = r1 / (1 + r1), so
+    se(p) = 2 se(r1) / (1 + r1)^2, and the lag-1 autocorrelation of ``points``
+    values has se(r1) ~ sqrt((1 - r1^2) / points) (Bartlett's formula for a
+    first-order autoregression: M. S. Bartlett, "On the theoretical
+    specification and sampling properties of autocorrelated time-series",
+    J. Royal Statistical Society Suppl. 8, 27-41 (1946)). At 42 points this is
+    0.31 for white FM, where simulation gives 0.42 with the quadratic drift
+    removal; above 64 points the two agree within 10 %.
+    """
+    delta = (2.0 - p) / 2.0 - d_phase
+    r1 = delta / (1.0 - delta) if delta < 1.0 else 1.0
+    r1 = min(max(r1, -0.999), 0.999)
+    return 2.0 * math.sqrt(max(1.0 - r1 * r1, 0.0) / max(points, 1)) / (1.0 + r1) ** 2
+
+
+def acf_neighbour(p: float, d_phase: int, m: int, span: int, dmax_phase: int, points: int):
+    """(alpha, neighbour) of a lag-1 estimate: the nearest type and, where p lies within
+    :data:`ACF_BOUNDARY_Z` standard errors of the boundary with an adjacent type (the
+    midpoint of their expected estimates), that type; else None.
+    """
     lowest = 2 - 2 * dmax_phase
-    candidates = range(2, lowest - 1, -1)
-    expected = _expected_estimates(tuple(candidates), d_phase, m, span)
-    dist = [abs(p - expected[a]) for a in candidates]
-    best = list(candidates)[int(np.argmin(dist))]
-    return int(min(2, max(-2, best)))
+    candidates = tuple(range(2, lowest - 1, -1))
+    expected = _expected_estimates(candidates, d_phase, m, span)
+    best = min(candidates, key=lambda a: abs(p - expected[a]))
+    label = int(min(2, max(-2, best)))
+    se = acf_standard_error(p, d_phase, points)
+    closest = None
+    for other in (label + 1, label - 1):
+        if other not in expected or not -2 <= other <= 2:
+            continue
+        mid = 0.5 * (expected[label] + expected[other])
+        gap = abs(p - mid)
+        if gap < ACF_BOUNDARY_Z * se and (closest is None or gap < closest[1]):
+            closest = (other, gap)
+    return label, None if closest is None else closest[0]
 
 
 # ---------------------------------------------------------------------- B1 and R(n)

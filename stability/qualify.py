@@ -2,7 +2,11 @@
 
 For each statistic and tau of a :class:`~stability.table.StabilityTable`:
 
-1. identify the power-law noise type at that tau (:mod:`stability.noise`);
+1. identify the power-law noise type at that tau (:mod:`stability.noise`),
+   then weigh the calls across tau (:mod:`stability.noise_evidence`): weak
+   calls are decided by the power-law model fitted to the Allan deviation
+   with the calls as they stand, and the types are made monotone in tau by a
+   fit weighted by the number of averages;
 2. compute the equivalent degrees of freedom for that statistic, tau, record
    length and noise type (:mod:`stability.confidence`);
 3. correct the bias of the statistics that have a published correction
@@ -27,8 +31,9 @@ from .errors import StabilityWarning
 from .intervals import chi2_interval
 from .measurement import Measurement
 from .noise import Known, NoiseResult, identify
+from .noise_evidence import weigh_evidence
 from .powerlaw import PowerLawModel, fit_power_law, offset_and_drift_of
-from .table import NOISE_LABELS, StabilityTable, StatisticResult
+from .table import StabilityTable, StatisticResult
 
 __all__ = [
     "qualify",
@@ -43,37 +48,6 @@ def effective_points(measurement: Measurement) -> int:
     finite = int(np.isfinite(measurement.phase).sum())
     breaks = 0 if measurement.segments is None else int(measurement.segments[-1])
     return max(finite - breaks, 0)
-
-
-def _never_whiter(
-    statistic: str, tau: np.ndarray, alpha: np.ndarray, noise: list[str]
-) -> str | None:
-    """Keep the identified alpha from rising with tau (in place on the new arrays).
-
-    In a sum of power laws S_y(f) = sum h_alpha f^alpha the term with the
-    smaller exponent dominates ever more as f falls, so the dominant type at
-    a longer tau is never whiter than at a shorter one. An identification that
-    says otherwise is a statistical miss (most often B1 or R(n) on a few
-    averages) and would give too many degrees of freedom, i.e. an interval
-    that is too narrow; the shorter tau's type is kept instead, and said.
-    """
-    lowest = math.inf
-    changed = []
-    for k, a in enumerate(alpha):
-        if math.isnan(a):
-            continue
-        if a > lowest:
-            alpha[k] = lowest
-            noise[k] = NOISE_LABELS[int(lowest)]
-            changed.append(f"{tau[k]:g} s")
-        lowest = min(lowest, alpha[k])
-    if not changed:
-        return None
-    return (
-        f"{statistic}: at tau {', '.join(changed)} the identification said a whiter "
-        "noise than at a shorter tau; the shorter tau's type was kept (a sum of power "
-        "laws never gets whiter at longer tau)"
-    )
 
 
 def _rows(stat: Statistic, result: StatisticResult, alpha: np.ndarray, n_eff: int, correct: bool):
@@ -136,13 +110,17 @@ def qualify_result(
     *,
     noise: NoiseResult | None = None,
     known: Known | None = None,
+    model: PowerLawModel | None = None,
     bias_correction: bool = True,
 ) -> StatisticResult:
     """A new result with the noise, EDF, bias and interval columns of one statistic filled.
 
-    ``noise`` is an identification already made for the same data and taus
-    (for a statistic that shares it, see :attr:`Statistic.noise_source`);
-    ``known`` holds OADEV and MDEV estimates already made for the data. With
+    ``noise`` is an identification already made and weighed for the same data
+    and taus (for a statistic that shares it, see
+    :attr:`Statistic.noise_source`), used as it is. Without it the noise is
+    identified here and weighed (:func:`stability.noise_evidence.weigh_evidence`)
+    with ``model``, the power-law model of the data when known. ``known``
+    holds OADEV and MDEV estimates already made for the data. With
     ``bias_correction=False`` the raw estimates are reported (bias factor 1)
     and their intervals are those of the raw estimator.
     """
@@ -154,13 +132,10 @@ def qualify_result(
         )
         return dataclasses.replace(result, confidence=confidence, notes=(*result.notes, note))
     if noise is None:
-        noise = identify(measurement, stat.noise_source or stat.name, result.m, known=known)
+        raw = identify(measurement, stat.noise_source or stat.name, result.m, known=known)
+        noise = weigh_evidence(raw, measurement.tau0, effective_points(measurement), model)
     alpha = np.array(noise.alpha, dtype=float)  # a copy: the identification may be shared
-    labels = list(noise.noise)
-    notes = list(result.notes)
-    ratchet = _never_whiter(stat.name, result.tau, alpha, labels)
-    if ratchet:
-        notes.append(ratchet)
+    notes = [*result.notes, *(f"{stat.name}: {n}" for n in noise.notes)]
     n_eff = effective_points(measurement)
     edf, factor, points = _rows(stat, result, alpha, n_eff, bias_correction)
     deviation = result.raw_deviation * factor
@@ -176,7 +151,7 @@ def qualify_result(
         deviation=deviation,
         edf=edf,
         alpha=alpha,
-        noise=tuple(labels),
+        noise=tuple(noise.noise),
         noise_method=tuple(noise.method),
         ci_low=low,
         ci_high=high,
@@ -184,6 +159,42 @@ def qualify_result(
         confidence=confidence,
         notes=tuple(notes),
     )
+
+
+def _fit(result: StatisticResult | None, f_h: float) -> PowerLawModel | None:
+    if result is None:
+        return None
+    return fit_power_law(result.tau, result.deviation, result.edf, f_h=f_h)
+
+
+#: Most rounds of fitting the model and weighing the calls with it.
+_MODEL_ROUNDS = 4
+
+
+def _settled_model(
+    base: StatisticResult,
+    raw: NoiseResult,
+    measurement: Measurement,
+    confidence: float,
+    f_h: float,
+) -> PowerLawModel | None:
+    """The power-law model that the weighed calls agree with.
+
+    The model is fitted to OADEV qualified with the calls (their EDFs weight
+    the fit), the raw calls are weighed with that model, and the two steps are
+    repeated until the calls stop changing: a model fitted with the weights of
+    a few wrong raw calls could otherwise decide the calls it was fitted with.
+    """
+    points = effective_points(measurement)
+    calls = raw
+    model = None
+    for _ in range(_MODEL_ROUNDS):
+        model = _fit(qualify_result(base, measurement, confidence, noise=calls), f_h)
+        weighed = weigh_evidence(raw, measurement.tau0, points, model)
+        if calls is not raw and weighed.noise == calls.noise:
+            break
+        calls = weighed
+    return model
 
 
 def _known_estimates(results: dict[str, StatisticResult]) -> dict[tuple[str, int], tuple]:
@@ -201,6 +212,7 @@ def qualify(
     table: StabilityTable,
     *,
     model_source: StatisticResult | None = None,
+    drift_model_source: tuple[Measurement, StatisticResult] | None = None,
     f_h: float | None = None,
     offset_source: Measurement | None = None,
     bias_correction: bool = True,
@@ -211,34 +223,54 @@ def qualify(
     the table holds none (the caller computes it; qualification does not call
     the estimators' orchestration). ``offset_source`` is the measurement whose
     frequency offset and drift are reported (default: the analysed one).
+    ``drift_model_source`` is (linearly detrended data, its raw OADEV): the
+    noise model behind the offset and drift uncertainties is fitted to it, so
+    that a drift in the data is not read as random-walk noise (without it the
+    table's own model is used).
     """
     measurement = table.measurement
     known = _known_estimates(table.results)
+    f_h = 1.0 / (2.0 * measurement.tau0) if f_h is None else float(f_h)
+    points = effective_points(measurement)
     results: dict[str, StatisticResult] = {}
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        identified: dict[tuple[str, tuple[int, ...]], NoiseResult] = {}
+        raw: dict[tuple[str, tuple[int, ...]], NoiseResult] = {}
         for name, result in table.results.items():
             stat = get_statistic(name)
             key = (stat.noise_source or stat.name, tuple(int(m) for m in result.m))
-            if stat.has_interval and key not in identified:
-                identified[key] = identify(measurement, key[0], result.m, known=known)
+            if stat.has_interval and key not in raw:
+                raw[key] = identify(measurement, key[0], result.m, known=known)
+        base = table.results.get("oadev", model_source)
+        first = None
+        if base is not None:
+            key = ("oadev", tuple(int(m) for m in base.m))
+            if key not in raw:
+                raw[key] = identify(measurement, "oadev", base.m, known=known)
+            first = _settled_model(base, raw[key], measurement, table.confidence, f_h)
+        weighed = {
+            key: weigh_evidence(found, measurement.tau0, points, first)
+            for key, found in raw.items()
+        }
+        for name, result in table.results.items():
+            stat = get_statistic(name)
+            key = (stat.noise_source or stat.name, tuple(int(m) for m in result.m))
             results[name] = qualify_result(
                 result,
                 measurement,
                 table.confidence,
-                noise=identified.get(key),
+                noise=weighed.get(key),
                 bias_correction=bias_correction,
             )
-        f_h = 1.0 / (2.0 * measurement.tau0) if f_h is None else float(f_h)
         source = results.get("oadev")
         if source is None and model_source is not None:
-            source = qualify_result(model_source, measurement, table.confidence, known=known)
-        model = (
-            None
-            if source is None
-            else fit_power_law(source.tau, source.deviation, source.edf, f_h=f_h)
-        )
+            key = ("oadev", tuple(int(m) for m in model_source.m))
+            source = qualify_result(model_source, measurement, table.confidence, noise=weighed[key])
+        model = _fit(source, f_h)
+        drift_model = model
+        if drift_model_source is not None:
+            detrended, raw_oadev = drift_model_source
+            drift_model = _fit(qualify_result(raw_oadev, detrended, table.confidence), f_h)
     if model is None:
         warnings.warn(
             "too few Allan deviation points to fit a power-law noise model",
@@ -249,7 +281,9 @@ def qualify(
         **table.extras,
         "power_law_model": model,
         "offset_drift": offset_and_drift_of(
-            measurement if offset_source is None else offset_source, model
+            measurement if offset_source is None else offset_source,
+            drift_model,
+            detrended=drift_model_source is not None,
         ),
         "bias_corrected": [r.statistic for r in results.values() if r.bias_corrected],
     }

@@ -7,6 +7,7 @@ from datetime import datetime, timedelta
 
 import numpy as np
 import pytest
+from scipy.stats import binomtest
 
 from stability import Measurement
 from stability.errors import AnalysisError, InputError
@@ -18,6 +19,7 @@ from stability.hat import (
     hat_variances,
     separate,
 )
+from stability.hat_intervals import combination_variance, difference_matrix, null_multiple
 
 N = 2**14
 
@@ -149,7 +151,14 @@ def test_negative_variance_is_reported_below_resolution():
     below = np.array([s == STATUS_BELOW for s in osc.status])
     assert below.any()
     assert np.isnan(osc.deviation[below]).all()
-    assert (osc.variance[below] <= 0).all()
+    # A negative estimate is always below resolution; a resolved one exceeds at least
+    # three times the hat's resolution there (stability.hat_intervals).
+    assert below[osc.variance <= 0].all()
+    assert (osc.variance[~below] > 3 * osc.resolution[~below]).all()
+    assert np.isfinite(osc.resolution).all() and (osc.resolution > 0).all()
+    # Below resolution the interval is [0, upper bound].
+    assert (osc.ci_low[below] == 0).all()
+    np.testing.assert_array_equal(osc.ci_high[below], osc.upper_bound[below])
     assert np.isfinite(osc.upper_bound).all() and (osc.upper_bound > 0).all()
     # The bound covers the true deviation (it is at least the hat's resolution).
     truth = 1e-14 / np.sqrt(osc.m)
@@ -235,3 +244,101 @@ def test_separate_uses_aligned_data():
     assert any("common span" in n for n in result.notes)
     # 2001 phase points less the 20 trimmed, N - 2m OADEV terms at m = 1 (SP 1065 section 5.2.4)
     assert all(r.n_terms[0] == 2001 - 20 - 2 for r in result.pairs.values())
+
+
+# ---------------------------------------------------------------------------- coverage
+def _coverage_rows(levels: dict[str, float], seeds: range, confidence: float):
+    """(oscillator, m, status, low, high, upper, truth) of every row over seeds.
+
+    White FM of sigma per 1 s sample: the true OADEV is sigma / sqrt(m) (NIST SP 1065
+    section 5.2.4: the expectation of the Allan variance of white FM is sigma^2 / m).
+    """
+    rows = []
+    for seed in seeds:
+        y = _white(levels, 4095, 1000 + seed)
+        result = separate(_pairs(y, TRIANGLE), confidence=confidence)
+        for name, level in levels.items():
+            osc = result[name]
+            for k, m in enumerate(osc.m):
+                rows.append(
+                    (
+                        name,
+                        int(m),
+                        osc.status[k],
+                        osc.ci_low[k],
+                        osc.ci_high[k],
+                        osc.upper_bound[k],
+                        level / math.sqrt(m),
+                    )
+                )
+    return rows
+
+
+def _judge_ok_rows(rows, confidence):
+    ok = [r for r in rows if r[2] == STATUS_OK]
+    hits = sum(r[3] <= r[6] <= r[4] for r in ok)
+    total = len(ok)
+    assert total >= 100, total
+    rate = hits / total
+    # Two-sided binomial test at the 0.1 % level and a +/- 5 point band (the project's
+    # acceptance for interval coverage, as in tests/test_qualify.py).
+    assert abs(rate - confidence) <= 0.05, (rate, total)
+    assert binomtest(hits, total, confidence).pvalue > 1e-3, (hits, total)
+    below = [r for r in rows if r[2] == STATUS_BELOW]
+    # A bound below resolution is the upper end of the two-sided interval on the
+    # variance, so it covers the truth at least at the interval's level.
+    if below:
+        covered = sum(r[6] <= r[5] for r in below)
+        assert binomtest(covered, len(below), confidence, alternative="less").pvalue > 1e-3
+        assert all(r[3] == 0.0 and r[4] == r[5] for r in below)
+    return ok, below
+
+
+@pytest.mark.parametrize("confidence", [0.683, 0.95])
+def test_rows_marked_ok_cover_at_their_level_with_one_quiet_oscillator(confidence):
+    # A and B white FM of sigma 1, C of sigma 0.05 (4095 samples): C's variance is
+    # 1/400 of theirs and drowns in the scatter of their pair estimates at every tau
+    # (Gray & Allan 1974: the estimates can even come out negative). The rows marked
+    # ok must cover at their level; C is almost never marked ok.
+    levels = {"A": 1.0, "B": 1.0, "C": 0.05}
+    rows = _coverage_rows(levels, range(60), confidence)
+    _judge_ok_rows(rows, confidence)
+    quiet = [r for r in rows if r[0] == "C"]
+    assert sum(r[2] == STATUS_OK for r in quiet) <= 0.01 * len(quiet)
+    at_128 = [r for r in quiet if r[1] == 128]
+    assert all(r[2] == STATUS_BELOW and np.isfinite(r[5]) for r in at_128)
+
+
+def test_rows_marked_ok_cover_at_their_level_with_three_equal_oscillators():
+    # Three white-FM oscillators of sigma 1 (4095 samples).
+    levels = {"A": 1.0, "B": 1.0, "C": 1.0}
+    ok, _ = _judge_ok_rows(_coverage_rows(levels, range(60), 0.683), 0.683)
+    # Every oscillator is resolved at short tau, where the pair EDFs are in the thousands.
+    assert {r[0] for r in ok if r[1] == 1} == {"A", "B", "C"}
+
+
+# ---------------------------------------------------------------------------- interval algebra
+def test_combination_variance_is_the_closed_form_for_three_oscillators():
+    # Var s_C^2 = (2 s_C^4 + s_A^2 s_C^2 + s_B^2 s_C^2 + s_A^2 s_B^2) / nu for one EDF nu
+    # (Isserlis 1918 on the quadratic forms of the Gray & Allan 1974 combination; derived
+    # in stability.hat_intervals).
+    names = ["A", "B", "C"]
+    coefs = hat_coefficients(TRIANGLE, names)
+    diff = difference_matrix(TRIANGLE, names)
+    s2 = np.array([[3.0], [2.0], [0.5]])  # sigma^2 of A, B, C at one tau
+    nu = 40.0
+    var = combination_variance(coefs, diff, s2, np.full((3, 1), nu))
+    a, b, c = s2[:, 0]
+    np.testing.assert_allclose(var[2, 0], (2 * c * c + a * c + b * c + a * b) / nu, rtol=1e-12)
+    np.testing.assert_allclose(var[0, 0], (2 * a * a + a * b + a * c + b * c) / nu, rtol=1e-12)
+
+
+def test_null_multiple_matches_the_laplace_law_at_two_degrees_of_freedom():
+    # With nu = 2, (X - Y) / 2 for X, Y independent chi-squared(2) is Laplace of scale 1,
+    # so P[(X - Y) / (2 sqrt 2) > t] = exp(-t sqrt 2) / 2 (exponential variables).
+    tail = 0.00135
+    expected = math.log(0.5 / tail) / math.sqrt(2.0)
+    assert null_multiple(2.0, tail) == pytest.approx(expected, rel=1e-6)
+    # Many degrees of freedom: the normal quantile; few: heavier tails, a larger multiple.
+    assert null_multiple(5000.0, tail) == pytest.approx(3.0, abs=0.01)
+    assert null_multiple(1.0, tail) > null_multiple(10.0, tail) > null_multiple(100.0, tail)

@@ -47,13 +47,22 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
             "stability.powerlaw",
         ),
     ),
-    (3, ("stability.noise", "stability.noise_methods", "stability.qualify")),
+    (
+        3,
+        (
+            "stability.noise",
+            "stability.noise_methods",
+            "stability.noise_evidence",
+            "stability.qualify",
+        ),
+    ),
     (4, ("stability.analysis",)),
     (5, ("stability.spec",)),
     (
         6,
         (
             "stability.hat",
+            "stability.hat_intervals",
             "stability.phase_noise",
             "stability.phase_noise_table",
             "stability.dynamic",

@@ -22,6 +22,8 @@ from stability.noise import (
     rn_expected,
     rn_noise_id,
 )
+from stability.noise_evidence import weigh_evidence
+from stability.powerlaw import model_from_levels
 from stability.simulate import power_law, simulate_measurement
 from stability.taus import tau_grid
 
@@ -283,3 +285,80 @@ def test_labels_follow_alpha():
     res = identify(meas, "oadev", [1, 2, 4, 8, 16, 32])
     for a, label in zip(res.alpha, res.noise, strict=True):
         assert label == LABELS[int(a)]
+
+
+# ---------------------------------------------------------------------- weighing across tau
+def _calls(alpha, method, uncertain, neighbour=None, m=None):
+    m = 2 ** np.arange(len(alpha)) if m is None else np.array(m)
+    alpha = np.array(alpha, dtype=float)
+    return NoiseResult(
+        statistic="oadev",
+        m=m,
+        alpha=alpha,
+        noise=[LABELS[int(a)] if np.isfinite(a) else "" for a in alpha],
+        method=list(method),
+        estimate=np.full(len(m), np.nan),
+        uncertain=np.array(uncertain, dtype=bool),
+        neighbour=np.full(len(m), np.nan) if neighbour is None else np.array(neighbour),
+    )
+
+
+def test_weak_calls_take_the_models_dominant_term_and_say_so():
+    # White FM model (h0 only): a B1 call of FFM at the longest tau is weak and becomes WFM
+    # (method "model"); the confident lag-1 calls stay as they are.
+    calls = _calls([0, 0, 0, -1], ["acf", "acf", "acf", "b1"], [False, False, False, True])
+    model = model_from_levels({0: 1.0}, 0.5)
+    model.tau_range = (1.0, 8.0)
+    out = weigh_evidence(calls, 1.0, 64, model)
+    assert out.noise == ["WFM"] * 4
+    assert out.method == ["acf", "acf", "acf", "model"]
+    assert any("method model" in n for n in out.notes)
+    assert calls.noise[-1] == "FFM"  # the input is not changed
+
+
+def test_monotone_fit_weighs_the_number_of_averages():
+    # Without a model: a whiter call at a longer tau is outvoted by the better-supported
+    # shorter tau (weights N/m); a lone red call at a short tau is outvoted by whiter
+    # calls at longer taus only where they hold more averages together (on a grid of
+    # every m, not on octaves, where one tau outweighs all longer ones). The method says
+    # "monotone" where the type changed.
+    whiter_late = weigh_evidence(_calls([-1, -1, 0, 0], ["acf"] * 4, [False] * 4), 1.0, 1024, None)
+    assert whiter_late.noise == ["FFM", "FFM", "FFM", "FFM"]
+    assert whiter_late.method == ["acf", "acf", "monotone", "monotone"]
+    alpha = [0, -1, 0, 0, 0, 0, 0, 0]
+    red_early = weigh_evidence(
+        _calls(alpha, ["acf"] * 8, [False] * 8, m=range(1, 9)), 1.0, 1024, None
+    )
+    assert red_early.noise == ["WFM"] * 8
+    assert red_early.method == ["acf", "monotone"] + ["acf"] * 6
+    on_octaves = weigh_evidence(_calls(alpha[:5], ["acf"] * 5, [False] * 5), 1.0, 1024, None)
+    assert on_octaves.noise == ["WFM"] + ["FFM"] * 4
+    for out in (whiter_late, red_early, on_octaves):
+        assert np.all(np.diff(out.alpha) <= 0)
+
+
+def test_a_type_between_the_models_terms_is_noted():
+    # White PM eight times white FM in AVAR at 1 s (SP 1065 closed forms with f_h = 0.5):
+    # an FPM call at 1 s lies between the two model terms.
+    h0 = 1.0
+    h2 = 8.0 * h0 / 2.0 / (3.0 * 0.5 / (4.0 * math.pi**2))
+    model = model_from_levels({2: h2, 0: h0}, 0.5)
+    model.tau_range = (1.0, 8.0)
+    out = weigh_evidence(_calls([1], ["acf"], [False]), 1.0, 4096, model)
+    assert out.noise == ["FPM"]
+    assert "noise type at tau 1 s lies between WPM and WFM" in out.notes
+    # Without a model, a lag-1 call near its boundary says which neighbour it is near.
+    near = _calls([0], ["acf"], [True], neighbour=[-1.0])
+    assert weigh_evidence(near, 1.0, 4096, None).notes == [
+        "noise type at tau 1 s lies between WFM and FFM"
+    ]
+
+
+def test_lag1_calls_near_a_boundary_are_marked_uncertain():
+    # 42 points of white FM (m = 2048 in a day at 1 s): the standard error of the lag-1
+    # estimate is about 0.3 (Bartlett), and the FFM expectation lies 0.8 away, so most
+    # such calls are near the boundary; with 20000 points none are.
+    short = identify(simulate_measurement(86400, 1.0, levels={0: 1.0}, seed=3), "oadev", [2048])
+    assert short.method == ["acf"] and short.uncertain[0]
+    long = identify(simulate_measurement(20000, 1.0, levels={0: 1.0}, seed=3), "oadev", [1, 2])
+    assert not long.uncertain.any() and np.isnan(long.neighbour).all()
