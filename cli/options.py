@@ -65,6 +65,7 @@ __all__ = [
     "KIND",
     "COLUMN",
     "TIME_COLUMN",
+    "BIAS_CORRECTION",
     "STAMP_TOLERANCE",
     "TIMEZONE",
     "SHEET",
@@ -403,6 +404,25 @@ CONFIDENCE = OptionSpec(
     metavar="P",
     check=_confidence,
 )
+
+
+def _on_off(value: str) -> bool:
+    word = str(value).strip().lower()
+    if word not in ("on", "off"):
+        raise InputError(f"--bias-correction takes on or off, got {value!r}")
+    return word == "on"
+
+
+BIAS_CORRECTION = OptionSpec(
+    "bias_correction",
+    "--bias-correction",
+    str,
+    "on",
+    "Correct the bias of the total and Theo families for the identified noise type "
+    "(on), or report the raw estimates (off); corrected rows are marked either way.",
+    metavar="on|off",
+    check=_on_off,
+)
 OUT = OptionSpec(
     "out",
     "--out",
@@ -450,7 +470,7 @@ READING = (
     STRICT,
 )
 PREPARING = (OUTLIERS, DRIFT, AVERAGE)
-ANALYSING = (STATS, TAUS, CONFIDENCE)
+ANALYSING = (STATS, TAUS, CONFIDENCE, BIAS_CORRECTION)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)
 
 #: Option names that are settings of :class:`RunSettings` (the rest are outputs).

@@ -6,6 +6,7 @@ from __future__ import annotations
 import json
 import subprocess
 import sys
+from pathlib import Path
 
 import numpy as np
 
@@ -64,3 +65,18 @@ def test_timezone_and_engine_are_usage_checked(tmp_path):
     ok = _run("analyze", str(log), "--timezone", "Europe/Berlin", "--engine", "pandas",
               "--out", str(tmp_path / "ok"), "--json")  # fmt: skip
     assert ok.returncode == 0, ok.stderr
+
+
+def test_bias_correction_off_on_the_command_line(tmp_path):
+    # NBS14 (NIST SP 1065 section 12.3): TOTDEV(2 s) = 93.90379 as published, raw.
+    nbs14 = Path(__file__).resolve().parents[2] / "datasets/reference/nbs14.txt"
+    done = _run("analyze", str(nbs14), "--kind", "fractional", "--tau0", "1s", "--stats",
+                "totdev", "--taus", "1,2", "--bias-correction", "off", "--out", str(tmp_path),
+                "--json")  # fmt: skip
+    assert done.returncode == 0, done.stderr
+    summary = json.loads(done.stdout)
+    assert summary["settings"]["bias_correction"] is False
+    rows = [r for r in summary["table"] if r["statistic"] == "totdev"]
+    assert abs(rows[1]["deviation"] - 93.90379) < 5e-6 and rows[1]["bias_factor"] == 1.0
+    bad = _run("analyze", str(nbs14), "--bias-correction", "maybe", "--out", str(tmp_path / "b"))
+    assert bad.returncode == 2 and bad.stderr.count("\n") == 1
