@@ -37,6 +37,7 @@ from .hints import ReadHints
 from .local_time import daylight_saving_step
 from .report import LIST_LIMIT, LogReport
 from .rows import DataRows
+from .timing import check_stamps
 
 __all__ = [
     "InputHasher",
@@ -132,13 +133,16 @@ def place_on_grid(
         )
         rep.tau0 = hints.tau0
         return rows, GridPlacement(hints.tau0, rows.values.size, np.arange(rows.values.size))
-    seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
     rep.time_column = " + ".join(plan.display[c] for c in plan.time_cols)
     rep.time_format = plan.time_fmt.description
+    check_stamps(rows.ticks, plan.time_fmt, rows.lines, path, rep.time_column, hints.allow_unusual)
+    seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
     if plan.time_fmt.style == "datetime" and not plan.time_fmt.aware:
         _refuse_daylight_saving(seconds, start, rows.lines, hints, path, rep.time_column)
     tolerance = DEFAULT_STAMP_TOLERANCE if hints.stamp_tolerance is None else hints.stamp_tolerance
-    grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column, tolerance)
+    grid = build_grid(
+        seconds, rows.lines, hints.tau0, path, rep.time_column, tolerance, hints.allow_unusual
+    )
     rep.stamp_tolerance = tolerance
     _report_spacing(grid, hints.tau0, rep)
     _report_dropped(grid, rows.lines, rep)
