@@ -73,6 +73,8 @@ __all__ = [
     "NOMINAL",
     "WRAP",
     "STRICT",
+    "UNUSUAL_TIMING",
+    "MAX_EXPANSION",
     "OUTLIERS",
     "DRIFT",
     "AVERAGE",
@@ -167,8 +169,14 @@ def _taus(value: str) -> str:
     return value.strip().lower()
 
 
-def _confidence(value: float) -> float:
-    return check_confidence(value, "the level")
+def _confidence(value: Any) -> float:
+    """``--confidence``: checked as written, so the message shows the text given."""
+    text = str(value).strip()
+    try:
+        level: Any = float(text)
+    except ValueError:
+        level = text
+    return check_confidence(level, "the level", written=text)
 
 
 def _stats(choices: tuple[str, ...] | None, one: bool, where: str) -> Callable[[str], str]:
@@ -330,6 +338,22 @@ WRAP = OptionSpec(
     check=duration_check("--wrap"),
 )
 STRICT = _flag("strict", "--strict", "Make every unreadable row an error instead of a gap.")
+UNUSUAL_TIMING = _flag(
+    "allow_unusual",
+    "--unusual-timing",
+    "Read a sample interval below 1 ns or above one day, a record spanning more than a "
+    "century, or a log whose time grid is mostly gaps, instead of refusing it.",
+)
+MAX_EXPANSION = OptionSpec(
+    "max_expansion",
+    "--max-expansion",
+    str | None,
+    None,
+    "How many times its size a compressed log may expand to (default 100; never beyond "
+    "a third of the available memory).",
+    metavar="RATIO",
+    check=reading_check("max_expansion"),
+)
 OUTLIERS = OptionSpec(
     "outliers",
     "--outliers",
@@ -397,7 +421,7 @@ TAUS = OptionSpec(
 CONFIDENCE = OptionSpec(
     "confidence",
     "--confidence",
-    float,
+    str,
     0.683,
     "Two-sided confidence level of the intervals, between 0 and 1.",
     metavar="P",
@@ -448,6 +472,8 @@ READING = (
     SHEET,
     ENGINE,
     STRICT,
+    UNUSUAL_TIMING,
+    MAX_EXPANSION,
 )
 PREPARING = (OUTLIERS, DRIFT, AVERAGE)
 ANALYSING = (STATS, TAUS, CONFIDENCE)

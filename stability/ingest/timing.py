@@ -33,14 +33,14 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
+from ..measurement import TAU0_RANGE
 from .limits import SPAN_MAX, TAU0_MIN, UNUSUAL_OPTION, usual_interval
 from .timestamps import MJD_UNIX_EPOCH, TimeFormat
 
 __all__ = ["TAU0_HARD_MIN", "TAU0_HARD_MAX", "check_interval", "check_stamps", "check_span"]
 
 #: The sample intervals the arithmetic carries at all (tau squared stays a normal float).
-TAU0_HARD_MIN = 1e-30
-TAU0_HARD_MAX = 1e30
+TAU0_HARD_MIN, TAU0_HARD_MAX = TAU0_RANGE
 #: Seconds since 1970 of the first and last instant a 64-bit nanosecond count holds.
 _FIRST_S = pd.Timestamp.min.value / 1e9
 _LAST_S = pd.Timestamp.max.value / 1e9

@@ -25,6 +25,8 @@ from typing import Any
 
 from ..deviations import get_statistic
 from ..errors import InputError, SpecError
+from ..files import special_file
+from ..intervals import MAX_CONFIDENCE
 from .model import _LEVEL_NAMES, Info, Reference, Spec
 
 __all__ = ["load_spec", "load_info", "parse_spec", "parse_info"]
@@ -40,10 +42,22 @@ _INFO_TABLES = {
 _INFO_KEYS = (*_INFO_TABLES, "procedure", "notes")
 
 
+#: Bytes a specification or information file may hold (they are a few hundred).
+MAX_FILE_BYTES = 1 << 20
+#: Limits of a specification and points of a reference's stated stability: a mask
+#: lists a handful of taus (common practice), so thousands are a mistake (and the
+#: record would print every one: 10 000 limits take half a minute to typeset).
+MAX_POINTS = 1_000
+
+
 def _read_toml(path: str | os.PathLike[str], what: str) -> tuple[dict[str, Any], str, str]:
     source = Path(path)
+    special = special_file(source)
+    if special is not None:
+        raise SpecError(f"the {what} file is {special}", path=str(source)) from None
     try:
-        data = source.read_bytes()
+        with open(source, "rb") as handle:
+            data = handle.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         raise SpecError(f"no such {what} file", path=str(source), hint="check the path") from None
     except IsADirectoryError:
@@ -52,6 +66,13 @@ def _read_toml(path: str | os.PathLike[str], what: str) -> tuple[dict[str, Any],
         raise SpecError(
             f"cannot read the {what} file: {exc.strerror or exc}", path=str(source)
         ) from None
+    if len(data) > MAX_FILE_BYTES:
+        raise SpecError(
+            f"the {what} file holds more than {MAX_FILE_BYTES:,} bytes, far more than "
+            f"a {what} needs",
+            path=str(source),
+            hint="check that this is the right file",
+        )
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as exc:
@@ -157,7 +178,7 @@ def parse_spec(table: dict[str, Any], *, path: str | None = None, text: str | No
         ) from None
     confidence = table.get("confidence", 0.95)
     level = _number(confidence)
-    if level is None or not 0.0 < level < 1.0:
+    if level is None or not 0.0 < level <= MAX_CONFIDENCE:
         raise bad(
             f"key 'confidence' must be a number between 0 and 1 (exclusive), got {confidence!r}",
             "confidence",
@@ -181,6 +202,13 @@ def parse_spec(table: dict[str, Any], *, path: str | None = None, text: str | No
             "key 'limit' must be one or more [[limit]] tables with tau_s and max",
             "limit",
             hint="write [[limit]] on its own line, then tau_s = ... and max = ...",
+        )
+    if len(rows) > MAX_POINTS:
+        raise bad(
+            f"the specification lists {len(rows):,} limits, more than the {MAX_POINTS:,} "
+            "a specification may hold",
+            "limit",
+            hint="list the limits at the taus that matter (interpolate = true fills between)",
         )
     limits: list[tuple[float, float]] = []
     for i, row in enumerate(rows):
@@ -312,6 +340,14 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
         pairs: list[tuple[float, float]] = []
         if not isinstance(points, list) or not points:
             points = [None]
+        if len(points) > MAX_POINTS:
+            raise SpecError(
+                f"key 'reference.stability' lists {len(points):,} points, more than the "
+                f"{MAX_POINTS:,} it may hold",
+                path=where,
+                line=line,
+                hint="list the stated stability at the taus that matter",
+            )
         for item in points:
             ok = isinstance(item, list) and len(item) == 2
             tau = _number(item[0]) if ok else None
