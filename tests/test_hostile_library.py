@@ -14,11 +14,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from stability import InputError, SpecError, analyze
+from stability import AnalysisError, InputError, SpecError, analyze
 from stability.files import special_file
 from stability.intervals import check_confidence
 from stability.measurement import Measurement
 from stability.outputs import OutputSet, same_file
+from stability.run import run_analysis
 from stability.spec.reading import MAX_POINTS, load_info, load_spec, parse_spec
 
 DEMO = Path(__file__).resolve().parents[1] / "datasets" / "demo"
@@ -141,3 +142,21 @@ def test_same_file_survives_a_link_loop(tmp_path):
     loop = tmp_path / "loop.csv"
     loop.symlink_to(loop)
     assert same_file(tmp_path / "out" / "table.csv", loop) is False
+
+
+# ------------------------------------------------------------------ nothing left to estimate
+def test_drift_model_with_as_many_parameters_as_samples_is_refused():
+    # three invented readings: a quadratic passes through all three, leaving rounding
+    m = Measurement.from_frequency(np.array([1.19, 0.3, 0.5]) * 1e-11, 1.0)
+    with pytest.raises(AnalysisError, match=r"quadratic drift \(3 parameters\) from 3 usable"):
+        run_analysis(m, drift="quadratic", stats="oadev")
+    assert run_analysis(m, drift="linear", stats="oadev").table.to_frame()["deviation"][0] > 0
+
+
+def test_stuck_readings_with_every_other_slot_empty_are_refused():
+    # a stuck counter (the same time error every time), read on a grid twice as fine
+    phase = np.full(61, 1e-9)
+    phase[1::2] = np.nan
+    m = Measurement.from_phase(phase, 0.5)
+    with pytest.raises(AnalysisError, match=r"no instability to estimate"):
+        run_analysis(m, stats="oadev")

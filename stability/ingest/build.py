@@ -337,6 +337,7 @@ def canonical_series(
         else:
             series = (readings * vk.scale - nominal) / nominal
     elif vk.kind == "fractional":
+        _check_fractional(rows, vk, path, column, more_hint)
         series = readings * vk.scale
     elif vk.kind == "carrier":
         if nominal is None:
@@ -347,13 +348,59 @@ def canonical_series(
                 hint="pass --nominal, e.g. --nominal 10MHz",
             )
         rep.nominal_source = "given"
-        series = readings * vk.scale / nominal
+        with np.errstate(over="ignore"):
+            series = readings * vk.scale / nominal
+        _check_time_error(series, rows, path, column)
     else:
-        series = readings * vk.scale
+        with np.errstate(over="ignore"):
+            series = readings * vk.scale
+        _check_time_error(series, rows, path, column)
         if nominal is not None:
             rep.nominal_source = "given"
     rep.nominal = nominal
     return series, nominal
+
+
+#: The largest time error read, seconds: a century (beyond it no clock is compared).
+_TIME_ERROR_LIMIT = 100 * 365.25 * 86400.0
+
+
+def _check_time_error(series: np.ndarray, rows: DataRows, path: str, column: str) -> None:
+    """Time error beyond a century (or beyond float64) is a column of another kind."""
+    with np.errstate(invalid="ignore"):
+        wild = np.flatnonzero(np.isinf(series) | (np.abs(series) > _TIME_ERROR_LIMIT))
+    if not wild.size:
+        return
+    i = int(wild[0])
+    raise InputError(
+        f"a time error of {series[i]:.6g} s is more than a "
+        "century: this column does not hold the time error of a clock",
+        path=path,
+        line=int(rows.lines[i]),
+        column=column,
+        hint="check the column (--column), its unit, or --kind",
+    )
+
+
+def _check_fractional(
+    rows: DataRows, vk: vals.ValueKind, path: str, column: str, more_hint: str
+) -> None:
+    """Fractional frequency (f - f0)/f0 is far below 1 in size: a reading of 1 or more
+    is a column of another kind (hertz, a count), and its digits would swamp the rest."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        big = np.flatnonzero(np.abs(rows.values * vk.scale) >= 1.0)
+    if not big.size:
+        return
+    i = int(big[0])
+    raise InputError(
+        f"{big.size} reading(s) of {rows.values[i] * vk.scale:.6g} or the like are not a "
+        "fractional frequency, which is (f - f0)/f0 and far below 1 in size",
+        path=path,
+        line=int(rows.lines[i]),
+        column=column,
+        hint="pass --kind frequency (with --nominal) if the column holds hertz, or check "
+        "its unit" + more_hint,
+    )
 
 
 def _frequency_nominal(
@@ -463,6 +510,13 @@ def make_measurement(
         notes=list(rep.notes),
     )
     if n_grid < 2:
+        if total_rows >= 2:  # every row landed in one slot of the grid
+            raise InputError(
+                f"the {total_rows} data rows all fall in one slot of the time grid "
+                f"(tau0 {format_duration(placement.tau0)}): one sample, and two are needed",
+                path=rep.path,
+                hint="pass the interval between rows as --tau0, or leave it out",
+            )
         raise InputError(
             "a single data row: at least two samples are needed",
             path=rep.path,

@@ -45,7 +45,7 @@ from .parsing import decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
 from .rows import DataRows, data_rows
 from .sniff import Dialect, RawSource, open_source, sniff_dialect
-from .timing import check_interval
+from .timing import check_interval, check_nominal
 
 __all__ = ["read_log", "inspect_log", "validate_read_args", "KINDS"]
 
@@ -83,12 +83,15 @@ def validate_read_args(
     step = None if tau0 is None else parse_duration(tau0, "tau0")
     if step is not None:
         check_interval(step, "tau0", unusual, tau0)
+    carrier = None if nominal is None else parse_frequency(nominal, "nominal")
+    if carrier is not None:
+        check_nominal(carrier, unusual, nominal)
     return ReadHints(
         kind=k,
         column=column,
         time_column=time_column,
         tau0=step,
-        nominal=None if nominal is None else parse_frequency(nominal, "nominal"),
+        nominal=carrier,
         wrap=None if wrap is None else parse_duration(wrap, "wrap"),
         strict=bool(strict),
         stamp_tolerance=_stamp_tolerance(stamp_tolerance),

@@ -37,7 +37,15 @@ from ..measurement import TAU0_RANGE
 from .limits import SPAN_MAX, TAU0_MIN, UNUSUAL_OPTION, usual_interval
 from .timestamps import MJD_UNIX_EPOCH, TimeFormat
 
-__all__ = ["TAU0_HARD_MIN", "TAU0_HARD_MAX", "check_interval", "check_stamps", "check_span"]
+__all__ = [
+    "TAU0_HARD_MIN",
+    "TAU0_HARD_MAX",
+    "NOMINAL_RANGE",
+    "check_interval",
+    "check_nominal",
+    "check_stamps",
+    "check_span",
+]
 
 #: The sample intervals the arithmetic carries at all (tau squared stays a normal float).
 TAU0_HARD_MIN, TAU0_HARD_MAX = TAU0_RANGE
@@ -68,6 +76,24 @@ def check_interval(seconds: float, what: str, allow_unusual: bool, written: obje
     raise InputError(
         f"{what} {shown} is {side}, outside the usual sample intervals of a log (1 ns to 1 day)",
         hint=f"check the unit (e.g. 1s, 100ms); pass {UNUSUAL_OPTION} if it is right",
+    )
+
+
+#: Nominal frequencies read without ``allow_unusual``, Hz: from a microhertz to ten
+#: petahertz (optical clocks run near 1e15 Hz; a pulse per day is 1.2e-5 Hz).
+NOMINAL_RANGE = (1e-6, 1e16)
+
+
+def check_nominal(hz: float, allow_unusual: bool, written: object = None) -> None:
+    """Refuse a nominal frequency outside :data:`NOMINAL_RANGE` (unless ``allow_unusual``)."""
+    low, high = NOMINAL_RANGE
+    if allow_unusual or low <= hz <= high:
+        return
+    shown = repr(written) if isinstance(written, str) else f"{hz:g} Hz"
+    raise InputError(
+        f"nominal {shown} lies outside the frequencies of oscillators and clocks "
+        f"({low:g} Hz to {high:g} Hz)",
+        hint=f"check the number and its unit, e.g. 10MHz; pass {UNUSUAL_OPTION} if it is right",
     )
 
 

@@ -278,3 +278,24 @@ def test_gap_read_when_asked_but_never_beyond_memory(tmp_path, monkeypatch):
     monkeypatch.setattr(grid, "available_bytes", lambda: 100_000)
     with pytest.raises(InputError, match=r"pause.csv:103 .*more than the memory available"):
         read_log(p, allow_unusual=True)
+
+
+# ------------------------------------------------------------------ values of another kind
+def test_nominal_outside_any_oscillator(tmp_path):
+    p = tmp_path / "cycles.csv"
+    p.write_text("cycles\n" + "\n".join(_values(60)) + "\n")
+    with pytest.raises(InputError, match=r"nominal '1e-300Hz' lies outside the frequencies"):
+        read_log(p, tau0="1s", nominal="1e-300Hz")
+    with pytest.raises(InputError, match=r"nominal '1e20Hz' .*--unusual-timing"):
+        read_log(p, tau0="1s", nominal="1e20Hz")
+
+
+def test_time_error_beyond_a_century_is_another_column(tmp_path):
+    rows = [f"{i},{v}" for i, v in enumerate(_values(N))]
+    rows[7] = "7,7.3e20"  # 7.3e11 s, 23 000 years: no clock's time error
+    p = tmp_path / "wild.csv"
+    p.write_text("t,TI [ns]\n" + "\n".join(rows) + "\n")
+    with pytest.raises(
+        InputError, match=r"wild.csv:9 column TI \[ns\]: a time error of 7.3e\+11 s"
+    ):
+        read_log(p)
