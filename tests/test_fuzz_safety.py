@@ -111,7 +111,7 @@ def _mutate(text: str, ops: list[tuple[str, int, str]]) -> str:
     return text
 
 
-@_fuzz(120)
+@_fuzz(300)
 @given(data=st.binary(max_size=1500))
 def test_random_bytes(tmp_path, data):
     p = tmp_path / "random.bin"
@@ -119,7 +119,7 @@ def test_random_bytes(tmp_path, data):
     _read_then_analyse(p)
 
 
-@_fuzz(150)
+@_fuzz(300)
 @given(ops=_OPS)
 def test_mutations_of_a_valid_log(tmp_path, ops):
     p = tmp_path / "log.csv"
@@ -142,7 +142,7 @@ def _wrap(data: bytes, container: str) -> bytes:
     return buf.getvalue()
 
 
-@_fuzz(100)
+@_fuzz(200)
 @given(
     ops=st.one_of(st.just([]), _OPS),
     container=st.sampled_from(["gzip", "bz2", "xz", "zip", "zip-stored"]),
@@ -188,13 +188,13 @@ def _load_both(tmp_path: Path, text: str) -> None:
     _only_documented(load_info, p)
 
 
-@_fuzz(200)
+@_fuzz(400)
 @given(text=st.one_of(_TOMLISH, st.lists(_KEYS, max_size=12).map("".join)))
 def test_random_spec_and_info_text(tmp_path, text):
     _load_both(tmp_path, text)
 
 
-@_fuzz(150)
+@_fuzz(300)
 @given(which=st.sampled_from(["spec-example.toml", "info-example.toml"]), ops=_OPS)
 def test_mutations_of_the_example_spec_and_info(tmp_path, which, ops):
     _load_both(tmp_path, _mutate((DEMO / which).read_text(), ops))

@@ -19,6 +19,7 @@ from stability.files import special_file
 from stability.intervals import check_confidence
 from stability.measurement import Measurement
 from stability.outputs import OutputSet, same_file
+from stability.phase_noise_table import read_phase_noise_table
 from stability.run import run_analysis
 from stability.spec.reading import MAX_POINTS, load_info, load_spec, parse_spec
 
@@ -160,3 +161,14 @@ def test_stuck_readings_with_every_other_slot_empty_are_refused():
     m = Measurement.from_phase(phase, 0.5)
     with pytest.raises(AnalysisError, match=r"no instability to estimate"):
         run_analysis(m, stats="oadev")
+
+
+def test_phase_noise_table_from_a_device_or_an_oversized_file(tmp_path):
+    if os.path.exists("/dev/zero"):
+        with pytest.raises(InputError, match=r"/dev/zero: the phase-noise table is a device"):
+            read_phase_noise_table("/dev/zero")
+    big = tmp_path / "big.txt"
+    with open(big, "wb") as handle:
+        handle.truncate(17 * 1024 * 1024)
+    with pytest.raises(InputError, match=r"big.txt: the phase-noise table holds more than"):
+        read_phase_noise_table(big)
