@@ -218,8 +218,9 @@ def _report_bad_values(
     rep.bad_value_count = int(bad_rows.size)
 
 
-#: Years a date-time stamp can be read in (a 64-bit count of nanoseconds since 1970).
-_READABLE_YEARS = (1677, 2262)
+#: Whole years a date-time stamp can be read in (a 64-bit count of nanoseconds since
+#: 1970 reaches from 1677-09-21 to 2262-04-11).
+_READABLE_YEARS = (1678, 2262)
 
 
 def _check_stamps_read(stamped: int, plan: ColumnPlan, rep: LogReport, path: str) -> None:
@@ -237,7 +238,10 @@ def _check_stamps_read(stamped: int, plan: ColumnPlan, rep: LogReport, path: str
     years = [int(y) for y in re.findall(r"(?<!\d)(\d{4})(?!\d)", first["text"])]
     low, high = _READABLE_YEARS
     if any(not low <= y <= high for y in years):
-        why = f", a date outside the years {low} to {high} that time stamps can be read in"
+        why = (
+            ", a date outside the years 1677 to 2262 that time stamps can be read in "
+            "(1677-09-21 to 2262-04-11)"
+        )
     fmt = plan.time_fmt.description if plan.time_fmt is not None else "a time stamp"
     raise InputError(
         f"{lost} row(s) have a time stamp that does not read as {fmt} ({stamped} do), "
