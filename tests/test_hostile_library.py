@@ -172,3 +172,34 @@ def test_phase_noise_table_from_a_device_or_an_oversized_file(tmp_path):
         handle.truncate(17 * 1024 * 1024)
     with pytest.raises(InputError, match=r"big.txt: the phase-noise table holds more than"):
         read_phase_noise_table(big)
+
+
+@pytest.mark.parametrize(
+    ("key", "value", "match"),
+    [
+        ("tau_s", "1e308", r"'tau_s' in \[\[limit\]\] number 1 must be a positive number of"),
+        ("max", "5e-324", r"'max' in \[\[limit\]\] number 1 must be a positive number from"),
+    ],
+)
+def test_spec_numbers_beyond_any_oscillator(tmp_path, key, value, match):
+    text = (DEMO / "spec-example.toml").read_text()
+    text = text.replace("tau_s = 1\n" if key == "tau_s" else "max = 2e-11", f"{key} = {value}\n", 1)
+    spec = tmp_path / "spec.toml"
+    spec.write_text(text)
+    with pytest.raises(SpecError, match=match):
+        load_spec(spec)
+
+
+@pytest.mark.parametrize(
+    ("reference", "match"),
+    [
+        ("stability = [[1, 1e300]]", r"reference.stability' must be \[\[tau_s, deviation\]"),
+        ("levels = {h0 = 1e308}", r"reference.levels.h0' must be a number from 0 to 1000"),
+        ("levels = {h0 = 1e-24}\nf_h = 5e-324", r"reference.f_h' must be a positive frequency"),
+    ],
+)
+def test_reference_numbers_beyond_any_oscillator(tmp_path, reference, match):
+    info = tmp_path / "info.toml"
+    info.write_text(f'[device]\nid = "X"\n[reference]\n{reference}\n')
+    with pytest.raises(SpecError, match=match):
+        load_info(info)

@@ -48,6 +48,18 @@ MAX_FILE_BYTES = 1 << 20
 #: lists a handful of taus (common practice), so thousands are a mistake (and the
 #: record would print every one: 10 000 limits take half a minute to typeset).
 MAX_POINTS = 1_000
+#: The ranges a number of these files may take: averaging times from a femtosecond
+#: to thirty million years, deviations (fractional, or seconds for the time
+#: statistics) up to 1000, power-law levels up to 1000 and f_h from 1e-15 Hz to
+#: 1e15 Hz. Anything beyond is a slip of the exponent, and squaring it overflows.
+_TAU_RANGE = (1e-15, 1e15)
+_DEVIATION_RANGE = (1e-30, 1e3)
+_LEVEL_MAX = 1e3
+_F_H_RANGE = (1e-15, 1e15)
+
+
+def _within(value: float | None, bounds: tuple[float, float]) -> bool:
+    return value is not None and bounds[0] <= value <= bounds[1]
 
 
 def _read_toml(path: str | os.PathLike[str], what: str) -> tuple[dict[str, Any], str, str]:
@@ -231,19 +243,19 @@ def parse_spec(table: dict[str, Any], *, path: str | None = None, text: str | No
                     hint="each [[limit]] has tau_s and max",
                 )
         tau = _number(row["tau_s"])
-        if tau is None or tau <= 0:
+        if not _within(tau, _TAU_RANGE):
             raise bad(
-                f"key 'tau_s' in [[limit]] number {i + 1} must be a positive number of seconds, "
-                f"got {row['tau_s']!r}",
+                f"key 'tau_s' in [[limit]] number {i + 1} must be a positive number of seconds "
+                f"from {_TAU_RANGE[0]:g} to {_TAU_RANGE[1]:g}, got {row['tau_s']!r}",
                 "tau_s",
                 i,
                 "limit",
             )
         top = _number(row["max"])
-        if top is None or top <= 0:
+        if not _within(top, _DEVIATION_RANGE):
             raise bad(
-                f"key 'max' in [[limit]] number {i + 1} must be a positive number, "
-                f"got {row['max']!r}",
+                f"key 'max' in [[limit]] number {i + 1} must be a positive number from "
+                f"{_DEVIATION_RANGE[0]:g} to {_DEVIATION_RANGE[1]:g}, got {row['max']!r}",
                 "max",
                 i,
                 "limit",
@@ -352,10 +364,11 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
             ok = isinstance(item, list) and len(item) == 2
             tau = _number(item[0]) if ok else None
             dev = _number(item[1]) if ok else None
-            if tau is None or dev is None or tau <= 0 or dev <= 0:
+            if not (_within(tau, _TAU_RANGE) and _within(dev, _DEVIATION_RANGE)):
                 raise SpecError(
-                    f"key 'reference.stability' must be [[tau_s, deviation], ...] with positive "
-                    f"numbers, got {item!r}",
+                    f"key 'reference.stability' must be [[tau_s, deviation], ...] with taus "
+                    f"from {_TAU_RANGE[0]:g} to {_TAU_RANGE[1]:g} s and deviations from "
+                    f"{_DEVIATION_RANGE[0]:g} to {_DEVIATION_RANGE[1]:g}, got {item!r}",
                     path=where,
                     line=line,
                     hint="e.g. stability = [[1, 2e-13], [100, 5e-14]]",
@@ -389,9 +402,10 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
                     hint=f"names: {', '.join(_LEVEL_NAMES)} (h_alpha of S_y(f) = h_alpha f^alpha)",
                 )
             number = _number(value)
-            if number is None or number < 0:
+            if number is None or not 0 <= number <= _LEVEL_MAX:
                 raise SpecError(
-                    f"key 'reference.levels.{key}' must be a non-negative number, got {value!r}",
+                    f"key 'reference.levels.{key}' must be a number from 0 to {_LEVEL_MAX:g}, "
+                    f"got {value!r}",
                     path=where,
                     line=line,
                 )
@@ -399,9 +413,10 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
         ref.levels = out
     if "f_h" in raw:
         f_h = _number(raw["f_h"])
-        if f_h is None or f_h <= 0:
+        if not _within(f_h, _F_H_RANGE):
             raise SpecError(
-                f"key 'reference.f_h' must be a positive frequency in Hz, got {raw['f_h']!r}",
+                f"key 'reference.f_h' must be a positive frequency from {_F_H_RANGE[0]:g} to "
+                f"{_F_H_RANGE[1]:g} Hz, got {raw['f_h']!r}",
                 path=where,
                 line=_line_of(text, "f_h") or None,
             )
