@@ -4,12 +4,11 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import typer
-
 from stability.reports.tables import terminal_table
 from stability.summary import summary_json
 from stability.workflow import analyze_into
 
+from .common import echo
 from .options import ANALYSING, PREPARING, READING, WRITING, LogArg, RunOptions, command
 from .progress import ProgressDisplay, step_count
 from .reporting import summary_block
@@ -38,10 +37,10 @@ def analyze(log: LogArg, *, opts: RunOptions) -> None:
             on_step=bar.steps(log.name, step_count(opts.settings.analysis.stats)),
         )
     if opts.json:
-        typer.echo(summary_json(run.summary()), nl=False)
+        echo(summary_json(run.summary()), nl=False)
         return
-    typer.echo(terminal_table(run.table))
-    typer.echo("")
-    typer.echo(summary_block(run))
-    typer.echo("")
-    typer.echo(f"wrote {len(written)} files into {folder}")
+    echo(terminal_table(run.table))
+    echo("")
+    echo(summary_block(run))
+    echo("")
+    echo(f"wrote {len(written)} files into {folder}")

@@ -22,6 +22,7 @@ from __future__ import annotations
 import contextlib
 import errno
 import os
+import re
 import signal
 import sys
 import traceback
@@ -45,6 +46,8 @@ __all__ = [
     "guarded",
     "fail",
     "show_warning",
+    "printable",
+    "echo",
 ]
 
 EXIT_OK = 0
@@ -61,19 +64,40 @@ class _PipeClosed(Exception):
     typer's own handler (which exits 1) lets it pass to :meth:`StabilityGroup.main`."""
 
 
+#: Control characters (C0, DEL, C1) but tab and newline: text from logs and
+#: information files could move the cursor, retitle the window or hide a line.
+_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+
+
+def printable(text: Any) -> str:
+    """``text`` with control characters removed (tab and newline kept), safe for a terminal.
+
+    Everything a command prints passes through here (:func:`echo`), so an escape
+    sequence written into a log's header or a device id is shown as plain text
+    instead of acting on the terminal (ECMA-48 control functions begin with
+    ESC or a C1 character).
+    """
+    return _CONTROL.sub("", str(text))
+
+
+def echo(message: Any = "", *, nl: bool = True, err: bool = False) -> None:
+    """Print one piece of a command's output (control characters removed)."""
+    typer.echo(printable(message), nl=nl, err=err)
+
+
 def _one_line(text: str) -> str:
-    return " ".join(str(text).split())
+    return " ".join(printable(text).split())
 
 
 def fail(message: str, code: int = EXIT_ERROR) -> None:
     """Print one ``error:`` line on standard error and exit with ``code``."""
-    typer.echo(f"error: {_one_line(message)}", err=True)
+    echo(f"error: {_one_line(message)}", err=True)
     raise typer.Exit(code)
 
 
 def show_warning(message: Warning | str, category: type[Warning], *_: Any, **__: Any) -> None:
     """Print a warning as one ``warning:`` line on standard error (no source line)."""
-    typer.echo(f"warning: {_one_line(str(message))}", err=True)
+    echo(f"warning: {_one_line(str(message))}", err=True)
 
 
 @contextlib.contextmanager
@@ -133,7 +157,7 @@ def guarded(subject: str | None, debug: bool) -> Iterator[None]:
         except (OSError, MemoryError) as exc:
             if debug:
                 traceback.print_exc(file=sys.stderr)
-            fail(f"{type(exc).__name__}: {exc}")
+            fail(_system_error(exc, where))
         except Exception as exc:  # the last resort: a defect of the tool
             if debug:
                 traceback.print_exc(file=sys.stderr)
@@ -141,6 +165,18 @@ def guarded(subject: str | None, debug: bool) -> Iterator[None]:
                 f"{where}internal error ({type(exc).__name__}: {exc}); "
                 "please report it with the output of --debug"
             )
+
+
+def _system_error(exc: OSError | MemoryError, where: str) -> str:
+    """One line for an error of the system: the file it names (an ``OSError`` from
+    ``write()`` names none) and the reason, or that memory ran out."""
+    if isinstance(exc, MemoryError):
+        return f"{where}out of memory (split the log into parts, or use a machine with more memory)"
+    names = [str(n) for n in (exc.filename, exc.filename2) if n is not None]
+    reason = exc.strerror or str(exc) or type(exc).__name__
+    if names:
+        return f"{' -> '.join(names)}: {reason}"
+    return f"{where}{type(exc).__name__}: {reason}"
 
 
 def _signum(exc: KeyboardInterrupt) -> int:
@@ -155,9 +191,9 @@ def _stopped(exc: KeyboardInterrupt) -> str:
 def _interrupted(cause: BaseException | None) -> int:
     """One line for a run stopped outside a command body; the exit code 128 + signal."""
     if isinstance(cause, KeyboardInterrupt):
-        typer.echo(f"error: {_stopped(cause)}", err=True)
+        echo(f"error: {_stopped(cause)}", err=True)
         return 128 + _signum(cause)
-    typer.echo("error: aborted", err=True)
+    echo("error: aborted", err=True)
     return EXIT_ERROR
 
 
@@ -219,7 +255,7 @@ class StabilityGroup(TyperGroup):
         try:
             code = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
         except typer.TyperException as exc:
-            typer.echo(f"error: {_usage_line(exc)}", err=True)
+            echo(f"error: {_usage_line(exc)}", err=True)
             code = exc.exit_code
         except typer.Abort as exc:
             code = _interrupted(exc.__cause__ or exc.__context__)

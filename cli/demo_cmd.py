@@ -39,6 +39,7 @@ from stability.run import AnalysisRun
 from stability.settings import RunSettings
 from stability.workflow import analyze_into, record_into
 
+from .common import echo
 from .options import PLOT_FORMAT, RunOptions, command
 from .progress import ProgressDisplay, step_count
 from .reporting import record_lines, summary_block
@@ -121,10 +122,10 @@ def _record_available(folder: Path) -> bool:
 
 
 def _show(title: str, run: AnalysisRun) -> None:
-    typer.echo(f"== {title}")
-    typer.echo(terminal_table(run.table))
-    typer.echo(summary_block(run))
-    typer.echo("")
+    echo(f"== {title}")
+    echo(terminal_table(run.table))
+    echo(summary_block(run))
+    echo("")
 
 
 def _analysed(
@@ -153,7 +154,7 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
     """
     folder, counter, pps = _validate_demo_args(data)
     target = out if out is not None else Path.cwd() / "stability-demo"
-    typer.echo(f"demo data: {folder} (invented scenario, see its README.md)")
+    echo(f"demo data: {folder} (invented scenario, see its README.md)")
 
     counter_run, counter_files = _analysed(
         counter, target / "counter", RunSettings.from_options(**COUNTER_SETTINGS), opts
@@ -168,7 +169,7 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
     record_folder = None
     if _record_available(folder):
         record_folder = target / "record"
-        typer.echo("== calibration record of the OCXO (example specification)")
+        echo("== calibration record of the OCXO (example specification)")
         with ProgressDisplay() as bar:
             outcome = record_into(
                 counter,
@@ -181,8 +182,8 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
                 on_progress=bar.reading(counter.name),
             )
         for line in record_lines(outcome):
-            typer.echo(line)
-        typer.echo("")
+            echo(line)
+        echo("")
 
     shown: list[tuple[str, Path]] = []
     for label, files in (("counter", counter_files), ("pps", pps_files)):
@@ -195,8 +196,8 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
     if record_folder is not None:
         shown.append(("calibration record", record_folder / "record.pdf"))
     width = max(len(what) for what, _ in shown)
-    typer.echo("Open these:")
+    echo("Open these:")
     for what, path in shown:
-        typer.echo(f"  {what.ljust(width)}  {path}")
+        echo(f"  {what.ljust(width)}  {path}")
     if record_folder is None:
-        typer.echo("  (no calibration record: the example spec and info files are missing)")
+        echo("  (no calibration record: the example spec and info files are missing)")

@@ -8,10 +8,9 @@ from __future__ import annotations
 
 import json
 
-import typer
-
 from stability.ingest import inspect_log
 
+from .common import echo
 from .options import JSON, READING, LogArg, RunOptions, command
 
 __all__ = ["inspect"]
@@ -25,6 +24,6 @@ def inspect(log: LogArg, *, opts: RunOptions) -> None:
     """
     report = inspect_log(log, **opts.settings.read.as_kwargs())
     if opts.json:
-        typer.echo(json.dumps(report.to_dict(), indent=2))
+        echo(json.dumps(report.to_dict(), indent=2))
     else:
-        typer.echo(report.to_text())
+        echo(report.to_text())

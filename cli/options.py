@@ -26,7 +26,6 @@ from __future__ import annotations
 import dataclasses
 import functools
 import inspect
-import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -34,17 +33,25 @@ from typing import Annotated, Any, TypeVar
 
 import typer
 
-from stability.deviations.registry import get_statistic, statistic_names
-from stability.errors import InputError
-from stability.ingest import KINDS, validate_read_args
-from stability.intervals import check_confidence
+from stability.deviations.registry import statistic_names
+from stability.ingest import KINDS
 from stability.prepare.drift import DRIFT_MODELS, check_drift_model
 from stability.settings import RunSettings
-from stability.taus import parse_taus
-from stability.units import parse_duration, parse_frequency
 from stability.workflow import PLOT_FORMATS, check_plot_format
 
 from .common import guarded
+from .option_checks import (
+    checked,
+    confidence_check,
+    duration_check,
+    frequency_check,
+    kind_check,
+    on_off_check,
+    outliers_value,
+    reading_check,
+    stats_check,
+    taus_check,
+)
 
 __all__ = [
     "OptionSpec",
@@ -74,6 +81,8 @@ __all__ = [
     "NOMINAL",
     "WRAP",
     "STRICT",
+    "UNUSUAL_TIMING",
+    "MAX_EXPANSION",
     "OUTLIERS",
     "DRIFT",
     "AVERAGE",
@@ -92,101 +101,6 @@ F = TypeVar("F", bound=Callable[..., Any])
 LogArg = Annotated[
     Path, typer.Argument(help="The log file to read.", metavar="LOG", show_default=False)
 ]
-
-
-# --------------------------------------------------------------------- value checks
-def checked(check: Callable[[Any], Any]) -> Callable[[Any], Any]:
-    """A typer callback running a library check: its :class:`InputError` is a usage error.
-
-    None (an option not given) passes unchecked; the check's return value is
-    what the command receives.
-    """
-
-    def callback(value: Any) -> Any:
-        if value is None:
-            return None
-        try:
-            return check(value)
-        except InputError as exc:
-            raise typer.BadParameter(exc.one_line()) from None
-
-    return callback
-
-
-def _kind(value: str) -> str:
-    return validate_read_args(kind=value).kind
-
-
-def duration_check(what: str) -> Callable[[str], str]:
-    """A check that a value reads as a positive duration (``1s``, ``100ms``), named ``what``."""
-
-    def check(value: str) -> str:
-        parse_duration(value, what)
-        return value
-
-    return check
-
-
-def reading_check(name: str) -> Callable[[Any], Any]:
-    """A check of one reading option by the reader's own validation (same messages)."""
-
-    def check(value: Any) -> Any:
-        validate_read_args(**{name: value})
-        return value
-
-    return check
-
-
-def frequency_check(what: str) -> Callable[[str], str]:
-    """A check that a value reads as a positive frequency (``10MHz``), named ``what``."""
-
-    def check(value: str) -> str:
-        parse_frequency(value, what)
-        return value
-
-    return check
-
-
-def outliers_value(text: Any) -> float | None:
-    """``--outliers``: a positive number of robust sigmas, or ``off`` (None)."""
-    word = str(text).strip().lower()
-    if word in ("off", "none", "no"):
-        return None
-    try:
-        value = float(word)
-    except ValueError:
-        value = math.nan
-    if not math.isfinite(value) or value <= 0:
-        raise InputError(
-            f"--outliers takes a positive number of robust sigmas or off, got {text!r}"
-        )
-    return value
-
-
-def _taus(value: str) -> str:
-    parse_taus(value)
-    return value.strip().lower()
-
-
-def _confidence(value: float) -> float:
-    return check_confidence(value, "the level")
-
-
-def _stats(choices: tuple[str, ...] | None, one: bool, where: str) -> Callable[[str], str]:
-    def check(value: str) -> str:
-        names = [part.strip().lower() for part in str(value).split(",") if part.strip()]
-        if not names:
-            raise InputError("no statistic given", hint="pass statistics such as oadev,mdev")
-        if one and len(names) != 1:
-            raise InputError(
-                f"{where} takes one statistic, got {value!r}",
-                hint=f"pass one of {', '.join(choices or statistic_names())}",
-            )
-        for name in names:
-            get_statistic(name)  # unknown names: the registry's message lists the known ones
-        return ",".join(names)
-
-    return check
 
 
 # --------------------------------------------------------------------- declarations
@@ -241,7 +155,7 @@ KIND = OptionSpec(
     "What the value column holds: phase (time error, s), frequency (absolute, Hz), "
     "fractional (fractional frequency), or auto to tell from the header and values.",
     metavar="|".join(KINDS),
-    check=_kind,
+    check=kind_check,
 )
 COLUMN = OptionSpec(
     "column",
@@ -331,6 +245,22 @@ WRAP = OptionSpec(
     check=duration_check("--wrap"),
 )
 STRICT = _flag("strict", "--strict", "Make every unreadable row an error instead of a gap.")
+UNUSUAL_TIMING = _flag(
+    "allow_unusual",
+    "--unusual-timing",
+    "Read a sample interval below 1 ns or above one day, a record spanning more than a "
+    "century, or a log whose time grid is mostly gaps, instead of refusing it.",
+)
+MAX_EXPANSION = OptionSpec(
+    "max_expansion",
+    "--max-expansion",
+    str | None,
+    None,
+    "How many times its size a compressed log may expand to (default 100; never beyond "
+    "a third of the available memory).",
+    metavar="RATIO",
+    check=reading_check("max_expansion"),
+)
 OUTLIERS = OptionSpec(
     "outliers",
     "--outliers",
@@ -380,7 +310,7 @@ def stats_option(
         default,
         f"{what}: {names}.",
         metavar="NAME" if one else "LIST",
-        check=_stats(choices, one, where),
+        check=stats_check(choices, one, where),
     )
 
 
@@ -393,24 +323,17 @@ TAUS = OptionSpec(
     "Tau grid: octave (1, 2, 4, ... tau0), decade (1-2-5), all (every multiple of tau0) "
     "or a comma list of taus in seconds, e.g. 1,10,100.",
     metavar="octave|decade|all|LIST",
-    check=_taus,
+    check=taus_check,
 )
 CONFIDENCE = OptionSpec(
     "confidence",
     "--confidence",
-    float,
+    str,
     0.683,
     "Two-sided confidence level of the intervals, between 0 and 1.",
     metavar="P",
-    check=_confidence,
+    check=confidence_check,
 )
-
-
-def _on_off(value: str) -> bool:
-    word = str(value).strip().lower()
-    if word not in ("on", "off"):
-        raise InputError(f"--bias-correction takes on or off, got {value!r}")
-    return word == "on"
 
 
 BIAS_CORRECTION = OptionSpec(
@@ -421,7 +344,7 @@ BIAS_CORRECTION = OptionSpec(
     "Correct the bias of the total and Theo families for the identified noise type "
     "(on), or report the raw estimates (off); corrected rows are marked either way.",
     metavar="on|off",
-    check=_on_off,
+    check=on_off_check,
 )
 OUT = OptionSpec(
     "out",
@@ -468,6 +391,8 @@ READING = (
     SHEET,
     ENGINE,
     STRICT,
+    UNUSUAL_TIMING,
+    MAX_EXPANSION,
 )
 PREPARING = (OUTLIERS, DRIFT, AVERAGE)
 ANALYSING = (STATS, TAUS, CONFIDENCE, BIAS_CORRECTION)

@@ -41,7 +41,7 @@ from stability.reports.tables import table_csv, table_markdown, terminal_table
 from stability.run import AnalysisRun, run_analysis
 from stability.summary import summary_json
 
-from .common import command_line_checks
+from .common import command_line_checks, echo
 from .options import (
     ANALYSING,
     OUT,
@@ -285,10 +285,10 @@ def overlay(logs: LogsArg, labels: LabelsOpt = None, *, opts: RunOptions) -> Non
         out.write_text("summary.json", summary_json(summary))
         written = list(out.commit().values())
     if opts.json:
-        typer.echo(summary_json(summary), nl=False)
+        echo(summary_json(summary), nl=False)
         return
-    typer.echo(combined_terminal(tables))
+    echo(combined_terminal(tables))
     for label, run in runs.items():
         sha = run.sha256[:12] if run.sha256 else "n/a"
-        typer.echo(f"{label}: {run.source.provenance.path}  SHA-256 {sha}")
-    typer.echo(f"wrote {len(written)} files into {folder}")
+        echo(f"{label}: {run.source.provenance.path}  SHA-256 {sha}")
+    echo(f"wrote {len(written)} files into {folder}")

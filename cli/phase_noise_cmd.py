@@ -49,6 +49,8 @@ from stability.run import AnalysisRun, run_analysis
 from stability.taus import parse_taus
 from stability.units import parse_frequency
 
+from .common import echo
+from .option_checks import checked
 from .options import (
     CONFIDENCE,
     NOMINAL,
@@ -58,7 +60,6 @@ from .options import (
     TITLE,
     WRITING,
     RunOptions,
-    checked,
     command,
     stats_option,
 )
@@ -312,19 +313,19 @@ def phase_noise_command(
             "rows": conversion.to_frame().to_dict(orient="records"),
             "notes": conversion.notes,
         }
-        typer.echo(json.dumps(jsonable(document), indent=2))
+        echo(json.dumps(jsonable(document), indent=2))
         return
-    typer.echo(f"sigma(tau) from {table.name}: carrier {carrier:.10g} Hz, f_h {f_h:.6g} Hz")
-    typer.echo(_text(conversion))
+    echo(f"sigma(tau) from {table.name}: carrier {carrier:.10g} Hz, f_h {f_h:.6g} Hz")
+    echo(_text(conversion))
     if run is not None:
-        typer.echo("")
-        typer.echo(f"measured: {compare.name}")
-        typer.echo(terminal_table(run.table))
-    typer.echo("")
+        echo("")
+        echo(f"measured: {compare.name}")
+        echo(terminal_table(run.table))
+    echo("")
     for note in conversion.notes:
-        typer.echo(f"note: {note}")
-    typer.echo("")
-    typer.echo(f"wrote {len(written)} files into {folder}")
+        echo(f"note: {note}")
+    echo("")
+    echo(f"wrote {len(written)} files into {folder}")
 
 
 def _compared(

@@ -17,6 +17,8 @@ from typing import Any
 from rich.console import Console
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
+from .common import printable
+
 __all__ = ["ProgressDisplay", "step_count"]
 
 
@@ -49,7 +51,7 @@ class ProgressDisplay:
     def __enter__(self) -> ProgressDisplay:
         if self.shown:
             self._bar = Progress(
-                TextColumn("{task.description}"),
+                TextColumn("{task.description}", markup=False),
                 BarColumn(),
                 TextColumn("{task.percentage:>3.0f} %"),
                 TimeElapsedColumn(),
@@ -74,6 +76,7 @@ class ProgressDisplay:
         if self._bar is None:
             return None
         bar = self._bar
+        name = printable(name)
         task = bar.add_task(f"reading {name}", total=None)
 
         def on_progress(done: int, total: int) -> None:
@@ -86,6 +89,7 @@ class ProgressDisplay:
         if self._bar is None:
             return None
         bar = self._bar
+        name = printable(name)
         task = bar.add_task(f"analysing {name}", total=max(count, 1))
 
         def on_step(label: str) -> None:

@@ -16,6 +16,7 @@ import typer
 
 from stability.workflow import record_into
 
+from .common import echo
 from .options import (
     ANALYSING,
     CONFIDENCE,
@@ -56,7 +57,7 @@ ForceOpt = Annotated[
 
 #: ``--confidence`` of a record: the specification's own level unless given.
 RECORD_CONFIDENCE = CONFIDENCE.but(
-    type=float | None,
+    type=str | None,
     default=None,
     help="Two-sided confidence level of the intervals, between 0 and 1 "
     "(default: the specification's own level).",
@@ -97,11 +98,9 @@ def record(
             on_step=bar.steps(log.name, step_count(stats) + 1),
         )
     if opts.json:
-        typer.echo(outcome.files["record.json"].read_text(encoding="utf-8"), nl=False)
+        echo(outcome.files["record.json"].read_text(encoding="utf-8"), nl=False)
         return
     for line in record_lines(outcome):
-        typer.echo(line)
-    typer.echo(
-        f"wrote {outcome.files['record.pdf']}, {outcome.files['record.json']} and the analysis"
-    )
-    typer.echo(f"  outputs in {folder}")
+        echo(line)
+    echo(f"wrote {outcome.files['record.pdf']}, {outcome.files['record.json']} and the analysis")
+    echo(f"  outputs in {folder}")

@@ -33,7 +33,7 @@ from stability.reports.tables import format_tau, format_value
 from stability.run import read_and_prepare
 from stability.taus import parse_taus
 
-from .common import command_line_checks
+from .common import command_line_checks, echo
 from .options import (
     ANALYSING,
     OUT,
@@ -352,21 +352,19 @@ def separate_command(
             "rows": [dict(zip(SEPARATED_COLUMNS, row, strict=True)) for row in rows],
             "notes": [n for r in results for n in r.notes],
         }
-        typer.echo(json.dumps(jsonable(document), indent=2))
+        echo(json.dumps(jsonable(document), indent=2))
         return
-    typer.echo(
-        "Pair logs: " + ", ".join(label for label, _ in inputs) + " (each log = first - second)"
-    )
+    echo("Pair logs: " + ", ".join(label for label, _ in inputs) + " (each log = first - second)")
     for result in results:
         for name in order:
             header, lines = _people(result, name)
-            typer.echo("")
-            typer.echo(f"{name}  ({result.statistic.upper()})")
-            typer.echo(text_table(header, lines))
+            echo("")
+            echo(f"{name}  ({result.statistic.upper()})")
+            echo(text_table(header, lines))
     notes = list(dict.fromkeys(n for r in results for n in r.notes))
     if notes:
-        typer.echo("")
+        echo("")
         for note in notes:
-            typer.echo(f"note: {note}")
-    typer.echo("")
-    typer.echo(f"wrote {len(written)} files into {folder}")
+            echo(f"note: {note}")
+    echo("")
+    echo(f"wrote {len(written)} files into {folder}")

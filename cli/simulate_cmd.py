@@ -40,8 +40,9 @@ from stability.simulate import h_from_deviation, simulate
 from stability.table import NOISE_LABELS
 from stability.units import parse_duration, parse_frequency
 
-from .common import command_line_checks
-from .options import RunOptions, checked, command, duration_check, frequency_check
+from .common import command_line_checks, echo
+from .option_checks import checked, duration_check, frequency_check
+from .options import RunOptions, command
 
 __all__ = ["simulate_cmd", "simulate_log", "simulated_csv", "parse_start", "VALUE_HEADERS"]
 
@@ -343,4 +344,4 @@ def simulate_cmd(
         nominal=f_nominal,
     )
     header = VALUE_HEADERS["absolute" if f_nominal is not None else kind]
-    typer.echo(f"wrote {path}: {n} samples of {header}, tau0 {t0:g} s, seed {seed}")
+    echo(f"wrote {path}: {n} samples of {header}, tau0 {t0:g} s, seed {seed}")

@@ -31,6 +31,8 @@ from stability.run import read_and_prepare
 from stability.taus import parse_taus
 from stability.units import format_duration, parse_duration
 
+from .common import echo
+from .option_checks import checked, duration_check
 from .options import (
     ANALYSING,
     PREPARING,
@@ -39,9 +41,7 @@ from .options import (
     WRITING,
     LogArg,
     RunOptions,
-    checked,
     command,
-    duration_check,
     stats_option,
 )
 from .progress import ProgressDisplay
@@ -225,11 +225,11 @@ def timeline_command(
             "summary": summary,
             "notes": result.notes,
         }
-        typer.echo(json.dumps(jsonable(document), indent=2))
+        echo(json.dumps(jsonable(document), indent=2))
         return
     for line in summary:
-        typer.echo(line)
+        echo(line)
     for note in result.notes:
-        typer.echo(f"note: {note}")
-    typer.echo("")
-    typer.echo(f"wrote {len(written)} files into {folder}")
+        echo(f"note: {note}")
+    echo("")
+    echo(f"wrote {len(written)} files into {folder}")

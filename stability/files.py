@@ -27,10 +27,12 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
+import errno
 import hashlib
 import json
 import math
 import os
+import stat
 import tempfile
 import threading
 from collections.abc import Iterator, Mapping
@@ -49,6 +51,7 @@ __all__ = [
     "ensure_folder",
     "refuse_overwrite",
     "sha256_file",
+    "special_file",
     "settings_hash",
     "jsonable",
 ]
@@ -213,6 +216,25 @@ def atomic_write_bytes(path: str | os.PathLike[str], data: bytes) -> Path:
     with atomic_output(path, "wb") as handle:
         handle.write(data)
     return Path(path)
+
+
+def special_file(path: str | os.PathLike[str]) -> str | None:
+    """Why ``path`` is no regular file to read, or None (also None when it is missing
+    or a folder, which the caller words itself).
+
+    A device (``/dev/zero``) or a named pipe may never end and a socket cannot be
+    read; a symbolic link loop is named as such, not as a missing file (IEEE Std
+    1003.1, ``ELOOP``).
+    """
+    try:
+        mode = os.stat(path).st_mode
+    except OSError as exc:
+        return "a symbolic link loop" if exc.errno == errno.ELOOP else None
+    if stat.S_ISREG(mode) or stat.S_ISDIR(mode):
+        return None
+    if stat.S_ISFIFO(mode):
+        return "a named pipe, not a regular file"
+    return "a socket, not a regular file" if stat.S_ISSOCK(mode) else "a device, not a file"
 
 
 def sha256_file(path: str | os.PathLike[str]) -> str:

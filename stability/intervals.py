@@ -25,7 +25,7 @@ import numpy as np
 
 from .errors import InputError
 
-__all__ = ["ConfidenceInterval", "chi2_interval", "check_confidence"]
+__all__ = ["ConfidenceInterval", "chi2_interval", "check_confidence", "MAX_CONFIDENCE"]
 
 
 class ConfidenceInterval(NamedTuple):
@@ -35,13 +35,29 @@ class ConfidenceInterval(NamedTuple):
     high: Any
 
 
-def check_confidence(confidence: Any, name: str = "confidence") -> float:
-    """A two-sided confidence level as a float strictly inside (0, 1)."""
+#: The largest level whose tails, (1 - level)/2 each, chi-squared quantiles resolve in
+#: float64 (1 - tail must differ from 1; machine epsilon is 2.2e-16).
+MAX_CONFIDENCE = 1.0 - 1e-12
+
+
+def check_confidence(confidence: Any, name: str = "confidence", written: Any = None) -> float:
+    """A two-sided confidence level as a float strictly inside (0, 1).
+
+    ``written`` is the level as the user wrote it (text), shown in the message
+    instead of the float it became (``0.99999999999999999`` is 1.0 as a float).
+    """
+    shown = repr(written if written is not None else confidence)
     if isinstance(confidence, bool) or not isinstance(confidence, Real):
-        raise InputError(f"{name} must be a number in (0, 1), got {confidence!r}")
+        raise InputError(f"{name} must be a number in (0, 1), got {shown}")
     level = float(confidence)
     if not 0.0 < level < 1.0:
-        raise InputError(f"{name} must lie strictly between 0 and 1, got {confidence!r}")
+        raise InputError(f"{name} must lie strictly between 0 and 1, got {shown}")
+    if level > MAX_CONFIDENCE:
+        raise InputError(
+            f"{name} {shown} is too close to 1: its tails are too small to compute an "
+            "interval from",
+            hint="pass a level of at most 1 - 1e-12, e.g. 0.9999",
+        )
     return level
 
 

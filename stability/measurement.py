@@ -33,7 +33,7 @@ import numpy as np
 
 from .errors import InputError
 
-__all__ = ["Measurement", "Provenance"]
+__all__ = ["Measurement", "Provenance", "TAU0_RANGE"]
 
 
 @dataclass(frozen=True)
@@ -82,13 +82,26 @@ def _as_float_array(values: Any, name: str) -> np.ndarray:
     return arr
 
 
+#: The sample intervals the estimators can compute with, seconds: they square tau
+#: and divide by it, so tau0 squared must stay a normal float64 (about 1e-308 to 1e308)
+#: with room for averaging factors up to 1e9.
+TAU0_RANGE = (1e-30, 1e30)
+
+
 def _check_tau0(tau0: Any) -> float:
     try:
         value = float(tau0)
-    except (TypeError, ValueError):
+    except (TypeError, ValueError, OverflowError):
         raise InputError(f"tau0 must be a positive number of seconds, got {tau0!r}") from None
     if not math.isfinite(value) or value <= 0:
         raise InputError(f"tau0 must be a positive, finite number of seconds, got {tau0!r}")
+    low, high = TAU0_RANGE
+    if not low <= value <= high:
+        raise InputError(
+            f"tau0 {value:g} s is beyond the sample intervals that can be computed with "
+            f"({low:g} s to {high:g} s)",
+            hint="check the number and its unit, e.g. 1s or 100ms",
+        )
     return value
 
 

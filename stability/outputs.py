@@ -48,6 +48,9 @@ from .files import ensure_folder
 
 __all__ = ["OutputSet", "Interrupted", "same_file"]
 
+#: Errors of ``write()`` and ``close()`` (which name no file) that mean the outputs
+#: could not be written: no space, quota exceeded, file too large, read-only, I/O.
+_WRITE_ERRNOS = (errno.ENOSPC, errno.EDQUOT, errno.EFBIG, errno.EROFS, errno.EIO)
 _PENDING = re.compile(r"^\.+(?P<name>.+?)\.(?P<pid>\d+)\.[0-9a-f]{8}\.(pending|old)(\..*)?$")
 
 
@@ -63,8 +66,8 @@ def same_file(a: Path, b: Path) -> bool:
     """Whether two paths name one file (same inode, or the same resolved path)."""
     try:
         return os.path.samefile(a, b)
-    except OSError:
-        return a.resolve() == b.resolve()
+    except OSError:  # one is missing (or a link loop): compare the paths, never raising
+        return os.path.realpath(a) == os.path.realpath(b)
 
 
 def _alive(pid: int) -> bool:
@@ -160,6 +163,33 @@ class OutputSet:
                         path.rmdir()
         finally:
             self._release()
+        if isinstance(exc, OSError) and self._writing(exc):
+            raise self._write_error(exc) from None
+
+    def _writing(self, exc: OSError) -> bool:
+        """Whether an error came from writing the outputs (not from reading an input)."""
+        if exc.filename is None:  # write() names no file: a full disk, a quota, an I/O error
+            return exc.errno in _WRITE_ERRNOS
+        return self.folder in Path(exc.filename).parents
+
+    def _write_error(self, exc: OSError) -> InputError:
+        """An error met while the outputs were written, naming the file (never a hidden
+        pending name) or the folder."""
+        where: Path = self.folder
+        if exc.filename is not None:
+            where = Path(exc.filename)
+            for name, pending in self.pending.items():
+                if where == pending:
+                    where = self.folder / name
+        reason = exc.strerror or str(exc)
+        hint = "pass another --out"
+        if exc.errno in (errno.ENOSPC, errno.EDQUOT):
+            hint = "free some space on that disk, or pass an --out folder on another one"
+        return InputError(
+            f"cannot write the outputs: {reason}; nothing was written",
+            path=str(where),
+            hint=hint,
+        )
 
     def path(self, name: str) -> Path:
         """The pending path to write output ``name`` to."""

@@ -14,9 +14,12 @@ from typing import Any
 import numpy as np
 
 from .errors import InputError
+from .files import special_file
 
 __all__ = ["read_phase_noise_table", "validate_table", "positive"]
 
+#: Bytes a phase-noise table may hold (a few hundred rows of two numbers).
+_MAX_TABLE_BYTES = 16 * 1024 * 1024
 _SPLIT = re.compile(r"[,;\t ]+")
 
 
@@ -57,9 +60,20 @@ def read_phase_noise_table(path: str | os.PathLike[str]) -> tuple[np.ndarray, np
         do not increase, or fewer than two rows remain.
     """
     name = os.fspath(path)
+    special = special_file(name)
+    if special is not None:
+        raise InputError(f"the phase-noise table is {special}", path=name)
     try:
         with open(name, "rb") as handle:
-            text = _decode_table(handle.read())
+            data = handle.read(_MAX_TABLE_BYTES + 1)
+        if len(data) > _MAX_TABLE_BYTES:
+            raise InputError(
+                f"the phase-noise table holds more than {_MAX_TABLE_BYTES:,} bytes, far more "
+                "than a table of offsets and levels needs",
+                path=name,
+                hint="check that this is the right file",
+            )
+        text = _decode_table(data)
     except FileNotFoundError:
         raise InputError("phase-noise table not found", path=name) from None
     except (OSError, UnicodeDecodeError) as exc:

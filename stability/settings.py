@@ -40,6 +40,8 @@ class ReadSettings:
     timezone: str | None = None
     sheet: int | str | None = None
     engine: str = "auto"
+    allow_unusual: bool = False
+    max_expansion: float | str | None = None
 
     def as_kwargs(self) -> dict[str, Any]:
         """The hints as keyword arguments of :func:`stability.read_log`."""

@@ -19,13 +19,14 @@ from __future__ import annotations
 
 import hashlib
 import threading
+import warnings
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from ..errors import InputError
+from ..errors import InputError, StabilityWarning
 from ..files import sha256_file
 from ..measurement import Measurement, Provenance
 from ..units import format_duration, format_frequency, format_seconds
@@ -37,6 +38,7 @@ from .hints import ReadHints
 from .local_time import daylight_saving_step
 from .report import LIST_LIMIT, LogReport
 from .rows import DataRows
+from .timing import check_stamps
 
 __all__ = [
     "InputHasher",
@@ -132,13 +134,16 @@ def place_on_grid(
         )
         rep.tau0 = hints.tau0
         return rows, GridPlacement(hints.tau0, rows.values.size, np.arange(rows.values.size))
-    seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
     rep.time_column = " + ".join(plan.display[c] for c in plan.time_cols)
     rep.time_format = plan.time_fmt.description
+    check_stamps(rows.ticks, plan.time_fmt, rows.lines, path, rep.time_column, hints.allow_unusual)
+    seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
     if plan.time_fmt.style == "datetime" and not plan.time_fmt.aware:
         _refuse_daylight_saving(seconds, start, rows.lines, hints, path, rep.time_column)
     tolerance = DEFAULT_STAMP_TOLERANCE if hints.stamp_tolerance is None else hints.stamp_tolerance
-    grid = build_grid(seconds, rows.lines, hints.tau0, path, rep.time_column, tolerance)
+    grid = build_grid(
+        seconds, rows.lines, hints.tau0, path, rep.time_column, tolerance, hints.allow_unusual
+    )
     rep.stamp_tolerance = tolerance
     _report_spacing(grid, hints.tau0, rep)
     _report_dropped(grid, rows.lines, rep)
@@ -333,6 +338,7 @@ def canonical_series(
         else:
             series = (readings * vk.scale - nominal) / nominal
     elif vk.kind == "fractional":
+        _check_fractional(rows, vk, path, column, more_hint, given=hints.kind == "fractional")
         series = readings * vk.scale
     elif vk.kind == "carrier":
         if nominal is None:
@@ -343,13 +349,71 @@ def canonical_series(
                 hint="pass --nominal, e.g. --nominal 10MHz",
             )
         rep.nominal_source = "given"
-        series = readings * vk.scale / nominal
+        with np.errstate(over="ignore"):
+            series = readings * vk.scale / nominal
+        _check_time_error(series, rows, path, column)
     else:
-        series = readings * vk.scale
+        with np.errstate(over="ignore"):
+            series = readings * vk.scale
+        _check_time_error(series, rows, path, column)
         if nominal is not None:
             rep.nominal_source = "given"
     rep.nominal = nominal
     return series, nominal
+
+
+#: The largest time error read, seconds: a century (beyond it no clock is compared).
+_TIME_ERROR_LIMIT = 100 * 365.25 * 86400.0
+
+
+def _check_time_error(series: np.ndarray, rows: DataRows, path: str, column: str) -> None:
+    """Time error beyond a century (or beyond float64) is a column of another kind."""
+    with np.errstate(invalid="ignore"):
+        wild = np.flatnonzero(np.isinf(series) | (np.abs(series) > _TIME_ERROR_LIMIT))
+    if not wild.size:
+        return
+    i = int(wild[0])
+    raise InputError(
+        f"a time error of {series[i]:.6g} s is more than a "
+        "century: this column does not hold the time error of a clock",
+        path=path,
+        line=int(rows.lines[i]),
+        column=column,
+        hint="check the column (--column), its unit, or --kind",
+    )
+
+
+def _check_fractional(
+    rows: DataRows, vk: vals.ValueKind, path: str, column: str, more_hint: str, given: bool
+) -> None:
+    """Fractional frequency (f - f0)/f0 is far below 1 in size: a reading of 1 or more
+    is a column of another kind (hertz, a count), and its digits would swamp the rest.
+
+    When the reader chose the kind this is an error; when the user said
+    ``--kind fractional`` (test data sets such as NBS14 are unitless numbers of
+    hundreds) it is a warning and the readings are taken as given.
+    """
+    with np.errstate(invalid="ignore", over="ignore"):
+        big = np.flatnonzero(np.abs(rows.values * vk.scale) >= 1.0)
+    if not big.size:
+        return
+    i = int(big[0])
+    error = InputError(
+        f"{big.size} reading(s) of {rows.values[i] * vk.scale:.6g} or the like are not a "
+        "fractional frequency, which is (f - f0)/f0 and far below 1 in size",
+        path=path,
+        line=int(rows.lines[i]),
+        column=column,
+        hint="pass --kind frequency (with --nominal) if the column holds hertz, or check "
+        "its unit" + more_hint,
+    )
+    if not given:
+        raise error
+    warnings.warn(
+        error.one_line().replace(" (pass", "; read as given (--kind fractional) (pass", 1),
+        StabilityWarning,
+        stacklevel=2,
+    )
 
 
 def _frequency_nominal(
@@ -459,6 +523,13 @@ def make_measurement(
         notes=list(rep.notes),
     )
     if n_grid < 2:
+        if total_rows >= 2:  # every row landed in one slot of the grid
+            raise InputError(
+                f"the {total_rows} data rows all fall in one slot of the time grid "
+                f"(tau0 {format_duration(placement.tau0)}): one sample, and two are needed",
+                path=rep.path,
+                hint="pass the interval between rows as --tau0, or leave it out",
+            )
         raise InputError(
             "a single data row: at least two samples are needed",
             path=rep.path,

@@ -21,11 +21,14 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 
 from ..errors import InputError
+from ..units import format_duration
+from .limits import BYTES_PER_ROW, UNUSUAL_OPTION, available_bytes, usual_interval
 
 __all__ = ["Grid", "build_grid", "unwrap", "DEFAULT_STAMP_TOLERANCE"]
 
@@ -71,10 +74,11 @@ class Grid:
     ambiguous: int = 0
 
 
-#: A grid may hold at most this many missing samples per sample read, and this
-#: many in all, before a time stamp is taken for a mistake rather than a pause.
-_MAX_GAP_RATIO = 10
-_MAX_GAP_SAMPLES = 10_000_000
+#: A grid may hold at most this many missing samples per sample read (beyond a
+#: small allowance, :data:`_GAP_ALLOWANCE`) before a time stamp is taken for a
+#: mistake rather than a pause; ``allow_unusual`` lifts it, the memory budget stays.
+_MAX_GAP_RATIO = 100
+_GAP_ALLOWANCE = 10_000
 
 
 def _check_grid_size(
@@ -84,25 +88,53 @@ def _check_grid_size(
     kept_idx: np.ndarray,
     path: str,
     column: str,
+    given: bool,
+    allow_unusual: bool,
 ) -> None:
     """Refuse a grid made mostly of inserted gaps (a wrong date, a counter reset).
 
-    A single stamp off by years (a typing slip, a GPS week rollover) would
-    otherwise ask for hundreds of millions of missing samples.
+    ``steps`` are the rounded steps between kept rows in units of ``step``, as
+    floats: checked before any conversion to integers, so a jump of 1e25 s is a
+    clear message, not an overflow. A single stamp off by years (a typing slip,
+    a GPS week rollover) would otherwise ask for hundreds of millions of missing
+    samples; a grid beyond the memory available is refused in any case.
     """
     rows = kept_idx.size
-    missing = int((steps - 1).sum())
-    if missing <= _MAX_GAP_SAMPLES or missing <= _MAX_GAP_RATIO * rows:
+    with np.errstate(over="ignore", invalid="ignore"):
+        missing = float(np.sum(np.maximum(steps - 1.0, 0.0)))
+    free = available_bytes()
+    size = rows + missing
+    beyond_memory = not math.isfinite(size) or (free is not None and size * BYTES_PER_ROW > free)
+    mostly_gap = missing > _MAX_GAP_RATIO * rows and missing > _GAP_ALLOWANCE
+    if not (beyond_memory or (mostly_gap and not allow_unusual)):
         return
-    worst = int(np.argmax(steps))
-    raise InputError(
+    worst = int(np.argmax(np.where(np.isfinite(steps), steps, np.inf)))
+    if given and missing > _MAX_GAP_RATIO * rows and float(np.median(steps)) > 2.0:
+        raise InputError(
+            f"tau0 {step:g} s as given is far shorter than the spacing of the time stamps "
+            f"(typically {float(np.median(steps)) * step:.6g} s): the grid would hold "
+            f"{missing:.3g} missing samples for {rows} readings",
+            path=path,
+            column=column,
+            hint="pass the interval between rows as --tau0, or leave it out to take the "
+            "spacing of the stamps",
+        )
+    what = (
         f"the time stamps jump forward by {steps[worst] * step:.6g} s "
-        f"({int(steps[worst]) - 1} missing samples of {step:g} s) between two rows, "
-        f"more than {_MAX_GAP_RATIO} times the {rows} samples read",
-        path=path,
-        line=int(lines[kept_idx[worst + 1]]),
-        column=column,
-        hint="check that stamp (a wrong date?), or split the log at the pause",
+        f"({steps[worst] - 1:.6g} missing samples of {step:g} s) between two rows; "
+        f"the grid would hold {missing:.3g} missing samples for {rows} readings read"
+    )
+    if beyond_memory:
+        what += ", more than the memory available"
+        hint = "check that stamp (a wrong date?), or split the log at the pause"
+    else:
+        what += f", more than {_MAX_GAP_RATIO} times as many"
+        hint = (
+            "check that stamp (a wrong date?), or split the log at the pause; pass "
+            f"{UNUSUAL_OPTION} to read it with the gap"
+        )
+    raise InputError(
+        what, path=path, line=int(lines[kept_idx[worst + 1]]), column=column, hint=hint
     )
 
 
@@ -146,6 +178,7 @@ def build_grid(
     path: str,
     column: str,
     tolerance: float = DEFAULT_STAMP_TOLERANCE,
+    allow_unusual: bool = False,
 ) -> Grid:
     """Place time stamps (seconds since the first) on a uniform grid.
 
@@ -158,7 +191,11 @@ def build_grid(
     Raises
     ------
     InputError
-        A stamp earlier than the one before it; fewer than two distinct stamps.
+        A stamp earlier than the one before it; fewer than two distinct stamps;
+        stamps spaced by less than 1 ns or more than a day (unless
+        ``allow_unusual``); a grid mostly made of gaps (unless ``allow_unusual``)
+        or beyond the memory available; a given ``tau0`` so much longer than the
+        spacing of the stamps that most rows would share a slot.
     """
     dt = np.diff(seconds)
     back = np.flatnonzero(dt < 0)
@@ -180,6 +217,8 @@ def build_grid(
             hint="pass --tau0",
         )
     median = float(np.median(positive))
+    if tau0 is None and not allow_unusual and not usual_interval(median):
+        raise _unusual_spacing(median, positive, dt, lines, path, column)
     step = tau0 if tau0 is not None else median
     tol = tolerance * step
     n = seconds.size
@@ -198,13 +237,28 @@ def build_grid(
             off_grid=(off + 1, offset[off]),
             jitter=(jitter + 1, offset[jitter]),
         )
-    k = np.rint(dt / step).astype(np.int64)
+    with np.errstate(over="ignore", invalid="ignore"):
+        slots = np.rint(dt / step)  # float: checked before any integer conversion
+    _check_grid_size(
+        slots, step, lines, np.arange(n), path, column, tau0 is not None, allow_unusual
+    )
+    k = slots.astype(np.int64)
     ambiguous = _repair_displaced(k, dt, step, tol)
     # two rows in one slot: a row whose step rounds to zero is a duplicate (runs
     # of duplicates collapse to the first)
     close = np.concatenate(([False], k == 0))
     keep = ~close
     kept_idx = np.flatnonzero(keep)
+    if tau0 is not None and close.sum() > n // 2:
+        raise InputError(
+            f"tau0 {format_duration(tau0)} as given is longer than the spacing of the time "
+            f"stamps (median {format_duration(median)}): {int(close.sum())} of {n} rows "
+            "would share a slot with the row before and be dropped",
+            path=path,
+            column=column,
+            hint="pass the interval between rows as --tau0, or leave it out to take the "
+            "spacing of the stamps; --average N averages N samples",
+        )
     if close.any():
         kept_t = seconds[keep]
         kdt = np.diff(kept_t)
@@ -218,7 +272,6 @@ def build_grid(
     position = np.empty(kept_idx.size, dtype=np.int64)
     position[0] = 0
     np.cumsum(k, out=position[1:])
-    _check_grid_size(k, step, lines, kept_idx, path, column)
     gap_at = np.flatnonzero(k > 1)
     gaps = [(int(kept_idx[g]), int(k[g] - 1)) for g in gap_at[:1000]]
     if gap_at.size > 1000:
@@ -234,6 +287,28 @@ def build_grid(
         off_grid=(kept_idx[off + 1], offset[off]),
         jitter=(kept_idx[jitter + 1], offset[jitter]),
         ambiguous=ambiguous,
+    )
+
+
+def _unusual_spacing(
+    median: float,
+    positive: np.ndarray,
+    dt: np.ndarray,
+    lines: np.ndarray,
+    path: str,
+    column: str,
+) -> InputError:
+    """The error for stamps spaced by less than 1 ns or more than one day."""
+    side = "less than 1 ns" if median < 1.0 else "more than one day"
+    first = int(np.flatnonzero(dt == positive[0])[0]) + 1 if positive.size else 1
+    return InputError(
+        f"the time stamps lie {format_duration(median)} apart (median spacing), {side}: "
+        "outside the usual sample intervals of a log (1 ns to 1 day)",
+        path=path,
+        line=int(lines[first]),
+        column=column,
+        hint="check the unit of the time column (a header such as 'elapsed_ms' names it), "
+        f"or pass {UNUSUAL_OPTION} if the spacing is right",
     )
 
 

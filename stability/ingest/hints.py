@@ -38,6 +38,11 @@ class ReadHints:
         Sheet of a workbook (1-based number or name), or None for the first.
     engine
         ``"auto"``, ``"pandas"`` or ``"pyarrow"`` (see :func:`stability.ingest.read_log`).
+    allow_unusual
+        Read a sample interval or a record length beyond the usual bounds
+        (:mod:`stability.ingest.limits`) instead of refusing it.
+    max_expansion
+        How many times its size an archive may expand to, or None for the default.
     """
 
     kind: str = "auto"
@@ -51,3 +56,5 @@ class ReadHints:
     timezone: str | None = None
     sheet: int | str | None = None
     engine: str = "auto"
+    allow_unusual: bool = False
+    max_expansion: float | None = None

@@ -15,31 +15,11 @@ References
 
 from __future__ import annotations
 
-import os
-
 from ..errors import InputError
+from .limits import BYTES_PER_ROW, available_bytes
 from .sniff import Dialect, RawSource
 
 __all__ = ["BYTES_PER_ROW", "available_bytes", "estimated_rows", "check_memory"]
-
-#: Bytes of arrays held per row at the peak of reading (measured with
-#: tests/benchmarks/bench_ingest.py: about 14 float64 or int64 arrays of the log's length).
-BYTES_PER_ROW = 112
-
-
-def available_bytes() -> int | None:
-    """Memory available to a new process, bytes (``MemAvailable``), or None if unknown."""
-    try:
-        with open("/proc/meminfo") as fh:
-            for line in fh:
-                if line.startswith("MemAvailable:"):
-                    return int(line.split()[1]) * 1024
-    except (OSError, ValueError, IndexError):
-        pass
-    try:
-        return int(os.sysconf("SC_AVPHYS_PAGES")) * int(os.sysconf("SC_PAGE_SIZE"))
-    except (ValueError, OSError, AttributeError):
-        return None
 
 
 def estimated_rows(src: RawSource, d: Dialect) -> int:

@@ -45,6 +45,7 @@ from .parsing import decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
 from .rows import DataRows, data_rows
 from .sniff import Dialect, RawSource, open_source, sniff_dialect
+from .timing import check_interval, check_nominal
 
 __all__ = ["read_log", "inspect_log", "validate_read_args", "KINDS"]
 
@@ -66,6 +67,8 @@ def validate_read_args(
     timezone: Any = None,
     sheet: Any = None,
     engine: Any = "auto",
+    allow_unusual: Any = False,
+    max_expansion: Any = None,
 ) -> ReadHints:
     """Check the options of :func:`read_log`; raise :class:`InputError` naming the bad one."""
     k = str(kind).strip().lower() if kind is not None else "auto"
@@ -76,18 +79,27 @@ def validate_read_args(
             raise InputError(f"{name} must be a 1-based number or a name, got {value!r}")
         if isinstance(value, int) and value < 1:
             raise InputError(f"{name} numbers start at 1, got {value!r}")
+    unusual = bool(allow_unusual)
+    step = None if tau0 is None else parse_duration(tau0, "tau0")
+    if step is not None:
+        check_interval(step, "tau0", unusual, tau0)
+    carrier = None if nominal is None else parse_frequency(nominal, "nominal")
+    if carrier is not None:
+        check_nominal(carrier, unusual, nominal)
     return ReadHints(
         kind=k,
         column=column,
         time_column=time_column,
-        tau0=None if tau0 is None else parse_duration(tau0, "tau0"),
-        nominal=None if nominal is None else parse_frequency(nominal, "nominal"),
+        tau0=step,
+        nominal=carrier,
         wrap=None if wrap is None else parse_duration(wrap, "wrap"),
         strict=bool(strict),
         stamp_tolerance=_stamp_tolerance(stamp_tolerance),
         timezone=None if timezone is None else check_zone(timezone),
         sheet=sheet,
         engine=_engine(engine),
+        allow_unusual=unusual,
+        max_expansion=_max_expansion(max_expansion),
     )
 
 
@@ -96,6 +108,23 @@ def _engine(value: Any) -> str:
     if e not in ENGINES:
         raise InputError(f"engine must be one of {', '.join(ENGINES)}, got {value!r}")
     return e
+
+
+def _max_expansion(value: Any) -> float | None:
+    """The expansion ratio allowed to an archive (a number of at least 1), or None."""
+    if value is None:
+        return None
+    try:
+        f = float(value) if not isinstance(value, bool) else math.nan
+    except (TypeError, ValueError):
+        f = math.nan
+    if not (1.0 <= f < math.inf):
+        raise InputError(
+            f"max_expansion is how many times its size an archive may expand to, a number "
+            f"of at least 1, got {value!r}",
+            hint="pass --max-expansion 1000 for an archive that expands up to 1000 times",
+        )
+    return f
 
 
 def _stamp_tolerance(value: Any) -> float | None:
@@ -136,7 +165,7 @@ def _read(
     ``"general"``, see :data:`stability.ingest.parsing.STAMP_PATHS`); both give
     the same result.
     """
-    src = open_source(path, hints.sheet)
+    src = open_source(path, hints.sheet, hints.max_expansion)
     rep = LogReport(path=str(path), size_bytes=src.size)
     if len(src.sheets) > 1:
         rep.note(
@@ -252,6 +281,8 @@ def read_log(
     timezone: str | None = None,
     sheet: int | str | None = None,
     engine: str = "auto",
+    allow_unusual: bool = False,
+    max_expansion: float | str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> Measurement:
     """Read a frequency-counter or time-interval log into a :class:`Measurement`.
@@ -297,6 +328,14 @@ def read_log(
         delimiter, ISO 8601 or numeric stamps, plain numbers), else pandas;
         ``"pandas"``: always pandas' chunked C parser; ``"pyarrow"``: pyarrow
         or an error saying why not. Every engine gives the same result.
+    allow_unusual
+        Read a sample interval below 1 ns or above one day (given as ``tau0`` or
+        found from the stamps), a record spanning more than a century, or a
+        grid mostly made of gaps, instead of refusing it (see
+        :mod:`stability.ingest.limits`; ``--unusual-timing``).
+    max_expansion
+        How many times its stored size a compressed log may expand to (default
+        100; ``--max-expansion``); never beyond a third of the available memory.
     on_progress
         Called as parsing advances with (bytes parsed, bytes in all) of the
         log's text; the bytes parsed are estimated from the lines parsed and
@@ -326,6 +365,8 @@ def read_log(
         timezone,
         sheet,
         engine,
+        allow_unusual,
+        max_expansion,
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[0]
 
@@ -344,6 +385,8 @@ def inspect_log(
     timezone: str | None = None,
     sheet: int | str | None = None,
     engine: str = "auto",
+    allow_unusual: bool = False,
+    max_expansion: float | str | None = None,
     on_progress: ProgressCallback | None = None,
 ) -> LogReport:
     """Say what is in a log and how :func:`read_log` reads it.
@@ -362,5 +405,7 @@ def inspect_log(
         timezone,
         sheet,
         engine,
+        allow_unusual,
+        max_expansion,
     )
     return _read(path, hints, on_progress=_check_callback(on_progress))[1]

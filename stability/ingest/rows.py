@@ -19,6 +19,7 @@ References
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -134,6 +135,8 @@ def data_rows(
         values, bad = apply_unit_suffixes(values, bad, parsed.units, scale)
     bad_rows = np.flatnonzero(bad & keep)
     column = plan.display[plan.value_col]
+    if plan.time_fmt is not None:
+        _check_stamps_read(int(keep.sum()), plan, rep, src.path)
     if strict:
         _refuse_first_bad_line(parsed, bad_rows, fetch, rep, src.path, column)
     _report_bad_values(parsed.lines, bad_rows, d, plan.value_col, fetch, rep)
@@ -213,6 +216,42 @@ def _report_bad_values(
         field_text = _field_of(t, d, value_col)
         rep.add_bad_value(int(lines[r]), field_text, _why_bad(field_text))
     rep.bad_value_count = int(bad_rows.size)
+
+
+#: Whole years a date-time stamp can be read in (a 64-bit count of nanoseconds since
+#: 1970 reaches from 1677-09-21 to 2262-04-11).
+_READABLE_YEARS = (1678, 2262)
+
+
+def _check_stamps_read(stamped: int, plan: ColumnPlan, rep: LogReport, path: str) -> None:
+    """Blame the time column when most rows are lost because their stamps do not parse.
+
+    A row whose stamp does not parse is not a data row; when that leaves fewer
+    than two rows, or fewer rows than were lost, the time column is the cause
+    (a date outside the readable years, a changed format), not the values.
+    """
+    lost = rep.junk_line_count
+    if not rep.junk_lines or (stamped >= 2 and lost <= stamped):
+        return
+    first = rep.junk_lines[0]
+    why = ""
+    years = [int(y) for y in re.findall(r"(?<!\d)(\d{4})(?!\d)", first["text"])]
+    low, high = _READABLE_YEARS
+    if any(not low <= y <= high for y in years):
+        why = (
+            ", a date outside the years 1677 to 2262 that time stamps can be read in "
+            "(1677-09-21 to 2262-04-11)"
+        )
+    fmt = plan.time_fmt.description if plan.time_fmt is not None else "a time stamp"
+    raise InputError(
+        f"{lost} row(s) have a time stamp that does not read as {fmt} ({stamped} do), "
+        f"this one first: {first['text']!r}{why}",
+        path=path,
+        line=int(first["line"]),
+        column=" + ".join(plan.display[c] for c in plan.time_cols),
+        hint="check the time column (--time-column), or pass --time-column none with --tau0 "
+        "to read the rows in sequence",
+    )
 
 
 def _check_readable(data_rows: int, bad: int, path: str, column: str) -> int:

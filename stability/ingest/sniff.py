@@ -17,11 +17,8 @@ References
 
 from __future__ import annotations
 
-import bz2
 import codecs
-import gzip
 import io
-import lzma
 import os
 import re
 import zipfile
@@ -29,9 +26,18 @@ from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import numpy as np
-
 from ..errors import InputError
+from .containers import (
+    DAMAGED,
+    check_path,
+    check_room,
+    container_of,
+    decompress,
+    read_plain,
+    too_large,
+    valid_utf8,
+)
+from .limits import expansion_limit
 from .spreadsheet import refuse_workbook, sheet_text, workbook_kind
 
 __all__ = [
@@ -50,12 +56,6 @@ _SAMPLE_BYTES = 256 * 1024
 #: Lines of the data block scored for each candidate dialect.
 _SCORE_LINES = 300
 
-_MAGIC = (
-    (b"\x1f\x8b", "gzip"),
-    (b"BZh", "bz2"),
-    (b"\xfd7zXZ\x00", "xz"),
-    (b"PK\x03\x04", "zip"),
-)
 _BOMS = (
     (codecs.BOM_UTF8, "utf-8-sig"),
     (codecs.BOM_UTF16_LE, "utf-16-le"),
@@ -130,60 +130,6 @@ class RawSource:
         return Path(self.path).read_bytes()
 
 
-def _check_path(path: str | os.PathLike[str]) -> Path:
-    p = Path(path)
-    if not p.exists():
-        raise InputError("file not found", path=str(p), hint="check the path of the log file")
-    if p.is_dir():
-        raise InputError(
-            "is a folder, not a log file", path=str(p), hint="give the path of one log file"
-        )
-    if not os.access(p, os.R_OK):
-        raise InputError(
-            "cannot read the file: permission denied",
-            path=str(p),
-            hint="check the file's permissions",
-        )
-    return p
-
-
-def _container(head: bytes) -> str:
-    for magic, name in _MAGIC:
-        if head.startswith(magic):
-            return name
-    return "plain"
-
-
-def _decompress(p: Path, container: str) -> tuple[bytes, str | None]:
-    member = None
-    try:
-        if container == "gzip":
-            with gzip.open(p, "rb") as fh:
-                return fh.read(), None
-        if container == "bz2":
-            with bz2.open(p, "rb") as fh:
-                return fh.read(), None
-        if container == "xz":
-            with lzma.open(p, "rb") as fh:
-                return fh.read(), None
-        with zipfile.ZipFile(p) as zf:
-            names = [i.filename for i in zf.infolist() if not i.is_dir()]
-            if len(names) != 1:
-                raise InputError(
-                    f"zip archive holds {len(names)} files, expected exactly one",
-                    path=str(p),
-                    hint="extract the log you want and give its path",
-                )
-            member = names[0]
-            return zf.read(member), member
-    except (OSError, EOFError, lzma.LZMAError, zipfile.BadZipFile, ValueError) as exc:
-        raise InputError(
-            f"damaged {container} file: {exc}",
-            path=str(p),
-            hint="check the file or decompress it by hand",
-        ) from None
-
-
 def _encoding(head: bytes) -> str:
     for bom, name in _BOMS:
         if head.startswith(bom):
@@ -224,20 +170,27 @@ def _line_endings(text: str) -> str:
     return max((crlf, "CRLF"), (lf, "LF"), (cr, "CR"))[1]
 
 
-def open_source(path: str | os.PathLike[str], sheet: int | str | None = None) -> RawSource:
+def open_source(
+    path: str | os.PathLike[str],
+    sheet: int | str | None = None,
+    max_expansion: float | None = None,
+) -> RawSource:
     """Open a log, find its container, encoding and line endings, and sample its first lines.
 
     A spreadsheet workbook (recognised by content, whatever its name) becomes
     the text of one sheet (``sheet``: 1-based number or name, default the
-    first; see :mod:`stability.ingest.spreadsheet`).
+    first; see :mod:`stability.ingest.spreadsheet`). An archive is decompressed
+    as a stream, up to ``max_expansion`` times its size (see
+    :func:`stability.ingest.limits.expansion_limit`).
 
     Raises
     ------
     InputError
-        The file is missing, a folder, unreadable, empty, binary, a damaged
-        archive or a workbook that cannot be read.
+        The file is missing, a folder, a device or a pipe, unreadable, empty,
+        binary, a damaged archive, an archive that expands too far, or a
+        workbook that cannot be read.
     """
-    p = _check_path(path)
+    p = check_path(path)
     size = p.stat().st_size
     try:
         with open(p, "rb") as fh:
@@ -248,19 +201,19 @@ def open_source(path: str | os.PathLike[str], sheet: int | str | None = None) ->
         raise InputError("the file is empty", path=str(p), hint="give a log with data rows")
     book = workbook_kind(str(p), head)
     if book is not None:
-        return _workbook_source(p, path, book, sheet, size)
+        return _workbook_source(p, path, book, sheet, size, max_expansion)
     if sheet is not None:
         raise InputError(
             "--sheet applies to a spreadsheet workbook, and this file is not one",
             path=str(p),
             hint="drop --sheet",
         )
-    container = _container(head)
+    container = container_of(head)
     member = None
     data: bytes | None = None
     kept: bytes | None = None
     if container != "plain":
-        data, member = _decompress(p, container)
+        data, member = decompress(p, container, max_expansion)
         head = data[:_SAMPLE_BYTES]
         if not head:
             raise InputError(f"the {container} archive is empty", path=str(p))
@@ -268,14 +221,10 @@ def open_source(path: str | os.PathLike[str], sheet: int | str | None = None) ->
     if encoding == "utf-8" and container == "plain":
         # confirm on the whole file only when it is small; large files are checked by pandas
         if size <= 64 * 1024 * 1024:
-            raw = p.read_bytes()
+            raw = read_plain(p)
             kept = raw
-            # pure ASCII is valid UTF-8; decode (a slower check) only when other bytes occur
-            if raw and int(np.frombuffer(raw, dtype=np.uint8).max()) >= 0x80:
-                try:
-                    raw.decode("utf-8")
-                except UnicodeDecodeError:
-                    encoding = "latin-1"
+            if not valid_utf8(raw):
+                encoding = "latin-1"
     sample_text = head.decode(encoding, errors="replace")
     _check_text(sample_text, str(p))
     endings = _line_endings(sample_text)
@@ -297,14 +246,22 @@ def open_source(path: str | os.PathLike[str], sheet: int | str | None = None) ->
     src.raw = kept
     needs_buffer = container != "plain" or encoding.startswith("utf-16") or endings == "CR"
     if needs_buffer:
-        if data is None:
-            data = p.read_bytes()
-        text = data.decode(encoding, errors="replace")
-        if text.startswith("\ufeff"):
-            text = text[1:]
-        if endings == "CR":
-            text = text.replace("\r\n", "\n").replace("\r", "\n")
-        src.buffer = text.encode("utf-8")
+        if data is None and kept is not None:
+            data = kept
+        elif data is None:
+            check_room(p, size)
+            data = read_plain(p)
+        if not (encoding == "utf-8" and endings != "CR" and valid_utf8(data)):
+            # decode and encode again, holding at most two copies of the text at a time
+            text = data.decode(encoding, errors="replace")
+            del data
+            if text.startswith("\ufeff"):
+                text = text[1:]
+            if endings == "CR":
+                text = text.replace("\r\n", "\n").replace("\r", "\n")
+            data = text.encode("utf-8")
+            del text
+        src.buffer = data  # UTF-8 already: the decompressed bytes themselves, no copy
         src.pandas_encoding = "utf-8"
     else:
         src.pandas_encoding = {"latin-1": "latin-1", "utf-8": "utf-8"}.get(encoding, "utf-8-sig")
@@ -312,11 +269,24 @@ def open_source(path: str | os.PathLike[str], sheet: int | str | None = None) ->
 
 
 def _workbook_source(
-    p: Path, path: str | os.PathLike[str], book: str, sheet: int | str | None, size: int
+    p: Path,
+    path: str | os.PathLike[str],
+    book: str,
+    sheet: int | str | None,
+    size: int,
+    max_expansion: float | None,
 ) -> RawSource:
     """One sheet of an .xlsx workbook as a log's text; other workbooks refused."""
     if book != "xlsx":
         refuse_workbook(book, str(p))
+    limit, why = expansion_limit(size, max_expansion)
+    try:
+        with zipfile.ZipFile(p) as zf:  # zipfile never gives more than a member declares
+            expanded = sum(i.file_size for i in zf.infolist())
+    except DAMAGED as exc:
+        raise InputError(f"damaged .xlsx workbook: {exc}", path=str(p)) from None
+    if expanded > limit:
+        raise too_large(p, "xlsx", limit, why)
     text, name, names = sheet_text(str(p), sheet)
     lines = text.split("\n")[: SAMPLE_LINES * 5]
     src = RawSource(

@@ -27,6 +27,7 @@ from __future__ import annotations
 
 import math
 import zipfile
+import zlib
 from datetime import date, datetime, time
 from typing import Any
 
@@ -54,7 +55,9 @@ def workbook_kind(path: str, head: bytes) -> str | None:
                 return "xlsx"
             if "mimetype" in names and zf.read("mimetype").strip().startswith(_ODS):
                 return "ods"
-    except (zipfile.BadZipFile, OSError, KeyError):
+    except (zipfile.BadZipFile, OSError, KeyError, ValueError, EOFError, RuntimeError):
+        return None  # not a readable workbook: read as any other file (and refused there)
+    except (NotImplementedError, zlib.error):
         return None
     return None
 
@@ -142,9 +145,13 @@ def sheet_text(path: str, sheet: int | str | None) -> tuple[str, str, list[str]]
             frame = pd.read_excel(book, sheet_name=name, header=None, dtype=object)
     except InputError:
         raise
-    except (ValueError, KeyError, OSError, zipfile.BadZipFile) as exc:
+    except MemoryError:
+        raise
+    except Exception as exc:  # openpyxl and its XML parser raise many kinds on a damaged book
         raise InputError(
-            f"damaged .xlsx workbook: {exc}", path=path, hint="open it and save it again"
+            f"damaged .xlsx workbook: {type(exc).__name__}: {exc}",
+            path=path,
+            hint="open it and save it again",
         ) from None
     rows = [[_cell(v) for v in row] for row in frame.itertuples(index=False, name=None)]
     if not any(any(c for c in row) for row in rows):

@@ -138,8 +138,8 @@ def is_counter(values: list[str]) -> bool:
     zero or backward is not.
     """
     vals = [v.strip() for v in values if v.strip()]
-    if len(vals) < 3 or not all(_INTEGER.match(v) for v in vals):
-        return False
+    if len(vals) < 3 or not all(_INTEGER.match(v) and len(v) <= 18 for v in vals):
+        return False  # 18 digits and a sign always fit in int64
     steps = np.diff(np.array([int(v) for v in vals], dtype=np.int64))
     return bool(np.all(steps >= 1) and np.count_nonzero(steps == 1) >= 0.9 * steps.size)
 

@@ -277,6 +277,15 @@ def _remove_fit(m: Measurement, fit: DriftFit) -> tuple[Measurement, DriftFit]:
             f"the {model} drift could not be fitted ({fit.n_used} usable frequency samples)",
             hint="use --drift none on so short a record",
         )
+    params = len(fit.coefficients)
+    if fit.n_used <= params:
+        # the model passes through every sample: what is left is rounding, not noise
+        raise AnalysisError(
+            f"removing a {model} drift ({params} parameters) from {fit.n_used} usable "
+            "frequency samples would leave nothing but rounding to estimate",
+            path=m.provenance.path,
+            hint="use --drift none (or a simpler model) on so short a record",
+        )
     days = np.arange(m.n, dtype=float) * m.tau0 / SECONDS_PER_DAY
     integral = _drift_integral(model, fit.coefficients, days)
     # Remove the drift minus its record mean: zero at both ends of the record.

@@ -238,10 +238,12 @@ def require_variation(measurement: Measurement) -> None:
         When every fractional-frequency step is the same to rounding.
     """
     m = check_measurement(measurement, "require_variation")
-    step = np.diff(m.phase)
+    known = np.flatnonzero(np.isfinite(m.phase))
+    # the mean step between consecutive known samples, also across missing ones
+    # (a log read with every other slot empty has no step between neighbours)
+    step = np.diff(m.phase[known]) / np.diff(known)
     if m.segments is not None:
-        step = step[np.diff(m.segments) == 0]  # the zero steps across frequency gaps
-    step = step[np.isfinite(step)]
+        step = step[np.diff(m.segments[known]) == 0]  # the zero steps across frequency gaps
     if step.size < 2:
         return
     scale = float(np.max(np.abs(m.phase[np.isfinite(m.phase)]), initial=0.0))

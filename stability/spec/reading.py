@@ -25,6 +25,8 @@ from typing import Any
 
 from ..deviations import get_statistic
 from ..errors import InputError, SpecError
+from ..files import special_file
+from ..intervals import MAX_CONFIDENCE
 from .model import _LEVEL_NAMES, Info, Reference, Spec
 
 __all__ = ["load_spec", "load_info", "parse_spec", "parse_info"]
@@ -40,10 +42,34 @@ _INFO_TABLES = {
 _INFO_KEYS = (*_INFO_TABLES, "procedure", "notes")
 
 
+#: Bytes a specification or information file may hold (they are a few hundred).
+MAX_FILE_BYTES = 1 << 20
+#: Limits of a specification and points of a reference's stated stability: a mask
+#: lists a handful of taus (common practice), so thousands are a mistake (and the
+#: record would print every one: 10 000 limits take half a minute to typeset).
+MAX_POINTS = 1_000
+#: The ranges a number of these files may take: averaging times from a femtosecond
+#: to thirty million years, deviations (fractional, or seconds for the time
+#: statistics) up to 1000, power-law levels up to 1000 and f_h from 1e-15 Hz to
+#: 1e15 Hz. Anything beyond is a slip of the exponent, and squaring it overflows.
+_TAU_RANGE = (1e-15, 1e15)
+_DEVIATION_RANGE = (1e-30, 1e3)
+_LEVEL_MAX = 1e3
+_F_H_RANGE = (1e-15, 1e15)
+
+
+def _within(value: float | None, bounds: tuple[float, float]) -> bool:
+    return value is not None and bounds[0] <= value <= bounds[1]
+
+
 def _read_toml(path: str | os.PathLike[str], what: str) -> tuple[dict[str, Any], str, str]:
     source = Path(path)
+    special = special_file(source)
+    if special is not None:
+        raise SpecError(f"the {what} file is {special}", path=str(source)) from None
     try:
-        data = source.read_bytes()
+        with open(source, "rb") as handle:
+            data = handle.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         raise SpecError(f"no such {what} file", path=str(source), hint="check the path") from None
     except IsADirectoryError:
@@ -52,6 +78,13 @@ def _read_toml(path: str | os.PathLike[str], what: str) -> tuple[dict[str, Any],
         raise SpecError(
             f"cannot read the {what} file: {exc.strerror or exc}", path=str(source)
         ) from None
+    if len(data) > MAX_FILE_BYTES:
+        raise SpecError(
+            f"the {what} file holds more than {MAX_FILE_BYTES:,} bytes, far more than "
+            f"a {what} needs",
+            path=str(source),
+            hint="check that this is the right file",
+        )
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as exc:
@@ -157,7 +190,7 @@ def parse_spec(table: dict[str, Any], *, path: str | None = None, text: str | No
         ) from None
     confidence = table.get("confidence", 0.95)
     level = _number(confidence)
-    if level is None or not 0.0 < level < 1.0:
+    if level is None or not 0.0 < level <= MAX_CONFIDENCE:
         raise bad(
             f"key 'confidence' must be a number between 0 and 1 (exclusive), got {confidence!r}",
             "confidence",
@@ -182,6 +215,13 @@ def parse_spec(table: dict[str, Any], *, path: str | None = None, text: str | No
             "limit",
             hint="write [[limit]] on its own line, then tau_s = ... and max = ...",
         )
+    if len(rows) > MAX_POINTS:
+        raise bad(
+            f"the specification lists {len(rows):,} limits, more than the {MAX_POINTS:,} "
+            "a specification may hold",
+            "limit",
+            hint="list the limits at the taus that matter (interpolate = true fills between)",
+        )
     limits: list[tuple[float, float]] = []
     for i, row in enumerate(rows):
         for key in row:
@@ -203,19 +243,19 @@ def parse_spec(table: dict[str, Any], *, path: str | None = None, text: str | No
                     hint="each [[limit]] has tau_s and max",
                 )
         tau = _number(row["tau_s"])
-        if tau is None or tau <= 0:
+        if not _within(tau, _TAU_RANGE):
             raise bad(
-                f"key 'tau_s' in [[limit]] number {i + 1} must be a positive number of seconds, "
-                f"got {row['tau_s']!r}",
+                f"key 'tau_s' in [[limit]] number {i + 1} must be a positive number of seconds "
+                f"from {_TAU_RANGE[0]:g} to {_TAU_RANGE[1]:g}, got {row['tau_s']!r}",
                 "tau_s",
                 i,
                 "limit",
             )
         top = _number(row["max"])
-        if top is None or top <= 0:
+        if not _within(top, _DEVIATION_RANGE):
             raise bad(
-                f"key 'max' in [[limit]] number {i + 1} must be a positive number, "
-                f"got {row['max']!r}",
+                f"key 'max' in [[limit]] number {i + 1} must be a positive number from "
+                f"{_DEVIATION_RANGE[0]:g} to {_DEVIATION_RANGE[1]:g}, got {row['max']!r}",
                 "max",
                 i,
                 "limit",
@@ -351,14 +391,23 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
         pairs: list[tuple[float, float]] = []
         if not isinstance(points, list) or not points:
             points = [None]
+        if len(points) > MAX_POINTS:
+            raise SpecError(
+                f"key 'reference.stability' lists {len(points):,} points, more than the "
+                f"{MAX_POINTS:,} it may hold",
+                path=where,
+                line=line,
+                hint="list the stated stability at the taus that matter",
+            )
         for item in points:
             ok = isinstance(item, list) and len(item) == 2
             tau = _number(item[0]) if ok else None
             dev = _number(item[1]) if ok else None
-            if tau is None or dev is None or tau <= 0 or dev <= 0:
+            if not (_within(tau, _TAU_RANGE) and _within(dev, _DEVIATION_RANGE)):
                 raise SpecError(
-                    f"key 'reference.stability' must be [[tau_s, deviation], ...] with positive "
-                    f"numbers, got {item!r}",
+                    f"key 'reference.stability' must be [[tau_s, deviation], ...] with taus "
+                    f"from {_TAU_RANGE[0]:g} to {_TAU_RANGE[1]:g} s and deviations from "
+                    f"{_DEVIATION_RANGE[0]:g} to {_DEVIATION_RANGE[1]:g}, got {item!r}",
                     path=where,
                     line=line,
                     hint="e.g. stability = [[1, 2e-13], [100, 5e-14]]",
@@ -392,9 +441,10 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
                     hint=f"names: {', '.join(_LEVEL_NAMES)} (h_alpha of S_y(f) = h_alpha f^alpha)",
                 )
             number = _number(value)
-            if number is None or number < 0:
+            if number is None or not 0 <= number <= _LEVEL_MAX:
                 raise SpecError(
-                    f"key 'reference.levels.{key}' must be a non-negative number, got {value!r}",
+                    f"key 'reference.levels.{key}' must be a number from 0 to {_LEVEL_MAX:g}, "
+                    f"got {value!r}",
                     path=where,
                     line=line,
                 )
@@ -403,9 +453,10 @@ def _parse_reference(raw: dict[str, Any], where: str, text: str | None) -> Refer
     ref.statistic = _reference_statistic(raw, ref, where, text)
     if "f_h" in raw:
         f_h = _number(raw["f_h"])
-        if f_h is None or f_h <= 0:
+        if not _within(f_h, _F_H_RANGE):
             raise SpecError(
-                f"key 'reference.f_h' must be a positive frequency in Hz, got {raw['f_h']!r}",
+                f"key 'reference.f_h' must be a positive frequency from {_F_H_RANGE[0]:g} to "
+                f"{_F_H_RANGE[1]:g} Hz, got {raw['f_h']!r}",
                 path=where,
                 line=_line_of(text, "f_h") or None,
             )

@@ -188,13 +188,15 @@ def test_analyze_stopped_by_a_signal_says_one_line_and_leaves_nothing(tmp_path, 
 
 
 def test_ctrl_c_while_starting_is_one_line(tmp_path):
+    # what the console script `stability` runs; its first lines install the handler
+    script = "from stability_cli.entry import main; main()"
     child = subprocess.Popen(
-        [sys.executable, "-m", "stability", "--help"],
+        [sys.executable, "-c", script, "--help"],
         stdout=subprocess.DEVNULL,
         stderr=subprocess.PIPE,
         text=True,
     )
-    time.sleep(0.15)  # inside the imports of numpy, pandas and matplotlib
+    time.sleep(0.4)  # past the interpreter's own start, inside numpy, pandas, matplotlib
     child.send_signal(signal.SIGINT)
     _, err = child.communicate(timeout=60)
     if child.returncode == 0:

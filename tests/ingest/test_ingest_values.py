@@ -56,6 +56,13 @@ def test_unknown_nominal_asks_for_it(tmp_path):
         read_log(_write(tmp_path, text))
 
 
+def test_fractional_readings_of_one_or_more_are_another_kind(tmp_path):
+    # 1.25 "fractional" is 125 % off nominal: ppm without a unit, or hertz
+    text = "t,y\n" + "".join(f"{i},{v}\n" for i, v in enumerate([0.5, 1.25, 0.75, 1.0]))
+    with pytest.raises(InputError, match=r"v.csv:3 column y: .*not a fractional frequency"):
+        read_log(_write(tmp_path, text))
+
+
 @pytest.mark.parametrize(
     ("header", "scale", "kind"),
     [
@@ -72,6 +79,8 @@ def test_units_from_header(tmp_path, header, scale, kind):
     written = raw.copy()
     if kind == "frequency":
         raw = 10.0 + raw * 1e-9
+    if kind == "fractional" and scale == 1.0:
+        raw = raw * 1e-3  # a fractional frequency is below 1 (refused otherwise, above)
     text = f"t,{header}\n" + "".join(f"{i},{v:.12f}\n" for i, v in enumerate(raw))
     m = read_log(_write(tmp_path, text), nominal="10MHz")
     if kind == "phase":
