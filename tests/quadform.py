@@ -46,6 +46,7 @@ __all__ = [
     "q_mtot",
     "q_htot",
     "q_theo1",
+    "q_pvar",
     "Q_BUILDERS",
 ]
 
@@ -231,6 +232,21 @@ def q_theo1(n: int, m: int) -> np.ndarray:
     return q / (0.75 * count * m * m)
 
 
+def q_pvar(n: int, m: int) -> np.ndarray:
+    """PVAR (Vernotte et al. 2016, arXiv:1506.00687; form from memory), tau0 = 1.
+
+    PVAR = 72 / (M m^4 tau^2) sum_i [sum_{k<m} ((m-1)/2 - k)(x_{i+k} - x_{i+k+m})]^2,
+    M = N - 2m. Its weights vanish at m = 1, where the project (as allantools) takes
+    the Allan variance.
+    """
+    if m == 1:
+        return q_oavar(n, 1)
+    count = n - 2 * m
+    w = (m - 1) / 2.0 - np.arange(m)
+    rows = _comb_rows(n, np.arange(count), np.arange(2 * m), np.concatenate((w, -w)))
+    return _gram(rows) * 72.0 / (count * m**4 * m * m)
+
+
 #: statistic -> Q builder (variance with tau0 = 1, before any bias correction).
 Q_BUILDERS = {
     "adev": q_avar,
@@ -242,4 +258,5 @@ Q_BUILDERS = {
     "mtot": q_mtot,
     "htot": q_htot,
     "theo1": q_theo1,
+    "pdev": q_pvar,
 }
