@@ -25,6 +25,7 @@ from ..confidence import (
     GreenhallModel,
     check_row,
     htot_bias,
+    htot_edf,
     mtot_bias,
     mtot_edf,
     theo1_bias,
@@ -460,7 +461,7 @@ register(
         4,
         _hadamard_m,
         "hadamard_total",
-        edf=_OHDEV_EDF,
+        edf=htot_edf,
         bias=htot_bias,
     )
 )
