@@ -42,7 +42,9 @@ EDF models
   smaller of the WPM and WFM values (its neighbours) is used.
 * Parabolic variance: the modified Allan EDF (Greenhall, d = 2, F = 1, S = m).
   This is a fallback recalled, not read, from Vernotte et al. [5]_, who report
-  PVAR confidence close to that of MVAR (from memory).
+  PVAR confidence close to that of MVAR (from memory). The exact EDF of PVAR for
+  sampled power-law noise is 1.2 to 2 times this one (N = 512, m = 2 .. N/4), so the
+  intervals are wider than nominal.
 * MTIE and TIE rms are not chi-squared distributed: no EDF (the registry says so).
 
 The chi-squared interval that follows from an EDF is
