@@ -13,10 +13,12 @@ beta = 2 - alpha for phase. So C = H H' and the moments below are exact for the
 simulator's noise (tau0 = 1, unit white-noise variance).
 
 Numerics: every form here is blind to a constant and a linear trend of the phase,
-so Q = D2' Q2 D2 with D2 the second difference, and the moments are computed from
-Q2 = S' Q S (S the double running sum) and the covariance of the second differences,
-whose filter (1 - z)^2 h decays for every alpha >= -2. That keeps the digits that
-the growing phase of FFM and RWFM would otherwise cancel.
+so Q = D2' Q2 D2 with D2 the second difference, and for alpha <= 0 the moments are
+computed from Q2 = S' Q S (S the double running sum) and the covariance of the second
+differences, whose filter (1 - z)^2 h decays for every alpha >= -2. That keeps the
+digits that the growing phase of WFM, FFM and RWFM would otherwise cancel. For
+alpha >= 1 the phase is stationary and H' Q H is taken directly (the detour through
+second differences loses digits there at large N).
 
 The operators are built directly from the definitions (NIST SP 1065 eqs. 10-30) and
 checked against the project's estimators in tests/test_quadform.py.
@@ -46,6 +48,7 @@ __all__ = [
     "q_mtot",
     "q_htot",
     "q_theo1",
+    "q_pvar",
     "Q_BUILDERS",
 ]
 
@@ -91,16 +94,33 @@ def _double_sum_form(q: np.ndarray) -> np.ndarray:
     return s.T @ q @ s
 
 
+def _noise_form(q: np.ndarray, alpha: int, q2: np.ndarray | None = None) -> np.ndarray:
+    """H' Q H (symmetrised), the form in the white noise w, for phase noise of type alpha.
+
+    For alpha >= 1 the phase is stationary and H bounded: directly. For alpha <= 0
+    through the second differences (Q2 = S' Q S, pass it to reuse it), whose filter
+    decays; the direct route would cancel the digits of the growing phase, and this one
+    loses them for the rough noises alpha >= 1 at large N (10 % of the EDF of
+    alpha = 4 at N = 2048).
+    """
+    n = q.shape[0]
+    if alpha >= 1:
+        h = _lower_toeplitz(kw_filter(2.0 - alpha, n), n, n)
+        m = h.T @ q @ h
+    else:
+        if q2 is None:
+            q2 = _double_sum_form(np.asarray(q, dtype=float))
+        g = _second_difference_filter(alpha, n)
+        m = g.T @ q2 @ g  # H' Q H, with H' Q H = (D2 H)' Q2 (D2 H)
+    return 0.5 * (m + m.T)
+
+
 def moments(q: np.ndarray, alpha: int) -> tuple[float, float, float]:
     """(E[v], Var[v], edf) of v = x' Q x for discrete power-law phase noise of type alpha.
 
     Q must be blind to constant and linear phase (true of every estimator here).
     """
-    n = q.shape[0]
-    q2 = _double_sum_form(np.asarray(q, dtype=float))
-    g = _second_difference_filter(alpha, n)
-    m = g.T @ q2 @ g  # H' Q H, with H' Q H = (D2 H)' Q2 (D2 H)
-    m = 0.5 * (m + m.T)
+    m = _noise_form(np.asarray(q, dtype=float), alpha)
     mean = float(np.trace(m))
     sq = float(np.sum(m * m))
     return mean, 2.0 * sq, mean * mean / sq
@@ -231,6 +251,21 @@ def q_theo1(n: int, m: int) -> np.ndarray:
     return q / (0.75 * count * m * m)
 
 
+def q_pvar(n: int, m: int) -> np.ndarray:
+    """PVAR (Vernotte et al. 2016, arXiv:1506.00687; form from memory), tau0 = 1.
+
+    PVAR = 72 / (M m^4 tau^2) sum_i [sum_{k<m} ((m-1)/2 - k)(x_{i+k} - x_{i+k+m})]^2,
+    M = N - 2m. Its weights vanish at m = 1, where the project (as allantools) takes
+    the Allan variance.
+    """
+    if m == 1:
+        return q_oavar(n, 1)
+    count = n - 2 * m
+    w = (m - 1) / 2.0 - np.arange(m)
+    rows = _comb_rows(n, np.arange(count), np.arange(2 * m), np.concatenate((w, -w)))
+    return _gram(rows) * 72.0 / (count * m**4 * m * m)
+
+
 #: statistic -> Q builder (variance with tau0 = 1, before any bias correction).
 Q_BUILDERS = {
     "adev": q_avar,
@@ -242,4 +277,5 @@ Q_BUILDERS = {
     "mtot": q_mtot,
     "htot": q_htot,
     "theo1": q_theo1,
+    "pdev": q_pvar,
 }

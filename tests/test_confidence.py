@@ -12,7 +12,7 @@ from scipy.stats import binomtest, chi2
 
 from stability import confidence as conf
 from stability.confidence import greenhall_edf, simple_oadev_edf
-from stability.confidence_models import increment_edf, totvar_edf_pm
+from stability.confidence_models import increment_edf, reflected_total_edf, totvar_edf_pm
 from stability.dead_time import barnes_b2
 from stability.deviations import STATISTICS, bias_factor, edf_for, edf_many, statistic_names
 from stability.errors import InputError
@@ -228,7 +228,8 @@ def test_edf_for_dispatch():
             assert edf_for("pdev", a, m, n) == edf_for("mdev", a, m, n)
             assert edf_for("hdev", a, m, n) == greenhall_edf(a, 3, m, n, F=m, S=1)
             assert edf_for("ohdev", a, m, n) == greenhall_edf(a, 3, m, n, F=m, S=m)
-            assert edf_for("htot", a, m, n) == edf_for("ohdev", a, m, n)
+            # HTOT is MTOT's form on the N - 1 frequency values, noise type alpha + 2
+            assert edf_for("htot", a, m, n) == reflected_total_edf(a + 2, m, n - 1)
             assert math.isnan(edf_for("mtie", a, m, n))
             assert math.isnan(edf_for("tie_rms", a, m, n))
     # Accepts numpy integers, integral floats, mixed case and NaN for "not identified".
@@ -237,7 +238,7 @@ def test_edf_for_dispatch():
 
 
 def test_total_family_formulas():
-    # NIST SP 1065 EDF tables for TOTVAR and MTOT/TTOT (from memory), edf = b T/tau - c with
+    # NIST SP 1065 EDF table for TOTVAR (from memory), edf = b T/tau - c with
     # T/tau = (N - 1)/m (coefficients from memory).
     n, m = 1001, 10
     ratio = (n - 1) / m
@@ -249,13 +250,11 @@ def test_total_family_formulas():
         assert edf_for("totdev", a, m, n) == totvar_edf_pm(a, m, n, oadev_edf)
         # the reflected ends cost degrees of freedom at long tau (m = N/4)
         assert edf_for("totdev", a, 250, n) < edf_for("oadev", a, 250, n)
-    for a, (b, c) in zip(
-        ALPHAS, [(1.90, 2.10), (1.20, 1.40), (1.10, 1.20), (0.85, 0.50), (0.75, 0.31)], strict=True
-    ):
-        assert edf_for("mtot", a, m, n) == pytest.approx(b * ratio - c)
+    for a in ALPHAS:  # MTOT/TTOT: the model fitted to the exact EDF (test_confidence_exact)
+        assert edf_for("mtot", a, m, n) == reflected_total_edf(a, m, n)
         assert edf_for("ttot", a, m, n) == edf_for("mtot", a, m, n)
-    # Near the end of the record the empirical formula goes below 1: raised to 1.
-    assert edf_for("mtot", 2, 1000, 1001) == 1.0  # 1.90 - 2.10 < 1
+    # Past the end of the record (3m > N) the model has no value: the floor of 1.
+    assert edf_for("mtot", 2, 1000, 1001) == 1.0
 
 
 def test_theo1_formulas():

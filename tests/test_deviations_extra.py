@@ -93,17 +93,17 @@ def test_nbs14_mtot_ttot_from_memory(m, mtot_ref, ttot_ref):
     # The recalled values are corrected ones: raw / sqrt(0.73), the handbook's WFM factor
     # (from memory). Compare the raw estimate with the raw value they imply.
     raw = math.sqrt(0.73)
-    assert mtot(NBS14_X, 1.0, m)[0] == pytest.approx(mtot_ref * raw, rel=2e-7)
-    assert ttot(NBS14_X, 1.0, m)[0] == pytest.approx(ttot_ref * raw, rel=2e-7)
+    assert mtot(NBS14_X, 1.0, m)[0] == pytest.approx(mtot_ref * raw, rel=2e-7, abs=0)
+    assert ttot(NBS14_X, 1.0, m)[0] == pytest.approx(ttot_ref * raw, rel=2e-7, abs=0)
     assert mtot(NBS14_X, 1.0, m)[1] == 10 - 3 * m + 1
     if m == 1:  # raw MTOT(tau0) = MDEV(tau0)/sqrt(2) = 91.22945/sqrt(2) (SP 1065 MDEV value)
-        assert mtot(NBS14_X, 1.0, 1)[0] == pytest.approx(91.22945 / math.sqrt(2), rel=1e-7)
+        assert mtot(NBS14_X, 1.0, 1)[0] == pytest.approx(91.22945 / math.sqrt(2), rel=1e-7, abs=0)
 
 
 def test_nbs14_htot_m1_is_ohdev():
     # SP 1065 section 5.2.14: the overlapping Hadamard deviation at m = 1;
     # NBS14 OHDEV(1) = 70.80607 (SP 1065 section 12.3, Riley table I).
-    assert htot(NBS14_X, 1.0, 1)[0] == pytest.approx(70.80607, rel=1e-7)
+    assert htot(NBS14_X, 1.0, 1)[0] == pytest.approx(70.80607, rel=1e-7, abs=0)
     assert htot(NBS14_X, 1.0, 1) == ohdev(NBS14_X, 1.0, 1)
 
 
@@ -160,7 +160,7 @@ def test_large_phase_offset_keeps_digits():
     x = _noise(300, 0, seed=5)
     ramp = 0.3 + 1e-6 * np.arange(300)
     for func, m in ((mtot, 8), (htot, 8), (theo1, 8), (pdev, 8)):
-        assert func(x + ramp, 1.0, m)[0] == pytest.approx(func(x, 1.0, m)[0], rel=1e-6)
+        assert func(x + ramp, 1.0, m)[0] == pytest.approx(func(x, 1.0, m)[0], rel=1e-6, abs=0)
 
 
 # ------------------------------------------------------------------ identities
@@ -178,10 +178,10 @@ def test_identities():
     # TheoBR = sqrt(ratio * Theo1 variance) (SP 1065 eq. 31, from memory)
     ratio = theobr_ratio(x)
     var, _ = theo1_variance(x, 1.0, 40)
-    assert theobr(x, 1.0, 40)[0] == pytest.approx(math.sqrt(ratio * var), rel=1e-12)
+    assert theobr(x, 1.0, 40)[0] == pytest.approx(math.sqrt(ratio * var), rel=1e-12, abs=0)
     # scaling with tau0: the deviations are dimensionless, tau0 only rescales phase
     for func in (mtot, htot, theo1, pdev):
-        assert func(2.0 * x, 2.0, 4)[0] == pytest.approx(func(x, 1.0, 4)[0], rel=1e-12)
+        assert func(2.0 * x, 2.0, 4)[0] == pytest.approx(func(x, 1.0, 4)[0], rel=1e-12, abs=0)
 
 
 def test_theobr_ratio_definition():
@@ -195,7 +195,78 @@ def test_theobr_ratio_definition():
             for i in range(top + 1)
         ]
     )
-    assert theobr_ratio(x) == pytest.approx(want, rel=1e-12)
+    assert theobr_ratio(x) == pytest.approx(want, rel=1e-12, abs=0)
+
+
+# ------------------------------------------------------------------ rounding at long tau
+def _reflected_sum_extended(u: np.ndarray, m: int) -> tuple[float, int]:
+    """Sum over 3m-sample subsequences of the mean square of the 6m reflected second
+    differences of m-averages (SP 1065 eqs. 26 and 29, from memory), term by term in
+    80-bit extended precision (np.longdouble): the direct definition, no fast algebra."""
+    u = np.asarray(u, dtype=np.longdouble)
+    n = 3 * m
+    count = u.size - n + 1
+    k1, k2 = n // 2, (n + 1) // 2
+    t = np.arange(n, dtype=np.longdouble)
+    j = np.arange(6 * m)
+    total = np.longdouble(0)
+    for lo in range(0, count, 32):  # blocks of subsequences (test reference)
+        idx = np.arange(lo, min(count, lo + 32))[:, None] + np.arange(n)[None, :]
+        xs = u[idx] - u[idx[:, :1]]
+        slope = (xs[:, k2:].mean(axis=1) - xs[:, :k1].mean(axis=1)) / k2
+        x0 = xs - slope[:, None] * t
+        x0 -= x0.mean(axis=1, keepdims=True)
+        ext = np.concatenate((x0[:, ::-1], x0, x0[:, ::-1]), axis=1)
+        c = np.concatenate((np.zeros((idx.shape[0], 1), np.longdouble), ext.cumsum(axis=1)), 1)
+        sums = c[:, m:] - c[:, :-m]  # m-sample sums starting at each position
+        z = (sums[:, j] - 2 * sums[:, j + m] + sums[:, j + 2 * m]) / m
+        total += np.sum(z * z) / (6 * m)
+    return float(total), count
+
+
+@pytest.mark.skipif(np.finfo(np.longdouble).eps > 1e-18, reason="needs 80-bit long double")
+@pytest.mark.parametrize(("name", "alpha"), [("htot", 2), ("htot", 1), ("mtot", 2), ("mtot", 0)])
+def test_long_tau_against_extended_precision(name, alpha):
+    # The fast algebra must keep its digits at long tau for rough data (white PM phase
+    # makes HTOT's frequency input blue): against the definition summed in extended
+    # precision, to 1e-10 relative at m = 1024.
+    m, n = 1024, 3200
+    x = _noise(n, alpha, seed=31 + alpha)
+    if name == "htot":
+        total, count = _reflected_sum_extended(np.diff(x), m)
+        want = math.sqrt(total / (6.0 * count))
+    else:
+        total, count = _reflected_sum_extended(x, m)
+        want = math.sqrt(total / (2.0 * m * m * count))
+    got = {"htot": htot, "mtot": mtot}[name](x, 1.0, m)
+    assert got[1] == count
+    assert got[0] == pytest.approx(want, rel=1e-10, abs=0)
+
+
+@pytest.mark.parametrize("alpha", [2, 0, -2])
+def test_both_reflected_forms_are_the_definition(alpha):
+    # The sum is computed on first differences (smooth data) or on the samples (rough
+    # data); each form alone must be the definition, whichever the data would choose.
+    from stability.deviations.total import _stretch_sum
+
+    x = _noise(120, alpha, seed=41) * 1e9
+    for m in (1, 2, 5, 16):
+        want = _mtot_loop(x, None, m, m * 1.0)
+        for choice in ("differences", "samples"):
+            total, count = _stretch_sum(x, [(0, x.size)], m, choice)
+            got = math.sqrt(total / (2.0 * m**4 * 6.0 * m * count))
+            assert count == want[1]
+            assert got == pytest.approx(want[0], rel=1e-11, abs=0), (choice, m)
+
+
+def test_htot_long_tau_against_allantools():
+    # allantools 2024.6 htotdev (a direct float64 sum per subsequence) on white PM at the
+    # longest octave tau of a 1600-sample record, to 1e-10 relative.
+    x = _noise(1600, 2, seed=3)
+    t, dev, _, n = _allan("htotdev", x, taus=[512.0])
+    got = htot(x, 1.0, 512)
+    assert got[1] == n[0]
+    assert got[0] == pytest.approx(dev[0], rel=1e-10, abs=0)
 
 
 # ------------------------------------------------------------------ gaps
@@ -278,7 +349,7 @@ def test_gaps_against_loops(case):
     for m in (1, 2, 5):
         got, want = mtot(x, 1.0, m, seg), _mtot_loop(x, seg, m, m * 1.0)
         assert got[1] == want[1]
-        assert got[0] == pytest.approx(want[0], rel=1e-10)
+        assert got[0] == pytest.approx(want[0], rel=1e-10, abs=0)
     y = np.diff(x)
     yseg = None if seg is None else seg[:-1]
     if seg is not None:
@@ -286,15 +357,15 @@ def test_gaps_against_loops(case):
     for m in (2, 5):
         got, want = htot(x, 1.0, m, seg), _mtot_loop(y, yseg, m, m * 1.0, hadamard=True)
         assert got[1] == want[1]
-        assert got[0] == pytest.approx(want[0], rel=1e-10)
+        assert got[0] == pytest.approx(want[0], rel=1e-10, abs=0)
     for m in (2, 6):
         got, want = theo1(x, 1.0, m, seg), _theo1_loop(x, seg, m, 1.0)
         assert got[1] == want[1]
-        assert got[0] == pytest.approx(want[0], rel=1e-10)
+        assert got[0] == pytest.approx(want[0], rel=1e-10, abs=0)
     for m in (2, 7):
         got, want = pdev(x, 1.0, m, seg), _pdev_loop(x, seg, m, 1.0)
         assert got[1] == want[1]
-        assert got[0] == pytest.approx(want[0], rel=1e-10)
+        assert got[0] == pytest.approx(want[0], rel=1e-10, abs=0)
 
 
 # ------------------------------------------------------------------ registry
