@@ -152,16 +152,51 @@ def _version_of(con: sqlite3.Connection, path: Path) -> int:
     return version
 
 
+def _check_header(target: Path, head: bytes) -> None:
+    """Checks that need no SQLite: the magic string, our application id, the size [1]_."""
+    if not head:
+        raise _refuse(target, "an empty file, not a calibration history")
+    if not head.startswith(_HEADER):
+        raise _refuse(target, "not a calibration history (not an SQLite database)")
+    if len(head) < 100:
+        raise _refuse(target, "a damaged SQLite file (shorter than its 100-byte header)")
+    if int.from_bytes(head[68:72], "big") != APPLICATION_ID:
+        raise _refuse(target, "an SQLite database but not a stability calibration history")
+    page = int.from_bytes(head[16:18], "big")
+    page = 65536 if page == 1 else page
+    pages = int.from_bytes(head[28:32], "big")
+    valid = head[92:96] == head[24:28]
+    if valid and pages and target.stat().st_size < page * pages:
+        raise _refuse(
+            target,
+            f"a damaged calibration history (truncated: {target.stat().st_size} bytes of "
+            f"{page * pages})",
+        )
+
+
+def _tidy(target: Path, existed: set[str]) -> None:
+    """Remove the empty journal files a read-only look at a refused file made."""
+    for suffix in ("-wal", "-shm"):
+        side = Path(f"{target}{suffix}")
+        if suffix not in existed and side.exists():
+            wal_used = Path(f"{target}-wal").exists() and Path(f"{target}-wal").stat().st_size
+            if suffix == "-shm" and wal_used:
+                continue
+            with contextlib.suppress(OSError):
+                side.unlink()
+
+
 def inspect_file(path: str | os.PathLike[str]) -> int | None:
     """The schema version of an existing history file, None when there is no file.
 
-    The file is opened read-only and never changed here.
+    The file is read, then opened read-only, and never changed here.
 
     Raises
     ------
     HistoryFileError
         A folder, an empty file, a file that is not SQLite, an SQLite database
-        without the history's schema, a damaged file, or one of a newer schema.
+        without the history's schema, a damaged or truncated file, or one of a
+        newer schema.
     """
     target = Path(path)
     if not target.exists():
@@ -170,25 +205,28 @@ def inspect_file(path: str | os.PathLike[str]) -> int | None:
         raise _refuse(target, "is a folder, not a calibration history file")
     try:
         with open(target, "rb") as handle:
-            head = handle.read(len(_HEADER))
+            head = handle.read(100)
     except OSError as exc:
         raise InputError(f"cannot read: {exc.strerror or exc}", path=str(target)) from None
-    if not head:
-        raise _refuse(target, "an empty file, not a calibration history")
-    if head != _HEADER:
-        raise _refuse(target, "not a calibration history (not an SQLite database)")
+    _check_header(target, head)
+    existed = {s for s in ("-wal", "-shm") if Path(f"{target}{s}").exists()}
     try:
         con = sqlite3.connect(read_only_uri(target), uri=True, timeout=30.0)
     except sqlite3.Error as exc:
         raise _refuse(target, f"cannot be opened as SQLite ({exc})") from None
     try:
-        version = _version_of(con, target)
         check = con.execute("PRAGMA quick_check").fetchall()
         if [tuple(r) for r in check] != [("ok",)]:
             raise _refuse(target, f"a damaged calibration history ({check[0][0]})")
-        return version
+        return _version_of(con, target)
     except sqlite3.DatabaseError as exc:
+        con.close()
+        _tidy(target, existed)
         raise _refuse(target, f"a damaged or unreadable SQLite file ({exc})") from None
+    except HistoryFileError:
+        con.close()
+        _tidy(target, existed)
+        raise
     finally:
         con.close()
 
