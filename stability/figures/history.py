@@ -112,6 +112,12 @@ def _validate(
     return sorted(items, key=lambda c: c.when)
 
 
+def _plain(value: float) -> str:
+    """3 significant digits without a padded exponent: 3e-9, 2.5e-10."""
+    mantissa, _, exponent = f"{value:.3g}".partition("e")
+    return f"{mantissa}e{int(exponent)}" if exponent else mantissa
+
+
 def _num(moment: datetime) -> float:
     return float(mdates.date2num(moment))
 
@@ -172,6 +178,25 @@ def _model_curves(
     return model, (xf, future.mean, future.low, future.high)
 
 
+def _offset_limits(
+    ax: Axes, drawn: list[np.ndarray], tolerance: float | None, toward: float
+) -> None:
+    """Offset axis from the data and curves drawn, and the tolerance line the offset heads to.
+
+    The other tolerance line is left out of the view unless the data come near it,
+    so that the aging stays readable.
+    """
+    values = np.concatenate([np.ravel(v) for v in drawn if np.size(v)] or [np.zeros(1)])
+    values = values[np.isfinite(values)]
+    if tolerance is not None:
+        values = np.append(values, math.copysign(tolerance, toward if toward else 1.0))
+    if not values.size:
+        return
+    low, high = float(values.min()), float(values.max())
+    pad = 0.08 * (high - low) if high > low else max(abs(high), 1e-12) * 0.1
+    ax.set_ylim(low - pad, high + pad)
+
+
 def _tolerance_and_due(ax: Axes, tolerance: float | None, due: datetime | None) -> None:
     if tolerance is not None:
         for sign in (1.0, -1.0):
@@ -180,7 +205,7 @@ def _tolerance_and_due(ax: Axes, tolerance: float | None, due: datetime | None) 
                 color=LIMIT_COLOR,
                 linewidth=0.9,
                 linestyle="--",
-                label=f"tolerance \u00b1{tolerance:.3g}" if sign > 0 else None,
+                label=f"tolerance \u00b1{_plain(tolerance)}" if sign > 0 else None,
             )
     if due is not None:
         ax.axvline(_num(due), color=NOTE_COLOR, linewidth=0.9, linestyle="-.")
@@ -311,6 +336,13 @@ def history_figure(
     if fit is not None:
         model, forecast = _model_curves(ax_off, fit, due, confidence)
     _tolerance_and_due(ax_off, tolerance, due)
+    curves = [] if model is None else list(model[1:])
+    curves += [] if forecast is None else list(forecast[1:])
+    shown = [y - np.nan_to_num(u), y + np.nan_to_num(u), *curves]
+    toward = (
+        float(forecast[1][-1]) if forecast is not None else float(np.nanmean(y) if y.size else 0)
+    )
+    _offset_limits(ax_off, shown, tolerance, toward)
     ax_off.yaxis.set_major_formatter(PlainScalar())
     ax_off.set_ylabel("fractional frequency offset", fontsize=LABEL_SIZE)
     ax_off.tick_params(axis="x", labelbottom=False)

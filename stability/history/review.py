@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from datetime import UTC, datetime
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -31,6 +31,7 @@ from ..aging import (
     parse_interval,
 )
 from ..errors import InputError, StabilityError
+from ..files import jsonable
 from ..intervals import check_confidence
 from .store import DeviceSummary, HistoryStore
 
@@ -91,6 +92,52 @@ class DeviceReview:
     def overdue(self, now: datetime | None = None) -> bool:
         """Whether the due date has passed."""
         return (now or datetime.now(UTC)) > self.due
+
+    def to_dict(self) -> dict[str, Any]:
+        """The review as JSON types (what ``stability history --device ID --json`` prints)."""
+        fit = self.fit
+        fitted = None
+        if fit is not None:
+            rate, u_rate = fit.rate_per_day()
+            fitted = {
+                "model": fit.model,
+                "why": fit.why,
+                "origin": fit.origin,
+                "log_time_constant_days": fit.log_days if fit.model == "log" else None,
+                "coefficients": list(fit.coef),
+                "covariance": (fit.scale**2 * fit.inverse).tolist() if fit.dof > 0 else None,
+                "birge_ratio": fit.scale,
+                "dof": fit.dof,
+                "rate_per_day_at_last": rate,
+                "u_rate_per_day_at_last": u_rate,
+                "records_skipped": list(fit.skipped),
+            }
+        at_due = None
+        if self.at_due is not None:
+            at_due = {
+                "offset": float(self.at_due.mean[0]),
+                "band": [float(self.at_due.band_low[0]), float(self.at_due.band_high[0])],
+                "prediction_interval": [float(self.at_due.low[0]), float(self.at_due.high[0])],
+            }
+        return jsonable(
+            {
+                "device": self.device,
+                "calibrations": self.calibrations,
+                "interval": self.interval.text,
+                "interval_from": self.interval_from,
+                "last_calibration": self.last.when,
+                "due": self.due,
+                "confidence": self.confidence,
+                "fit": fitted,
+                "fit_note": self.fit_note,
+                "at_due": at_due,
+                "tolerance": self.tolerance,
+                "within_tolerance_until_due": self.within,
+                "longest_interval": None
+                if self.longest is None
+                else {"months": self.longest[0], "days": self.longest[1]},
+            }
+        )
 
 
 def due_date(last: datetime, interval: CalendarInterval) -> datetime:
