@@ -32,9 +32,11 @@ from stability.files import jsonable
 from stability.history import (
     DeviceReview,
     HistoryStore,
+    due_date,
     export_history,
     history_to_read,
     import_records,
+    interval_in_force,
     open_history,
     review_device,
     write_stored_record,
@@ -106,8 +108,8 @@ IntervalOpt = Annotated[
     str | None,
     typer.Option(
         "--interval",
-        help="Calibration interval, e.g. 12mo, 1y, 26w or 90d (default: the device's stored "
-        "interval, else 12 months).",
+        help="Calibration interval of the due dates, e.g. 12mo, 1y, 26w or 90d (default: each "
+        "device's stored interval, else 12 months).",
         metavar="INTERVAL",
         callback=checked(_interval),
         show_default=False,
@@ -163,15 +165,13 @@ def _pm(value: float | None, u: float | None) -> str:
 
 
 # ---------------------------------------------------------------------- list
-def _list_devices(store: HistoryStore, opts: RunOptions) -> None:
+def _list_devices(store: HistoryStore, given_interval: str | None, opts: RunOptions) -> None:
     devices = store.devices()
     now = datetime.now(UTC)
     rows = []
     for d in devices:
-        interval = parse_interval(d.interval) if d.interval else None
-        review_interval = interval or parse_interval("12mo")
-        due = review_interval.after(d.last_calibrated) if d.last_calibrated else None
-        late = " (overdue)" if due is not None and due < now else ""
+        interval, source = interval_in_force(given_interval, d.interval)
+        due = due_date(d.last_calibrated, interval) if d.last_calibrated else None
         rows.append(
             {
                 "device_id": d.device_id,
@@ -180,10 +180,10 @@ def _list_devices(store: HistoryStore, opts: RunOptions) -> None:
                 "last_record": d.last_number,
                 "last_calibration": d.last_calibrated,
                 "last_verdict": d.last_verdict,
-                "interval": review_interval.text,
-                "interval_from": "stored" if interval else "default",
+                "interval": interval.text,
+                "interval_from": source,
                 "due": due,
-                "overdue": bool(late),
+                "overdue": due is not None and due < now,
             }
         )
     if opts.json:
@@ -203,7 +203,8 @@ def _list_devices(store: HistoryStore, opts: RunOptions) -> None:
                     f"no. {r['last_record']}",
                     _day(r["last_calibration"]),
                     r["last_verdict"] or "",
-                    r["interval"] + (" (stored)" if r["interval_from"] == "stored" else ""),
+                    r["interval"]
+                    + {"given": "", "stored": " (stored)", "default": ""}[r["interval_from"]],
                     _day(r["due"]) + (" (overdue)" if r["overdue"] else ""),
                 ]
                 for r in rows
@@ -334,11 +335,11 @@ def history(
                 f"not to 'history {ctx.invoked_subcommand}'"
             )
         return
-    if device is None and (tolerance is not None or interval is not None):
-        raise UsageProblem("--tolerance and --interval need --device ID")
+    if device is None and tolerance is not None:
+        raise UsageProblem("--tolerance needs --device ID")
     with _store(history) as store:
         if device is None:
-            _list_devices(store, opts)
+            _list_devices(store, interval, opts)
             return
         settings = {
             "interval": interval,
@@ -415,7 +416,7 @@ def history_show(
     ] = None,
     json_file: Annotated[
         Path | None,
-        typer.Option("--json", help="Write its record.json here.", metavar="FILE"),
+        typer.Option("--json-file", help="Write its record.json here.", metavar="FILE"),
     ] = None,
     force: Annotated[bool, typer.Option("--force", help="Overwrite those files.")] = False,
     *,

@@ -13,7 +13,7 @@ The aging model itself is :mod:`stability.aging`; the figure is
 
 from .entry import CheckRow, RecordEntry, entry_from_record
 from .location import ENV_VAR, default_location, history_for_record, history_to_read
-from .review import DEFAULT_INTERVAL, DeviceReview, due_date, review_device
+from .review import DEFAULT_INTERVAL, DeviceReview, due_date, interval_in_force, review_device
 from .schema import APPLICATION_ID, SCHEMA_VERSION, HistoryFileError, inspect_file
 from .store import DeviceSummary, HistoryStore, RecordRow, StoredRecord, open_history
 from .transfer import EXPORT_NAMES, export_history, import_records, write_stored_record
@@ -39,6 +39,7 @@ __all__ = [
     "history_for_record",
     "history_to_read",
     "import_records",
+    "interval_in_force",
     "inspect_file",
     "open_history",
     "review_device",

@@ -35,7 +35,7 @@ from ..files import jsonable
 from ..intervals import check_confidence
 from .store import DeviceSummary, HistoryStore
 
-__all__ = ["DEFAULT_INTERVAL", "DeviceReview", "review_device", "due_date"]
+__all__ = ["DEFAULT_INTERVAL", "DeviceReview", "review_device", "due_date", "interval_in_force"]
 
 #: The calibration interval when none is given or stored.
 DEFAULT_INTERVAL = CalendarInterval(months=12)
@@ -145,9 +145,14 @@ def due_date(last: datetime, interval: CalendarInterval) -> datetime:
     return interval.after(last)
 
 
-def _interval_in_force(
+def interval_in_force(
     given: CalendarInterval | str | None, stored: str | None
 ) -> tuple[CalendarInterval, Literal["given", "stored", "default"]]:
+    """The interval that sets a due date, and where it came from.
+
+    ``given`` (the command line's ``--interval``) wins; else the device's
+    ``stored`` interval; else :data:`DEFAULT_INTERVAL`.
+    """
     if given is not None:
         return parse_interval(given), "given"
     if stored:
@@ -206,7 +211,7 @@ def review_device(
     calibrations = store.calibrations(device_id)
     if not calibrations:
         raise InputError(f"device {device_id!r} has no record in the history", path=str(store.path))
-    chosen, source = _interval_in_force(interval, summary.interval)
+    chosen, source = interval_in_force(interval, summary.interval)
     due = due_date(calibrations[-1].when, chosen)
     fit: AgingFit | None = None
     note = ""

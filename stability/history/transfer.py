@@ -218,7 +218,7 @@ def write_stored_record(
     Existing files are not overwritten without ``force``.
     """
     if pdf is None and json_path is None:
-        raise InputError("nothing to write", hint="pass --pdf FILE and/or --json FILE")
+        raise InputError("nothing to write", hint="pass --pdf FILE and/or --json-file FILE")
     _, text, pdf_bytes = store.record(number)
     targets = [Path(p) for p in (pdf, json_path) if p is not None]
     for target in targets:
@@ -230,7 +230,7 @@ def write_stored_record(
             f"record {number} was stored from its record.json alone, without the record.pdf "
             "issued with it",
             path=str(store.path),
-            hint="write its record.json with --json FILE, or import the record.json with "
+            hint="write its record.json with --json-file FILE, or import the record.json with "
             "its record.pdf beside it",
         )
     written: dict[str, Path] = {}

@@ -140,6 +140,9 @@ def test_set_interval_export_and_show(yearly, tmp_path, inputs):
     assert stored.exit_code == 0 and "interval of OSC-TEST-1: 6mo" in stored.output, stored.output
     listed = runner.invoke(app, ["history", "--history", str(history)])
     assert "6mo (stored)" in listed.output, listed.output
+    assert "2020-07-06" in listed.output  # 6 January 2020 (the newest record) + 6 months
+    given = runner.invoke(app, ["history", "--history", str(history), "--interval", "90d"])
+    assert "90d" in given.output and "2020-04-05" in given.output, given.output
     export = runner.invoke(
         app, ["history", "export", "--out", str(tmp_path / "x"), "--history", str(history)]
     )
@@ -211,7 +214,7 @@ def test_usage_errors(tmp_path):
         (["history", *history, "--device", "X", "--interval", "12 parsecs"], "--interval"),
         (["history", *history, "--device", "X", "--tolerance", "-1"], "--tolerance"),
         (["history", *history, "--device", "X", "--model", "cubic"], "--model"),
-        (["history", *history, "--tolerance", "1e-9"], "need --device"),
+        (["history", *history, "--tolerance", "1e-9"], "--tolerance needs --device"),
         (["history", "--device", "X", "import", "a.json"], "belong to 'stability history'"),
     ]
     for argv, needle in cases:
