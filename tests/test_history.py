@@ -421,6 +421,53 @@ def test_two_processes_writing_at_once_both_land(tmp_path, template):
         assert {d.device_id: d.records for d in store.devices()} == {"DEV-0": 12, "DEV-1": 12}
 
 
+_RECORDER = textwrap.dedent(
+    """
+    import sys, time
+    from pathlib import Path
+    from history_records import write_inputs
+    from stability.workflow import record_into
+    folder, seed, history, go = Path(sys.argv[1]), int(sys.argv[2]), sys.argv[3], Path(sys.argv[4])
+    log = write_inputs(folder, seed=seed)
+    while not go.exists():
+        time.sleep(0.005)
+    outcome = record_into(log, folder / "rec", folder / "spec.toml", folder / "info.toml",
+                          outliers="off", history=history)
+    print(outcome.history.number)
+    """
+)
+
+
+def test_two_record_runs_at_once_both_land(tmp_path):
+    history, go = tmp_path / "lab.sqlite", tmp_path / "go"
+    env = {
+        **os.environ,
+        "PYTHONPATH": os.pathsep.join(
+            [str(Path(__file__).parent), os.environ.get("PYTHONPATH", "")]
+        ),
+    }
+    runs = [
+        subprocess.Popen(
+            [sys.executable, "-c", _RECORDER, str(tmp_path / f"run{k}"), str(k + 1), str(history),
+             str(go)],
+            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env,
+        )
+        for k in range(2)
+    ]  # fmt: skip
+    time.sleep(1.0)
+    go.touch()
+    numbers = []
+    for run in runs:
+        out, err = run.communicate(timeout=300)
+        assert run.returncode == 0, err
+        numbers.append(int(out.strip()))
+    assert sorted(numbers) == [1, 2]
+    with open_history(history) as store:
+        rows = store.records()
+        assert len(rows) == 2 and all(r.has_pdf for r in rows)
+        assert len({r.input_sha256 for r in rows}) == 2
+
+
 def test_a_writer_waits_for_a_transaction_held_by_another(tmp_path, template):
     history = tmp_path / "h.sqlite"
     records, _, _ = yearly_records(template, years=2, seed=3)
