@@ -297,7 +297,9 @@ def _draw(review: DeviceReview, store: HistoryStore, opts: RunOptions) -> Path:
         return out.commit()[name]
 
 
-def _show_device(store: HistoryStore, device: str, settings: dict[str, Any], opts: RunOptions):
+def _show_device(
+    store: HistoryStore, device: str, settings: dict[str, Any], opts: RunOptions
+) -> None:
     review = review_device(store, device, **settings)
     figure = _draw(review, store, opts)
     if opts.json:

@@ -63,7 +63,7 @@ import math
 import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from datetime import datetime, timedelta
+from datetime import UTC, datetime, timedelta
 from typing import Any, Literal
 
 import numpy as np
@@ -359,7 +359,8 @@ def fit_aging(
     log_days
         Time constant t_c of the log model, days.
     origin
-        The moment t = 0, kept with the fit for :meth:`AgingFit.days`.
+        The moment t = 0, kept with the fit for :meth:`AgingFit.days` (default
+        1970-01-01 UTC).
 
     Returns
     -------
@@ -387,7 +388,7 @@ def fit_aging(
     return AgingFit(
         model=chosen,  # type: ignore[arg-type]
         why=why,
-        origin=origin if origin is not None else datetime(1970, 1, 1),
+        origin=origin if origin is not None else datetime(1970, 1, 1, tzinfo=UTC),
         t_days=t,
         offset=y,
         u_offset=u,
