@@ -20,6 +20,7 @@ from stability._version import __version__
 from . import (
     analyze_cmd,
     demo_cmd,
+    history_cmd,
     inspect_cmd,
     overlay_cmd,
     phase_noise_cmd,
@@ -74,6 +75,21 @@ app.command("phase-noise")(phase_noise_cmd.phase_noise_command)
 app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
+
+#: ``stability history`` and its subcommands (calibration history per device).
+history_app = typer.Typer(
+    name="history",
+    cls=StabilityGroup,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)
+history_app.callback(invoke_without_command=True)(history_cmd.history)
+history_app.command("import")(history_cmd.history_import)
+history_app.command("export")(history_cmd.history_export)
+history_app.command("show")(history_cmd.history_show)
+history_app.command("set-interval")(history_cmd.history_set_interval)
+app.add_typer(history_app, name="history")
 
 
 def main() -> None:

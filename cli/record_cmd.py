@@ -14,6 +14,7 @@ from typing import Annotated
 
 import typer
 
+from stability.history import history_for_record
 from stability.workflow import record_into
 
 from .common import echo
@@ -52,7 +53,23 @@ InfoOpt = Annotated[
     ),
 ]
 ForceOpt = Annotated[
-    bool, typer.Option("--force", help="Overwrite an existing record.pdf and record.json.")
+    bool,
+    typer.Option(
+        "--force",
+        help="Overwrite an existing record.pdf and record.json; with a history, replace the "
+        "stored record of the same log and settings.",
+    ),
+]
+HistoryOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--history",
+        help="Also store the record in this calibration history (SQLite; default: "
+        "$STABILITY_HISTORY when set; the word default names "
+        "$XDG_DATA_HOME/stability/history.sqlite).",
+        metavar="FILE",
+        show_default=False,
+    ),
 ]
 
 #: ``--confidence`` of a record: the specification's own level unless given.
@@ -75,7 +92,13 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
     ),
 )
 def record(
-    log: LogArg, spec: SpecOpt, info: InfoOpt, force: ForceOpt = False, *, opts: RunOptions
+    log: LogArg,
+    spec: SpecOpt,
+    info: InfoOpt,
+    force: ForceOpt = False,
+    history: HistoryOpt = None,
+    *,
+    opts: RunOptions,
 ) -> None:
     """Write a calibration record (PDF and JSON) with verdicts against a specification.
 
@@ -94,6 +117,7 @@ def record(
             force=force,
             plot_format=opts.plot_format,
             title=opts.title,
+            history=history_for_record(history),
             on_progress=bar.reading(log.name),
             on_step=bar.steps(log.name, step_count(stats) + 1),
         )
@@ -104,3 +128,10 @@ def record(
         echo(line)
     echo(f"wrote {outcome.files['record.pdf']}, {outcome.files['record.json']} and the analysis")
     echo(f"  outputs in {folder}")
+    if outcome.history is not None:
+        stored = outcome.history
+        what = "replaced" if stored.replaced else "stored"
+        echo(
+            f"{what} as record {stored.number} of {stored.device_id} in the calibration "
+            f"history {history_for_record(history)}"
+        )

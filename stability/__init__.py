@@ -76,7 +76,7 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
 
 
 #: Subpackages reached as attributes (``stability.prepare.three_point_drift``).
-_SUBPACKAGES = ("prepare", "ingest", "deviations", "spec", "figures", "reports")
+_SUBPACKAGES = ("prepare", "ingest", "deviations", "spec", "figures", "reports", "history", "aging")
 
 
 def __getattr__(name: str) -> Any:

@@ -12,6 +12,7 @@ are removed again. Figures are drawn in this process.
 
 from __future__ import annotations
 
+import contextlib
 import os
 from dataclasses import dataclass
 from datetime import UTC, datetime
@@ -21,6 +22,7 @@ from typing import Any
 from .errors import InputError
 from .figures import save_figure, series_figure, stability_figure
 from .figures.labels import default_footer, default_title
+from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
 from .outputs import OutputSet
 from .reports.record import RECORD_NAMES, write_record_files
@@ -225,6 +227,25 @@ class RecordOutcome:
     info: Info
     spec_path: Path
     files: dict[str, Path]
+    #: Where the record was stored in the calibration history (None: history not asked for).
+    history: StoredRecord | None = None
+
+
+def _store_in_history(
+    store: HistoryStore, out: OutputSet, force: bool
+) -> tuple[StoredRecord, dict[str, Path]]:
+    """Add the pending record.json and record.pdf to the history; commit the files inside.
+
+    The history's transaction is open while the files are moved into place, so
+    a record refused by the history (a duplicate without ``force``) writes no
+    file, and a failed file commit rolls the history back.
+    """
+    text = out.path("record.json").read_text(encoding="utf-8")
+    pdf = out.path("record.pdf").read_bytes()
+    with store.transaction():
+        stored = store.add(text, pdf=pdf, force=force)
+        files = out.commit()
+    return stored, files
 
 
 def record_into(
@@ -238,6 +259,7 @@ def record_into(
     force: bool = False,
     plot_format: str = "png",
     title: str | None = None,
+    history: str | os.PathLike[str] | None = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
     **options: Any,
@@ -250,13 +272,19 @@ def record_into(
     ``record.pdf``, ``record.json``) are written as one set: all or none, the
     folder locked for the run, nothing overwritten without ``force`` (refused
     before anything is computed), and no output may be one of the inputs.
+
+    With ``history`` (a file, :mod:`stability.history`) the record is also
+    stored in that calibration history in the same all-or-nothing step: a
+    record of the same input and settings already there is refused unless
+    ``force`` (which replaces it). The history file is checked before the
+    analysis starts.
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
     spec = load_spec(spec_path)
     info = load_info(info_path)
     names, stale = output_names(fmt)
-    inputs = [log, spec_path, info_path]
+    inputs = [log, spec_path, info_path, *([history] if history is not None else [])]
     stats = settings.analysis.stats
     wanted = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
     wanted = [s for s in wanted if s]
@@ -264,8 +292,12 @@ def record_into(
         wanted.append(spec.statistic)
     level = spec.confidence if confidence is None else confidence
     settings = settings.replace(stats=",".join(wanted), confidence=level)
+    store = open_history(history) if history is not None else None
     # the record's own files first: they are what --force is about
-    with OutputSet(folder, [*RECORD_NAMES, *names], inputs=inputs, force=force, stale=stale) as out:
+    with (
+        store if store is not None else contextlib.nullcontext(),
+        OutputSet(folder, [*RECORD_NAMES, *names], inputs=inputs, force=force, stale=stale) as out,
+    ):
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
         run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
         judgement = judge(run.table, spec, reference=info.reference)
@@ -279,6 +311,10 @@ def record_into(
             title=title,
         )
         write_record_files(run, judgement, info, out.path("record.pdf"), out.path("record.json"))
-        files = out.commit()
+        stored = None
+        if store is None:
+            files = out.commit()
+        else:
+            stored, files = _store_in_history(store, out, force)
     paths = {**_paths(files, fmt), **{name: files[name] for name in RECORD_NAMES}}
-    return RecordOutcome(run, judgement, info, Path(spec_path), paths)
+    return RecordOutcome(run, judgement, info, Path(spec_path), paths, history=stored)

@@ -19,6 +19,8 @@ analysis path imports it.
 """
 
 from .hat import HatDrawn, hat_figure
+from .history import HistoryDrawn as HistoryDrawn
+from .history import history_figure as history_figure
 from .labels import analysis_date, default_footer, default_title, tool_footer
 from .overlay import OverlayDrawn, overlay_figure, overlay_footer
 from .phase_noise import PhaseNoiseDrawn, phase_noise_figure

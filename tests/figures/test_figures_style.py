@@ -158,7 +158,7 @@ def test_every_module_has_a_docstring_and_all_and_stays_short():
 _BELOW = (
     "_version", "errors", "units", "files", "measurement", "taus", "intervals", "table",
     "settings", "ingest", "prepare", "deviations", "confidence", "powerlaw", "noise",
-    "qualify", "analysis", "spec", "hat", "phase_noise", "dynamic", "simulate", "run",
+    "qualify", "analysis", "spec", "hat", "phase_noise", "dynamic", "simulate", "aging", "run",
     "figures",
 )  # fmt: skip
 
