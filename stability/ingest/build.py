@@ -404,8 +404,8 @@ def _check_fractional(
         path=path,
         line=int(rows.lines[i]),
         column=column,
-        hint="pass --kind frequency (with --nominal) if the column holds hertz, or check "
-        "its unit" + more_hint,
+        hint="pass --kind frequency (with --nominal) if the column holds hertz, --kind "
+        "fractional if the numbers are meant as written, or check the unit" + more_hint,
     )
     if not given:
         raise error

@@ -223,3 +223,11 @@ def test_frequency_digits_beyond_float64_subtracted_in_decimal(tmp_path):
     m = read_log(_write(tmp_path, text))
     # (f - f0)/f0 with f - f0 = (o + 5) * 1e-7 Hz exactly as written
     np.testing.assert_allclose(m.frequency(), (OFFS + 5) * 1e-14, rtol=1e-12, atol=0)
+
+
+def test_fractional_stated_by_the_user_is_read_as_written(tmp_path):
+    # published data sets (NBS14, NIST SP 1065 section 12.3) are written in arbitrary units
+    text = "t,y\n" + "".join(f"{i},{v}\n" for i, v in enumerate([892, 809, 823, 798]))
+    np.testing.assert_allclose(
+        read_log(_write(tmp_path, text), kind="fractional").frequency(), [892, 809, 823, 798]
+    )
