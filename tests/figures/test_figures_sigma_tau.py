@@ -146,25 +146,44 @@ def test_slope_key_matches_power_law_slopes(table):
     # common practice: rms phase differences grow as tau^0, ^1/2, ^1, ^3/2
     assert [s for s, _ in slope_key(["mtie"])[1]] == [0.0, 0.5, 1.0, 1.5]
     assert slope_key(["oadev", "mdev"])[0] == "allan"
-    # the drawn guides really have those slopes on the log-log axes
+    # the drawn guides really have those slopes on the log-log axes: in the key's own data
+    # units, and to the eye (the key's decades are as long in inches as its panel's)
     drawn = stability_figure(table)
     for name, kind in (("oadev", "allan"), ("tdev", "tdev")):
-        ax = drawn.panel[name]
-        guides = [ln for ln in ax.lines if ln.get_gid() == "slope-key"]
+        panel = drawn.panel[name]
+        key = drawn.keys[drawn.axes.index(panel)]
+        guides = [ln for ln in key.lines if ln.get_gid() == "slope-key"]
         slopes = sorted(
             np.diff(np.log10(ln.get_ydata()))[0] / np.diff(np.log10(ln.get_xdata()))[0]
             for ln in guides
         )
         np.testing.assert_allclose(slopes, sorted(s for s, _ in SLOPES[kind]), atol=1e-9)
-    # a panel mixing statistics of different slopes says whose slopes the key shows
+        on_screen = []
+        for ln in guides:
+            (x0, y0), (x1, y1) = key.transData.transform(np.column_stack(ln.get_data()))
+            on_screen.append((y1 - y0) / (x1 - x0))
+        per_decade = []
+        for ax in (panel, key):
+            (a, b), (c, d) = ax.get_xlim(), ax.get_ylim()
+            per_decade.append(
+                (ax.bbox.height / np.log10(d / c)) / (ax.bbox.width / np.log10(b / a))
+            )
+        np.testing.assert_allclose(per_decade[1], per_decade[0], rtol=1e-9)
+        np.testing.assert_allclose(
+            sorted(on_screen), np.array(sorted(s for s, _ in SLOPES[kind])) * per_decade[0]
+        )
+    # each key says whose slopes it shows: a mixed panel, or any panel of a figure of two
     headings = [
-        t.get_text() for ax in drawn.axes for t in ax.texts if t.get_text().startswith("slopes")
+        t.get_text() for ax in drawn.keys for t in ax.texts if t.get_text().startswith("slopes")
     ]
-    assert headings == ["slopes (OADEV)", "slopes"]
+    assert headings == ["slopes (OADEV)", "slopes (TDEV)"]
     single = stability_figure(stability.analyze(table.measurement, stats="mdev"))
-    assert [t.get_text() for t in single.axes[0].texts if t.get_gid() == "slope-key"][-1] == (
+    assert [t.get_text() for t in single.keys[0].texts if t.get_gid() == "slope-key"][-1] == (
         "slopes"
     )
+    # the key sits beside the data, never over it
+    for key in drawn.keys:
+        assert key.bbox.x0 >= max(a.bbox.x1 for a in drawn.axes)
 
 
 def test_model_curve_and_limits(qualified):
