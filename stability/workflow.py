@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError
-from .figures import save_figure, series_figure, stability_figure
+from .figures import run_series_figure, save_figure, stability_figure
 from .figures.labels import default_footer, default_title
 from .files import atomic_write_text
 from .measurement import Measurement
@@ -69,15 +69,7 @@ def check_plot_format(plot_format: Any) -> str:
 def _draw_series(
     target: Path, fmt: str, run: AnalysisRun, title: str | None, footer: str | None
 ) -> Path:
-    shown, drift, outliers = run.series_inputs()
-    fig = series_figure(
-        shown,
-        drift_curve=drift,
-        outlier_indices=outliers,
-        analysis_time=run.analysis_time,
-        title=title,
-        footer=footer,
-    )
+    fig = run_series_figure(run, analysis_time=run.analysis_time, title=title, footer=footer)
     return save_figure(fig, target, fmt)
 
 
@@ -122,7 +114,7 @@ def _write_all(
     }
     for name in _TEXT_NAMES:
         atomic_write_text(paths[name], texts[name]())
-    shown = run.series_inputs()[0]
+    shown = run.measurement
     series_title = default_title(shown, "data over time") if titled else None
     series_footer = default_footer(shown, analysis_time=run.analysis_time) if titled else None
     stab_title = default_title(run.table.measurement, "stability") if titled else None

@@ -4,7 +4,7 @@
                  axis wording, margins, :func:`new_figure`, the :class:`Drawn` result
 ``labels``       titles and footers (input SHA-256, tool version, analysis date)
 ``sigma_tau``    the stability plot of one analysis (:func:`stability_figure`)
-``series``       the data over time (:func:`series_figure`)
+``series``       the data over time as analysed (:func:`series_figure`)
 ``hat``          the three-cornered hat (:func:`hat_figure`)
 ``phase_noise``  stability from a phase-noise table (:func:`phase_noise_figure`)
 ``timeline``     stability over time (:func:`timeline_figure`)
@@ -23,7 +23,7 @@ from .labels import analysis_date, default_footer, default_title, tool_footer
 from .overlay import OverlayDrawn, overlay_figure, overlay_footer
 from .phase_noise import PhaseNoiseDrawn, phase_noise_figure
 from .save import FORMATS, save_figure
-from .series import SeriesDrawn, envelope, series_figure
+from .series import SeriesDrawn, envelope, run_series_figure, series_figure
 from .sigma_tau import SLOPES, StabilityDrawn, slope_key, stability_figure, stability_series
 from .style import STATISTIC_STYLES, VERDICT_COLORS, Drawn, statistic_style
 from .timeline import TimelineDrawn, timeline_figure
@@ -33,6 +33,7 @@ __all__ = [
     "stability_series",
     "slope_key",
     "series_figure",
+    "run_series_figure",
     "envelope",
     "hat_figure",
     "phase_noise_figure",

@@ -124,8 +124,16 @@ def test_phase_residual_removes_linear_fit():
     # 1e-14 k^2 less its line over 2000 samples peaks near 1e-14 * 2000^2 / 6 = 6.7 ns
     assert unit == "ns" and factor == 1e-9
     assert 1.0 <= np.nanmax(np.abs(resid)) < 1000.0
-    assert drawn.axes[1].get_ylabel() == "phase residual (ns)"
+    # a phase (time-interval) log: the panel is its time error, the least-squares
+    # frequency offset removed and stated (the slope of the fitted line over tau0)
+    assert drawn.axes[1].get_ylabel() == "time error (ns)"
+    slope = np.polyfit(k, meas.phase, 1)[0]
+    assert drawn.frequency_offset == pytest.approx(slope / 0.5, rel=1e-9)
+    np.testing.assert_array_equal(drawn.time_error[1], resid)
     assert drawn.gaps.shape == (0, 2)
+    # a frequency log: the panel is the phase residual
+    freq = stability.Measurement.from_frequency(np.diff(x) / 0.5, 0.5)
+    assert series_figure(freq).axes[1].get_ylabel() == "phase residual (ns)"
 
 
 def test_series_figure_long_record_is_decimated(tmp_path):
