@@ -273,16 +273,23 @@ def _rug(ax: Axes, where: np.ndarray, label: str) -> None:
 
 
 def _legend(ax: Axes, extra: list[tuple[Any, str]] = ()) -> None:
-    """The panel's legend in one row above its top right corner, outside the data."""
+    """The panel's legend above its top right corner, outside the data.
+
+    One row when it fits beside the axis's multiplier (about an inch is kept
+    for it at the left), else two.
+    """
     handles, labels = ax.get_legend_handles_labels()
     for handle, label in extra:
         handles.append(handle)
         labels.append(label)
-    if handles:
-        ax.legend(
+    if not handles:
+        return
+    fig = ax.get_figure(root=True)
+    for rows in (1, 2):
+        legend = ax.legend(
             handles,
             labels,
-            ncols=len(handles),
+            ncols=-(-len(handles) // rows),
             loc="lower right",
             bbox_to_anchor=(1.0, 1.0),
             fontsize=LEGEND_SIZE,
@@ -291,6 +298,9 @@ def _legend(ax: Axes, extra: list[tuple[Any, str]] = ()) -> None:
             handlelength=1.6,
             columnspacing=1.2,
         )
+        width = legend.get_window_extent(fig.canvas.get_renderer()).width
+        if width <= ax.bbox.width - 0.9 * fig.dpi:
+            return
 
 
 def _reduced(values: np.ndarray, decimate: bool, max_columns: int) -> Curve:
@@ -456,13 +466,13 @@ def series_figure(
         _shade_gaps(tuple(axes), gaps)
     out_x = axis(outliers)
     if outliers.size:
-        _rug(axes[0], out_x, f"removed outliers ({outliers.size})")
+        _rug(axes[0], out_x, f"outliers removed ({outliers.size})")
     step_x = axis(step_at)
     for ax in axes[1:]:
         for x in step_x:
             ax.axvline(x, color=GUIDE_COLOR, linewidth=0.9, linestyle="--", zorder=1)
     gap_entry = [(Line2D([], [], color=GAP_COLOR, linewidth=6, alpha=0.7),
-                  f"gaps in the log ({missing} missing readings)")] if missing else []  # fmt: skip
+                  f"gaps ({missing} missing readings)")] if missing else []  # fmt: skip
     _legend(axes[0], gap_entry)
     for ax in axes[1:]:
         step_entry = [(Line2D([], [], color=GUIDE_COLOR, linestyle="--"),

@@ -83,6 +83,9 @@ __all__ = [
     "stability_series",
     "slope_key",
     "noise_label_statistics",
+    "PanelLayout",
+    "panel_layout",
+    "legend_label",
 ]
 
 #: Inches: left margin (tick labels and y label), room under a panel (tick
@@ -306,7 +309,7 @@ def _draw_panel(
 
 # ---------------------------------------------------------------------- layout
 @dataclass(frozen=True)
-class _Layout:
+class PanelLayout:
     """Panel rectangles and the side column (inches) of one figure."""
 
     panels: tuple[tuple[float, float, float, float], ...]
@@ -325,7 +328,12 @@ def _estimate_column(groups: list[list[str]], extras: dict[str, Any]) -> float:
     return 0.3 + 0.16 * lines + len(groups) * (_KEY + 0.15)
 
 
-def _layout(frame: Frame, n: int, titled: bool, footed: bool) -> _Layout:
+def panel_layout(frame: Frame, n: int, titled: bool, footed: bool) -> PanelLayout:
+    """Rectangles (inches) of ``n`` log-log panels and of the column beside them.
+
+    Side by side with one column at the right on a wide frame, stacked with
+    the column beside each panel on a tall one.
+    """
     top = frame.height - (0.55 if titled else 0.12)
     bottom = (0.32 if footed else 0.05) + _UNDER
     side_x = frame.width - _RIGHT - _SIDE
@@ -334,16 +342,18 @@ def _layout(frame: Frame, n: int, titled: bool, footed: bool) -> _Layout:
         panels = tuple(
             (_LEFT + k * (width + _LEFT + 0.1), bottom, width, top - bottom) for k in range(n)
         )
-        return _Layout(panels, ((bottom, top),), side_x)
+        return PanelLayout(panels, ((bottom, top),), side_x)
     height = (top - bottom - (n - 1) * (_UNDER + 0.15)) / n
     panels = tuple(
         (_LEFT, top - (k + 1) * height - k * (_UNDER + 0.15), side_x - _GAP - _LEFT, height)
         for k in range(n)
     )
-    return _Layout(panels, tuple((p[1], p[1] + p[3]) for p in panels), side_x)
+    return PanelLayout(panels, tuple((p[1], p[1] + p[3]) for p in panels), side_x)
 
 
-def _side_column(frame: Frame, layout: _Layout, panels: list[_Panel], level: float) -> list[Axes]:
+def _side_column(
+    frame: Frame, layout: PanelLayout, panels: list[_Panel], level: float
+) -> list[Axes]:
     """Legends, the error-bar note and the slope keys beside the panels, top to bottom."""
     renderer = renderer_of(panels[0].ax)
     dpi = frame.figure.dpi
@@ -465,7 +475,7 @@ def stability_figure(
         title = default_title(table.measurement, "stability")
     if footer is None and frame.own:
         footer = default_footer(table, analysis_time=analysis_time)
-    layout = _layout(frame, len(groups), bool(title), bool(footer))
+    layout = panel_layout(frame, len(groups), bool(title), bool(footer))
     panels = []
     for rect, names in zip(layout.panels, groups, strict=True):
         ax = frame.target.add_axes(frame.rect(*rect))
