@@ -82,6 +82,8 @@ __all__ = [
     "OUT",
     "PLOT_FORMAT",
     "TITLE",
+    "NOISE_LABELS",
+    "STABILITY_PLOT",
     "JSON",
     "DEBUG",
 ]
@@ -420,6 +422,33 @@ PLOT_FORMAT = OptionSpec(
     metavar="|".join(PLOT_FORMATS),
     check=check_plot_format,
 )
+
+
+def _noise_labels(value: str) -> str:
+    """``--noise-labels``: all, none, or a comma list of statistics from the registry."""
+    word = str(value).strip().lower()
+    if word in ("all", "none"):
+        return word
+    names = [part.strip() for part in word.split(",") if part.strip()]
+    if not names:
+        raise InputError(
+            "--noise-labels takes all, none or a comma list of statistics, got an empty value"
+        )
+    for name in names:
+        get_statistic(name)  # unknown names: the registry's message lists the known ones
+    return ",".join(names)
+
+
+NOISE_LABELS = OptionSpec(
+    "noise_labels",
+    "--noise-labels",
+    str | None,
+    None,
+    "Whose noise types the stability plot writes: a comma list of statistics, all or none "
+    "(default: every statistic of a panel of up to three, else the panel's first).",
+    metavar="LIST|all|none",
+    check=_noise_labels,
+)
 TITLE = OptionSpec(
     "title",
     "--title",
@@ -452,6 +481,8 @@ READING = (
 PREPARING = (OUTLIERS, DRIFT, AVERAGE)
 ANALYSING = (STATS, TAUS, CONFIDENCE)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)
+#: Options of the commands that draw the stability plot of one log (analyze, record).
+STABILITY_PLOT = (NOISE_LABELS,)
 
 #: Option names that are settings of :class:`RunSettings` (the rest are outputs).
 SETTING_NAMES = tuple(o.name for o in READING + PREPARING + ANALYSING)
@@ -470,6 +501,7 @@ class RunOptions:
     out: Path | None = None
     plot_format: str = "png"
     title: str | None = None
+    noise_labels: str | None = None
     json: bool = False
     debug: bool = False
     given: dict[str, Any] = field(default_factory=dict)
@@ -489,6 +521,7 @@ def build_options(values: dict[str, Any]) -> RunOptions:
         out=values.get("out"),
         plot_format=values.get("plot_format", "png"),
         title=values.get("title"),
+        noise_labels=values.get("noise_labels"),
         json=bool(values.get("json_out", False)),
         debug=bool(values.get("debug", False)),
         given=dict(values),

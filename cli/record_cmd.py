@@ -22,6 +22,7 @@ from .options import (
     JSON,
     PREPARING,
     READING,
+    STABILITY_PLOT,
     WRITING,
     LogArg,
     RunOptions,
@@ -68,6 +69,7 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
     PREPARING,
     ANALYSING,
     WRITING,
+    STABILITY_PLOT,
     variants=(
         RECORD_CONFIDENCE,
         JSON.but(help="Print record.json to standard output instead of the verdict lines."),
@@ -93,6 +95,7 @@ def record(
             force=force,
             plot_format=opts.plot_format,
             title=opts.title,
+            noise_labels=opts.noise_labels,
             on_progress=bar.reading(log.name),
             on_step=bar.steps(log.name, step_count(stats) + 1),
         )

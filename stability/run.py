@@ -79,11 +79,12 @@ class AnalysisRun:
 
     def summary(self) -> dict[str, Any]:
         """The summary (the content of summary.json)."""
+        # the input section is the log as read; the reader's report is its "details"
         return build_summary(
             self.table,
             preparation=self.preparation.to_dict(),
-            input_report=self.source.provenance.details or None,
             analysis_time=self.analysis_time,
+            source=self.source,
         )
 
     def model_curves(self) -> dict[str, tuple[np.ndarray, np.ndarray]]:

@@ -19,7 +19,7 @@ analysis path imports it.
 """
 
 from .hat import HatDrawn, hat_figure
-from .labels import analysis_date, default_footer, default_title, tool_footer
+from .labels import analysis_date, column_text, default_footer, default_title, tool_footer
 from .overlay import OverlayDrawn, overlay_figure, overlay_footer
 from .phase_noise import PhaseNoiseDrawn, phase_noise_figure
 from .save import FORMATS, save_figure
@@ -43,6 +43,7 @@ __all__ = [
     "save_figure",
     "default_footer",
     "default_title",
+    "column_text",
     "tool_footer",
     "analysis_date",
     "statistic_style",
