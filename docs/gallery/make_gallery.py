@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import argparse
 import io
+import os
 import sys
 from pathlib import Path
 
@@ -52,15 +53,22 @@ def save_small(figure, path: Path, dpi: int) -> int:
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--data", type=Path, default=DEMO, help="folder of the demo logs")
+    parser.add_argument("--data", type=Path, default=None, help="folder of the demo logs")
     args = parser.parse_args(argv)
+    if args.data is None:  # from the repository, so the figures name the logs by relative path
+        os.chdir(DEMO.parent.parent)
+        args.data = DEMO.relative_to(DEMO.parent.parent)
     counter = run_analysis(args.data / "ocxo-vs-rb-counter.csv.gz", **COUNTER_SETTINGS)
     pps = run_analysis(args.data / "gnss-rx-vs-rb-pps.csv", **PPS_SETTINGS)
     spec = load_spec(args.data / "spec-example.toml")
     info = load_info(args.data / "info-example.toml")
-    judgement = judge(counter.table, spec, reference=info.reference)
-    record = build_record(counter, judgement, info)
-    pages = record_pages(counter, judgement, record)
+    # the record's analysis is at the specification's confidence level, as `record` runs it
+    judged = run_analysis(
+        args.data / "ocxo-vs-rb-counter.csv.gz", **COUNTER_SETTINGS, confidence=spec.confidence
+    )
+    judgement = judge(judged.table, spec, reference=info.reference)
+    record = build_record(judged, judgement, info)
+    pages = record_pages(judged, judgement, record)
     warm_up = dynamic_stability(counter.source, window="2h", step="20min", taus=[1, 4, 16, 64])
     figures = {
         "counter-sigma-tau.png": (stability_figure(counter.table,

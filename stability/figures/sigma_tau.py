@@ -331,14 +331,14 @@ def _estimate_column(groups: list[list[str]], extras: dict[str, Any]) -> float:
 def panel_layout(frame: Frame, n: int, titled: bool, footed: bool) -> PanelLayout:
     """Rectangles (inches) of ``n`` log-log panels and of the column beside them.
 
-    Side by side with one column at the right on a wide frame, stacked with
-    the column beside each panel on a tall one.
+    Side by side with one column at the right while each panel keeps 3.5
+    inches of width, else stacked with the column beside each panel.
     """
     top = frame.height - (0.55 if titled else 0.12)
     bottom = (0.32 if footed else 0.05) + _UNDER
     side_x = frame.width - _RIGHT - _SIDE
-    if frame.width >= 1.25 * frame.height or n == 1:
-        width = (side_x - _GAP - _LEFT - (n - 1) * (_LEFT + 0.1)) / n
+    width = (side_x - _GAP - _LEFT - (n - 1) * (_LEFT + 0.1)) / n
+    if n == 1 or width >= 3.5:  # side by side while each panel keeps 3.5 inches
         panels = tuple(
             (_LEFT + k * (width + _LEFT + 0.1), bottom, width, top - bottom) for k in range(n)
         )

@@ -135,7 +135,10 @@ def _identification(flow: PageFlow, record: dict[str, Any]) -> None:
             ("sample interval (tau0)", format_tau(meas["tau0_s"])),
             ("gaps in the log", f"{meas['gaps_in_log']} missing readings"),
             ("outliers removed", f"{len(outliers)}" + (f": {shown}" if outliers else "")),
-            ("drift removed", meas["drift_model"] if meas["drift_model"] != "none" else "none"),
+            (
+                "drift removed",
+                f"{meas['drift_model']} model" if meas["drift_model"] != "none" else "none",
+            ),
             ("frequency offset", _plus_minus(meas["offset"], meas["u_offset"])),
             (
                 "linear drift estimate",
@@ -381,7 +384,8 @@ def record_pages(run: AnalysisRun, judgement: Judgement, record: dict[str, Any])
             " The dash-dot line is the reference's stated stability at the measured taus "
             "(held flat beyond the stated taus)."
         )
-    page, region, _ = figure_page("Stability", caption, 6.2)
+    kinds = {statistic_unit(name) for name in run.table.results}
+    page, region, _ = figure_page("Stability", caption, 6.2 if len(kinds) == 1 else 9.0)
     stability_figure(
         run.table,
         model_curve=run.model_curves(),

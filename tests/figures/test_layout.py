@@ -349,6 +349,19 @@ def test_every_record_page_fits():
         check_layout(page, f"record page {k}")
 
 
+def test_record_pages_of_a_time_interval_log_fit():
+    # invented 1 PPS log judged on TDEV: the stability page holds two panels, stacked
+    rng = np.random.default_rng(7)
+    x = 1e-9 * rng.standard_normal(8000) + 3e-12 * np.arange(8000)
+    run = run_analysis(Measurement.from_phase(x, 1.0, start=START), stats="tdev,mtie,oadev",
+                       confidence=0.95)  # fmt: skip
+    spec = Spec("tdev", confidence=0.95, interpolate=True, limits=[(1.0, 3e-9), (1000.0, 1e-9)])
+    judgement = judge(run.table, spec)
+    record = build_record(run, judgement, Info(device={"id": "RX-1"}))
+    for k, page in enumerate(record_pages(run, judgement, record), start=1):
+        check_layout(page, f"time-interval record page {k}")
+
+
 def test_the_checks_catch_what_they_check():
     # a figure built to break each rule, so a passing layout test means something
     fig = Figure(figsize=(4, 3), dpi=100)
