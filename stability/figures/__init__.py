@@ -10,6 +10,11 @@
 ``timeline``     stability over time (:func:`timeline_figure`)
 ``overlay``      several analyses on one plot (:func:`overlay_figure`)
 ``save``         writing PNG, SVG or PDF atomically (:func:`save_figure`)
+``ticks``        tick positions and plain-text tick labels (three or more on any axis)
+``placement``    labels placed beside their points where they touch nothing drawn
+``slope_key``    the key of power-law slopes beside a sigma-tau panel
+``sigma_inputs`` the sigma-tau plot's argument checks and drawn series
+``reduce``       min/max envelopes and merged gap spans of long records
 
 Every figure function validates its input, draws on a new ``Figure`` with the
 Agg canvas (never pyplot's global state) and returns a frozen dataclass, a
