@@ -140,7 +140,7 @@ def legend_label(name: str, corrected: bool = False) -> str:
     short = short_name(name)
     text = short if title.lower() == short.lower() else f"{title} ({short})"
     text += ", bias-corrected" if corrected else ""
-    return "\n".join(textwrap.wrap(text, _LEGEND_WIDTH))
+    return "\n".join(textwrap.wrap(text, _LEGEND_WIDTH, break_on_hyphens=False))
 
 
 def _draw_statistic(ax: Axes, name: str, drawn: Series, corrected: bool) -> bool:
