@@ -9,14 +9,23 @@ from stability.summary import summary_json
 from stability.workflow import analyze_into
 
 from .common import echo
-from .options import ANALYSING, PREPARING, READING, WRITING, LogArg, RunOptions, command
+from .options import (
+    ANALYSING,
+    PREPARING,
+    READING,
+    STABILITY_PLOT,
+    WRITING,
+    LogArg,
+    RunOptions,
+    command,
+)
 from .progress import ProgressDisplay, step_count
 from .reporting import summary_block
 
 __all__ = ["analyze"]
 
 
-@command(READING, PREPARING, ANALYSING, WRITING)
+@command(READING, PREPARING, ANALYSING, WRITING, STABILITY_PLOT)
 def analyze(log: LogArg, *, opts: RunOptions) -> None:
     """Analyse a counter or time-interval log: table, summary and plots.
 
@@ -33,6 +42,7 @@ def analyze(log: LogArg, *, opts: RunOptions) -> None:
             opts.settings,
             plot_format=opts.plot_format,
             title=opts.title,
+            noise_labels=opts.noise_labels,
             on_progress=bar.reading(log.name),
             on_step=bar.steps(log.name, step_count(opts.settings.analysis.stats)),
         )

@@ -92,6 +92,8 @@ __all__ = [
     "OUT",
     "PLOT_FORMAT",
     "TITLE",
+    "NOISE_LABELS",
+    "STABILITY_PLOT",
     "JSON",
     "DEBUG",
 ]
@@ -363,6 +365,24 @@ PLOT_FORMAT = OptionSpec(
     metavar="|".join(PLOT_FORMATS),
     check=check_plot_format,
 )
+
+
+def _noise_labels(value: str) -> str:
+    """``--noise-labels``: all, none, or a comma list of statistics from the registry."""
+    word = str(value).strip().lower()
+    return word if word in ("all", "none") else stats_check(None, False, "--noise-labels")(word)
+
+
+NOISE_LABELS = OptionSpec(
+    "noise_labels",
+    "--noise-labels",
+    str | None,
+    None,
+    "Whose noise types the stability plot writes: a comma list of statistics, all or none "
+    "(default: every statistic of a panel of up to three, else the panel's first).",
+    metavar="LIST|all|none",
+    check=_noise_labels,
+)
 TITLE = OptionSpec(
     "title",
     "--title",
@@ -397,6 +417,8 @@ READING = (
 PREPARING = (OUTLIERS, DRIFT, AVERAGE)
 ANALYSING = (STATS, TAUS, CONFIDENCE, BIAS_CORRECTION)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)
+#: Options of the commands that draw the stability plot of one log (analyze, record).
+STABILITY_PLOT = (NOISE_LABELS,)
 
 #: Option names that are settings of :class:`RunSettings` (the rest are outputs).
 SETTING_NAMES = tuple(o.name for o in READING + PREPARING + ANALYSING)
@@ -415,6 +437,7 @@ class RunOptions:
     out: Path | None = None
     plot_format: str = "png"
     title: str | None = None
+    noise_labels: str | None = None
     json: bool = False
     debug: bool = False
     given: dict[str, Any] = field(default_factory=dict)
@@ -434,6 +457,7 @@ def build_options(values: dict[str, Any]) -> RunOptions:
         out=values.get("out"),
         plot_format=values.get("plot_format", "png"),
         title=values.get("title"),
+        noise_labels=values.get("noise_labels"),
         json=bool(values.get("json_out", False)),
         debug=bool(values.get("debug", False)),
         given=dict(values),

@@ -24,6 +24,7 @@ from .options import (
     JSON,
     PREPARING,
     READING,
+    STABILITY_PLOT,
     WRITING,
     LogArg,
     RunOptions,
@@ -86,6 +87,7 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
     PREPARING,
     ANALYSING,
     WRITING,
+    STABILITY_PLOT,
     variants=(
         RECORD_CONFIDENCE,
         JSON.but(help="Print record.json to standard output instead of the verdict lines."),
@@ -118,6 +120,7 @@ def record(
             plot_format=opts.plot_format,
             title=opts.title,
             history=history_for_record(history),
+            noise_labels=opts.noise_labels,
             on_progress=bar.reading(log.name),
             on_step=bar.steps(log.name, step_count(stats) + 1),
         )

@@ -13,8 +13,10 @@ from collections.abc import Iterable
 from datetime import datetime
 
 import stability
+from stability.figures.labels import column_text
 from stability.reports.tables import format_tau, format_value, statistic_unit
 from stability.run import AnalysisRun
+from stability.units import format_duration, format_frequency, format_seconds
 from stability.workflow import RecordOutcome
 
 __all__ = [
@@ -31,24 +33,50 @@ def _plus_minus(value: float | None, u: float | None) -> str:
     return f"{value:.4g} +/- {u:.2g}" if u is not None else f"{value:.4g}"
 
 
+#: What the log's values were, in words (the reader's kind names).
+_KINDS = {
+    "fractional": "fractional frequency",
+    "frequency": "frequency (Hz)",
+    "phase": "phase (time error, s)",
+}
+
+
 def summary_block(run: AnalysisRun) -> str:
-    """The short summary printed under the table."""
-    s = run.summary()
-    inp, prep = s["input"], run.preparation
-    od = s.get("offset_drift") or {}
+    """The short summary printed under the table.
+
+    Counts say what they count: readings (the log's values) and the phase
+    points they span; gaps as missing readings in the log, as the series
+    figure and summary.json count them; the drift removed (by its model) told
+    apart from the linear drift estimate, each with where its uncertainty
+    comes from.
+    """
+    source, prep = run.source, run.preparation
+    od = run.table.extras.get("offset_drift")
+    readings = source.n - 1 if source.kind == "frequency" else source.n
+    read_as = (source.provenance.details or {}).get("kind") or source.kind
+    kind = _KINDS.get(read_as, read_as)
+    if source.nominal:
+        kind += f", nominal {format_frequency(source.nominal)}"
+    span = format_duration(run.measurement.span)
+    removed = prep.removed_drift
     lines = [
-        f"file        {inp.get('path')}",
-        f"format      {run.source.provenance.reader or 'n/a'}",
-        f"kind        {run.source.kind}"
-        + (f", nominal {run.source.nominal:g} Hz" if run.source.nominal else ""),
-        f"samples     {run.measurement.n}  tau0 {run.measurement.tau0:g} s  "
-        f"span {run.measurement.span:g} s",
-        f"gaps        {prep.gaps_after}",
+        f"file        {source.provenance.path or 'data from memory'}",
+        f"column      {column_text(source) or 'n/a'}",
+        f"format      {source.provenance.reader or 'n/a'}",
+        f"kind        {kind}",
+        f"readings    {readings} ({source.n} phase points)  tau0 "
+        f"{format_seconds(run.measurement.tau0)}  span {span}",
+        f"gaps        {prep.gaps_before} missing readings in the log",
         f"outliers    {len(prep.outliers.samples)} removed",
-        f"drift       {prep.drift_model} removed",
-        f"offset      {_plus_minus(od.get('offset'), od.get('u_offset'))}",
-        f"drift/day   {_plus_minus(od.get('drift_per_day'), od.get('u_drift_per_day'))}",
+        "drift       "
+        + (f"removed ({removed.model} model)" if removed is not None else "none removed"),
     ]
+    if od is not None:
+        lines += [
+            f"offset      {_plus_minus(od.offset, od.u_offset)} (mean fractional frequency)",
+            f"drift/day   {_plus_minus(od.drift_per_day, od.u_drift_per_day)} "
+            "(linear drift estimate; uncertainty from the noise model)",
+        ]
     return "\n".join(lines)
 
 

@@ -117,6 +117,13 @@ def _when(result: DynamicResult, index: int) -> str:
     return f"{format_duration(float(result.time_s[index]))} from the start"
 
 
+def _spread(ratio: float) -> str:
+    """How far the largest deviation is above the smallest, in words that never read "1"."""
+    if ratio < 2.0:
+        return f"max {100.0 * (ratio - 1.0):.2g} % above min"
+    return f"max {ratio:.3g} times min"
+
+
 def timeline_summary(result: DynamicResult) -> list[str]:
     """A short text summary: windows, taus, smallest and largest deviation at the shortest tau."""
     tau0 = float(result.tau[0] / result.m[0])
@@ -138,7 +145,7 @@ def timeline_summary(result: DynamicResult) -> list[str]:
         )
         lines.append(
             f"{'':11} max {format_value(float(dev[hi]), unit)} at {_when(result, hi)}"
-            + (f"  (max/min {dev[hi] / dev[lo]:.3g})" if dev[lo] > 0 else "")
+            + (f"  ({_spread(dev[hi] / dev[lo])})" if dev[lo] > 0 else "")
         )
     else:
         lines.append("no window has a usable term at the shortest tau")

@@ -79,11 +79,12 @@ class AnalysisRun:
 
     def summary(self) -> dict[str, Any]:
         """The summary (the content of summary.json)."""
+        # the input section is the log as read; the reader's report is its "details"
         return build_summary(
             self.table,
             preparation=self.preparation.to_dict(),
-            input_report=self.source.provenance.details or None,
             analysis_time=self.analysis_time,
+            source=self.source,
         )
 
     def model_curves(self) -> dict[str, tuple[np.ndarray, np.ndarray]]:
@@ -94,21 +95,6 @@ class AnalysisRun:
             if name in self.table.results:
                 out[name] = model_curve(model, self.table[name].tau)
         return {k: v for k, v in out.items() if v[0].size}
-
-    def series_inputs(self) -> tuple[Measurement, np.ndarray | None, np.ndarray]:
-        """Measurement, drift curve and outlier indices to draw the data over time."""
-        prep = self.preparation
-        if prep.average_factor == 1:
-            shown = self.source
-            outliers = np.array([o.index for o in prep.outliers.samples], dtype=np.int64)
-        else:
-            shown = self.measurement
-            outliers = np.empty(0, dtype=np.int64)
-        fit = prep.removed_drift if prep.removed_drift is not None else prep.linear_drift
-        drift = None
-        if fit is not None and fit.y_model.shape == (shown.n - 1,):
-            drift = fit.y_model + (shown.frequency_offset if fit.model == "none" else 0.0)
-        return shown, drift, outliers
 
 
 def resolve_settings(settings: RunSettings | None, options: dict[str, Any]) -> RunSettings:

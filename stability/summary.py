@@ -17,16 +17,20 @@ field                             meaning
 ``input.sha256``                  hex SHA-256 of the log file's bytes (null in memory)
 ``input.rows``                    data rows read from the file
 ``input.reader``                  what the reader detected (format, in short)
-``input.dialect``                 the detected dialect (delimiter, decimal mark, ...), if any
-``input.details``                 everything else the reader reported
-``input.report``                  the reading report passed in (bad rows, units, ...), or null
+``input.dialect``                 the detected dialect: container, encoding, line endings,
+                                  delimiter, decimal mark, comment prefix, header line
+``input.details``                 everything the reader reported (columns, units, bad rows ...)
+``input.report``                  a reading report passed in besides the reader's, or null
 ``input.kind``                    what the source values were: ``phase`` or ``frequency``
 ``input.nominal_hz``              nominal frequency in Hz, or null
 ``input.tau0_s``                  sample interval in seconds
 ``input.start``                   time of the first sample, ISO 8601, or null
 ``input.span_s``                  record length (n - 1) * tau0 in seconds
-``input.n``                       phase samples, gaps included
-``input.gaps``                    missing samples (NaN phase samples plus frequency gaps)
+``input.readings``                values in the log's grid, gaps included (frequency
+                                  readings for frequency logs, time errors for phase logs)
+``input.n``                       phase points, gaps included (readings + 1 for frequency logs:
+                                  n frequency readings span n + 1 phase points)
+``input.gaps``                    missing readings in the log (as the figures count them)
 ``input.frequency_offset``        mean fractional frequency removed for numerical care
 ``input.notes``                   what reading and preparation did, in sentences
 ``preparation``                   what preparation did (outliers, drift ...), as passed in
@@ -70,6 +74,7 @@ from ._version import __version__
 from .deviations.registry import get_statistic
 from .errors import InputError
 from .files import jsonable, settings_hash
+from .measurement import Measurement
 from .table import COLUMNS, StabilityTable
 
 __all__ = ["build_summary", "summary_json", "SUMMARY_FIELDS", "input_section", "table_rows"]
@@ -123,7 +128,8 @@ def input_section(measurement: Any, input_report: Mapping[str, Any] | None = Non
     """The ``input`` section of the summary for a measurement (all null when there is none)."""
     keys = (
         "path", "sha256", "rows", "reader", "dialect", "details", "report", "kind",
-        "nominal_hz", "tau0_s", "start", "span_s", "n", "gaps", "frequency_offset", "notes",
+        "nominal_hz", "tau0_s", "start", "span_s", "readings", "n", "gaps", "frequency_offset",
+        "notes",
     )  # fmt: skip
     section: dict[str, Any] = dict.fromkeys(keys)
     section["report"] = jsonable(dict(input_report)) if input_report is not None else None
@@ -136,19 +142,33 @@ def input_section(measurement: Any, input_report: Mapping[str, Any] | None = Non
         sha256=prov.sha256,
         rows=prov.rows,
         reader=prov.reader,
-        dialect=jsonable(details.get("dialect")),
+        dialect=jsonable(details.get("dialect") or _dialect(details)),
         details=jsonable(details),
         kind=measurement.kind,
         nominal_hz=measurement.nominal,
         tau0_s=float(measurement.tau0),
         start=None if measurement.start is None else _iso_utc(measurement.start),
         span_s=float(measurement.span),
+        readings=int(measurement.n - 1 if measurement.kind == "frequency" else measurement.n),
         n=int(measurement.n),
         gaps=int(measurement.gap_count()),
         frequency_offset=float(measurement.frequency_offset),
         notes=list(measurement.notes),
     )
     return section
+
+
+#: What the reader reports about a text file's dialect, by key.
+_DIALECT_KEYS = (
+    "container", "encoding", "line_endings", "delimiter", "decimal_mark", "comment_prefix",
+    "header_line",
+)  # fmt: skip
+
+
+def _dialect(details: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The dialect part of a reader's report (None when the reader gave none)."""
+    found = {k: details[k] for k in _DIALECT_KEYS if k in details}
+    return found or None
 
 
 def table_rows(table: StabilityTable) -> list[dict[str, Any]]:
@@ -192,13 +212,15 @@ def build_summary(
     input_report: Mapping[str, Any] | None = None,
     analysis_time: datetime | None = None,
     tool_version: str | None = None,
+    source: Any = None,
 ) -> dict[str, Any]:
     """Gather the summary of one analysis (fields in the module docstring).
 
     Parameters
     ----------
     table
-        The analysis result; its ``measurement`` gives the input section.
+        The analysis result; its ``measurement`` gives the input section unless
+        ``source`` is given.
     preparation
         What preparation did (outliers removed, drift model, ...), passed through.
     input_report
@@ -207,6 +229,9 @@ def build_summary(
         When the analysis ran (default: now). Naive times are taken as local.
     tool_version
         Version string to record (default: the installed package version).
+    source
+        The measurement as read, for the input section (the log's readings and
+        gaps, before preparation took outliers out).
 
     Returns
     -------
@@ -214,13 +239,17 @@ def build_summary(
         JSON-ready (see :func:`summary_json`); NaN values already replaced by None.
     """
     _validate_summary_args(table, preparation, input_report, analysis_time, tool_version)
+    if source is not None and not isinstance(source, Measurement):
+        raise InputError(
+            f"source must be a stability.Measurement or None, got {type(source).__name__}"
+        )
     moment = analysis_time if analysis_time is not None else datetime.now(UTC)
     settings = jsonable(dict(table.settings))
     extras = table.extras or {}
     summary = {
         "tool": {"name": "stability", "version": tool_version or _tool_version()},
         "analysis_time": _iso_utc(moment),
-        "input": input_section(table.measurement, input_report),
+        "input": input_section(table.measurement if source is None else source, input_report),
         "preparation": None if preparation is None else jsonable(dict(preparation)),
         "settings": settings,
         "settings_hash": settings_hash(settings),

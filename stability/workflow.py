@@ -20,7 +20,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError
-from .figures import save_figure, series_figure, stability_figure
+from .figures import run_series_figure, save_figure, stability_figure
 from .figures.labels import default_footer, default_title
 from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
@@ -70,15 +70,7 @@ def check_plot_format(plot_format: Any) -> str:
 def _draw_series(
     target: Path, fmt: str, run: AnalysisRun, title: str | None, footer: str | None
 ) -> Path:
-    shown, drift, outliers = run.series_inputs()
-    fig = series_figure(
-        shown,
-        drift_curve=drift,
-        outlier_indices=outliers,
-        analysis_time=run.analysis_time,
-        title=title,
-        footer=footer,
-    )
+    fig = run_series_figure(run, analysis_time=run.analysis_time, title=title, footer=footer)
     return save_figure(fig, target, fmt)
 
 
@@ -90,6 +82,7 @@ def _draw_stability(
     limits_statistic: str | None,
     title: str | None,
     footer: str | None,
+    noise_labels: Any = None,
 ) -> Path:
     fig = stability_figure(
         run.table,
@@ -99,6 +92,7 @@ def _draw_stability(
         analysis_time=run.analysis_time,
         title=title,
         footer=footer,
+        noise_labels=noise_labels,
     )
     return save_figure(fig, target, fmt)
 
@@ -111,10 +105,12 @@ def _write_all(
     limits_statistic: str | None,
     titled: bool,
     title: str | None = None,
+    noise_labels: Any = None,
 ) -> None:
     """Write the five outputs to the given paths (keys: :data:`OUTPUT_NAMES`).
 
-    ``title`` replaces the stability figure's title (the default names the log).
+    ``title`` replaces the stability figure's title (the default names the log
+    and its column); ``noise_labels`` says whose noise types it writes.
     """
     texts = {
         "table.csv": lambda: table_csv(run.table),
@@ -123,13 +119,22 @@ def _write_all(
     }
     for name in _TEXT_NAMES:
         paths[name].write_text(texts[name](), encoding="utf-8")  # a pending file of the set
-    shown = run.series_inputs()[0]
+    shown = run.measurement
     series_title = default_title(shown, "data over time") if titled else None
     series_footer = default_footer(shown, analysis_time=run.analysis_time) if titled else None
     stab_title = default_title(run.table.measurement, "stability") if titled else None
     stab_title = title if title is not None else stab_title
     stab_footer = default_footer(run.table, analysis_time=run.analysis_time) if titled else None
-    _draw_stability(paths["sigma_tau"], fmt, run, limits, limits_statistic, stab_title, stab_footer)
+    _draw_stability(
+        paths["sigma_tau"],
+        fmt,
+        run,
+        limits,
+        limits_statistic,
+        stab_title,
+        stab_footer,
+        noise_labels,
+    )
     _draw_series(paths["series"], fmt, run, series_title, series_footer)
 
 
@@ -155,6 +160,7 @@ def analyze_into(
     limits: Any = None,
     limits_statistic: str | None = None,
     title: str | None = None,
+    noise_labels: Any = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
     **options: Any,
@@ -162,7 +168,9 @@ def analyze_into(
     """Read, prepare, analyse and write the five outputs into ``folder``: (run, files).
 
     ``settings`` (or keyword settings as :func:`stability.run_analysis` takes
-    them) say what to do; ``title`` replaces the stability figure's title. The
+    them) say what to do; ``title`` replaces the stability figure's title and
+    ``noise_labels`` says whose noise types it writes (see
+    :func:`stability.figures.stability_figure`). The
     five files appear together or not at all
     (:class:`stability.outputs.OutputSet`): an output that would overwrite the
     log is refused before anything is read, a folder another run is writing
@@ -179,7 +187,16 @@ def analyze_into(
         moment = datetime.now(UTC)
         run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
         pending = _paths(out.pending, fmt)
-        _write_all(run, pending, fmt, limits, limits_statistic, titled=True, title=title)
+        _write_all(
+            run,
+            pending,
+            fmt,
+            limits,
+            limits_statistic,
+            titled=True,
+            title=title,
+            noise_labels=noise_labels,
+        )
         files = out.commit()
     return run, _paths(files, fmt)
 
@@ -192,17 +209,26 @@ def write_analysis(
     limits: Any = None,
     limits_statistic: str | None = None,
     title: str | None = None,
+    noise_labels: Any = None,
 ) -> dict[str, Path]:
     """Write table.csv, table.md, summary.json and both plots of a run into ``folder``.
 
-    ``title`` replaces the stability figure's title.
+    ``title`` replaces the stability figure's title; ``noise_labels`` says whose
+    noise types it writes.
     """
     fmt = check_plot_format(plot_format)
     names, stale = output_names(fmt)
     inputs = [run.source.provenance.path] if run.source.provenance.path else []
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
         _write_all(
-            run, _paths(out.pending, fmt), fmt, limits, limits_statistic, titled=False, title=title
+            run,
+            _paths(out.pending, fmt),
+            fmt,
+            limits,
+            limits_statistic,
+            titled=False,
+            title=title,
+            noise_labels=noise_labels,
         )
         files = out.commit()
     return _paths(files, fmt)
@@ -260,6 +286,7 @@ def record_into(
     plot_format: str = "png",
     title: str | None = None,
     history: str | os.PathLike[str] | None = None,
+    noise_labels: Any = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
     **options: Any,
@@ -309,6 +336,7 @@ def record_into(
             judgement.statistic,
             titled=True,
             title=title,
+            noise_labels=noise_labels,
         )
         write_record_files(run, judgement, info, out.path("record.pdf"), out.path("record.json"))
         stored = None

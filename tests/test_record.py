@@ -13,6 +13,8 @@ References
 from __future__ import annotations
 
 import json
+import re
+from datetime import UTC
 
 import numpy as np
 import pypdf
@@ -200,3 +202,93 @@ def test_long_tables_paginate(made):
     pages = record_mod._table_pages(record)
     assert len(pages) == -(-len(record["results"]) // record_mod._ROWS_PER_PAGE)
     assert len(pages) > 1
+
+
+# ---------------------------------------------------------------------- the PDF as a document
+_SUPERSCRIPT = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻", "0123456789-")
+
+
+def _numbers(text: str) -> list[float]:
+    """Every number written as d.ddd×10ⁿ (superscript exponent) in a page's text."""
+    found = re.findall(r"(-?\d+(?:\.\d+)?)×10([⁰¹²³⁴⁵⁶⁷⁸⁹⁻]+)", text)
+    return [float(m) * 10.0 ** int(e.translate(_SUPERSCRIPT)) for m, e in found]
+
+
+def _embedded(font) -> bool:
+    """Whether a PDF font object carries its own TrueType program (Type 42 via pdf.fonttype)."""
+    font = font.get_object()
+    if "/DescendantFonts" in font:
+        return all(_embedded(f) for f in font["/DescendantFonts"])
+    descriptor = font.get("/FontDescriptor")
+    return descriptor is not None and "/FontFile2" in descriptor.get_object()
+
+
+def test_pdf_is_text_and_vectors_with_one_footer_per_page(made):
+    reader = pypdf.PdfReader(made["paths"]["record.pdf"])
+    total = len(reader.pages)
+    number = made["json"]["record_number"]
+    for k, page in enumerate(reader.pages, start=1):
+        text = page.extract_text()
+        assert len(text) > 200  # extractable text on every page
+        assert text.count("input SHA-256") == 1 and text.count(f"page {k} of {total}") == 1
+        assert text.count("page ") == 1  # no second footer from a figure drawn on the page
+        assert f"record {number}" in text
+        for image in page.images:  # figures are drawn as vectors: no picture but a logo
+            width, height = image.image.size
+            assert width <= 64 and height <= 64, (k, image.name, width, height)
+        fonts = page["/Resources"]["/Font"]
+        assert fonts and all(_embedded(fonts[name]) for name in fonts), k
+    day = made["run"].analysis_time.astimezone(UTC).strftime("%Y%m%d")
+    assert number == f"{day}-{made['json']['input']['sha256'][:8]}"
+
+
+def test_every_listed_limit_shows_its_numbers(made):
+    first = made["pages"][0]
+    shown = np.array(_numbers(first))
+    listed = made["judgement"].listed
+    # the limit at 100 s lies between measured taus (64 s, 128 s): judged on interpolated numbers
+    assert any(c.interpolated for c in listed)
+    assert "(*)" in first and "interpolated" in first
+    for check in listed:
+        assert format_tau(check.tau_s) in first
+        for value in (check.limit, check.deviation, check.ci_low, check.ci_high):
+            assert np.isfinite(value)
+            assert np.any(np.isclose(shown, value, rtol=6e-4, atol=0.0)), (check.tau_s, value)
+    table = made["pages"][2]
+    assert "edf" in table and "noise" in table
+    # one number format per column: every deviation of the table as d.ddd×10ⁿ
+    oadev = [r for r in made["json"]["results"] if r["statistic"] == "oadev"]
+    values = np.array(_numbers(table))
+    for row in oadev:
+        assert np.any(np.isclose(values, row["deviation"], rtol=6e-4, atol=0.0))
+    assert "e+0" not in table and "e-1" not in table  # no computer notation in the table
+
+
+def test_caution_verdict_and_signature_fields_on_page_one(made, tmp_path):
+    first = made["pages"][0]
+    for words in ("Caution", "systematic effects", "measured by", "checked by", "date"):
+        assert words in first
+    assert first.index(
+        "PASS" if made["json"]["overall_verdict"] == "pass" else "FAIL"
+    ) < first.index("Device")
+    signed = load_info_text(
+        tmp_path,
+        'record_number = "SR-7"\nmeasured_by = "J. Doe"\nchecked_by = "A. N. Other"\n'
+        "date = 2026-03-04\n" + INFO,
+    )
+    paths = write_record(made["run"], made["judgement"], signed, tmp_path / "signed")
+    text = pypdf.PdfReader(paths["record.pdf"]).pages[0].extract_text()
+    for value in ("record SR-7", "J. Doe", "A. N. Other", "2026-03-04"):
+        assert value in text
+    data = json.loads(paths["record.json"].read_text())
+    assert data["record_number"] == "SR-7"
+    assert data["signatures"] == {
+        "measured_by": "J. Doe", "checked_by": "A. N. Other", "date": "2026-03-04",
+    }  # fmt: skip
+
+
+def load_info_text(folder, text):
+    """An information file written from ``text`` and read back."""
+    path = folder / "info-signed.toml"
+    path.write_text(text)
+    return load_info(path)

@@ -116,6 +116,8 @@ def test_every_error_message(tmp_path):
         ),
         ('[device]\nid = "a"\n[lab]\nname = [1]\n', "key 'lab.name' must be text", 4),
         ('[device]\nid = "a"\n[procedure]\nnumber = 3\n', "unknown key 'number' in [procedure]", 4),
+        ('measured_by = ["x"]\n[device]\nid = "a"\n', "key 'measured_by' must be text", 1),
+        ('checkedby = "x"\n[device]\nid = "a"\n', "unknown key 'checkedby'", 1),
     ]
     for i, (text, expected, line) in enumerate(spec_cases + info_cases):
         path = tmp_path / f"case{i}.toml"
@@ -146,6 +148,23 @@ def test_good_files_read(tmp_path):
     assert info.device_id == "OCXO-42" and info.procedure == "TF-07"
     assert info.reference.points == [(1.0, 5e-13), (100.0, 5e-14)]
     assert info.to_dict()["reference"]["id"] == "H-maser"
+
+
+def test_record_number_and_approval_fields_read(tmp_path):
+    # optional top-level keys; the date may be a TOML date or text
+    text = (
+        'record_number = "SR-2026-0042"\nmeasured_by = "J. Doe"\nchecked_by = " A. N. Other "\n'
+        'date = 2026-03-04\n[device]\nid = "a"\n'
+    )
+    (tmp_path / "info.toml").write_text(text)
+    info = load_info(tmp_path / "info.toml")
+    assert (info.record_number, info.measured_by, info.checked_by, info.date) == (
+        "SR-2026-0042", "J. Doe", "A. N. Other", "2026-03-04",
+    )  # fmt: skip
+    assert info.to_dict()["checked_by"] == "A. N. Other"
+    (tmp_path / "plain.toml").write_text('[device]\nid = "a"\n')
+    bare = load_info(tmp_path / "plain.toml")
+    assert (bare.record_number, bare.measured_by, bare.checked_by, bare.date) == ("",) * 4
 
 
 def test_example_files_read():

@@ -4,12 +4,17 @@
                  axis wording, margins, :func:`new_figure`, the :class:`Drawn` result
 ``labels``       titles and footers (input SHA-256, tool version, analysis date)
 ``sigma_tau``    the stability plot of one analysis (:func:`stability_figure`)
-``series``       the data over time (:func:`series_figure`)
+``series``       the data over time as analysed (:func:`series_figure`)
 ``hat``          the three-cornered hat (:func:`hat_figure`)
 ``phase_noise``  stability from a phase-noise table (:func:`phase_noise_figure`)
 ``timeline``     stability over time (:func:`timeline_figure`)
 ``overlay``      several analyses on one plot (:func:`overlay_figure`)
 ``save``         writing PNG, SVG or PDF atomically (:func:`save_figure`)
+``ticks``        tick positions and plain-text tick labels (three or more on any axis)
+``placement``    labels placed beside their points where they touch nothing drawn
+``slope_key``    the key of power-law slopes beside a sigma-tau panel
+``sigma_inputs`` the sigma-tau plot's argument checks and drawn series
+``reduce``       min/max envelopes and merged gap spans of long records
 
 Every figure function validates its input, draws on a new ``Figure`` with the
 Agg canvas (never pyplot's global state) and returns a frozen dataclass, a
@@ -21,11 +26,11 @@ analysis path imports it.
 from .hat import HatDrawn, hat_figure
 from .history import HistoryDrawn as HistoryDrawn
 from .history import history_figure as history_figure
-from .labels import analysis_date, default_footer, default_title, tool_footer
+from .labels import analysis_date, column_text, default_footer, default_title, tool_footer
 from .overlay import OverlayDrawn, overlay_figure, overlay_footer
 from .phase_noise import PhaseNoiseDrawn, phase_noise_figure
 from .save import FORMATS, save_figure
-from .series import SeriesDrawn, envelope, series_figure
+from .series import SeriesDrawn, envelope, run_series_figure, series_figure
 from .sigma_tau import SLOPES, StabilityDrawn, slope_key, stability_figure, stability_series
 from .style import STATISTIC_STYLES, VERDICT_COLORS, Drawn, statistic_style
 from .timeline import TimelineDrawn, timeline_figure
@@ -35,6 +40,7 @@ __all__ = [
     "stability_series",
     "slope_key",
     "series_figure",
+    "run_series_figure",
     "envelope",
     "hat_figure",
     "phase_noise_figure",
@@ -44,6 +50,7 @@ __all__ = [
     "save_figure",
     "default_footer",
     "default_title",
+    "column_text",
     "tool_footer",
     "analysis_date",
     "statistic_style",

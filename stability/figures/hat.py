@@ -6,7 +6,8 @@ estimate, see :mod:`stability.hat`) is drawn as a downward-pointing triangle
 at its upper bound, the trade's way of showing "at most this" (common
 practice). The pair curves (A - B, ...) the separation came from are drawn
 faint and dashed behind them: no oscillator can be noisier than a pair it is
-in [1]_.
+in [1]_. The pairs' names are written beside their last points where they
+touch nothing else, and the legend stands outside the panels.
 
 References
 ----------
@@ -28,6 +29,7 @@ from matplotlib.lines import Line2D
 from ..errors import InputError
 from ..hat import STATUS_OK, HatResult
 from .labels import check_text, tool_footer
+from .placement import LabelRequest, obstacles_of, place_labels
 from .style import (
     GUIDE_COLOR,
     KEY_SIZE,
@@ -114,17 +116,20 @@ def _draw_pairs(ax: Axes, item: HatResult) -> dict[str, Curve]:
             zorder=1,
             gid="hat-pair",
         )
-        if keep.any():
-            ax.annotate(
-                label,
-                (drawn[label][0][-1], drawn[label][1][-1]),
-                xytext=(3, 0),
-                textcoords="offset points",
-                fontsize=KEY_SIZE,
-                color=NOTE_COLOR,
-                va="center",
-            )
     return drawn
+
+
+def _label_pairs(ax: Axes, pairs: dict[str, Curve]) -> None:
+    """Each pair curve's name beside its last point, where it touches no data or other name.
+
+    Placed once the panels' positions are final (:mod:`stability.figures.placement`).
+    """
+    requests = [
+        LabelRequest(label, (tau[-1], dev[-1]), NOTE_COLOR, KEY_SIZE, gid="hat-pair-label")
+        for label, (tau, dev) in pairs.items()
+        if tau.size
+    ]
+    place_labels(ax, requests, obstacles_of(ax))
 
 
 def _draw_oscillator(ax: Axes, name: str, osc: Any, color: str) -> dict[str, np.ndarray]:
@@ -173,15 +178,16 @@ def _draw_oscillator(ax: Axes, name: str, osc: Any, color: str) -> dict[str, np.
     }
 
 
-def _hat_legend(ax: Axes, any_below: bool) -> None:
+def _hat_legend(fig: Any, ax: Axes, any_below: bool) -> None:
+    """One legend for the figure, outside the panels at the right (the colours are shared)."""
     handles, labels = ax.get_legend_handles_labels()
     handles.append(Line2D([], [], color=GUIDE_COLOR, linestyle="--", alpha=0.55))
     labels.append("pair curves")
     if any_below:
         triangle = {"marker": "v", "markerfacecolor": "white", "markeredgecolor": "#555555"}
         handles.append(Line2D([], [], linestyle="none", **triangle))
-        labels.append("below resolution (upper bound)")
-    ax.legend(handles, labels, fontsize=LEGEND_SIZE, frameon=False)
+        labels.append("below resolution\n(upper bound)")
+    fig.legend(handles, labels, loc="outside right upper", fontsize=LEGEND_SIZE, frameon=False)
 
 
 def hat_figure(
@@ -211,7 +217,7 @@ def hat_figure(
         The figure, its panels and the data as drawn.
     """
     items = _validate(result, title, footer)
-    fig = new_figure(4.6 + 4.0 * len(items), 5.4)
+    fig = new_figure(5.8 + 4.0 * len(items), 5.4)
     axes = tuple(fig.subplots(1, len(items), squeeze=False)[0])
     series: dict[str, dict[str, dict[str, np.ndarray]]] = {}
     pairs: dict[str, dict[str, Curve]] = {}
@@ -228,9 +234,14 @@ def hat_figure(
         series[stat] = drawn
         ax.set_xlabel(TAU_LABEL, fontsize=LABEL_SIZE)
         ax.set_ylabel(deviation_label([stat]), fontsize=LABEL_SIZE)
-        _hat_legend(ax, any(d["below_tau"].size for d in drawn.values()))
         level = 100.0 * float(item.confidence)
         ax.set_title(f"{short_name(stat)}, {level:.3g} % intervals", fontsize=LABEL_SIZE)
+    below = any(d["below_tau"].size for per in series.values() for d in per.values())
+    _hat_legend(fig, axes[0], below)
     fig.suptitle(title or f"three-cornered hat: {', '.join(colors)}", fontsize=TITLE_SIZE)
     put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
+    fig.draw_without_rendering()  # the layout places the panels; then it is kept as it is
+    fig.set_layout_engine("none")
+    for ax, item in zip(axes, items, strict=True):
+        _label_pairs(ax, pairs[item.statistic])
     return HatDrawn(fig, axes, series=series, pairs=pairs, colors=colors)

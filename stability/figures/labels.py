@@ -17,7 +17,14 @@ from ..errors import InputError
 from ..measurement import Measurement
 from ..table import StabilityTable
 
-__all__ = ["analysis_date", "check_text", "default_footer", "default_title", "tool_footer"]
+__all__ = [
+    "analysis_date",
+    "check_text",
+    "column_text",
+    "default_footer",
+    "default_title",
+    "tool_footer",
+]
 
 
 def analysis_date(moment: datetime | None) -> str:
@@ -41,10 +48,35 @@ def default_footer(
     return f"{where} · stability {__version__} · analysed {analysis_date(analysis_time)}"
 
 
+def column_text(measurement: Any) -> str | None:
+    """Which column of the log the values came from: "column 4 (ch3)", "column 1", or None.
+
+    Read from what the reader reported (``provenance.details``): the value
+    column's number and, when the log has a header, its name, so that two
+    channels of one multi-channel log are told apart.
+    """
+    if not isinstance(measurement, Measurement):
+        return None
+    details = measurement.provenance.details or {}
+    name = details.get("value_column")
+    number = next(
+        (c.get("number") for c in details.get("columns") or () if c.get("role") == "value"), None
+    )
+    if not name and number is None:
+        return None
+    if name and str(name).startswith("column "):
+        return str(name)
+    if number is None:
+        return f"column {name}"
+    return f"column {number} ({name})" if name else f"column {number}"
+
+
 def default_title(measurement: Any, fallback: str) -> str:
-    """The log's file name, or ``fallback`` for data without a file."""
+    """The log's file name and value column ("log.csv · column 4 (ch3)"), else ``fallback``."""
     if isinstance(measurement, Measurement) and measurement.provenance.path:
-        return Path(measurement.provenance.path).name
+        name = Path(measurement.provenance.path).name
+        column = column_text(measurement)
+        return f"{name} \u00b7 {column}" if column else name
     return fallback
 
 

@@ -6,7 +6,8 @@ line style and marker fill (:data:`stability.figures.style.LABEL_LINES`), so a
 reader can follow either across the plot; every point carries its confidence
 interval as asymmetric error bars [1]_. Fractional-frequency statistics and
 time statistics (seconds) are drawn on two panels side by side, as in
-:func:`stability.figures.stability_figure`.
+:func:`stability.figures.stability_figure`, with the same axis wording and
+the legends in a column beside the panels, never over the data.
 
 References
 ----------
@@ -29,20 +30,20 @@ from ..errors import InputError
 from ..measurement import Measurement
 from ..table import StabilityTable
 from .labels import analysis_date, check_text
-from .sigma_tau import Series, stability_series
+from .sigma_tau import Series, panel_layout, stability_series
 from .style import (
     LABEL_LINES,
     LABEL_SIZE,
     LEGEND_SIZE,
-    SMALL_LABEL_SIZE,
+    NOTE_COLOR,
     TAU_LABEL,
     TITLE_SIZE,
     Drawn,
     deviation_label,
+    frame_for,
     is_time_statistic,
     log_axes,
     log_paper,
-    new_figure,
     put_footer,
     short_name,
     statistic_style,
@@ -206,11 +207,28 @@ def overlay_figure(
     fractional = [s for s in names if not is_time_statistic(s)]
     timed = [s for s in names if is_time_statistic(s)]
     groups = [group for group in (fractional, timed) if group]
-    fig = new_figure(8.5 if len(groups) == 1 else 13.0, 5.6, layout="fixed")
-    axes = tuple(fig.subplots(1, len(groups), squeeze=False)[0])
+    entries = sum(len(checked) * len(g) for g in groups)
+    frame = frame_for(None, 9.4 if len(groups) == 1 else 14.2, max(5.6, 1.6 + 0.17 * entries))
+    title = title or " vs ".join(checked)
+    if footer is None:
+        footer = overlay_footer(checked, analysis_time=analysis_time)
+    layout = panel_layout(frame, len(groups), bool(title), bool(footer))
+    renderer = frame.figure.canvas.get_renderer()
     series: dict[tuple[str, str], Series] = {}
     panel: dict[tuple[str, str], Axes] = {}
-    for ax, group in zip(axes, groups, strict=True):
+    top = layout.column[0][1]
+    levels = {f"{100 * float(t.confidence):.3g} %" for t in checked.values()}
+    note = frame.target.text(
+        *frame.rect(layout.side_x, top, 0, 0)[:2],
+        f"error bars: {', '.join(sorted(levels))} confidence",
+        fontsize=LEGEND_SIZE,
+        color=NOTE_COLOR,
+        va="top",
+        gid="confidence-note",
+    )
+    top -= note.get_window_extent(renderer).height / frame.figure.dpi + 0.15
+    for k, (rect, group) in enumerate(zip(layout.panels, groups, strict=True)):
+        ax = frame.target.add_axes(frame.rect(*rect))
         log_axes(ax)
         style_axes(ax)
         for label, table in checked.items():
@@ -220,13 +238,23 @@ def overlay_figure(
                 legend = f"{label}: {short_name(name)}" if len(names) > 1 else label
                 _draw_series(ax, name, drawn[name], lines[label], legend)
         ax.set_xlabel(TAU_LABEL, fontsize=LABEL_SIZE)
-        size = LABEL_SIZE if len(group) == 1 else SMALL_LABEL_SIZE
-        ax.set_ylabel(deviation_label(group, several="titles"), fontsize=size)
+        ax.set_ylabel(deviation_label(group), fontsize=LABEL_SIZE)
         log_paper(ax)
         if any(ax is a for a in panel.values()):
-            ax.legend(fontsize=LEGEND_SIZE, frameon=False, loc="best")
-    fig.suptitle(title or " vs ".join(checked), fontsize=TITLE_SIZE)
-    if footer is None:
-        footer = overlay_footer(checked, analysis_time=analysis_time)
+            if len(layout.column) > 1:
+                top = layout.column[k][1]
+            shown = ax.legend(
+                loc="upper left",
+                bbox_to_anchor=frame.rect(layout.side_x, top, 0, 0)[:2],
+                bbox_transform=frame.target.transSubfigure,
+                fontsize=LEGEND_SIZE,
+                frameon=False,
+                borderaxespad=0.0,
+                borderpad=0.0,
+            )
+            top -= shown.get_window_extent(renderer).height / frame.figure.dpi + 0.2
+    fig = frame.figure
+    axes = tuple(dict.fromkeys(panel.values()))
+    fig.suptitle(title, fontsize=TITLE_SIZE)
     put_footer(fig, footer)
     return OverlayDrawn(fig, axes, series=series, panel=panel, lines=lines)

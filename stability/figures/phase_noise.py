@@ -194,7 +194,18 @@ def _draw_spectrum(
     )
     ax.set_xlabel("offset frequency f (Hz)", fontsize=LABEL_SIZE)
     ax.set_ylabel(PHASE_NOISE_LABEL, fontsize=LABEL_SIZE)
-    ax.legend(fontsize=LEGEND_SIZE, frameon=False)
+    _legend_below(ax)
+
+
+def _legend_below(ax: Axes) -> None:
+    """The panel's legend under its axis label, outside the data (the layout makes room)."""
+    ax.legend(
+        fontsize=LEGEND_SIZE,
+        frameon=False,
+        loc="upper center",
+        bbox_to_anchor=(0.5, -0.13),
+        ncols=2,
+    )
 
 
 def phase_noise_figure(
@@ -233,7 +244,7 @@ def phase_noise_figure(
     """
     table_curve, model_curve = _validate(conversion, table, measured, model, title, footer)
     has_spectrum = table_curve is not None or model_curve is not None
-    fig = new_figure(10.0 if has_spectrum else 6.4, 5.2)
+    fig = new_figure(10.0 if has_spectrum else 6.4, 5.8)
     axes = tuple(fig.subplots(1, 2 if has_spectrum else 1, squeeze=False)[0])
     ax = axes[0]
     style_axes(ax)
@@ -242,7 +253,7 @@ def phase_noise_figure(
     drawn_measured = None if measured is None else _draw_measured(ax, measured)
     ax.set_xlabel(TAU_LABEL, fontsize=LABEL_SIZE)
     ax.set_ylabel(deviation_label(list(converted)), fontsize=LABEL_SIZE)
-    ax.legend(fontsize=LEGEND_SIZE, frameon=False)
+    _legend_below(ax)
     ax.set_title(
         f"carrier {format_frequency(conversion.nominal)}, f_h {format_frequency(conversion.f_h)}",
         fontsize=LABEL_SIZE,

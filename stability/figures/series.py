@@ -1,23 +1,34 @@
-"""The record over time: fractional frequency and phase residual, gaps and outliers.
+"""The record over time, as analysed: frequency, time error, phase residual.
 
-:func:`series_figure` draws fractional frequency with an optional drift model,
-and the phase residual (the phase with its own least-squares line removed) in
-two panels sharing the time axis; gaps are shaded and removed outliers marked.
-Records longer than a few thousand samples are drawn through the minimum and
-maximum of each pixel column, in time order (:func:`envelope`), so that every
-excursion stays visible while the figure stays light [1]_.
+:func:`series_figure` draws the data the statistics were computed from, in
+panels sharing the time axis:
+
+* fractional frequency after outlier screening, with the drift model over it
+  (the one removed, or the linear estimate when none was); the removed
+  outliers are marked by a rug along the top, not drawn as data, so they do
+  not set the axis;
+* for phase (time-interval) logs, the time error TIE in ns with the
+  least-squares frequency offset removed, the offset stated [1]_;
+* the phase residual after the chosen drift model (frequency logs; phase
+  logs when a drift model was removed), so the residual shows what the
+  statistics see.
+
+Phase panels are rebuilt from the analysed frequency, so a record split at a
+phase step or around an outlier joins up there instead of jumping; phase
+steps found by the preparation are marked by vertical lines. Gaps in the log
+are shaded and counted as missing readings (as the summary counts them).
+Long records are drawn as min/max envelopes (:mod:`stability.figures.reduce`).
+:func:`run_series_figure` draws an :class:`~stability.run.AnalysisRun`.
 
 References
 ----------
-.. [1] S. Steinarsson, *Downsampling Time Series for Visual Representation*,
-   MSc thesis, University of Iceland (2013), section 3 (min-max per bucket).
+.. [1] ITU-T Recommendation G.810 (1996), *Definitions and terminology for
+   synchronization networks* (time error, TIE).
 """
 
 from __future__ import annotations
 
-import math
 import warnings
-from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
@@ -31,28 +42,36 @@ from matplotlib.transforms import blended_transform_factory
 
 from ..errors import InputError
 from ..measurement import Measurement
+from ..run import AnalysisRun
 from .labels import check_text, default_footer, default_title
+from .reduce import envelope, gap_runs
 from .style import (
     DRIFT_COLOR,
     FREQUENCY_COLOR,
     GAP_COLOR,
+    GUIDE_COLOR,
     LABEL_SIZE,
     LEGEND_SIZE,
     OUTLIER_COLOR,
     PHASE_COLOR,
     TITLE_SIZE,
     Drawn,
+    Frame,
     PlainScalar,
     clock_label,
     elapsed_unit,
-    new_figure,
+    frame_for,
     put_footer,
     style_axes,
 )
+from .ticks import scaled_text
 
-__all__ = ["SeriesDrawn", "series_figure", "envelope", "gap_runs"]
+__all__ = ["SeriesDrawn", "series_figure", "run_series_figure", "envelope", "gap_runs"]
 
 Curve = tuple[np.ndarray, np.ndarray]
+
+#: Inches: left margin, right margin, under the last panel, above the first, between panels.
+_LEFT, _RIGHT, _UNDER, _OVER, _BETWEEN = 0.95, 0.25, 0.55, 0.3, 0.42
 
 
 @dataclass(frozen=True)
@@ -62,21 +81,30 @@ class SeriesDrawn(Drawn):
     Attributes
     ----------
     figure, axes
-        The figure and its two panels (frequency above, phase residual below).
+        The figure and its panels, top to bottom: frequency, then the time
+        error (phase logs), then the phase residual (unless it is the time error).
     frequency, phase_residual
         (x, y) as drawn; the residual in units of ``phase_unit``.
     drift
         (x, y) of the drift model, or None.
     gaps
-        (k, 2) spans of missing frequency samples.
+        (k, 2) spans of missing samples.
     outliers
         Positions of the removed outliers.
     decimated
         Whether the record was drawn as a min/max envelope.
     phase_unit
-        (scale factor in seconds, unit name) of the residual.
+        (scale factor in seconds, unit name) of the residual and time error.
     x_label
         The time axis label.
+    time_error
+        (x, y) of the time error in ``phase_unit``, or None (frequency logs).
+    frequency_offset
+        The frequency offset removed from the time error, or None.
+    steps
+        Positions of the phase steps marked.
+    missing
+        Missing readings in the shaded gaps (as the summary counts them).
     """
 
     frequency: Curve
@@ -87,77 +115,13 @@ class SeriesDrawn(Drawn):
     decimated: bool
     phase_unit: tuple[float, str]
     x_label: str
+    time_error: Curve | None = None
+    frequency_offset: float | None = None
+    steps: np.ndarray | None = None
+    missing: int = 0
 
 
-# ---------------------------------------------------------------------- data reduction
-def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
-    """Indices and values of a min/max decimation of ``values`` into ``columns`` buckets.
-
-    Each bucket of consecutive samples contributes its minimum and its maximum,
-    in the order they occur, followed by a NaN break when the bucket or the
-    next one holds a missing sample, so the drawn line never bridges a gap.
-    The result is a subsequence of the data (plus NaN breaks): every drawn
-    point is a real sample, and every bucket's full range is drawn [1]_.
-
-    Returns
-    -------
-    index, value
-        Float sample indices (NaN at breaks) and values, ready for plotting.
-    """
-    values = np.asarray(values, dtype=float)
-    n = values.size
-    columns = max(1, int(columns))
-    block = max(1, math.ceil(n / columns))
-    n_blocks = math.ceil(n / block)
-    padded = np.full(n_blocks * block, np.nan)
-    padded[:n] = values
-    blocks = padded.reshape(n_blocks, block)
-    missing = np.isnan(blocks)
-    any_missing = missing.any(axis=1)
-    any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
-    all_missing = missing.all(axis=1)
-    i_min = np.argmin(np.where(missing, np.inf, blocks), axis=1)
-    i_max = np.argmax(np.where(missing, -np.inf, blocks), axis=1)
-    rows = np.arange(n_blocks)
-    first = np.minimum(i_min, i_max)
-    second = np.maximum(i_min, i_max)
-    base = rows * block
-    idx = np.empty((n_blocks, 3))
-    val = np.empty((n_blocks, 3))
-    idx[:, 0] = base + first
-    idx[:, 1] = base + second
-    val[:, 0] = blocks[rows, first]
-    val[:, 1] = blocks[rows, second]
-    brk = any_missing | np.concatenate([any_missing[1:], [False]])
-    idx[:, 2] = np.where(brk, np.nan, idx[:, 1])
-    val[:, 2] = np.where(brk, np.nan, val[:, 1])
-    val[all_missing, :2] = np.nan
-    return idx.ravel(), val.ravel()
-
-
-def gap_runs(mask: np.ndarray, max_runs: int) -> np.ndarray:
-    """(k, 2) array of [start, stop) sample ranges where ``mask`` is true.
-
-    More than ``max_runs`` runs are merged per bucket of samples, so that a
-    record with many short gaps is shaded with at most about that many spans.
-    """
-    if not mask.any():
-        return np.empty((0, 2), dtype=np.int64)
-    runs = _runs(mask)
-    if len(runs) > max_runs:
-        block = math.ceil(mask.size / max_runs)
-        n_blocks = math.ceil(mask.size / block)
-        padded = np.zeros(n_blocks * block, dtype=bool)
-        padded[: mask.size] = mask
-        runs = np.minimum(_runs(padded.reshape(n_blocks, block).any(axis=1)) * block, mask.size)
-    return runs
-
-
-def _runs(mask: np.ndarray) -> np.ndarray:
-    edges = np.diff(np.concatenate([[0], mask.astype(np.int8), [0]]))
-    return np.column_stack([np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)])
-
-
+# ---------------------------------------------------------------------- the data
 def _time_axis(measurement: Measurement) -> tuple[float, float, str, bool]:
     """(origin, scale, label, is_date): axis value = origin + scale * seconds from start."""
     if measurement.start is not None:
@@ -167,8 +131,8 @@ def _time_axis(measurement: Measurement) -> tuple[float, float, str, bool]:
     return 0.0, 1.0 / factor, f"elapsed time ({unit})", False
 
 
-def _phase_scale(values: np.ndarray) -> tuple[float, str]:
-    finite = values[np.isfinite(values)]
+def _phase_scale(*arrays: np.ndarray) -> tuple[float, str]:
+    finite = np.concatenate([a[np.isfinite(a)] for a in arrays])
     top = float(np.max(np.abs(finite))) if finite.size else 0.0
     for factor, unit in ((1.0, "s"), (1e-3, "ms"), (1e-6, "µs"), (1e-9, "ns"), (1e-12, "ps")):
         if top >= factor:
@@ -176,20 +140,36 @@ def _phase_scale(values: np.ndarray) -> tuple[float, str]:
     return 1e-15 if top > 0 else 1.0, "fs" if top > 0 else "s"
 
 
-def _phase_residual(phase: np.ndarray) -> np.ndarray:
-    """Phase minus its own least-squares line (the linear frequency offset removed)."""
+def _joined_phase(
+    y: np.ndarray, tau0: float, missing: np.ndarray, centre: float | None = None
+) -> np.ndarray:
+    """Phase integrated from frequency less ``centre`` (default its mean), from zero.
+
+    A missing frequency sample adds nothing, so the record joins up across
+    segment breaks (phase steps and outliers cut out); phase samples that are
+    themselves missing stay missing.
+    """
+    good = np.isfinite(y)
+    if centre is None:
+        centre = float(np.mean(y[good])) if good.any() else 0.0
+    x = np.empty(y.size + 1)
+    x[0] = 0.0
+    np.cumsum(np.where(good, y - centre, 0.0) * tau0, out=x[1:])
+    x[missing] = np.nan
+    return x
+
+
+def _without_line(phase: np.ndarray) -> tuple[np.ndarray, float]:
+    """Phase minus its least-squares line, and the line's slope (the frequency offset part)."""
     k = np.arange(phase.size, dtype=float)
     good = np.isfinite(phase)
-    count = int(np.count_nonzero(good))
-    if count < 2:
-        return phase - np.nanmean(phase)
-    kk, xx = (k, phase) if count == phase.size else (k[good], phase[good])
-    km = kk.mean()
-    xm = xx.mean()
-    dk = kk - km
+    if int(np.count_nonzero(good)) < 2:
+        return phase - np.nanmean(phase), 0.0
+    kk, xx = k[good], phase[good]
+    dk = kk - kk.mean()
     # einsum, not np.dot: 1-D dot goes to a threaded BLAS (see deviations._kernels.dot)
-    slope = float(np.einsum("i,i->", dk, xx - xm) / np.einsum("i,i->", dk, dk))
-    return phase - (xm + slope * (k - km))
+    slope = float(np.einsum("i,i->", dk, xx - xx.mean()) / np.einsum("i,i->", dk, dk))
+    return phase - (xx.mean() + slope * (k - kk.mean())), slope
 
 
 # ---------------------------------------------------------------------- validation
@@ -197,20 +177,22 @@ def _validate(
     measurement: Any,
     drift_curve: Any,
     outlier_indices: Any,
-    title: Any,
-    footer: Any,
+    steps: Any,
+    texts: dict[str, Any],
     max_columns: Any,
-) -> tuple[np.ndarray | None, np.ndarray]:
+) -> tuple[np.ndarray | None, np.ndarray, np.ndarray]:
     if not isinstance(measurement, Measurement):
         raise InputError(
             f"measurement must be a stability.Measurement, got {type(measurement).__name__}",
             hint="build one with Measurement.from_phase, Measurement.from_frequency or read_log",
         )
-    check_text(title=title, footer=footer)
+    check_text(**texts)
     if not isinstance(max_columns, int) or max_columns < 10:
         raise InputError(f"max_columns must be an integer of at least 10, got {max_columns!r}")
-    return _validate_drift(measurement, drift_curve), _validate_outliers(
-        measurement, outlier_indices
+    return (
+        _validate_drift(measurement, drift_curve),
+        _indices(measurement, outlier_indices, "outlier_indices"),
+        _indices(measurement, steps, "steps"),
     )
 
 
@@ -229,20 +211,22 @@ def _validate_drift(measurement: Measurement, drift_curve: Any) -> np.ndarray | 
     return drift
 
 
-def _validate_outliers(measurement: Measurement, outlier_indices: Any) -> np.ndarray:
+def _indices(measurement: Measurement, values: Any, name: str) -> np.ndarray:
     n_source = measurement.n - 1 if measurement.kind == "frequency" else measurement.n
-    if outlier_indices is None:
+    if name == "steps":
+        n_source = measurement.n
+    if values is None or np.size(values) == 0:
         return np.empty(0, dtype=np.int64)
     try:
-        outliers = np.asarray(outlier_indices).astype(np.int64, casting="safe").ravel()
+        out = np.asarray(values).astype(np.int64, casting="safe").ravel()
     except (TypeError, ValueError):
-        raise InputError("outlier_indices must be whole sample indices") from None
-    if outliers.size and (outliers.min() < 0 or outliers.max() >= n_source):
+        raise InputError(f"{name} must be whole sample indices") from None
+    if out.size and (out.min() < 0 or out.max() >= n_source):
         raise InputError(
-            f"outlier_indices must lie in 0..{n_source - 1} (source samples), "
-            f"got {int(outliers.min())}..{int(outliers.max())}"
+            f"{name} must lie in 0..{n_source - 1} (source samples), "
+            f"got {int(out.min())}..{int(out.max())}"
         )
-    return outliers
+    return out
 
 
 # ---------------------------------------------------------------------- drawing
@@ -273,162 +257,290 @@ def _shade_gaps(axes: tuple[Axes, ...], gaps: np.ndarray) -> None:
         )
 
 
-def _mark_outliers(ax: Axes, out_x: np.ndarray) -> None:
-    """A rug of downward triangles along the top of the panel of the source quantity."""
+def _rug(ax: Axes, where: np.ndarray, label: str) -> None:
+    """A rug of downward triangles along the top of a panel (not data: it sets no limit)."""
     ax.plot(
-        out_x,
-        np.full(out_x.size, 0.97),
+        where,
+        np.full(where.size, 0.97),
         linestyle="none",
         marker="v",
         markersize=4,
         color=OUTLIER_COLOR,
         transform=blended_transform_factory(ax.transData, ax.transAxes),
-        label=f"removed outliers ({out_x.size})",
+        label=label,
         zorder=5,
     )
 
 
-def _legends(ax_y: Axes, ax_p: Axes, gap_count: int, phase_outliers: bool) -> None:
-    legend = {"fontsize": LEGEND_SIZE, "frameon": False, "loc": "lower right"}
-    handles, labels = ax_y.get_legend_handles_labels()
-    if gap_count:
-        handles.append(Line2D([], [], color=GAP_COLOR, linewidth=6, alpha=0.7))
-        labels.append(f"gaps ({gap_count} samples)")
-    if len(handles) > 1:
-        ax_y.legend(handles, labels, ncols=len(handles), bbox_to_anchor=(1, 1), **legend)
-    if phase_outliers:
-        ax_p.legend(bbox_to_anchor=(1, 1), **legend)
+def _legend(ax: Axes, extra: list[tuple[Any, str]] = ()) -> None:
+    """The panel's legend above its top right corner, outside the data.
+
+    One row when it fits beside the axis's multiplier (about an inch is kept
+    for it at the left), else two.
+    """
+    handles, labels = ax.get_legend_handles_labels()
+    for handle, label in extra:
+        handles.append(handle)
+        labels.append(label)
+    if not handles:
+        return
+    fig = ax.get_figure(root=True)
+    for rows in (1, 2):
+        legend = ax.legend(
+            handles,
+            labels,
+            ncols=-(-len(handles) // rows),
+            loc="lower right",
+            bbox_to_anchor=(1.0, 1.0),
+            fontsize=LEGEND_SIZE,
+            frameon=False,
+            borderaxespad=0.15,
+            handlelength=1.6,
+            columnspacing=1.2,
+        )
+        width = legend.get_window_extent(fig.canvas.get_renderer()).width
+        if width <= ax.bbox.width - 0.9 * fig.dpi:
+            return
 
 
-def _label_axes(
-    ax_y: Axes,
-    ax_p: Axes,
-    p_unit: str,
-    time_axis: tuple[str, bool],
-    x_range: tuple[float, float],
-) -> None:
-    """Axis labels, clock-time ticks when the record has time stamps, the time range."""
-    x_label, is_date = time_axis
-    ax_y.set_ylabel("fractional frequency", fontsize=LABEL_SIZE)
-    ax_p.set_ylabel(f"phase residual ({p_unit})", fontsize=LABEL_SIZE)
-    ax_p.set_xlabel(x_label, fontsize=LABEL_SIZE)
-    if is_date:
-        locator = mdates.AutoDateLocator()
-        ax_p.xaxis.set_major_locator(locator)
-        ax_p.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
-    ax_p.set_xlim(*x_range)
-
-
-def _reduced(y: np.ndarray, residual: np.ndarray, max_columns: int) -> tuple[bool, Curve, Curve]:
-    """(decimated, (index, frequency), (index, residual)) to draw."""
-    decimate = max(y.size, residual.size) > 4 * max_columns
+def _reduced(values: np.ndarray, decimate: bool, max_columns: int) -> Curve:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         if decimate:
-            return True, envelope(y, max_columns), envelope(residual, max_columns)
-    plain_y = (np.arange(y.size, dtype=float), y)
-    return False, plain_y, (np.arange(residual.size, dtype=float), residual)
+            return envelope(values, max_columns)
+    return np.arange(values.size, dtype=float), values
 
 
-def _drift_drawn(
-    drift: np.ndarray | None, decimate: bool, max_columns: int, axis: Callable
-) -> Curve | None:
-    if drift is None:
-        return None
-    if decimate:
-        d_idx = np.unique(np.linspace(0, drift.size - 1, 2 * max_columns).round()).astype(int)
-    else:
-        d_idx = np.arange(drift.size)
-    return axis(d_idx.astype(float)), drift[d_idx]
+def _panels(frame: Frame, count: int, titled: bool, footed: bool) -> list[Axes]:
+    top = frame.height - (0.55 if titled else 0.1) - _OVER
+    bottom = (0.3 if footed else 0.05) + _UNDER
+    height = (top - bottom - (count - 1) * _BETWEEN) / count
+    width = frame.width - _LEFT - _RIGHT
+    axes: list[Axes] = []
+    for k in range(count):
+        y = top - (k + 1) * height - k * _BETWEEN
+        rect = frame.rect(_LEFT, y, width, height)
+        axes.append(frame.target.add_axes(rect, sharex=axes[0] if axes else None))
+    for ax in axes:
+        style_axes(ax, minor_grid=False)
+        ax.yaxis.set_major_formatter(PlainScalar())
+    for ax in axes[:-1]:
+        ax.tick_params(labelbottom=False)
+    return axes
+
+
+def _missing_readings(measurement: Measurement, outliers: np.ndarray) -> tuple[np.ndarray, int]:
+    """Frequency samples to shade as gaps, and the readings missing in them."""
+    y_missing = ~np.isfinite(measurement.frequency())
+    if measurement.kind == "frequency":
+        lost = y_missing.copy()
+        lost[outliers] = False
+        return lost, int(lost.sum())
+    nan_phase = np.isnan(measurement.phase)
+    nan_phase[outliers] = False
+    return nan_phase[:-1] | nan_phase[1:], int(nan_phase.sum())
 
 
 def series_figure(
     measurement: Measurement,
     *,
     drift_curve: Any = None,
+    drift_removed: bool = False,
+    drift_label: str | None = None,
     outlier_indices: Any = None,
+    steps: Any = None,
+    frequency_offset: float | None = None,
     title: str | None = None,
     footer: str | None = None,
     analysis_time: datetime | None = None,
     max_columns: int = 2000,
+    into: Any = None,
 ) -> SeriesDrawn:
-    """The record over time: fractional frequency and phase residual, gaps and outliers.
+    """The record over time as analysed: frequency, time error (phase logs), phase residual.
 
     Parameters
     ----------
     measurement
-        The data.
+        The data as analysed (removed outliers are missing samples).
     drift_curve
         The drift model, one fractional-frequency value per frequency sample
         (``measurement.n - 1`` values), drawn over the frequency.
+    drift_removed
+        Whether ``measurement`` had that drift removed: the frequency panel
+        then shows the data with the drift put back under its curve, and the
+        residual panel the data without it.
+    drift_label
+        Legend wording of the drift curve (default "drift removed" or
+        "linear drift estimate").
     outlier_indices
         Indices of removed outliers among the source samples (frequency
         samples for frequency input, phase samples for phase input), marked
-        along the top of the panel of that quantity.
+        along the top of the frequency panel.
+    steps
+        Phase samples just after each phase step, marked on the phase panels.
+    frequency_offset
+        The frequency offset to remove from the time error of a phase log
+        (default: the least-squares offset of the record).
     title, footer
-        Figure title (default: the log's file name) and footer text (default:
-        input SHA-256 prefix, tool version, analysis date).
+        Figure title (default: the log's file name and column) and footer text
+        (default: input SHA-256 prefix, tool version, analysis date); none by
+        default when drawn ``into`` a page, and none when empty.
     analysis_time
         Date for the default footer (default: now).
     max_columns
-        Longer records are drawn as a min/max envelope over this many buckets
-        (:func:`envelope`).
+        Longer records are drawn as a min/max envelope over this many buckets.
+    into
+        A ``Figure`` or ``SubFigure`` (a region of a page) to draw into.
 
     Returns
     -------
     SeriesDrawn
-        The figure, its two panels and the data as drawn.
+        The figure, its panels and the data as drawn.
     """
-    drift, outliers = _validate(
-        measurement, drift_curve, outlier_indices, title, footer, max_columns
+    texts = {"title": title, "footer": footer, "drift_label": drift_label}
+    if frequency_offset is not None and not isinstance(frequency_offset, (int, float)):
+        raise InputError(
+            f"frequency_offset must be a number or None, got {type(frequency_offset).__name__}"
+        )
+    drift, outliers, step_at = _validate(
+        measurement, drift_curve, outlier_indices, steps, texts, max_columns
     )
-    y = measurement.frequency()
-    residual = _phase_residual(np.asarray(measurement.phase, dtype=float))
-    p_factor, p_unit = _phase_scale(residual)
-    origin, scale, x_label, is_date = _time_axis(measurement)
     tau0 = measurement.tau0
+    y = measurement.frequency()
+    if drift is not None and drift_removed:
+        good = np.isfinite(y) & np.isfinite(drift)
+        y = y + (drift - (float(np.mean(drift[good])) if good.any() else 0.0))
+    phase_missing = np.isnan(measurement.phase)
+    residual, _ = _without_line(_joined_phase(measurement.frequency(), tau0, phase_missing))
+    timed = measurement.kind == "phase"
+    tie, offset = None, None
+    if timed and frequency_offset is not None and np.isfinite(frequency_offset):
+        offset = float(frequency_offset)
+        tie = _joined_phase(y, tau0, phase_missing, offset)
+    elif timed:
+        tie, slope = _without_line(_joined_phase(y, tau0, phase_missing))
+        offset = float(np.nanmean(y) + slope / tau0)
+    shown = [a for a in (tie, residual if (not timed or drift_removed) else None) if a is not None]
+    p_factor, p_unit = _phase_scale(*shown)
+    origin, scale, x_label, is_date = _time_axis(measurement)
 
     def axis(index: np.ndarray) -> np.ndarray:
-        return origin + scale * tau0 * index
+        return origin + scale * tau0 * np.asarray(index, dtype=float)
 
-    decimate, (y_idx, y_val), (p_idx, p_val) = _reduced(y, residual, max_columns)
-    frequency, phase = (axis(y_idx), y_val), (axis(p_idx), p_val / p_factor)
-    fig = new_figure(10.0, 6.0, layout="fixed")
-    ax_y, ax_p = fig.subplots(2, 1, sharex=True)
-    for ax in (ax_y, ax_p):
-        style_axes(ax, minor_grid=False)
-        ax.yaxis.set_major_formatter(PlainScalar())
-    ax_y.plot(*frequency, color=FREQUENCY_COLOR, linewidth=0.6, label="fractional frequency")
-    ax_p.plot(*phase, color=PHASE_COLOR, linewidth=0.6, label="phase residual")
-    drift_drawn = _drift_drawn(drift, decimate, max_columns, axis)
-    if drift_drawn is not None:
-        ax_y.plot(*drift_drawn, color=DRIFT_COLOR, linewidth=1.2, label="drift model")
-    gap_mask = ~np.isfinite(y)
-    runs = gap_runs(gap_mask, max_columns)
-    gaps = np.column_stack([axis(runs[:, 0].astype(float)), axis(runs[:, 1].astype(float))])
-    if len(gaps):
-        _shade_gaps((ax_y, ax_p), gaps)
-    out_x = axis(outliers.astype(float))
-    if outliers.size:
-        _mark_outliers(ax_y if measurement.kind == "frequency" else ax_p, out_x)
-    x_end = axis(np.array([0.0, float(measurement.n - 1)]))
-    x_range = (x_end[0], x_end[1] if x_end[1] > x_end[0] else x_end[0] + scale * tau0)
-    _label_axes(ax_y, ax_p, p_unit, (x_label, is_date), x_range)
-    gap_count = int(gap_mask.sum()) if len(gaps) else 0
-    _legends(ax_y, ax_p, gap_count, bool(outliers.size) and measurement.kind != "frequency")
-    fig.suptitle(title or default_title(measurement, "data over time"), fontsize=TITLE_SIZE)
-    if footer is None:
+    decimate = y.size > 4 * max_columns
+    frame = frame_for(into, 10.0, 2.0 + 2.1 * (1 + len(shown)))
+    if title is None and frame.own:
+        title = default_title(measurement, "data over time")
+    if footer is None and frame.own:
         footer = default_footer(measurement, analysis_time=analysis_time)
-    put_footer(fig, footer)
+    axes = _panels(frame, 1 + len(shown), bool(title), bool(footer))
+    y_idx, y_val = _reduced(y, decimate, max_columns)
+    frequency = (axis(y_idx), y_val)
+    axes[0].plot(*frequency, color=FREQUENCY_COLOR, linewidth=0.6, label="fractional frequency")
+    axes[0].set_ylabel("fractional frequency", fontsize=LABEL_SIZE)
+    drift_drawn = None
+    if drift is not None:
+        d_idx = np.arange(drift.size)
+        if decimate:
+            d_idx = np.unique(np.linspace(0, drift.size - 1, 2 * max_columns).round()).astype(int)
+        drift_drawn = (axis(d_idx), drift[d_idx])
+        wording = drift_label or ("drift removed" if drift_removed else "linear drift estimate")
+        axes[0].plot(*drift_drawn, color=DRIFT_COLOR, linewidth=1.2, label=wording)
+    curves: dict[str, Curve] = {}
+    for ax, (name, values) in zip(
+        axes[1:], [("tie", tie), ("residual", residual)][0 if timed else 1 :], strict=False
+    ):
+        idx, val = _reduced(values, decimate, max_columns)
+        curves[name] = (axis(idx), val / p_factor)
+        if name == "tie":
+            label = f"TIE, frequency offset {scaled_text_signed(offset)} removed"
+            ax.set_ylabel(f"time error ({p_unit})", fontsize=LABEL_SIZE)
+        else:
+            label = "phase residual" + (" after the drift model" if drift_removed else "")
+            ax.set_ylabel(f"phase residual ({p_unit})", fontsize=LABEL_SIZE)
+        ax.plot(*curves[name], color=PHASE_COLOR, linewidth=0.6, label=label)
+    lost, missing = _missing_readings(measurement, outliers)
+    runs = gap_runs(lost, max_columns)
+    gaps = np.column_stack([axis(runs[:, 0]), axis(runs[:, 1])])
+    if len(gaps):
+        _shade_gaps(tuple(axes), gaps)
+    out_x = axis(outliers)
+    if outliers.size:
+        _rug(axes[0], out_x, f"outliers removed ({outliers.size})")
+    step_x = axis(step_at)
+    for ax in axes[1:]:
+        for x in step_x:
+            ax.axvline(x, color=GUIDE_COLOR, linewidth=0.9, linestyle="--", zorder=1)
+    gap_entry = [(Line2D([], [], color=GAP_COLOR, linewidth=6, alpha=0.7),
+                  f"gaps ({missing} missing readings)")] if missing else []  # fmt: skip
+    _legend(axes[0], gap_entry)
+    for ax in axes[1:]:
+        step_entry = [(Line2D([], [], color=GUIDE_COLOR, linestyle="--"),
+                       f"phase steps ({step_x.size})")] if step_x.size else []  # fmt: skip
+        _legend(ax, step_entry)
+    axes[-1].set_xlabel(x_label, fontsize=LABEL_SIZE)
+    if is_date:
+        locator = mdates.AutoDateLocator()
+        axes[-1].xaxis.set_major_locator(locator)
+        axes[-1].xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
+    x_end = axis(np.array([0.0, float(measurement.n - 1)]))
+    axes[-1].set_xlim(x_end[0], x_end[1] if x_end[1] > x_end[0] else x_end[0] + scale * tau0)
+    if title:
+        frame.target.suptitle(title, fontsize=TITLE_SIZE)
+    if footer:
+        put_footer(frame.target, footer)
+    residual_curve = curves.get("residual", curves.get("tie"))
     return SeriesDrawn(
-        fig,
-        (ax_y, ax_p),
+        frame.figure,
+        tuple(axes),
         frequency=frequency,
-        phase_residual=phase,
+        phase_residual=residual_curve,
         drift=drift_drawn,
         gaps=gaps,
         outliers=out_x,
         decimated=decimate,
         phase_unit=(p_factor, p_unit),
         x_label=x_label,
+        time_error=curves.get("tie"),
+        frequency_offset=offset,
+        steps=step_x,
+        missing=missing,
+    )
+
+
+def scaled_text_signed(value: float | None) -> str:
+    """A signed number in plain powers of ten: -2.8×10⁻¹², 0."""
+    if value is None or value == 0.0 or not np.isfinite(value):
+        return "0"
+    text = scaled_text(float(f"{abs(value):.3g}"))
+    return ("\u2212" if value < 0 else "") + text
+
+
+def run_series_figure(run: AnalysisRun, **options: Any) -> SeriesDrawn:
+    """The series figure of an analysis run: the data as the statistics saw them.
+
+    The drift curve is the model removed (named with its model) or, when none
+    was, the linear estimate; outliers and phase steps are those the
+    preparation found. ``options`` are those of :func:`series_figure`.
+    """
+    if not isinstance(run, AnalysisRun):
+        raise InputError(f"run must be a stability.AnalysisRun, got {type(run).__name__}")
+    prep = run.preparation
+    removed = prep.removed_drift
+    fit = removed if removed is not None else prep.linear_drift
+    drift = None
+    if fit is not None and fit.y_model.shape == (run.measurement.n - 1,):
+        drift = fit.y_model
+    label = f"drift removed ({removed.model} model)" if removed is not None else None
+    stated = run.table.extras.get("offset_drift")
+    offset = getattr(stated, "offset", None)
+    return series_figure(
+        run.measurement,
+        drift_curve=drift,
+        drift_removed=removed is not None,
+        drift_label=label,
+        outlier_indices=[o.index for o in prep.outliers.samples],
+        steps=[s.index for s in prep.steps if 0 <= s.index < run.measurement.n],
+        frequency_offset=offset,
+        **options,
     )

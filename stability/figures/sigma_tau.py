@@ -3,41 +3,33 @@
 :func:`stability_figure` draws one series per statistic [1]_ with its
 confidence interval as asymmetric error bars, the fitted power-law model as a
 thin line, the identified noise type written where it changes, specification
-limits with their verdicts, and a faint key of the slopes each power-law noise
-type gives [1]_ [2]_:
+limits with their verdicts, the reference's stated stability when given, and
+a key of the slopes each power-law noise type gives
+(:mod:`stability.figures.slope_key`). Fractional-frequency statistics and
+time statistics (seconds) never share an axis: when both are asked for, the
+figure has two panels.
 
-=====================  =====  =====  =====  =====  =====
-statistic              WPM    FPM    WFM    FFM    RWFM
-=====================  =====  =====  =====  =====  =====
-ADEV, OADEV, HDEV ...  -1     -1     -1/2   0      +1/2
-MDEV                   -3/2   -1     -1/2   0      +1/2
-TDEV                   -1/2   0      +1/2   +1     +3/2
-MTIE, TIE rms          0      0      +1/2   +1     +3/2
-=====================  =====  =====  =====  =====  =====
-
-TDEV = tau * MDEV / sqrt(3) [3]_, so its slopes are those of MDEV plus one.
-TIE rms is the rms phase difference over tau: a constant for white phase noise,
-tau^(1/2) for the random-walk phase of white FM, and tau and tau^(3/2) for the
-phases of flicker and random-walk FM (common practice; MTIE follows the same
-growth). A panel holding statistics of different slopes (OADEV with MDEV,
-TDEV with MTIE) shows the key of its first such statistic and names it.
-Fractional-frequency statistics and time statistics (seconds) never share an
-axis: when both are asked for, the figure has two panels side by side.
+Layout. Nothing is written over the data: the legend, the confidence level
+of the error bars and the slope key sit in a column beside the panels, and
+the noise labels are placed beside their points where they touch no marker,
+error bar, line or other label (:mod:`stability.figures.placement`); a label
+with no free place is left out (:attr:`StabilityDrawn.noise_labels` says
+which were written). On a panel of many statistics only the first carries
+labels unless others are asked for (``noise_labels``); a noise type already
+written at a tau for one statistic is not written again for another. The
+figure is drawn on a figure of its own or into a region of a page (``into``,
+as the calibration record does).
 
 References
 ----------
 .. [1] W. J. Riley, *Handbook of Frequency Stability Analysis*, NIST SP 1065
-   (2008), section 5.2 (sigma-tau plots) (slopes of the power-law noises).
-.. [2] IEEE Std 1139-2008, *Definitions of Physical Quantities for Fundamental
-   Frequency and Time Metrology - Random Instabilities*, annex (slopes of
-   sigma_y(tau) and mod sigma_y(tau)).
-.. [3] ITU-T Recommendation G.810 (1996), *Definitions and terminology for
-   synchronization networks*, appendix II (TDEV).
+   (2008), sections 5.2 (sigma-tau plots) and 5.3 (confidence intervals).
 """
 
 from __future__ import annotations
 
 import math
+import textwrap
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import datetime
@@ -45,14 +37,24 @@ from typing import Any
 
 import numpy as np
 from matplotlib.axes import Axes
+from matplotlib.legend import Legend
 
 from ..deviations.registry import get_statistic
-from ..errors import InputError
 from ..table import StabilityTable
-from .labels import check_text, default_footer, default_title
+from .labels import default_footer, default_title
+from .placement import LabelRequest, extent, obstacles_of, place_labels, renderer_of
+from .sigma_inputs import (
+    LimitRow,
+    Series,
+    curve_arrays,
+    drawable,
+    noise_label_statistics,
+    stability_series,
+    validate_stability_args,
+)
+from .slope_key import SLOPES, draw_slope_key, slope_key
 from .style import (
     GUIDE_COLOR,
-    KEY_SIZE,
     LABEL_SIZE,
     LEGEND_SIZE,
     LIMIT_COLOR,
@@ -62,29 +64,37 @@ from .style import (
     TITLE_SIZE,
     VERDICT_COLORS,
     Drawn,
+    Frame,
     deviation_label,
+    frame_for,
     is_time_statistic,
     log_axes,
     log_paper,
-    new_figure,
     put_footer,
     short_name,
     statistic_style,
     style_axes,
 )
 
-__all__ = ["SLOPES", "StabilityDrawn", "stability_figure", "stability_series", "slope_key"]
+__all__ = [
+    "SLOPES",
+    "StabilityDrawn",
+    "stability_figure",
+    "stability_series",
+    "slope_key",
+    "noise_label_statistics",
+    "PanelLayout",
+    "panel_layout",
+    "legend_label",
+]
 
-#: Slope key per kind of statistic: (slope of deviation vs tau on log-log, noise label).
-SLOPES = {
-    "allan": ((-1.0, "WPM/FPM"), (-0.5, "WFM"), (0.0, "FFM"), (0.5, "RWFM")),
-    "modified": ((-1.5, "WPM"), (-1.0, "FPM"), (-0.5, "WFM"), (0.0, "FFM"), (0.5, "RWFM")),
-    "tdev": ((-0.5, "WPM"), (0.0, "FPM"), (0.5, "WFM"), (1.0, "FFM"), (1.5, "RWFM")),
-    "time_error": ((0.0, "WPM/FPM"), (0.5, "WFM"), (1.0, "FFM"), (1.5, "RWFM")),
-}
-
-Series = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
-LimitRow = tuple[float, float, str]
+#: Inches: left margin (tick labels and y label), room under a panel (tick
+#: labels and x label), side column width and the gap before it, right margin.
+_LEFT, _UNDER, _SIDE, _GAP, _RIGHT = 0.95, 0.55, 2.6, 0.3, 0.12
+#: Height of a slope key (inches), preferred and smallest.
+_KEY, _KEY_MIN = 1.25, 0.8
+#: Characters per legend line before a label is wrapped.
+_LEGEND_WIDTH = 40
 
 
 @dataclass(frozen=True)
@@ -94,7 +104,8 @@ class StabilityDrawn(Drawn):
     Attributes
     ----------
     figure, axes
-        The figure and its panels (fractional-frequency panel first).
+        The figure (the root figure when drawn into a page) and its data
+        panels (fractional-frequency panel first).
     series
         Statistic -> (tau, deviation, ci_low, ci_high) as drawn (:func:`stability_series`).
     panel
@@ -102,152 +113,40 @@ class StabilityDrawn(Drawn):
     limits
         The specification limits as ``(tau_s, max, verdict)`` rows, the verdict
         one of the words of :data:`stability.figures.style.VERDICT_COLORS`.
+    keys
+        The slope key of each data panel (frameless panels beside them), in
+        the order of ``axes``.
+    noise_labels
+        Statistic -> ((tau, noise type), ...) written on the figure.
+    confidence
+        The confidence level of the error bars, as written on the figure.
+    reference
+        (tau, deviation) of the reference's stated stability as drawn, or None.
     """
 
     series: dict[str, Series]
     panel: dict[str, Axes]
     limits: tuple[LimitRow, ...]
-
-
-# ---------------------------------------------------------------------- data and slopes
-def stability_series(table: StabilityTable) -> dict[str, Series]:
-    """What :func:`stability_figure` draws: statistic -> (tau, deviation, ci_low, ci_high).
-
-    Only rows with a finite, positive deviation and tau are drawn on log axes;
-    the interval bounds are NaN where the row has none.
-    """
-    out = {}
-    for result in table:
-        keep = _drawable(result)
-        out[result.statistic] = (
-            result.tau[keep].copy(),
-            result.deviation[keep].copy(),
-            result.ci_low[keep].copy(),
-            result.ci_high[keep].copy(),
-        )
-    return out
-
-
-def _drawable(result: Any) -> np.ndarray:
-    keep = np.isfinite(result.deviation) & (result.deviation > 0)
-    return keep & np.isfinite(result.tau) & (result.tau > 0)
-
-
-def _slope_set(names: Sequence[str]) -> str:
-    if any(is_time_statistic(n) for n in names):
-        return "tdev" if "tdev" in names else "time_error"
-    families = {get_statistic(n).family for n in names}
-    return "modified" if families == {"modified"} else "allan"
-
-
-def slope_key(names: Sequence[str]) -> tuple[str, tuple[tuple[float, str], ...]]:
-    """The slope key drawn for a panel holding these statistics: (kind, ((slope, label), ...))."""
-    kind = _slope_set(list(names))
-    return kind, SLOPES[kind]
-
-
-# ---------------------------------------------------------------------- validation
-def _validate(
-    table: Any, title: Any, model_curve: Any, limits: Any, limits_statistic: Any, footer: Any
-) -> list[LimitRow]:
-    if not isinstance(table, StabilityTable):
-        raise InputError(
-            f"table must be a stability.StabilityTable, got {type(table).__name__}",
-            hint="build one with stability.analyze",
-        )
-    if len(table) == 0:
-        raise InputError("the table holds no results to plot")
-    check_text(title=title, footer=footer)
-    if model_curve is not None:
-        _validate_model(table, model_curve)
-    if limits_statistic is not None and limits_statistic not in table.results:
-        raise InputError(
-            f"limits_statistic {limits_statistic!r} is not in the table",
-            hint=f"use one of {', '.join(table.results)}",
-        )
-    return [] if limits is None else _limit_rows(limits)
-
-
-def _validate_model(table: StabilityTable, model_curve: Any) -> None:
-    if not isinstance(model_curve, Mapping):
-        raise InputError(
-            "model_curve must map a statistic to (tau, sigma) arrays, "
-            f"got {type(model_curve).__name__}"
-        )
-    for stat, curve in model_curve.items():
-        if stat not in table.results:
-            raise InputError(
-                f"model_curve names {stat!r}, which is not in the table",
-                hint=f"use one of {', '.join(table.results)}",
-            )
-        try:
-            tau, sigma = (np.asarray(c, dtype=float) for c in curve)
-        except (TypeError, ValueError):
-            raise InputError(
-                f"model_curve[{stat!r}] must be a pair (tau, sigma) of number arrays"
-            ) from None
-        if tau.shape != sigma.shape or tau.ndim != 1:
-            raise InputError(
-                f"model_curve[{stat!r}]: tau and sigma must be 1-D of one length, "
-                f"got shapes {tau.shape} and {sigma.shape}"
-            )
-
-
-_ROW = "(tau_s, max, verdict)"
-
-
-def _limit_rows(limits: Any) -> list[LimitRow]:
-    try:
-        items = list(limits)
-    except TypeError:
-        raise InputError(
-            f"limits must be a list of (tau_s, max, verdict) rows, got {type(limits).__name__}"
-        ) from None
-    rows = []
-    for i, item in enumerate(items):
-        try:
-            tau, top, *rest = item
-            tau, top = float(tau), float(top)
-        except (TypeError, ValueError):
-            raise InputError(
-                f"limits row {i} must be (tau_s, max, verdict), got {item!r}"
-            ) from None
-        if len(rest) > 1:
-            raise InputError(f"limits row {i} must be (tau_s, max, verdict), got {item!r}")
-        if not (tau > 0 and top > 0 and math.isfinite(tau) and math.isfinite(top)):
-            raise InputError(
-                f"limits row {i}: tau and max must be positive and finite, got {item!r}"
-            )
-        rows.append((tau, top, _verdict_word(rest[0] if rest else None, i)))
-    return rows
-
-
-def _verdict_word(verdict: Any, row: int) -> str:
-    """The verdict word of a limits row: one of the spec layer's words exactly, or None."""
-    if verdict is None:
-        return "not measured"
-    for word in VERDICT_COLORS:  # by equality, so a str-valued verdict member matches its word
-        if isinstance(verdict, str) and verdict == word:
-            return word
-    raise InputError(
-        f"unknown verdict {verdict!r} in limits row {row}",
-        hint="use pass, fail, inconclusive, not measured or None (not measured)",
-    )
+    keys: tuple[Axes, ...] = ()
+    noise_labels: dict[str, tuple[tuple[float, str], ...]] | None = None
+    confidence: float = math.nan
+    reference: tuple[np.ndarray, np.ndarray] | None = None
 
 
 # ---------------------------------------------------------------------- drawing
-def _draw_statistic(
-    ax: Axes, name: str, drawn: Series, noise: np.ndarray, j: int, corrected: bool = False
-) -> list:
-    """One statistic's points, error bars and noise labels; returns the drawn (x, y) points.
+def legend_label(name: str, corrected: bool = False) -> str:
+    """ "overlapping Allan deviation (OADEV)", wrapped to the side column's width."""
+    title = get_statistic(name).title.split(" (")[0]
+    short = short_name(name)
+    text = short if title.lower() == short.lower() else f"{title} ({short})"
+    text += ", bias-corrected" if corrected else ""
+    return "\n".join(textwrap.wrap(text, _LEGEND_WIDTH, break_on_hyphens=False))
 
-    A bias-corrected statistic says so in its legend entry.
-    """
+
+def _draw_statistic(ax: Axes, name: str, drawn: Series, corrected: bool) -> bool:
+    """One statistic's points and error bars; whether any error bar was drawn."""
     tau, dev, low, high = drawn
     style = statistic_style(name)
-    label = f"{get_statistic(name).title} ({short_name(name)})"
-    if corrected:
-        label += ", bias-corrected"
     ax.plot(
         tau,
         dev,
@@ -255,17 +154,15 @@ def _draw_statistic(
         markersize=3.5,
         linewidth=1.0,
         color=style.color,
-        label=label,
+        label=legend_label(name, corrected),
         zorder=3,
     )
-    points = [np.column_stack([tau, dev])]
     ok = np.isfinite(low) & np.isfinite(high) & (low > 0) & (high >= dev) & (low <= dev)
     if ok.any():
-        yerr = np.vstack([dev[ok] - low[ok], high[ok] - dev[ok]])
         ax.errorbar(
             tau[ok],
             dev[ok],
-            yerr=yerr,
+            yerr=np.vstack([dev[ok] - low[ok], high[ok] - dev[ok]]),
             fmt="none",
             ecolor=style.color,
             elinewidth=0.8,
@@ -273,29 +170,7 @@ def _draw_statistic(
             alpha=0.9,
             zorder=2,
         )
-        points += [np.column_stack([tau[ok], low[ok]]), np.column_stack([tau[ok], high[ok]])]
-    _draw_noise_labels(ax, tau, dev, noise, style.color, dy=-9 if j % 2 == 0 else 6)
-    return points
-
-
-def _draw_noise_labels(
-    ax: Axes, tau: np.ndarray, dev: np.ndarray, noise: np.ndarray, color: str, dy: float
-) -> None:
-    """The noise type written beside the first point of each run of one type."""
-    if not noise.size:
-        return
-    change = (noise != "") & np.concatenate([[True], noise[1:] != noise[:-1]])
-    for i in np.flatnonzero(change):
-        ax.annotate(
-            str(noise[i]),
-            (tau[i], dev[i]),
-            xytext=(3, dy),
-            textcoords="offset points",
-            fontsize=NOTE_SIZE,
-            color=color,
-            zorder=4,
-            gid="noise-label",
-        )
+    return bool(ok.any())
 
 
 def _draw_model(ax: Axes, name: str, curve: tuple[Any, Any]) -> bool:
@@ -310,15 +185,14 @@ def _draw_model(ax: Axes, name: str, curve: tuple[Any, Any]) -> bool:
         color=statistic_style(name).color,
         linewidth=0.7,
         alpha=0.75,
-        linestyle="-",
         label=f"{short_name(name)} power-law model",
         zorder=2,
     )
     return True
 
 
-def _draw_limits(ax: Axes, rows: list[LimitRow], target: str) -> int:
-    """The limit line and one marker per limit in its verdict's colour; legend entries made."""
+def _draw_limits(ax: Axes, rows: list[LimitRow], target: str) -> None:
+    """The limit line and one marker per limit in its verdict's colour."""
     l_tau = np.array([r[0] for r in rows])
     l_max = np.array([r[1] for r in rows])
     verdicts = [r[2] for r in rows]
@@ -332,7 +206,6 @@ def _draw_limits(ax: Axes, rows: list[LimitRow], target: str) -> int:
         label=f"limit ({short_name(target)})",
         zorder=2,
     )
-    entries = 1
     for verdict, color in VERDICT_COLORS.items():
         sel = np.array([v == verdict for v in verdicts], dtype=bool)
         if sel.any():
@@ -348,8 +221,60 @@ def _draw_limits(ax: Axes, rows: list[LimitRow], target: str) -> int:
                 label=verdict,
                 zorder=5,
             )
-            entries += 1
-    return entries
+
+
+def _draw_reference(ax: Axes, curve: tuple[np.ndarray, np.ndarray]) -> tuple | None:
+    tau, dev = curve
+    good = np.isfinite(tau) & np.isfinite(dev) & (tau > 0) & (dev > 0)
+    if not good.any():
+        return None
+    ax.plot(
+        tau[good],
+        dev[good],
+        color=GUIDE_COLOR,
+        linewidth=1.2,
+        linestyle="-.",
+        label="reference, stated stability",
+        zorder=2,
+    )
+    return tau[good].copy(), dev[good].copy()
+
+
+def _noise_requests(
+    table: StabilityTable, names: list[str], series: dict[str, Series], labelled: list[str]
+) -> tuple[list[LabelRequest], list[str]]:
+    """The noise labels wanted on a panel, a word at a tau written once, and their owners."""
+    requests, owners, seen = [], [], set()
+    for name in names:
+        if name not in labelled:
+            continue
+        noise = np.asarray(table.results[name].noise, dtype=object)[drawable(table[name])]
+        tau, dev = series[name][:2]
+        change = (noise != "") & np.concatenate([[True], noise[1:] != noise[:-1]])
+        for i in np.flatnonzero(change):
+            key = (round(math.log10(tau[i]), 6), str(noise[i]))
+            if key in seen:
+                continue
+            seen.add(key)
+            style = statistic_style(name)
+            requests.append(
+                LabelRequest(
+                    str(noise[i]), (tau[i], dev[i]), style.color, NOTE_SIZE, gid="noise-label"
+                )
+            )
+            owners.append(name)
+    return requests, owners
+
+
+@dataclass
+class _Panel:
+    """One data panel while it is drawn: its statistics and what goes beside it."""
+
+    ax: Axes
+    names: list[str]
+    entries: int = 0
+    bars: bool = False
+    legend: Legend | None = None
 
 
 def _draw_panel(
@@ -357,33 +282,124 @@ def _draw_panel(
     table: StabilityTable,
     names: list[str],
     series: dict[str, Series],
-    model_curve: Mapping[str, tuple[Any, Any]] | None,
-    limits: tuple[list[LimitRow], str],
-) -> None:
-    """One panel: every statistic of ``names``, models, limits, slope key and legend."""
+    extras: dict[str, Any],
+) -> _Panel:
+    """Every statistic of ``names``, models, limits and reference; limits fixed."""
     log_axes(ax)
     style_axes(ax)
-    points: list[np.ndarray] = []
-    entries = 0
-    for j, name in enumerate(names):
-        noise = np.asarray(table.results[name].noise, dtype=object)[_drawable(table[name])]
-        corrected = table.results[name].bias_corrected
-        points += _draw_statistic(ax, name, series[name], noise, j, corrected)
-        entries += 1
+    panel = _Panel(ax, names)
+    model_curve = extras["model_curve"]
+    for name in names:
+        panel.bars |= _draw_statistic(ax, name, series[name], table.results[name].bias_corrected)
+        panel.entries += 1
         if model_curve is not None and name in model_curve:
-            entries += _draw_model(ax, name, model_curve[name])
-    rows, target = limits
+            panel.entries += _draw_model(ax, name, model_curve[name])
+    rows, target = extras["limits"]
     if rows and target in names:
-        entries += _draw_limits(ax, rows, target)
-        points.append(np.array([r[:2] for r in rows]))
+        _draw_limits(ax, rows, target)
+        panel.entries += 1 + len({r[2] for r in rows})
+    if extras["reference"] is not None and extras["reference_panel"] == names[0]:
+        extras["reference_drawn"] = _draw_reference(ax, extras["reference"])
+        panel.entries += extras["reference_drawn"] is not None
     ax.set_xlabel(TAU_LABEL, fontsize=LABEL_SIZE)
     ax.set_ylabel(deviation_label(names), fontsize=LABEL_SIZE)
-    drawn = np.concatenate(points) if points else np.empty((0, 2))
-    if drawn.size:
-        _draw_slope_key(ax, names, drawn)
     log_paper(ax)
-    if entries > 1:
-        ax.legend(fontsize=LEGEND_SIZE, frameon=False, loc="best")
+    return panel
+
+
+# ---------------------------------------------------------------------- layout
+@dataclass(frozen=True)
+class PanelLayout:
+    """Panel rectangles and the side column (inches) of one figure."""
+
+    panels: tuple[tuple[float, float, float, float], ...]
+    column: tuple[tuple[float, float], ...]  # (bottom, top) of the column beside each block
+    side_x: float
+
+
+def _estimate_column(groups: list[list[str]], extras: dict[str, Any]) -> float:
+    """Inches of side column the legends and keys need (an estimate made before drawing)."""
+    lines = 0
+    for names in groups:
+        lines += sum(legend_label(n).count("\n") + 1 for n in names)
+        lines += sum(1 for n in names if extras["model_curve"] and n in extras["model_curve"])
+    rows = extras["limits"][0]
+    lines += (1 + len({r[2] for r in rows})) if rows else 0
+    return 0.3 + 0.16 * lines + len(groups) * (_KEY + 0.15)
+
+
+def panel_layout(frame: Frame, n: int, titled: bool, footed: bool) -> PanelLayout:
+    """Rectangles (inches) of ``n`` log-log panels and of the column beside them.
+
+    Side by side with one column at the right while each panel keeps 3.5
+    inches of width, else stacked with the column beside each panel.
+    """
+    top = frame.height - (0.55 if titled else 0.12)
+    bottom = (0.32 if footed else 0.05) + _UNDER
+    side_x = frame.width - _RIGHT - _SIDE
+    width = (side_x - _GAP - _LEFT - (n - 1) * (_LEFT + 0.1)) / n
+    if n == 1 or width >= 3.5:  # side by side while each panel keeps 3.5 inches
+        panels = tuple(
+            (_LEFT + k * (width + _LEFT + 0.1), bottom, width, top - bottom) for k in range(n)
+        )
+        return PanelLayout(panels, ((bottom, top),), side_x)
+    height = (top - bottom - (n - 1) * (_UNDER + 0.15)) / n
+    panels = tuple(
+        (_LEFT, top - (k + 1) * height - k * (_UNDER + 0.15), side_x - _GAP - _LEFT, height)
+        for k in range(n)
+    )
+    return PanelLayout(panels, tuple((p[1], p[1] + p[3]) for p in panels), side_x)
+
+
+def _side_column(
+    frame: Frame, layout: PanelLayout, panels: list[_Panel], level: float
+) -> list[Axes]:
+    """Legends, the error-bar note and the slope keys beside the panels, top to bottom."""
+    renderer = renderer_of(panels[0].ax)
+    dpi = frame.figure.dpi
+    target = frame.target
+    keys = []
+    per_panel = len(layout.column) == len(panels)
+    regions = layout.column if per_panel else layout.column * len(panels)
+    y = regions[0][1]
+    if any(p.bars for p in panels):
+        note = target.text(
+            *frame.rect(layout.side_x, y, 0, 0)[:2],
+            f"error bars: {100 * level:.3g} % confidence",
+            fontsize=LEGEND_SIZE,
+            color=NOTE_COLOR,
+            va="top",
+            ha="left",
+            gid="confidence-note",
+        )
+        y -= extent(note, renderer).height / dpi + 0.12
+    shared_bottom = regions[0][0]
+    for k, panel in enumerate(panels):
+        if per_panel:
+            bottom, top = regions[k]
+            y = min(y, top) if k == 0 else top
+        if panel.entries > 1:
+            panel.legend = panel.ax.legend(
+                loc="upper left",
+                bbox_to_anchor=frame.rect(layout.side_x, y, 0, 0)[:2],
+                bbox_transform=target.transSubfigure,
+                fontsize=LEGEND_SIZE,
+                frameon=False,
+                borderaxespad=0.0,
+                borderpad=0.0,
+                handlelength=1.8,
+            )
+            y -= extent(panel.legend, renderer).height / dpi + 0.15
+        left_for_keys = len(panels) - k
+        floor = regions[k][0] if per_panel else shared_bottom
+        room = (y - floor) / (1 if per_panel else left_for_keys)
+        height = max(_KEY_MIN, min(_KEY, room - 0.05))
+        box = (layout.side_x, y - height, _SIDE - 0.05, height)
+        key = target.add_axes(frame.rect(*box))
+        draw_slope_key(key, panel.ax, panel.names, (box[2], box[3]), name_owner=len(panels) > 1)
+        keys.append(key)
+        y -= height + 0.15
+    return keys
 
 
 def stability_figure(
@@ -393,8 +409,11 @@ def stability_figure(
     model_curve: Mapping[str, tuple[Any, Any]] | None = None,
     limits: Sequence[tuple[float, float, str | None]] | None = None,
     limits_statistic: str | None = None,
+    reference: tuple[Any, Any] | None = None,
+    noise_labels: Sequence[str] | str | None = None,
     footer: str | None = None,
     analysis_time: datetime | None = None,
+    into: Any = None,
 ) -> StabilityDrawn:
     """The sigma-tau plot of an analysis.
 
@@ -403,7 +422,8 @@ def stability_figure(
     table
         The results, from :func:`stability.analyze`.
     title
-        Figure title (default: the log's file name).
+        Figure title (default: the log's file name and value column; none
+        when drawn ``into`` a page). An empty string draws no title.
     model_curve
         Statistic -> (tau, sigma) of the fitted power-law model, drawn as a thin line.
     limits
@@ -413,125 +433,74 @@ def stability_figure(
     limits_statistic
         The statistic the limits apply to (default: the table's first); they
         are drawn on its panel.
+    reference
+        (tau, deviation) of the reference's stated stability, drawn on the
+        panel of ``limits_statistic`` (the reference is measured with the device).
+    noise_labels
+        Whose noise types are written: a list (or comma list) of statistics,
+        ``"all"``, ``"none"``, or None for every statistic of a panel of at
+        most three and the first statistic of a fuller one.
     footer
-        Footer text (default: input SHA-256 prefix, tool version, analysis date).
+        Footer text (default: input SHA-256 prefix, tool version, analysis
+        date; none when drawn ``into`` a page). An empty string draws none.
     analysis_time
         Date for the default footer (default: now).
+    into
+        A ``Figure`` or ``SubFigure`` (a region of a page) to draw into,
+        instead of a new figure.
 
     Returns
     -------
     StabilityDrawn
         The figure, its panels and the data as drawn.
     """
-    rows = _validate(table, title, model_curve, limits, limits_statistic, footer)
+    rows = validate_stability_args(table, title, model_curve, limits, limits_statistic, footer)
+    ref_curve = None if reference is None else curve_arrays("reference", reference)
     series = stability_series(table)
     fractional = [s for s in table.results if not is_time_statistic(s)]
     timed = [s for s in table.results if is_time_statistic(s)]
     groups = [names for names in (fractional, timed) if names]
-    fig = new_figure(8.0 if len(groups) == 1 else 12.5, 5.4, layout="fixed")
-    axes = tuple(fig.subplots(1, len(groups), squeeze=False)[0])
+    labelled = noise_label_statistics(groups, noise_labels)
     target = limits_statistic or next(iter(table.results))
-    for ax, names in zip(axes, groups, strict=True):
-        _draw_panel(ax, table, names, series, model_curve, (rows, target))
-    fig.suptitle(title or default_title(table.measurement, "stability"), fontsize=TITLE_SIZE)
-    put_footer(
-        fig, footer if footer is not None else default_footer(table, analysis_time=analysis_time)
+    extras: dict[str, Any] = {
+        "model_curve": model_curve,
+        "limits": (rows, target),
+        "reference": ref_curve,
+        "reference_panel": next(g[0] for g in groups if target in g),
+        "reference_drawn": None,
+    }
+    height = max(5.4, 1.2 + _estimate_column(groups, extras))
+    frame = frame_for(into, 9.4 if len(groups) == 1 else 14.2, height)
+    if title is None and frame.own:
+        title = default_title(table.measurement, "stability")
+    if footer is None and frame.own:
+        footer = default_footer(table, analysis_time=analysis_time)
+    layout = panel_layout(frame, len(groups), bool(title), bool(footer))
+    panels = []
+    for rect, names in zip(layout.panels, groups, strict=True):
+        ax = frame.target.add_axes(frame.rect(*rect))
+        panels.append(_draw_panel(ax, table, names, series, extras))
+    keys = _side_column(frame, layout, panels, table.confidence)
+    written: dict[str, list[tuple[float, str]]] = {}
+    for panel in panels:
+        requests, owners = _noise_requests(table, panel.names, series, labelled)
+        placed = place_labels(panel.ax, requests, obstacles_of(panel.ax))
+        for request, owner, label in zip(requests, owners, placed, strict=True):
+            if label is not None:
+                written.setdefault(owner, []).append((float(request.xy[0]), request.text))
+    if title:
+        frame.target.suptitle(title, fontsize=TITLE_SIZE)
+    if footer:
+        put_footer(frame.target, footer)
+    axes = tuple(p.ax for p in panels)
+    return StabilityDrawn(
+        frame.figure,
+        axes,
+        series=series,
+        panel={name: p.ax for p in panels for name in p.names},
+        limits=tuple(rows),
+        keys=tuple(keys),
+        noise_labels={k: tuple(v) for k, v in written.items()},
+        confidence=float(table.confidence),
+        reference=extras["reference_drawn"],
     )
-    panel = {name: ax for ax, names in zip(axes, groups, strict=True) for name in names}
-    return StabilityDrawn(fig, axes, series=series, panel=panel, limits=tuple(rows))
-
-
-# ---------------------------------------------------------------------- slope key
-def _key_view(ax: Axes) -> tuple[float, float, float, float]:
-    """The panel's limits in decades, widened so the key is legible (2 decades tall, 1 wide)."""
-    ax.autoscale_view()
-    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
-    lx0, lx1, ly0, ly1 = math.log10(x0), math.log10(x1), math.log10(y0), math.log10(y1)
-    if ly1 - ly0 < 2.0:
-        pad = (2.0 - (ly1 - ly0)) / 2
-        ly0, ly1 = ly0 - pad, ly1 + pad
-    if lx1 - lx0 < 1.0:
-        pad = (1.0 - (lx1 - lx0)) / 2
-        lx0, lx1 = lx0 - pad, lx1 + pad
-    return lx0, lx1, ly0, ly1
-
-
-def _emptiest_corner(
-    points: np.ndarray, view: tuple[float, float, float, float], box: tuple[float, float]
-) -> tuple[float, float]:
-    """Lower-left corner (axes fraction) of the candidate key box covering fewest points."""
-    lx0, lx1, ly0, ly1 = view
-    box_w, box_h = box
-    fx = (np.log10(points[:, 0]) - lx0) / (lx1 - lx0)
-    fy = (np.log10(points[:, 1]) - ly0) / (ly1 - ly0)
-    margin = 0.03
-    corners = (
-        (margin, margin),
-        (1 - margin - box_w, 1 - margin - box_h),
-        (1 - margin - box_w, margin),
-        (margin, 1 - margin - box_h),
-    )
-    counts = []
-    for cx, cy in corners:
-        inside = (fx >= cx - 0.02) & (fx <= cx + box_w + 0.02)
-        inside &= (fy >= cy - 0.02) & (fy <= cy + box_h + 0.02)
-        counts.append(int(inside.sum()))
-    return corners[int(np.argmin(counts))]
-
-
-def _draw_slope_key(ax: Axes, names: Sequence[str], points: np.ndarray) -> None:
-    """A faint fan of slope guides in the emptiest corner of a log-log panel."""
-    kind, slopes = slope_key(names)
-    heading = "slopes"
-    if len({_slope_set([n]) for n in names}) > 1:  # mixed kinds: say whose slopes these are
-        owner = next((n for n in names if _slope_set([n]) == kind), names[0])
-        heading = f"slopes ({short_name(owner)})"
-    view = _key_view(ax)
-    lx0, lx1, ly0, ly1 = view
-    wx, wy = lx1 - lx0, ly1 - ly0
-    max_slope = max(abs(s) for s, _ in slopes)
-    length = min(0.14 * wx, 0.18 * wy / max(max_slope, 0.5))  # decades of tau
-    box = (length / wx + 0.1, 2 * max_slope * length / wy + 0.06)
-    cx, cy = _emptiest_corner(points, view, box)
-    origin_lx = lx0 + (cx + 0.01) * wx
-    origin_ly = ly0 + (cy + box[1] / 2) * wy
-    for slope, label in slopes:
-        xs = np.array([origin_lx, origin_lx + length])
-        ys = origin_ly + slope * (xs - origin_lx)
-        ax.plot(
-            10**xs,
-            10**ys,
-            color=GUIDE_COLOR,
-            linewidth=0.8,
-            alpha=0.8,
-            zorder=1,
-            solid_capstyle="round",
-            gid="slope-key",
-        )
-        ax.annotate(
-            label,
-            (10 ** xs[1], 10 ** ys[1]),
-            xytext=(2, 0),
-            textcoords="offset points",
-            fontsize=KEY_SIZE,
-            color=NOTE_COLOR,
-            va="center",
-            ha="left",
-            zorder=1,
-            gid="slope-key",
-        )
-    top = origin_ly + max(max(s for s, _ in slopes), 0.0) * length + 0.02 * wy
-    ax.text(
-        10**origin_lx,
-        10**top,
-        heading,
-        fontsize=KEY_SIZE,
-        color=NOTE_COLOR,
-        va="bottom",
-        ha="left",
-        style="italic",
-        zorder=1,
-        gid="slope-key",
-    )
-    ax.set_xlim(10**lx0, 10**lx1)
-    ax.set_ylim(10**ly0, 10**ly1)

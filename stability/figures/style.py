@@ -17,11 +17,11 @@ Type and layout
     artists each), the fixed margins of the figures with a known arrangement,
     the resolution, and the footer strip (:func:`new_figure`, :func:`put_footer`).
 Ticks
-    Log axes are labelled in plain text with superscript powers of ten
-    (10⁻¹², 2×10⁻¹², :class:`PowerLabels`); where the view holds fewer than
-    two decades the minor ticks are labelled too, so every axis carries
-    enough labels to be read. Linear axes give their multiplier as ×10ⁿ
-    (:class:`PlainScalar`). No label uses math typesetting.
+    Tick positions and text come from :mod:`stability.figures.ticks`: every
+    axis carries at least three labels whatever its range (labels between
+    decades when a log view holds fewer than three decades, evenly spaced
+    values over one power of ten for part of a decade), in plain text with
+    superscript powers of ten (:class:`PowerLabels`, :class:`PlainScalar`).
 Axis wording
     The averaging-time label, the deviation label of a panel from the
     statistics registry's titles and units (:func:`deviation_label`), and the
@@ -46,17 +46,18 @@ import zlib
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.collections import LineCollection
-from matplotlib.figure import Figure
-from matplotlib.ticker import Formatter, LogFormatter, NullLocator
+from matplotlib.figure import Figure, SubFigure
 from matplotlib.transforms import blended_transform_factory
 
 from ..deviations.registry import get_statistic
+from ..errors import InputError
+from .ticks import LogTicks, PlainScalar, PowerLabels, power_of_ten
 
 __all__ = [
     "Drawn",
@@ -94,9 +95,12 @@ __all__ = [
     "PowerLabels",
     "PlainScalar",
     "new_figure",
+    "Frame",
+    "frame_for",
     "style_axes",
     "log_axes",
     "log_paper",
+    "log_ticks",
     "put_footer",
 ]
 
@@ -268,6 +272,56 @@ def new_figure(
     return fig
 
 
+@dataclass(frozen=True)
+class Frame:
+    """Where a figure draws: a figure of its own, or a region of a page (a ``SubFigure``).
+
+    Attributes
+    ----------
+    target
+        The figure or sub-figure the panels and texts go into.
+    width, height
+        Its size in inches.
+    own
+        True for a figure of its own (which carries a title and a footer by
+        default); False for a region of a larger page, which has its own.
+    """
+
+    target: Figure | SubFigure
+    width: float
+    height: float
+    own: bool
+
+    @property
+    def figure(self) -> Figure:
+        """The figure at the root (the one that is saved)."""
+        return self.target.get_figure(root=True)
+
+    def rect(self, left: float, bottom: float, width: float, height: float) -> tuple:
+        """A rectangle given in inches from the lower left, as fractions of the target."""
+        return (left / self.width, bottom / self.height, width / self.width, height / self.height)
+
+
+def frame_for(into: Any, width: float, height: float) -> Frame:
+    """A new figure of ``width`` x ``height`` inches, or the region ``into`` of a page.
+
+    ``into`` is a matplotlib ``Figure`` or ``SubFigure`` (for example one cell
+    of ``page.subfigures``), whose root figure has an Agg canvas.
+    """
+    if into is None:
+        fig = Figure(figsize=(width, height), dpi=DPI)
+        FigureCanvasAgg(fig)
+        return Frame(fig, width, height, True)
+    if not isinstance(into, (Figure, SubFigure)):
+        raise InputError(
+            f"into must be a matplotlib Figure or SubFigure, got {type(into).__name__}"
+        )
+    root = into.get_figure(root=True)
+    if not isinstance(root.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(root)
+    return Frame(into, into.bbox.width / root.dpi, into.bbox.height / root.dpi, False)
+
+
 def style_axes(ax: Axes, *, minor_grid: bool = True) -> None:
     """Grid lines, open top and right sides, tick label size."""
     ax.grid(True, which="major", **_MAJOR_GRID)
@@ -279,12 +333,18 @@ def style_axes(ax: Axes, *, minor_grid: bool = True) -> None:
 
 
 def log_axes(ax: Axes, which: Literal["xy", "x", "y"] = "xy") -> None:
-    """Log scale on the named axes with :class:`PowerLabels` on major and minor ticks."""
+    """Log scale on the named axes, ticks and their text by :mod:`stability.figures.ticks`."""
     for name in which:
         getattr(ax, f"set_{name}scale")("log")
-        axis = getattr(ax, f"{name}axis")
-        axis.set_major_formatter(PowerLabels())
-        axis.set_minor_formatter(PowerLabels(minor=True))
+        log_ticks(getattr(ax, f"{name}axis"))
+
+
+def log_ticks(axis: Any) -> None:
+    """:class:`LogTicks` and :class:`PowerLabels` on the major and minor ticks of a log axis."""
+    axis.set_major_locator(LogTicks())
+    axis.set_minor_locator(LogTicks(minor=True))
+    axis.set_major_formatter(PowerLabels())
+    axis.set_minor_formatter(PowerLabels(minor=True))
 
 
 #: An axis spanning more decades than this gets its minor grid as one line collection.
@@ -317,7 +377,8 @@ def log_paper(ax: Axes) -> None:
         else:
             pairs = np.stack([np.column_stack([ends[0], at]), np.column_stack([ends[1], at])], 1)
             transform = blended_transform_factory(ax.transAxes, ax.transData)
-        axis.set_minor_locator(NullLocator())
+        axis.set_minor_locator(LogTicks(minor=True, labelled_only=True))
+        axis.grid(False, which="minor")
         (ax.set_xlim if vertical else ax.set_ylim)(lo, hi)
         grid = LineCollection(
             pairs,
@@ -402,117 +463,3 @@ def elapsed_unit(span: float) -> tuple[float, str]:
         if span >= limit:
             return factor, unit
     return (60.0, "min") if span >= 120 else (1.0, "s")
-
-
-# ---------------------------------------------------------------------- ticks
-_SUPERSCRIPT = str.maketrans("0123456789-", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻")
-
-
-def power_of_ten(exponent: int) -> str:
-    """10 to an integer power as plain text: ``power_of_ten(-12) == "10⁻¹²"``."""
-    return "10" + str(int(exponent)).translate(_SUPERSCRIPT)
-
-
-def _scaled(value: float) -> str:
-    """A positive number as plain text in powers of ten: 10⁻¹², 2×10⁻¹², 2.5×10⁻¹²."""
-    exponent = math.floor(math.log10(value) + 1e-9)
-    coefficient = round(value / 10.0**exponent, 10)
-    if coefficient >= 10.0:
-        coefficient, exponent = coefficient / 10.0, exponent + 1
-    power = power_of_ten(exponent)
-    return power if coefficient == 1.0 else f"{coefficient:g}\u00d7{power}"
-
-
-class PowerLabels(LogFormatter):
-    """Log-axis tick labels as plain text: 10⁻¹² at decades, 2×10⁻¹² between them.
-
-    Which ticks carry a label is matplotlib's rule for log axes: decades only
-    when the view holds two decades or more, else also ticks between them
-    (a few when the view spans more than 0.4 decade, all below that). The
-    text itself is written here, without math typesetting.
-
-    Parameters
-    ----------
-    minor
-        True for the formatter of the minor ticks (which may be labelled).
-    """
-
-    def __init__(self, *, minor: bool = False) -> None:
-        super().__init__(labelOnlyBase=not minor)
-
-    def __call__(self, x: float, pos: int | None = None) -> str:
-        if not super().__call__(x, pos) or not (x > 0 and math.isfinite(x)):
-            return ""
-        return _scaled(x)
-
-
-class PlainScalar(Formatter):
-    """Linear-axis tick labels in plain text, with a common multiplier (×10⁻⁹) and offset.
-
-    The rules are matplotlib's for its scalar labels (common practice):
-    values outside 10⁻³ .. 10⁴ are scaled by a power of ten written once at
-    the axis end; ticks that share four or more leading digits are written
-    relative to that shared part, given as "+3×10⁻⁶" beside the multiplier;
-    labels carry as many decimals as tell the ticks apart.
-    """
-
-    _POWER_LIMITS = (-3, 4)
-    _OFFSET_DIGITS = 4
-
-    def __init__(self) -> None:
-        self._ticks = np.empty(0)
-        self._order = 0
-        self._offset = 0.0
-        self._decimals = 1
-
-    def set_locs(self, locs: Sequence[float]) -> None:
-        ticks = np.asarray(locs, dtype=float)
-        if self.axis is not None:
-            low, high = sorted(self.axis.get_view_interval())
-            ticks = ticks[(ticks >= low) & (ticks <= high)]
-        self._ticks = ticks[np.isfinite(ticks)]
-        self._offset = self._common_part()
-        self._order = self._power()
-        self._decimals = self._places()
-
-    def _common_part(self) -> float:
-        """The leading digits every tick shares, when they are at least four digits."""
-        if self._ticks.size < 2:
-            return 0.0
-        low, high = float(self._ticks.min()), float(self._ticks.max())
-        if low == high or low <= 0.0 <= high:
-            return 0.0
-        small, large = sorted((abs(low), abs(high)))
-        step = 10.0 ** math.floor(math.log10(large - small))  # first digit that differs
-        common = math.copysign((large // (10 * step)) * 10 * step, low)
-        shared = math.floor(math.log10(abs(common))) - math.floor(math.log10(step)) if common else 0
-        return common if shared >= self._OFFSET_DIGITS else 0.0
-
-    def _power(self) -> int:
-        values = np.abs(self._ticks - self._offset)
-        top = float(values.max()) if values.size else 0.0
-        if top == 0.0:
-            return 0
-        order = math.floor(math.log10(top))
-        return order if not self._POWER_LIMITS[0] < order < self._POWER_LIMITS[1] else 0
-
-    def _places(self) -> int:
-        scaled = (self._ticks - self._offset) / 10.0**self._order
-        if scaled.size < 2:
-            return 1
-        spread = float(np.ptp(scaled)) or float(np.max(np.abs(scaled))) or 1.0
-        places = max(0, 3 - math.floor(math.log10(spread)))
-        tolerance = 1e-3 * 10.0 ** math.floor(math.log10(spread))
-        while places > 0 and np.abs(scaled - np.round(scaled, places - 1)).max() < tolerance:
-            places -= 1
-        return places
-
-    def __call__(self, x: float, pos: int | None = None) -> str:
-        value = (x - self._offset) / 10.0**self._order
-        return self.fix_minus(f"{value:.{self._decimals}f}")
-
-    def get_offset(self) -> str:
-        text = "\u00d7" + power_of_ten(self._order) if self._order else ""
-        if self._offset:
-            text += ("+" if self._offset > 0 else "\u2212") + _scaled(abs(self._offset))
-        return text

@@ -25,7 +25,9 @@ import numpy as np
 from matplotlib import dates as mdates
 from matplotlib.axes import Axes
 from matplotlib.colorbar import Colorbar
+from matplotlib.colors import LogNorm
 from matplotlib.figure import Figure
+from matplotlib.ticker import FixedLocator, FuncFormatter, NullLocator
 
 from ..deviations.registry import get_statistic
 from ..dynamic import DynamicResult
@@ -40,15 +42,17 @@ from .style import (
     TITLE_SIZE,
     Drawn,
     clock_label,
+    deviation_label,
     elapsed_unit,
-    is_time_statistic,
     log_axes,
+    log_ticks,
     new_figure,
     put_footer,
     short_name,
     statistic_style,
     style_axes,
 )
+from .ticks import plain_number, scaled_text
 
 __all__ = ["TimelineDrawn", "timeline_figure", "cell_edges"]
 
@@ -127,17 +131,45 @@ def _window_axis(result: DynamicResult, window_s: float) -> tuple[np.ndarray, fl
 
 
 def _draw_map(
-    fig: Figure, ax_map: Axes, ax_cb: Axes, edges: tuple[np.ndarray, np.ndarray], logdev: np.ndarray
+    fig: Figure, ax_map: Axes, ax_cb: Axes, edges: tuple[np.ndarray, np.ndarray], dev: np.ndarray
 ) -> Colorbar:
-    """The heat map of log10 deviation over (window centre, tau) and its colour bar."""
-    mesh = ax_map.pcolormesh(*edges, np.ma.masked_invalid(logdev.T), cmap="viridis", shading="flat")
-    log_axes(ax_map, "y")
+    """The heat map of the deviation (log colour scale) over (window centre, tau), its colour bar.
+
+    The tau axis is labelled at the taus of the cells; the colour bar carries
+    the deviation itself on log ticks, written as every other axis is.
+    """
+    good = dev[np.isfinite(dev) & (dev > 0)]
+    low, high = (float(good.min()), float(good.max())) if good.size else (1.0, 10.0)
+    if high <= low:
+        low, high = low / 1.1, high * 1.1
+    mesh = ax_map.pcolormesh(
+        *edges,
+        np.ma.masked_invalid(np.where(dev > 0, dev, np.nan).T),
+        cmap="viridis",
+        shading="flat",
+        norm=LogNorm(vmin=low, vmax=high),
+    )
+    ax_map.set_yscale("log")
+    taus = np.sqrt(edges[1][1:] * edges[1][:-1])
+    if taus.size >= 3:  # labelled at the cells' taus; fewer cells get ordinary log ticks
+        stride = max(1, math.ceil(taus.size / 12))
+        ax_map.yaxis.set_major_locator(FixedLocator(taus[::stride]))
+        ax_map.yaxis.set_major_formatter(FuncFormatter(lambda v, _: _tau_text(v)))
+        ax_map.yaxis.set_minor_locator(NullLocator())
+    else:
+        log_ticks(ax_map.yaxis)
     ax_map.set_ylabel(TAU_LABEL, fontsize=LABEL_SIZE)
-    ax_map.tick_params(labelsize=TICK_SIZE)
+    ax_map.tick_params(which="both", labelsize=TICK_SIZE)
     ax_map.tick_params(axis="x", labelbottom=False)
     colorbar = fig.colorbar(mesh, cax=ax_cb)
-    colorbar.ax.tick_params(labelsize=TICK_SIZE)
+    log_ticks(colorbar.ax.yaxis)
+    colorbar.ax.tick_params(which="both", labelsize=TICK_SIZE)
     return colorbar
+
+
+def _tau_text(value: float) -> str:
+    """A tau of the map in plain numbers (0.5, 2, 1024) or powers of ten beyond."""
+    return plain_number(value) if 1e-3 <= value < 1e5 else scaled_text(value)
 
 
 def _draw_trace(ax: Axes, result: DynamicResult, x: np.ndarray, x_label: str) -> None:
@@ -164,13 +196,20 @@ def _draw_trace(ax: Axes, result: DynamicResult, x: np.ndarray, x_label: str) ->
         linewidth=1.1,
         marker=".",
         markersize=3,
-        label=f"{short_name(result.statistic)} at tau = {format_seconds(float(result.tau[0]))}",
+        label=f"{short_name(result.statistic)} at \u03c4 = {format_seconds(float(result.tau[0]))}",
     )
     if np.isfinite(dev).any() and (dev[np.isfinite(dev)] > 0).all():
         log_axes(ax, "y")
     ax.set_xlabel(x_label, fontsize=LABEL_SIZE)
-    ax.set_ylabel(short_name(result.statistic), fontsize=LABEL_SIZE)
-    ax.legend(fontsize=LEGEND_SIZE, frameon=False, loc="upper left")
+    ax.set_ylabel(deviation_label([result.statistic]), fontsize=LABEL_SIZE)
+    ax.legend(
+        fontsize=LEGEND_SIZE,
+        frameon=False,
+        loc="lower right",
+        bbox_to_anchor=(1.0, 1.0),
+        ncols=2,
+        borderaxespad=0.15,
+    )
 
 
 def timeline_figure(
@@ -206,15 +245,14 @@ def timeline_figure(
     with np.errstate(divide="ignore", invalid="ignore"):
         logdev = np.where(result.deviation > 0, np.log10(result.deviation), np.nan)
 
-    fig = new_figure(10.0, 6.8)
-    grid = fig.add_gridspec(2, 2, height_ratios=(2.3, 1.0), width_ratios=(1.0, 0.025))
+    fig = new_figure(10.0, 7.4)
+    grid = fig.add_gridspec(2, 2, height_ratios=(1.7, 1.2), width_ratios=(1.0, 0.025))
     ax_map = fig.add_subplot(grid[0, 0])
     ax_cb = fig.add_subplot(grid[0, 1])
     ax_line = fig.add_subplot(grid[1, 0], sharex=ax_map)
     fig.add_subplot(grid[1, 1]).set_axis_off()
-    colorbar = _draw_map(fig, ax_map, ax_cb, (x_edges, tau_edges), logdev)
-    seconds = " (s)" if is_time_statistic(result.statistic) else ""
-    colorbar.set_label(f"log10 {short_name(result.statistic)}{seconds}", fontsize=LABEL_SIZE)
+    colorbar = _draw_map(fig, ax_map, ax_cb, (x_edges, tau_edges), result.deviation)
+    colorbar.set_label(deviation_label([result.statistic]), fontsize=LABEL_SIZE)
     ax_map.set_title(
         f"{get_statistic(result.statistic).title} in {format_duration(window_s)} windows every "
         f"{format_duration(result.step_points * tau0)}",

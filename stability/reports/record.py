@@ -12,11 +12,14 @@ section 10.
 
 ``record.json`` (:func:`build_record`) is strict JSON [3]_ (no NaN; missing
 numbers are null) with ``schema_version`` ``"1"``. ``record.pdf``
-(:func:`record_pages`) is drawn with matplotlib's ``PdfPages`` alone on A4
-portrait pages (ISO 216): identification and overall verdict; the stability
-plot with the limits and their verdicts; the results table (over as many
-pages as it needs); the data over time. Every page carries a footer with the
-input SHA-256, tool version, settings hash, analysis time and "page k of n".
+(:func:`record_pages`, :mod:`stability.reports.record_pages`) is drawn with
+matplotlib's ``PdfPages`` alone on A4 portrait pages (ISO 216), figures as
+vector graphics and fonts embedded: identification, limits table, overall
+verdict, caution and signature fields; the stability plot with the limits,
+their verdicts and the reference's stated stability; the results table (over
+as many pages as it needs); the data over time as analysed. Every page
+carries one footer with the input SHA-256, tool version, settings hash,
+analysis time, the record number (:func:`record_number`) and "page k of n".
 Both files are written atomically and are never overwritten without
 ``force`` (:func:`write_record`).
 
@@ -34,7 +37,6 @@ References
 
 from __future__ import annotations
 
-import io
 import json
 import math
 import os
@@ -44,17 +46,15 @@ from typing import IO, Any
 
 import matplotlib
 import numpy as np
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from .._version import __version__
 from ..errors import InputError
-from ..figures import VERDICT_COLORS, series_figure, stability_figure
 from ..files import jsonable, settings_hash
 from ..outputs import OutputSet
 from ..run import AnalysisRun
 from ..spec import Info, Judgement, reference_contribution
-from .tables import format_tau, format_value, statistic_unit
+from .record_pages import ROWS_PER_PAGE, record_pages, table_pages
 
 __all__ = [
     "CAUTION",
@@ -62,6 +62,7 @@ __all__ = [
     "RECORD_NAMES",
     "build_record",
     "record_json",
+    "record_number",
     "record_pages",
     "record_rows",
     "write_record",
@@ -78,10 +79,6 @@ CAUTION = (
     "Acceptance decisions follow the laboratory's own accredited procedure and decision rules "
     "(for example ISO/IEC 17025); this tool does not replace them."
 )
-
-_A4 = (8.27, 11.69)  # inches, ISO 216
-_ROWS_PER_PAGE = 48
-_MONO = "DejaVu Sans Mono"
 
 
 # ---------------------------------------------------------------------- content
@@ -163,6 +160,7 @@ def _measurement_summary(run: Any) -> dict[str, Any]:
         "start": start,
         "span_s": float(source.span),
         "samples": int(source.n),
+        "readings": int(source.n - 1 if source.kind == "frequency" else source.n),
         "tau0_s": float(source.tau0),
         "nominal_hz": getattr(source, "nominal", None),
         "gaps_in_log": int(prep.gaps_before),
@@ -189,6 +187,7 @@ def build_record(run: Any, judgement: Judgement, info: Info) -> dict[str, Any]:
     limits = [c.to_dict() for c in judgement.listed]
     record = {
         "schema_version": SCHEMA_VERSION,
+        "record_number": record_number(info, provenance.sha256, run.analysis_time),
         "tool": {"name": "stability", "version": __version__},
         "analysis_time": run.analysis_time,
         "input": {
@@ -209,8 +208,28 @@ def build_record(run: Any, judgement: Judgement, info: Info) -> dict[str, Any]:
         "reference_limited_taus": [c.tau_s for c in judgement.checks if c.reference_limited],
         "notes": list(judgement.notes),
         "caution": CAUTION,
+        "signatures": {
+            "measured_by": info.measured_by,
+            "checked_by": info.checked_by,
+            "date": info.date,
+        },
     }
     return jsonable(record)
+
+
+def record_number(info: Info, sha256: str | None, moment: datetime) -> str:
+    """The record's number: the information file's ``record_number``, else one derived.
+
+    The derived number is the analysis date and the first eight hex digits of
+    the input's SHA-256 (``20260303-65388c0b``): the same log analysed on the
+    same day gets the same number, another log or another day another.
+    """
+    if info.record_number:
+        return info.record_number
+    if moment.tzinfo is None:
+        moment = moment.astimezone()
+    day = moment.astimezone(UTC).strftime("%Y%m%d")
+    return f"{day}-{(sha256 or '0' * 8)[:8]}"
 
 
 def record_json(record: dict[str, Any]) -> str:
@@ -219,265 +238,10 @@ def record_json(record: dict[str, Any]) -> str:
 
 
 # ---------------------------------------------------------------------- PDF pages
-def _page(title: str | None = None) -> Figure:
-    fig = Figure(figsize=_A4)
-    FigureCanvasAgg(fig)
-    if title:
-        fig.text(0.07, 0.955, title, fontsize=15, weight="bold", va="top")
-    return fig
-
-
-def _footer_text(record: dict[str, Any], k: int, n: int) -> str:
-    return (
-        f"input SHA-256 {record['input']['sha256'] or 'none (data from memory)'}\n"
-        f"stability {record['tool']['version']} · settings {record['settings_hash']} · "
-        f"analysed {record['analysis_time']} · page {k} of {n}"
-    )
-
-
-def _sci(value: Any, digits: int = 3) -> str:
-    if value is None:
-        return "n/a"
-    return f"{float(value):.{digits}g}"
-
-
-def _plus_minus(value: Any, u: Any) -> str:
-    if value is None:
-        return "n/a"
-    return f"{_sci(value, 4)} ± {_sci(u, 2)}" if u is not None else _sci(value, 4)
-
-
-def _key_values(fig: Figure, y: float, heading: str, items: list[tuple[str, str]]) -> float:
-    fig.text(0.07, y, heading, fontsize=11, weight="bold", va="top")
-    y -= 0.026
-    for key, value in items:
-        if value in (None, ""):
-            continue
-        fig.text(0.09, y, key, fontsize=8.5, va="top", color="#444444")
-        fig.text(0.34, y, _wrap(str(value), 80), fontsize=8.5, va="top")
-        y -= 0.019 * (1 + str(_wrap(str(value), 80)).count("\n"))
-    return y - 0.012
-
-
-def _wrap(text: str, width: int) -> str:
-    import textwrap
-
-    return "\n".join(textwrap.wrap(text, width)) if text else ""
-
-
-def _identification_page(record: dict[str, Any]) -> Figure:
-    ident = record["identification"]
-    spec = record["specification"]
-    meas = record["measurement"]
-    fig = _page("Frequency stability calibration record")
-    y = 0.915
-    device = ident["device"]
-    y = _key_values(
-        fig,
-        y,
-        "Device",
-        [(k, device.get(k)) for k in ("id", "description", "model", "serial", "nominal")],
-    )
-    ref = ident["reference"] or {}
-    ref_stab = ""
-    if ref.get("stability"):
-        ref_stab = ", ".join(f"{t:g} s: {d:.3g}" for t, d in ref["stability"])
-    elif ref.get("levels"):
-        ref_stab = ", ".join(f"{k} = {v:.3g}" for k, v in ref["levels"].items())
-    y = _key_values(
-        fig,
-        y,
-        "Reference, instrument, laboratory",
-        [
-            ("reference", " - ".join(x for x in (ref.get("id"), ref.get("description")) if x)),
-            ("reference stability", ref_stab),
-            ("instrument", ident["instrument"].get("description")),
-            ("gate time", ident["instrument"].get("gate_time")),
-            ("laboratory", ident["lab"].get("name")),
-            ("operator", ident["lab"].get("operator")),
-            ("ambient temperature", ident["lab"].get("ambient_temperature")),
-            ("procedure", ident["procedure"]),
-            ("notes", ident["notes"]),
-        ],
-    )
-    outliers = meas["outliers_removed"]
-    shown = ", ".join(f"line {o['line']} ({_sci(o['value'])})" for o in outliers[:6])
-    if len(outliers) > 6:
-        shown += f" and {len(outliers) - 6} more (see record.json)"
-    y = _key_values(
-        fig,
-        y,
-        "Measurement",
-        [
-            ("input file", record["input"]["path"]),
-            ("start", meas["start"] or "not stated in the log"),
-            ("span", format_tau(meas["span_s"])),
-            ("samples", str(meas["samples"])),
-            ("sample interval (tau0)", format_tau(meas["tau0_s"])),
-            ("gaps (log / prepared)", f"{meas['gaps_in_log']} / {meas['gaps_after_preparation']}"),
-            ("outliers removed", f"{len(outliers)}" + (f": {shown}" if outliers else "")),
-            ("drift model removed", meas["drift_model"]),
-            ("frequency offset", _plus_minus(meas["offset"], meas["u_offset"])),
-            ("linear drift per day", _plus_minus(meas["drift_per_day"], meas["u_drift_per_day"])),
-        ],
-    )
-    limits = ", ".join(f"{format_tau(c['tau_s'])}: {c['verdict']}" for c in record["limits"])
-    y = _key_values(
-        fig,
-        y,
-        "Specification",
-        [
-            ("file", spec["path"]),
-            ("statistic", spec["statistic"]),
-            ("confidence level", f"{100 * spec['confidence']:.3g} %"),
-            ("interpolation", "log-log between listed taus" if spec["interpolate"] else "off"),
-            ("limits", limits),
-        ],
-    )
-    verdict = record["overall_verdict"]
-    fig.text(0.07, y - 0.005, "Overall verdict", fontsize=11, weight="bold", va="top")
-    fig.text(
-        0.5,
-        y - 0.035,
-        verdict.upper(),
-        fontsize=30,
-        weight="bold",
-        ha="center",
-        va="top",
-        color=VERDICT_COLORS.get(verdict, "black"),
-    )
-    limited = record["reference_limited_taus"]
-    if limited:
-        fig.text(
-            0.07,
-            y - 0.095,
-            _wrap(
-                "Reference-limited at "
-                + ", ".join(format_tau(t) for t in limited)
-                + ": the reference's stated stability exceeds one third of the measured value; "
-                "device-only estimates are listed separately in the table.",
-                100,
-            ),
-            fontsize=8.5,
-            va="top",
-            color="#b54708",
-        )
-    fig.text(0.07, 0.135, "Caution", fontsize=10, weight="bold", va="top")
-    fig.text(0.07, 0.115, _wrap(record["caution"], 105), fontsize=8.5, va="top")
-    return fig
-
-
-def _image_page(source: Figure, title: str, caption: str) -> Figure:
-    buffer = io.BytesIO()
-    FigureCanvasAgg(source)
-    source.savefig(buffer, format="png", dpi=170)
-    buffer.seek(0)
-    image = matplotlib.image.imread(buffer, format="png")
-    fig = _page(title)
-    height, width = image.shape[:2]
-    box_w = 0.86
-    box_h = box_w * (height / width) * (_A4[0] / _A4[1])
-    ax = fig.add_axes((0.07, 0.9 - box_h, box_w, box_h))
-    ax.imshow(image, interpolation="antialiased")
-    ax.set_axis_off()
-    fig.text(0.07, 0.88 - box_h, _wrap(caption, 105), fontsize=8.5, va="top")
-    return fig
-
-
-def _table_lines(record: dict[str, Any]) -> tuple[str, list[str]]:
-    level = 100 * record["confidence"]
-    header = (
-        f"{'statistic':<9} {'tau':>10} {'deviation':>10} {f'{level:.3g} % interval':>22} "
-        f"{'edf':>7} {'noise':<9} {'limit':>9} {'verdict':<12} {'ref-lim':<7} "
-        f"{'device-only':>11}"
-    )
-    lines = []
-    for row in record["results"]:
-        unit = statistic_unit(row["statistic"])
-        dev = format_value(row["deviation"], unit) if row["deviation"] is not None else ""
-        interval = ""
-        if row["ci_low"] is not None and row["ci_high"] is not None:
-            interval = (
-                f"[{format_value(row['ci_low'], unit)}, {format_value(row['ci_high'], unit)}]"
-            )
-        edf = "" if row["edf"] is None else f"{row['edf']:.4g}"
-        noise = row["noise"] + (f" ({row['noise_method']})" if row["noise_method"] else "")
-        limit = "" if row["limit"] is None else format_value(row["limit"], unit)
-        device = "" if row["device_only"] is None else format_value(row["device_only"], unit)
-        limited = "yes" if row["reference_limited"] else ""
-        lines.append(
-            f"{row['statistic']:<9} {format_tau(row['tau_s']):>10} {dev:>10} {interval:>22} "
-            f"{edf:>7} {noise:<9.9} {limit:>9} {(row['verdict'] or ''):<12} {limited:<7} "
-            f"{device:>11}"
-        )
-    return header, lines
-
-
-def _table_pages(record: dict[str, Any]) -> list[Figure]:
-    header, lines = _table_lines(record)
-    chunks = [lines[i : i + _ROWS_PER_PAGE] for i in range(0, len(lines), _ROWS_PER_PAGE)] or [[]]
-    pages = []
-    for j, chunk in enumerate(chunks):
-        title = "Results" + (f" (continued, part {j + 1})" if j else "")
-        fig = _page(title)
-        fig.text(
-            0.07,
-            0.925,
-            _wrap(
-                f"Intervals are two-sided at {100 * record['confidence']:.3g} % from the "
-                "equivalent degrees of freedom (edf). Verdicts: pass when the upper bound is at "
-                "or below the limit, fail when the lower bound is above it, inconclusive "
-                "otherwise. Device-only = sqrt(measured^2 - reference^2), shown beside the "
-                "measured value, never in its place.",
-                115,
-            ),
-            fontsize=7.5,
-            va="top",
-        )
-        text = "\n".join([header, "-" * len(header), *chunk])
-        fig.text(0.04, 0.87, text, fontsize=6.3, family=_MONO, va="top", linespacing=1.5)
-        pages.append(fig)
-    return pages
-
-
-def record_pages(run: Any, judgement: Judgement, record: dict[str, Any]) -> list[Figure]:
-    """The pages of record.pdf as A4 figures, footers included."""
-    pages = [_identification_page(record)]
-    plot = stability_figure(
-        run.table,
-        model_curve=run.model_curves(),
-        limits=judgement.plot_limits(),
-        limits_statistic=judgement.statistic,
-        analysis_time=run.analysis_time,
-    )
-    checks = ", ".join(f"{format_tau(c.tau_s)} {c.verdict}" for c in judgement.listed)
-    pages.append(
-        _image_page(
-            plot.figure,
-            "Stability",
-            f"Limits of {judgement.statistic} marked with their verdicts ({checks}). Error bars "
-            f"are at the analysis confidence level {100 * run.table.confidence:.3g} %.",
-        )
-    )
-    pages.extend(_table_pages(record))
-    shown, drift, outliers = run.series_inputs()
-    series = series_figure(
-        shown, drift_curve=drift, outlier_indices=outliers, analysis_time=run.analysis_time
-    )
-    pages.append(
-        _image_page(
-            series.figure,
-            "Data over time",
-            "Fractional frequency and phase residual as read; removed outliers are marked and "
-            "gaps shaded.",
-        )
-    )
-    total = len(pages)
-    for k, fig in enumerate(pages, start=1):
-        fig.text(
-            0.07, 0.02, _footer_text(record, k, total), fontsize=6.5, color="#555555", va="bottom"
-        )
-    return pages
+# The pages are drawn by stability.reports.record_pages; these names stay here
+# for code that reaches the results-table pagination through this module.
+_ROWS_PER_PAGE = ROWS_PER_PAGE
+_table_pages = table_pages
 
 
 def _save_pdf(pages: list[Figure], handle: IO[bytes], record: dict[str, Any]) -> None:

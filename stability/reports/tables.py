@@ -164,7 +164,10 @@ def read_table_csv(path: str | os.PathLike[str]) -> pd.DataFrame:
 
 # ---------------------------------------------------------------------- formatting for people
 def format_tau(seconds: float) -> str:
-    """Tau in engineering form: ``1 s``, ``100 ms``, ``1024 s``, ``1.049e6 s``."""
+    """Tau in engineering form: ``1 s``, ``100 ms``, ``1024 s``, ``1.311 s``, ``1.049e6 s``.
+
+    Whole seconds are written whole; other taus with four significant digits.
+    """
     if not math.isfinite(seconds):
         return "n/a"
     s = abs(seconds)
@@ -172,7 +175,8 @@ def format_tau(seconds: float) -> str:
         exponent = int(math.floor(math.log10(s)))
         return f"{seconds / 10**exponent:.4g}e{exponent} s"
     if s >= 1.0 or s == 0.0:
-        return f"{seconds:.6g} s"
+        whole = abs(s - round(s)) <= 1e-9 * s
+        return f"{seconds:.0f} s" if whole else f"{seconds:.4g} s"
     for factor, prefix in _PREFIXES[1:]:
         if s >= factor * (1 - 1e-12) or factor == _PREFIXES[-1][0]:
             return f"{seconds / factor:.4g} {prefix}s"

@@ -260,7 +260,12 @@ def _level_name(alpha: int) -> str:
 
 @dataclass
 class Info:
-    """Identification of a calibration: device, reference, instrument, lab, procedure, notes."""
+    """Identification of a calibration: device, reference, instrument, lab, procedure, notes.
+
+    ``record_number``, ``measured_by``, ``checked_by`` and ``date`` fill the
+    record's number and its approval fields; empty, the record derives a
+    number and leaves lines to sign on.
+    """
 
     device: dict[str, Any]
     reference: Reference | None = None
@@ -270,6 +275,10 @@ class Info:
     notes: str = ""
     path: str | None = None
     sha256: str | None = None
+    record_number: str = ""
+    measured_by: str = ""
+    checked_by: str = ""
+    date: str = ""
 
     @property
     def device_id(self) -> str:
@@ -283,6 +292,10 @@ class Info:
             "lab": dict(self.lab),
             "procedure": self.procedure,
             "notes": self.notes,
+            "record_number": self.record_number,
+            "measured_by": self.measured_by,
+            "checked_by": self.checked_by,
+            "date": self.date,
             "path": self.path,
             "sha256": self.sha256,
         }

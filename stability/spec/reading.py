@@ -15,6 +15,7 @@ References
 
 from __future__ import annotations
 
+import datetime
 import hashlib
 import math
 import os
@@ -39,7 +40,9 @@ _INFO_TABLES = {
     "instrument": ("description", "gate_time", "id"),
     "lab": ("name", "operator", "ambient_temperature", "location"),
 }
-_INFO_KEYS = (*_INFO_TABLES, "procedure", "notes")
+#: Optional top-level keys of the record's number and approval fields (text; date also a date).
+_RECORD_KEYS = ("record_number", "measured_by", "checked_by", "date")
+_INFO_KEYS = (*_INFO_TABLES, "procedure", "notes", *_RECORD_KEYS)
 
 
 #: Bytes a specification or information file may hold (they are a few hundred).
@@ -519,6 +522,12 @@ def parse_info(table: dict[str, Any], *, path: str | None = None, text: str | No
     else:
         procedure = _text(procedure, "procedure", where, text)
     notes = _text(table.get("notes", ""), "notes", where, text)
+    record = {}
+    for key in _RECORD_KEYS:
+        value = table.get(key, "")
+        if isinstance(value, (datetime.date, datetime.datetime)) and key == "date":
+            value = value.isoformat()
+        record[key] = _text(value, key, where, text).strip()
     return Info(
         device=device,
         reference=reference,
@@ -527,6 +536,7 @@ def parse_info(table: dict[str, Any], *, path: str | None = None, text: str | No
         procedure=procedure,
         notes=notes,
         path=path,
+        **record,
     )
 
 
@@ -537,6 +547,10 @@ def load_info(path: str | os.PathLike[str]) -> Info:
 
         procedure = "TF-CAL-07"          # or [procedure] with id, description
         notes = "free text"
+        record_number = "SR-2026-0042"   # default: analysis date and input hash
+        measured_by = "J. Doe"           # default: a line to sign on
+        checked_by = "A. N. Other"       # default: a line to sign on
+        date = 2026-03-04                # TOML date or text; default: a line
         [device]        id, description, nominal, serial, model
         [reference]     id, description, and either
                         stability = [[tau_s, deviation], ...]   (log-log, flat outside)

@@ -47,7 +47,7 @@ def test_demo_end_to_end(short_data, tmp_path):
     assert set(counter["statistic"]) == {"oadev", "mdev", "hdev"} and len(counter) > 10
     pps = read_table_csv(out / "pps" / "table.csv")
     assert set(pps["statistic"]) == {"tdev", "mtie", "oadev"} and len(pps) > 10
-    assert "drift       log removed" in result.output  # the drift model is reported
+    assert "drift       removed (log model)" in result.output  # the drift model is reported
     assert "Open these:" in result.output
     assert str(out / "counter" / "sigma_tau.png") in result.output
     record_possible = (

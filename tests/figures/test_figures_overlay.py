@@ -63,7 +63,8 @@ def test_overlay_figure_draws_every_series(tables):
     tau, dev, _, _ = drawn.series[("a", "oadev")]
     np.testing.assert_allclose(lines["a: OADEV"].get_xdata(), tau)
     np.testing.assert_allclose(lines["a: OADEV"].get_ydata(), dev)
-    assert "Allan deviation" in ax.get_ylabel()
+    # one wording per quantity: the same axis label as the stability plot of these statistics
+    assert ax.get_ylabel() == "fractional frequency deviation"
     assert "time deviation" in drawn.panel[("a", "tdev")].get_ylabel().lower()
     footer = drawn.figure.texts[-1].get_text()
     assert "a (no file hash)" in footer and "b (no file hash)" in footer

@@ -12,8 +12,15 @@ from matplotlib.collections import PolyCollection
 
 import stability
 from stability.errors import InputError
-from stability.figures import SeriesDrawn, envelope, save_figure, series_figure
+from stability.figures import (
+    SeriesDrawn,
+    envelope,
+    run_series_figure,
+    save_figure,
+    series_figure,
+)
 from stability.figures.series import gap_runs
+from stability.run import run_analysis
 
 
 def _white_fm(n: int, seed: int = 7) -> np.ndarray:
@@ -124,8 +131,16 @@ def test_phase_residual_removes_linear_fit():
     # 1e-14 k^2 less its line over 2000 samples peaks near 1e-14 * 2000^2 / 6 = 6.7 ns
     assert unit == "ns" and factor == 1e-9
     assert 1.0 <= np.nanmax(np.abs(resid)) < 1000.0
-    assert drawn.axes[1].get_ylabel() == "phase residual (ns)"
+    # a phase (time-interval) log: the panel is its time error, the least-squares
+    # frequency offset removed and stated (the slope of the fitted line over tau0)
+    assert drawn.axes[1].get_ylabel() == "time error (ns)"
+    slope = np.polyfit(k, meas.phase, 1)[0]
+    assert drawn.frequency_offset == pytest.approx(slope / 0.5, rel=1e-9)
+    np.testing.assert_array_equal(drawn.time_error[1], resid)
     assert drawn.gaps.shape == (0, 2)
+    # a frequency log: the panel is the phase residual
+    freq = stability.Measurement.from_frequency(np.diff(x) / 0.5, 0.5)
+    assert series_figure(freq).axes[1].get_ylabel() == "phase residual (ns)"
 
 
 def test_series_figure_long_record_is_decimated(tmp_path):
@@ -173,3 +188,58 @@ def test_fixed_layout_keeps_every_label_inside_the_figure():
     assert labels and not any("$" in t for t in labels)
     offsets = [ax.yaxis.get_offset_text().get_text() for ax in fig.axes]
     assert not any("$" in t or "\\" in t for t in offsets)
+
+
+# ---------------------------------------------------------------------- the data as analysed
+def test_series_shows_the_data_as_analysed():
+    # invented: white FM, a quadratic drift, one glitch of 6e-9 and 300 missing readings
+    rng = np.random.default_rng(5)
+    n = 6000
+    t = np.arange(n)
+    y = 1e-11 * rng.standard_normal(n) + 4e-11 * (t / n) ** 2
+    y[2000] = 6e-9
+    y[3000:3300] = np.nan
+    run = run_analysis(stability.Measurement.from_frequency(y, 1.0), stats="oadev",
+                       drift="quadratic")  # fmt: skip
+    assert [o.index for o in run.preparation.outliers.samples] == [2000]
+    drawn = run_series_figure(run)
+    # the removed glitch is marked, not drawn, and does not set the frequency axis
+    assert np.nanmax(np.abs(drawn.frequency[1])) < 1e-9
+    assert max(np.abs(drawn.axes[0].get_ylim())) < 1e-9
+    np.testing.assert_allclose(drawn.outliers, [2000 / 60.0])
+    legend = [t.get_text() for t in drawn.axes[0].get_legend().get_texts()]
+    assert "drift removed (quadratic model)" in legend and "outliers removed (1)" in legend
+    assert "gaps (300 missing readings)" in legend and drawn.missing == 300
+    # the residual is the analysed phase (drift removed), joined where readings are missing,
+    # less its least-squares line: recomputed here by a plain running sum
+    prepared = run.measurement.frequency()
+    centred = np.where(np.isfinite(prepared), prepared - np.nanmean(prepared), 0.0)
+    phase = np.concatenate([[0.0], np.cumsum(centred)])
+    k = np.arange(phase.size)
+    expected = phase - np.polyval(np.polyfit(k, phase, 1), k)
+    factor, unit = drawn.phase_unit
+    np.testing.assert_allclose(drawn.phase_residual[1] * factor, expected, rtol=0, atol=1e-15)
+    # without the drift removed, the same log's residual holds the drift's phase (tens of ns)
+    kept = run_series_figure(run_analysis(stability.Measurement.from_frequency(y, 1.0),
+                                          stats="oadev"))  # fmt: skip
+    spread = np.ptp(drawn.phase_residual[1] * factor)
+    assert np.ptp(kept.phase_residual[1] * kept.phase_unit[0]) > 3 * spread
+    assert "linear drift estimate" in [t.get_text() for t in kept.axes[0].get_legend().get_texts()]
+
+
+def test_phase_steps_are_marked_and_the_time_error_joins_up():
+    # invented 1 PPS log: 1 ns white phase, a 2e-12 offset and a 50 ns phase step at 1200
+    rng = np.random.default_rng(2)
+    x = 1e-9 * rng.standard_normal(3000) + 2e-12 * np.arange(3000)
+    x[1200:] += 5e-8
+    run = run_analysis(stability.Measurement.from_phase(x, 1.0), stats="tdev")
+    assert [s.index for s in run.preparation.steps] == [1200]
+    drawn = run_series_figure(run)
+    np.testing.assert_allclose(drawn.steps, [1200 / 60.0])
+    for ax in drawn.axes[1:]:
+        assert any(np.allclose(ln.get_xdata(), 20.0) for ln in ax.get_lines())
+    # the outlier screening split the record at the step: the time error has no 50 ns jump
+    factor = drawn.phase_unit[0]
+    _, tie = drawn.time_error
+    assert np.nanmax(np.abs(np.diff(tie * factor))) < 2e-8
+    assert drawn.frequency_offset == pytest.approx(run.table.extras["offset_drift"].offset)

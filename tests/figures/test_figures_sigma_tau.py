@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import enum
+from dataclasses import replace
 from datetime import UTC, datetime
 
 import numpy as np
@@ -146,25 +147,44 @@ def test_slope_key_matches_power_law_slopes(table):
     # common practice: rms phase differences grow as tau^0, ^1/2, ^1, ^3/2
     assert [s for s, _ in slope_key(["mtie"])[1]] == [0.0, 0.5, 1.0, 1.5]
     assert slope_key(["oadev", "mdev"])[0] == "allan"
-    # the drawn guides really have those slopes on the log-log axes
+    # the drawn guides really have those slopes on the log-log axes: in the key's own data
+    # units, and to the eye (the key's decades are as long in inches as its panel's)
     drawn = stability_figure(table)
     for name, kind in (("oadev", "allan"), ("tdev", "tdev")):
-        ax = drawn.panel[name]
-        guides = [ln for ln in ax.lines if ln.get_gid() == "slope-key"]
+        panel = drawn.panel[name]
+        key = drawn.keys[drawn.axes.index(panel)]
+        guides = [ln for ln in key.lines if ln.get_gid() == "slope-key"]
         slopes = sorted(
             np.diff(np.log10(ln.get_ydata()))[0] / np.diff(np.log10(ln.get_xdata()))[0]
             for ln in guides
         )
         np.testing.assert_allclose(slopes, sorted(s for s, _ in SLOPES[kind]), atol=1e-9)
-    # a panel mixing statistics of different slopes says whose slopes the key shows
+        on_screen = []
+        for ln in guides:
+            (x0, y0), (x1, y1) = key.transData.transform(np.column_stack(ln.get_data()))
+            on_screen.append((y1 - y0) / (x1 - x0))
+        per_decade = []
+        for ax in (panel, key):
+            (a, b), (c, d) = ax.get_xlim(), ax.get_ylim()
+            per_decade.append(
+                (ax.bbox.height / np.log10(d / c)) / (ax.bbox.width / np.log10(b / a))
+            )
+        np.testing.assert_allclose(per_decade[1], per_decade[0], rtol=1e-9)
+        np.testing.assert_allclose(
+            sorted(on_screen), np.array(sorted(s for s, _ in SLOPES[kind])) * per_decade[0]
+        )
+    # each key says whose slopes it shows: a mixed panel, or any panel of a figure of two
     headings = [
-        t.get_text() for ax in drawn.axes for t in ax.texts if t.get_text().startswith("slopes")
+        t.get_text() for ax in drawn.keys for t in ax.texts if t.get_text().startswith("slopes")
     ]
-    assert headings == ["slopes (OADEV)", "slopes"]
+    assert headings == ["slopes (OADEV)", "slopes (TDEV)"]
     single = stability_figure(stability.analyze(table.measurement, stats="mdev"))
-    assert [t.get_text() for t in single.axes[0].texts if t.get_gid() == "slope-key"][-1] == (
+    assert [t.get_text() for t in single.keys[0].texts if t.get_gid() == "slope-key"][-1] == (
         "slopes"
     )
+    # the key sits beside the data, never over it
+    for key in drawn.keys:
+        assert key.bbox.x0 >= max(a.bbox.x1 for a in drawn.axes)
 
 
 def test_model_curve_and_limits(qualified):
@@ -253,3 +273,68 @@ def test_minor_grid_lines_sit_at_two_to_nine_times_each_decade(qualified):
     narrow.canvas.draw()
     assert [t.get_text() for t in axis.get_yticklabels(minor=True) if t.get_text()]
     assert len([c for c in axis.collections if c.get_gid() == "minor-grid"]) == 1  # x only
+
+
+# ---------------------------------------------------------------------- labels, notes, reference
+def test_new_arguments_are_checked(table):
+    with pytest.raises(InputError, match="noise_labels names hdev, not in the table"):
+        stability_figure(table, noise_labels="oadev,hdev")
+    with pytest.raises(InputError, match="noise_labels must be a list of statistics"):
+        stability_figure(table, noise_labels=3)
+    with pytest.raises(InputError, match="reference: tau and sigma must be 1-D of one length"):
+        stability_figure(table, reference=([1.0, 2.0], [1e-12]))
+    with pytest.raises(InputError, match="into must be a matplotlib Figure or SubFigure"):
+        stability_figure(table, into="page")
+
+
+def test_noise_labels_are_written_once_and_only_for_those_asked(qualified):
+    # OADEV and MDEV both read WFM at 1 s (the invented labels of the fixture): one word there
+    drawn = stability_figure(qualified)
+    for ax in drawn.axes:  # on one panel, a word is written at a tau once
+        texts = [(round(float(t.xy[0]), 9), t.get_text()) for t in ax.texts
+                 if t.get_gid() == "noise-label"]  # fmt: skip
+        assert len(texts) == len(set(texts))
+    on_fractional = [t for t in drawn.panel["oadev"].texts if t.get_gid() == "noise-label"]
+    assert [t.get_text() for t in on_fractional].count("WFM") == 1
+    assert (1.0, "WFM") in drawn.noise_labels["oadev"]
+    assert (1.0, "WFM") not in drawn.noise_labels.get("mdev", ())  # written for OADEV already
+    none = stability_figure(qualified, noise_labels="none")
+    assert none.noise_labels == {}
+    assert not [t for ax in none.axes for t in ax.texts if t.get_gid() == "noise-label"]
+    only = stability_figure(qualified, noise_labels=["mdev"])
+    assert set(only.noise_labels) == {"mdev"}
+    # a full panel labels its first statistic unless asked otherwise
+    four = replace(qualified, results={
+        name: replace(qualified["oadev"], statistic=name) for name in ("oadev", "adev", "hdev",
+                                                                        "totdev")})  # fmt: skip
+    assert set(stability_figure(four).noise_labels) == {"oadev"}
+    assert set(stability_figure(four, noise_labels="all").noise_labels) == {"oadev"}  # same words
+
+
+def test_the_figure_says_its_confidence_level_and_draws_the_reference(qualified):
+    tau = qualified["oadev"].tau
+    reference = (tau, np.full(tau.shape, 2e-13))
+    drawn = stability_figure(qualified, reference=reference)
+    notes = [t.get_text() for t in drawn.figure.texts if t.get_gid() == "confidence-note"]
+    assert notes == ["error bars: 68.3 % confidence"]
+    assert drawn.confidence == pytest.approx(0.683)
+    line = [
+        ln for ln in drawn.panel["oadev"].lines if ln.get_label() == "reference, stated stability"
+    ]
+    assert len(line) == 1
+    np.testing.assert_array_equal(line[0].get_xdata(), tau)
+    np.testing.assert_array_equal(drawn.reference[1], reference[1])
+
+
+def test_the_title_names_file_and_column():
+    details = {
+        "value_column": "ch3",
+        "columns": [{"number": 1, "name": "t", "role": "time"},
+                    {"number": 4, "name": "ch3", "role": "value"}],
+    }  # fmt: skip
+    prov = stability.Provenance(path="/logs/three-channels.csv", sha256="cd" * 32, details=details)
+    meas = stability.Measurement.from_frequency(_white_fm(512), 1.0, provenance=prov)
+    drawn = stability_figure(stability.analyze(meas, stats="oadev"))
+    assert drawn.figure._suptitle.get_text() == "three-channels.csv \u00b7 column 4 (ch3)"
+    titled = stability_figure(stability.analyze(meas, stats="oadev"), title="maser vs ocxo")
+    assert titled.figure._suptitle.get_text() == "maser vs ocxo"

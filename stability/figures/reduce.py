@@ -1,0 +1,89 @@
+"""Drawing long records light: min/max envelopes and merged gap spans.
+
+Records longer than a few thousand samples are drawn through the minimum and
+maximum of each pixel column, in time order (:func:`envelope`), so that every
+excursion stays visible while the figure stays light [1]_; many short gaps
+are shaded as at most a given number of spans (:func:`gap_runs`).
+
+References
+----------
+.. [1] S. Steinarsson, *Downsampling Time Series for Visual Representation*,
+   MSc thesis, University of Iceland (2013), section 3 (min-max per bucket).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = ["envelope", "gap_runs", "runs"]
+
+
+def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
+    """Indices and values of a min/max decimation of ``values`` into ``columns`` buckets.
+
+    Each bucket of consecutive samples contributes its minimum and its maximum,
+    in the order they occur, followed by a NaN break when the bucket or the
+    next one holds a missing sample, so the drawn line never bridges a gap.
+    The result is a subsequence of the data (plus NaN breaks): every drawn
+    point is a real sample, and every bucket's full range is drawn [1]_.
+
+    Returns
+    -------
+    index, value
+        Float sample indices (NaN at breaks) and values, ready for plotting.
+    """
+    values = np.asarray(values, dtype=float)
+    n = values.size
+    columns = max(1, int(columns))
+    block = max(1, math.ceil(n / columns))
+    n_blocks = math.ceil(n / block)
+    padded = np.full(n_blocks * block, np.nan)
+    padded[:n] = values
+    blocks = padded.reshape(n_blocks, block)
+    missing = np.isnan(blocks)
+    any_missing = missing.any(axis=1)
+    any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
+    all_missing = missing.all(axis=1)
+    i_min = np.argmin(np.where(missing, np.inf, blocks), axis=1)
+    i_max = np.argmax(np.where(missing, -np.inf, blocks), axis=1)
+    rows = np.arange(n_blocks)
+    first = np.minimum(i_min, i_max)
+    second = np.maximum(i_min, i_max)
+    base = rows * block
+    idx = np.empty((n_blocks, 3))
+    val = np.empty((n_blocks, 3))
+    idx[:, 0] = base + first
+    idx[:, 1] = base + second
+    val[:, 0] = blocks[rows, first]
+    val[:, 1] = blocks[rows, second]
+    brk = any_missing | np.concatenate([any_missing[1:], [False]])
+    idx[:, 2] = np.where(brk, np.nan, idx[:, 1])
+    val[:, 2] = np.where(brk, np.nan, val[:, 1])
+    val[all_missing, :2] = np.nan
+    return idx.ravel(), val.ravel()
+
+
+def gap_runs(mask: np.ndarray, max_runs: int) -> np.ndarray:
+    """(k, 2) array of [start, stop) sample ranges where ``mask`` is true.
+
+    More than ``max_runs`` runs are merged per bucket of samples, so that a
+    record with many short gaps is shaded with at most about that many spans.
+    """
+    if not mask.any():
+        return np.empty((0, 2), dtype=np.int64)
+    found = runs(mask)
+    if len(found) > max_runs:
+        block = math.ceil(mask.size / max_runs)
+        n_blocks = math.ceil(mask.size / block)
+        padded = np.zeros(n_blocks * block, dtype=bool)
+        padded[: mask.size] = mask
+        found = np.minimum(runs(padded.reshape(n_blocks, block).any(axis=1)) * block, mask.size)
+    return found
+
+
+def runs(mask: np.ndarray) -> np.ndarray:
+    """(k, 2) array of [start, stop) index ranges where ``mask`` is true."""
+    edges = np.diff(np.concatenate([[0], mask.astype(np.int8), [0]]))
+    return np.column_stack([np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)])
