@@ -61,7 +61,10 @@ class StabilityError(Exception):
             if self.line is not None:
                 where += f":{self.line}"
         if self.column is not None:
-            where += f"{' ' if where else ''}column {self.column}"
+            named = str(self.column)
+            if not named.startswith("column "):  # a header-less column is named so already
+                named = f"column {named}"
+            where += f"{' ' if where else ''}{named}"
         text = f"{where}: {self.message}" if where else self.message
         if self.hint:
             text += f" ({self.hint})"

@@ -484,7 +484,8 @@ def finish_report(
         )
     if rep.junk_line_count:
         rep.note(f"{rep.junk_line_count} line(s) that are not data rows skipped.")
-    rep.note(f"Values read as {vk.kind} in {vk.unit or 'no unit'} ({vk.reason}).")
+    unit = f"in {vk.unit}" if vk.unit else "(no unit)"
+    rep.note(f"Values read as {vk.kind} {unit} ({vk.reason}).")
     rep.sha256 = sha256
 
 

@@ -380,7 +380,9 @@ def decide_kind(
         unit = max(set(suffixes), key=suffixes.count)
         k = vals.kind_from_unit(unit)
         if k:
-            found = vals.ValueKind(k[0], unit, k[1], f"unit {unit!r} written after each value")
+            found = vals.ValueKind(
+                k[0], vals.unit_spelling(unit), k[1], f"unit {unit!r} written after each value"
+            )
     if found is None:
         found = vals.kind_from_name(name) if name else None
     if hints.kind != "auto":
@@ -390,7 +392,7 @@ def decide_kind(
     if found is not None:
         return found, suffix
     raise InputError(
-        f"cannot tell what the values in column {name or 'of values'!r} are",
+        f"cannot tell what the values in {f'column {name!r}' if name else 'the value column'} are",
         path=path,
         hint="pass --kind phase (seconds), --kind frequency (Hz) or --kind fractional" + more_hint,
     )

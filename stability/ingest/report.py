@@ -184,7 +184,8 @@ class LogReport:
         if len(self.channels) > 1:
             out.append(f"  channels: {', '.join(self.channels)}; analysed: {self.value_column}")
         out.append("Values:")
-        out.append(f"  {self.kind} in {self.unit or 'no unit'}: {self.kind_reason}")
+        unit = f"in {self.unit}" if self.unit else "(no unit)"
+        out.append(f"  {self.kind} {unit}: {self.kind_reason}")
         if self.nominal:
             out.append(f"  nominal {format_frequency(self.nominal)} ({self.nominal_source})")
         if self.exact_decimal:
@@ -240,8 +241,8 @@ class LogReport:
             )
         if self.wrap_count:
             out.append(
-                f"  wrap-arounds unwrapped (period {self.wrap_period:g}): {self.wrap_count}: "
-                + lines_of(self.wraps, self.wrap_count, "line {line}")
+                f"  wrap-arounds unwrapped (period {format_duration(self.wrap_period)}): "
+                f"{self.wrap_count}: " + lines_of(self.wraps, self.wrap_count, "line {line}")
             )
         if self.notes:
             out.append("Notes:")

@@ -97,6 +97,15 @@ class ValueKind:
     reason: str
 
 
+#: Frequency units as they are printed (a header may write them in any case).
+_FREQ_SPELLING = {"hz": "Hz", "khz": "kHz", "mhz": "MHz", "ghz": "GHz"}
+
+
+def unit_spelling(unit: str) -> str:
+    """A unit as the tool prints it: frequency units in their SI spelling (``hz`` -> ``Hz``)."""
+    return _FREQ_SPELLING.get(unit.strip().lower(), unit)
+
+
 def kind_from_unit(unit: str) -> tuple[str, float] | None:
     """Kind and scale for a unit string, or None when it is not a value unit."""
     key = unit.strip().lower()
@@ -124,13 +133,14 @@ def kind_from_name(name: str) -> ValueKind | None:
     if bracket:
         found = kind_from_unit(bracket.group(1))
         if found:
-            return ValueKind(found[0], bracket.group(1), found[1], f"unit in header {text!r}")
+            unit = unit_spelling(bracket.group(1))
+            return ValueKind(found[0], unit, found[1], f"unit in header {text!r}")
     words = [w.lower() for w in _WORD.findall(text)]
     # a unit word: the whole name ("ppb", "ns") or a later word ("TI ns", "freq_hz")
     for w in words[1:][::-1] + words[:1]:
         found = kind_from_unit(w)
         if found and (w != "s" or len(words) > 1):
-            return ValueKind(found[0], w, found[1], f"unit in header {text!r}")
+            return ValueKind(found[0], unit_spelling(w), found[1], f"unit in header {text!r}")
     low = text.lower()
     if re.match(r"^(y|yk|y\(t\)|frac.*|fractional.*|ffd|df/f|rel.*freq.*|norm.*freq.*)$", low):
         return ValueKind("fractional", "", 1.0, f"header {text!r} names fractional frequency")
