@@ -353,22 +353,13 @@ def read_log(
     InputError
         The file cannot be read as a log, or a hint is invalid.
     """
-    hints = validate_read_args(
-        kind,
-        column,
-        time_column,
-        tau0,
-        nominal,
-        wrap,
-        strict,
-        stamp_tolerance,
-        timezone,
-        sheet,
-        engine,
-        allow_unusual,
-        max_expansion,
-    )
+    hints = validate_read_args(**_reading_options(locals()))
     return _read(path, hints, on_progress=_check_callback(on_progress))[0]
+
+
+def _reading_options(given: dict[str, Any]) -> dict[str, Any]:
+    """The reading options among a public entry point's arguments (its ``locals()``)."""
+    return {k: v for k, v in given.items() if k not in ("path", "on_progress")}
 
 
 def inspect_log(
@@ -393,19 +384,5 @@ def inspect_log(
 
     Takes the same options as :func:`read_log` and returns the :class:`LogReport`.
     """
-    hints = validate_read_args(
-        kind,
-        column,
-        time_column,
-        tau0,
-        nominal,
-        wrap,
-        strict,
-        stamp_tolerance,
-        timezone,
-        sheet,
-        engine,
-        allow_unusual,
-        max_expansion,
-    )
+    hints = validate_read_args(**_reading_options(locals()))
     return _read(path, hints, on_progress=_check_callback(on_progress))[1]
