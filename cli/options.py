@@ -37,6 +37,7 @@ from stability.deviations.registry import statistic_names
 from stability.ingest import KINDS
 from stability.prepare.drift import DRIFT_MODELS, check_drift_model
 from stability.settings import RunSettings
+from stability.validation import check_coverage_stats, coverage_statistics
 from stability.workflow import PLOT_FORMATS, check_plot_format
 
 from .common import guarded
@@ -96,6 +97,7 @@ __all__ = [
     "STABILITY_PLOT",
     "JSON",
     "DEBUG",
+    "VALIDATING",
 ]
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -419,6 +421,37 @@ ANALYSING = (STATS, TAUS, CONFIDENCE, BIAS_CORRECTION)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)
 #: Options of the commands that draw the stability plot of one log (analyze, record).
 STABILITY_PLOT = (NOISE_LABELS,)
+
+#: Options of ``stability validate``: the coverage run's statistics (as given, else
+#: those of the specification, else oadev,mdev), its length, the output folder.
+VALIDATING = (
+    STATS.but(
+        type=str | None,
+        default=None,
+        help="Statistics whose confidence intervals the coverage run checks, a comma list of "
+        f"{', '.join(coverage_statistics())} (default: the statistic of --spec, else "
+        "oadev,mdev).",
+        check=lambda value: ",".join(check_coverage_stats(value)),
+    ),
+    OptionSpec(
+        "spec",
+        "--spec",
+        Path | None,
+        None,
+        "Specification file (TOML) of the lab: the coverage run checks its statistic.",
+        metavar="FILE",
+    ),
+    _flag(
+        "thorough",
+        "--thorough",
+        "The long coverage run: 2000 records of 1024 points per case and m = 1 to 128, "
+        "instead of 300 records of 512 points and m = 1, 4, 16, 64.",
+    ),
+    OUT.but(
+        help="Output folder of validation.pdf and validation.json "
+        "(default: stability-validation/ in the current folder)."
+    ),  # fmt: skip
+)
 
 #: Option names that are settings of :class:`RunSettings` (the rest are outputs).
 SETTING_NAMES = tuple(o.name for o in READING + PREPARING + ANALYSING)
