@@ -17,10 +17,14 @@ the N columns of L. A bias-corrected statistic (total family) is judged against
 the expectation of the unbiased statistic that estimates the same quantity.
 
 Acceptance rule (reference 2): the count of hits k out of T records is compared
-with the nominal level p by the two-sided exact binomial test
-(:func:`scipy.stats.binomtest`); the check passes when its p-value is at least
-``p_min`` (1e-4), i.e. when k lies in the range of counts that test accepts, which
-the report lists. The seed is fixed, so a run repeats exactly.
+with the nominal level p by the one-sided exact binomial test
+(:func:`scipy.stats.binomtest`, ``alternative="less"``): a case fails when its
+p-value is below ``p_min`` (1e-4), i.e. when the intervals hold the truth
+significantly less often than their level: an interval too narrow makes a verdict
+look surer than it is. A case whose intervals hold the truth significantly more
+often (the same test the other way) passes and is marked conservative: the
+interval is wider than needed, which errs on the safe side of a verdict. The report
+lists the counts each rule accepts. The seed is fixed, so a run repeats exactly.
 
 What this does not check: the noise identification (here the type is given), and
 statistics without a chi-squared interval (MTIE, TIE rms) or with tau = 0.75 m tau0
@@ -175,15 +179,26 @@ def _truth(stat: Statistic, alpha: int, plan: CoveragePlan, factors: tuple[int, 
 
 @functools.cache
 def acceptance_range(trials: int, level: float, p_min: float) -> tuple[int, int]:
-    """The counts k of hits out of ``trials`` the two-sided binomial test accepts."""
+    """(fewest hits that pass, most hits not marked conservative) out of ``trials``.
+
+    The first is the smallest count whose one-sided binomial p-value (fewer hits
+    than the level) is at least ``p_min``; the second the largest count whose
+    p-value the other way is at least ``p_min``.
+    """
     from scipy.stats import binomtest  # loaded on first use
+
+    def p_less(k: int) -> float:
+        return float(binomtest(k, trials, level, alternative="less").pvalue)
+
+    def p_greater(k: int) -> float:
+        return float(binomtest(k, trials, level, alternative="greater").pvalue)
 
     centre = int(round(trials * level))
     low = centre
-    while low > 0 and binomtest(low - 1, trials, level).pvalue >= p_min:
+    while low > 0 and p_less(low - 1) >= p_min:
         low -= 1
     high = centre
-    while high < trials and binomtest(high + 1, trials, level).pvalue >= p_min:
+    while high < trials and p_greater(high + 1) >= p_min:
         high += 1
     return low, high
 
@@ -213,7 +228,9 @@ def _case_checks(
         for level in plan.levels:
             low, high = chi2_interval(corrected, edf, level)
             hits = int(np.sum((low <= truth[i]) & (truth[i] <= high)))
-            p = float(binomtest(hits, plan.trials, level).pvalue)
+            p = float(binomtest(hits, plan.trials, level, alternative="less").pvalue)
+            wide = float(binomtest(hits, plan.trials, level, alternative="greater").pvalue)
+            conservative = wide < plan.p_min
             lo, hi = acceptance_range(plan.trials, level, plan.p_min)
             truth_text = stat.name if reference is stat else f"{reference.name} (same quantity)"
             checks.append(
@@ -231,12 +248,12 @@ def _case_checks(
                         + (f"; unconfirmed: {stat.unconfirmed}" if stat.unconfirmed else "")
                     ),
                     tolerance=(
-                        f"two-sided binomial p-value >= {plan.p_min:g}: {lo} to {hi} hits "
-                        f"of {plan.trials}"
+                        f"one-sided binomial p-value (too few hits) >= {plan.p_min:g}: at "
+                        f"least {lo} hits of {plan.trials}; above {hi} conservative"
                     ),
                     expected=f"{level * plan.trials:.0f} of {plan.trials}",
                     computed=f"{hits} of {plan.trials}",
-                    difference=f"p = {p:.3g}",
+                    difference=f"p = {p:.3g}" + ("; conservative (wider)" if conservative else ""),
                     passed=p >= plan.p_min,
                     basis="statistical",
                     values={
@@ -250,7 +267,10 @@ def _case_checks(
                         "hits": hits,
                         "trials": plan.trials,
                         "p_value": p,
-                        "accepted_hits": [lo, hi],
+                        "p_value_too_many_hits": wide,
+                        "conservative": conservative,
+                        "accepted_hits": [lo, plan.trials],
+                        "conservative_above": hi,
                     },
                 )
             )

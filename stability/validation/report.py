@@ -82,11 +82,12 @@ def _acceptance(plan: CoveragePlan) -> dict[str, str]:
         "within the stated relative (or, for levels in dB, absolute) tolerance at every "
         "point compared.",
         "coverage": f"{plan.trials} seeded records of {plan.points} points per noise type; a "
-        f"case passes when the two-sided exact binomial test of the hits against the "
-        f"nominal level gives a p-value of at least {plan.p_min:g} (for example {low} to "
-        f"{high} hits of {plan.trials} at {100 * plan.levels[0]:.3g} %). With {plan.p_min:g} "
-        "per case a correct tool fails a case of a run of a hundred cases about once in a "
-        "hundred seeds; the seed is fixed, so a run repeats exactly.",
+        "case fails when its intervals hold the true value significantly less often than "
+        f"their level: one-sided exact binomial test, p-value below {plan.p_min:g} (for "
+        f"example fewer than {low} hits of {plan.trials} at {100 * plan.levels[0]:.3g} %). "
+        f"Significantly more hits (more than {high}) pass and are marked conservative: the "
+        "interval is wider than needed, on the safe side of a verdict. The seed is fixed, "
+        "so a run repeats exactly.",
         "reading": "counts, kind and nominal frequency must be equal; tau0 within the "
         "resolution of the log's time stamps; mean frequency and Allan deviation within "
         "the stated relative tolerance.",
@@ -128,6 +129,9 @@ class ValidationResult:
             "checks": len(self.checks),
             "passed": passed,
             "failed": len(self.checks) - passed,
+            "conservative_intervals": sum(
+                bool(c.passed and c.values.get("conservative")) for c in self.checks
+            ),
             "groups": groups,
         }
 
