@@ -80,10 +80,10 @@ def summary_pages(report: dict[str, Any]) -> list[Figure]:
             ("libraries", ", ".join(f"{k} {v}" for k, v in env["libraries"].items())),
             ("run", f"{report['started']} to {report['finished']} ({report['duration_s']:.1f} s)"),
             (
-                "statistics of the coverage run",
+                "coverage statistics",
                 f"{', '.join(settings['stats'])} ({settings['stats_from']})",
             ),
-            ("coverage run", "thorough" if settings["thorough"] else "default (short)"),
+            ("coverage run", "thorough (long)" if settings["thorough"] else "default (short)"),
         ]  # fmt: skip
     )
     flow.title("Checks")
