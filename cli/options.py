@@ -322,9 +322,9 @@ TAUS = OptionSpec(
     "--taus",
     str,
     "octave",
-    "Tau grid: octave (1, 2, 4, ... tau0), decade (1-2-5), all (every multiple of tau0) "
-    "or a comma list of taus in seconds, e.g. 1,10,100.",
-    metavar="octave|decade|all|LIST",
+    "Tau grid: octave (1, 2, 4, ... tau0), decade (1-2-5), dense (20 log-spaced per "
+    "decade), all (every multiple of tau0) or a comma list of taus in seconds, e.g. 1,10,100.",
+    metavar="octave|decade|dense|all|LIST",
     check=taus_check,
 )
 CONFIDENCE = OptionSpec(

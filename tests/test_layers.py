@@ -57,7 +57,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
         ),
     ),
     (4, ("stability.analysis",)),
-    (5, ("stability.spec",)),
+    (5, ("stability.spec", "stability.timing")),
     (
         6,
         (
