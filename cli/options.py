@@ -46,11 +46,13 @@ from .option_checks import (
     duration_check,
     frequency_check,
     kind_check,
+    mask_check,
     on_off_check,
     outliers_value,
     reading_check,
     stats_check,
     taus_check,
+    word_check,
 )
 
 __all__ = [
@@ -96,6 +98,14 @@ __all__ = [
     "STABILITY_PLOT",
     "JSON",
     "DEBUG",
+    "MASK",
+    "REMOVE_OFFSET",
+    "SAWTOOTH",
+    "SAWTOOTH_SIGN",
+    "SAWTOOTH_ROW",
+    "CTE_WINDOW",
+    "DTE_BANDWIDTH",
+    "TIMING",
 ]
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -397,6 +407,54 @@ JSON = _flag(
     "Print the machine-readable summary (JSON) to standard output instead of the tables.",
 )
 DEBUG = _flag("debug", "--debug", "Show the full traceback of an error.")
+
+
+# Time-error analysis (stability time-error, and record --mask)
+MASK = OptionSpec(
+    "mask", "--mask", str | None, None,
+    "Time-error mask to judge MTIE, TDEV and max|TE| against: a bundled name (see "
+    "stability masks) or a mask file (TOML).",
+    metavar="NAME|FILE", check=mask_check,
+)  # fmt: skip
+REMOVE_OFFSET = _flag(
+    "remove_offset",
+    "--remove-offset",
+    "Remove the frequency offset (least-squares line of the time error) before MTIE; "
+    "every output says whether it was removed.",
+)
+SAWTOOTH = OptionSpec(
+    "sawtooth", "--sawtooth", str | None, None,
+    "Column of the GNSS receiver's reported quantisation error (sawtooth), applied "
+    "before every statistic: corrected TE = TE - the value reported on the row before "
+    "(the receiver's report for its next pulse, pulse minus ideal; see --sawtooth-sign "
+    "and --sawtooth-row).",
+    metavar="NAME|N",
+)  # fmt: skip
+SAWTOOTH_SIGN = OptionSpec(
+    "sawtooth_sign", "--sawtooth-sign", str, "subtract",
+    "subtract the sawtooth value (a receiver reporting pulse minus ideal), or add it "
+    "(one reporting ideal minus pulse).",
+    metavar="subtract|add", check=word_check("--sawtooth-sign", {"subtract": -1, "add": 1}),
+)  # fmt: skip
+SAWTOOTH_ROW = OptionSpec(
+    "sawtooth_row", "--sawtooth-row", str, "next",
+    "The sawtooth value on a row applies to the next row's pulse (next, as receivers "
+    "report it ahead of the pulse) or to its own row (same).",
+    metavar="next|same", check=word_check("--sawtooth-row", {"next": "next", "same": "same"}),
+)  # fmt: skip
+CTE_WINDOW = OptionSpec(
+    "cte_window", "--cte-window", str, "1000s",
+    "Averaging window of the constant time error cTE (G.8273.2, from memory: 1000 s).",
+    metavar="DURATION", check=duration_check("--cte-window"),
+)  # fmt: skip
+DTE_BANDWIDTH = OptionSpec(
+    "dte_bandwidth", "--dte-bandwidth", str, "0.1Hz",
+    "Bandwidth of the first-order filter pair splitting dTE into dTE_L and dTE_H "
+    "(G.8273.2, from memory: 0.1 Hz).",
+    metavar="FREQ", check=frequency_check("--dte-bandwidth"),
+)  # fmt: skip
+#: The options of a time-error analysis, in help order.
+TIMING = (MASK, REMOVE_OFFSET, SAWTOOTH, SAWTOOTH_SIGN, SAWTOOTH_ROW, CTE_WINDOW, DTE_BANDWIDTH)
 
 #: The option groups, in the order the help lists them.
 READING = (

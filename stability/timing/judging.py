@@ -163,10 +163,8 @@ def _curve_checks(
         checks.append(MaskCheck(statistic, float(tau), float(value), float(limit), verdict, reason))
     # the mask's taus the record does not reach: its segment ends beyond the rule
     ends = sorted({s.tau_to for s in curve.segments if math.isfinite(s.tau_to)})
-    lo, hi = curve.tau_range
-    beyond = [t for t in ends if t > reach]
-    if not math.isfinite(hi):
-        beyond = beyond or [max(reach, lo) * 10.0]
+    lo = curve.tau_range[0]
+    beyond = [t for t in ends if t > reach]  # an open end has no tau to list
     rule = "the record" if statistic == "mtie" else "the record / 12 (rule of thumb)"
     for tau in beyond:
         if tau < lo:

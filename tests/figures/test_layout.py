@@ -41,12 +41,14 @@ from stability.figures import (
     stability_figure,
     timeline_figure,
 )
+from stability.figures.timing import mask_figure, tie_figure
 from stability.hat import separate
 from stability.phase_noise import model_to_phase_noise, phase_noise_to_stability
 from stability.reports.record import build_record, record_pages
 from stability.run import run_analysis
 from stability.simulate import h_from_deviation, simulate
 from stability.spec import Info, Reference, Spec, judge
+from stability.timing import analyze_time_error
 
 START = datetime(2026, 3, 2, 18, 4, tzinfo=UTC)
 ALL_FRACTIONAL = "adev,oadev,mdev,hdev,ohdev,totdev,mtot,htot,theo1,theobr,theoh,pdev"
@@ -391,3 +393,16 @@ def test_the_checks_catch_what_they_check():
     ax4.set_xticks([1, 2])
     with pytest.raises(AssertionError, match="labelled ticks"):
         check_layout(fig4, "broken")
+
+
+def test_time_error_figures_fit():
+    # invented 1 PPS log of a clock of PRTC class: 2 ns white phase, 5 ns wander, two gaps
+    rng = np.random.default_rng(12)
+    k = np.arange(20000)
+    x = 30e-9 + 5e-9 * np.sin(2 * np.pi * k / 3600) + 2e-9 * rng.standard_normal(k.size)
+    x[[700, 9000]] = np.nan
+    result = analyze_time_error(Measurement.from_phase(x, 1.0), mask="g8272-prtc-a")
+    check_layout(tie_figure(result, title="invented-pps.csv").figure, "TIE")
+    check_layout(mask_figure(result, title="invented-pps.csv").figure, "MTIE and TDEV, masked")
+    plain = analyze_time_error(Measurement.from_phase(x, 1.0), taus="octave")
+    check_layout(mask_figure(plain).figure, "MTIE and TDEV without a mask")
