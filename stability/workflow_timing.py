@@ -21,12 +21,10 @@ from typing import Any
 
 import numpy as np
 
-from .errors import InputError
 from .figures import save_figure
 from .figures.labels import default_footer, default_title
 from .figures.timing import mask_figure, tie_figure
 from .ingest import read_log
-from .measurement import Measurement
 from .outputs import OutputSet
 from .prepare.pipeline import require_variation
 from .reports.timing import (
@@ -37,10 +35,17 @@ from .reports.timing import (
 )
 from .run import ReadProgress
 from .settings import RunSettings
-from .timing import CTE_WINDOW, DTE_BANDWIDTH, Mask, TimeErrorAnalysis, analyze_time_error
+from .timing import (
+    CTE_WINDOW,
+    DTE_BANDWIDTH,
+    Mask,
+    TimeErrorAnalysis,
+    analyze_time_error,
+    read_sawtooth,
+)
 from .workflow import PLOT_FORMATS, check_plot_format
 
-__all__ = ["time_error_into", "read_sawtooth", "TIMING_OUTPUTS", "timing_output_names"]
+__all__ = ["time_error_into", "TIMING_OUTPUTS", "timing_output_names"]
 
 #: The text outputs of a time-error analysis; the two figures are ``tie`` and ``mtie_tdev``.
 TIMING_OUTPUTS = ("time_error.csv", "time_error.md", "time_error.json")
@@ -52,21 +57,6 @@ def timing_output_names(fmt: str) -> tuple[list[str], list[str]]:
     names = [*TIMING_OUTPUTS, *(f"{f}.{fmt}" for f in _FIGURES)]
     stale = [f"{f}.{o}" for f in _FIGURES for o in PLOT_FORMATS if o != fmt]
     return names, stale
-
-
-def read_sawtooth(
-    log: str | os.PathLike[str], column: str, read: dict[str, Any], measurement: Measurement
-) -> Measurement:
-    """The sawtooth column of ``log``, read as time error on the measurement's grid."""
-    kwargs = {**read, "column": column, "kind": "phase", "wrap": None}
-    saw = read_log(log, **kwargs)
-    if saw.n != measurement.n or saw.tau0 != measurement.tau0 or saw.start != measurement.start:
-        raise InputError(
-            f"the sawtooth column {column!r} does not lie on the time-error column's grid",
-            path=str(log),
-            hint="name a column of the same log, with a value on the same rows",
-        )
-    return saw
 
 
 def time_error_into(

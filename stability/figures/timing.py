@@ -37,6 +37,7 @@ from .style import (
     VERDICT_COLORS,
     Drawn,
     elapsed_unit,
+    frame_for,
     log_axes,
     new_figure,
     put_footer,
@@ -197,19 +198,33 @@ def mask_figure(
     title: str | None = None,
     footer: str | None = None,
     analysis_time: Any = None,
+    into: Any = None,
 ) -> MaskDrawn:
-    """MTIE and TDEV on log-log panels with the mask's limits and the verdict colours."""
+    """MTIE and TDEV on log-log panels with the mask's limits and the verdict colours.
+
+    ``into`` (a matplotlib ``SubFigure``, a region of a record page) draws the
+    panels there without a title or footer of their own.
+    """
     _validate(result, title, footer)
-    fig = new_figure(10.0, 4.4, layout="constrained")
     names = ("mtie", "tdev")
-    axes = fig.subplots(1, 2)
+    if into is None:
+        fig = new_figure(10.0, 4.4, layout="constrained")
+        axes = fig.subplots(1, 2)
+    else:
+        frame_for(into, 1.0, 1.0)  # checks the region and gives its page a canvas
+        fig = into.get_figure(root=True)
+        axes = into.subplots(
+            1, 2, gridspec_kw={"left": 0.1, "right": 0.98, "bottom": 0.14, "top": 0.9,
+                               "wspace": 0.32}
+        )  # fmt: skip
     drawn = {n: _panel(ax, result, n) for n, ax in zip(names, axes, strict=True)}
-    mask = result.judgement.mask.name if result.judgement is not None else None
-    head = title or "MTIE and TDEV"
-    if mask:
-        head += f"\nagainst {mask} (limits recalled from the Recommendation: check your copy)"
-    fig.suptitle(head, fontsize=TITLE_SIZE, x=0.01, ha="left")
-    put_footer(fig, footer or tool_footer(analysis_time))
+    if into is None:
+        mask = result.judgement.mask.name if result.judgement is not None else None
+        head = title or "MTIE and TDEV"
+        if mask:
+            head += f"\nagainst {mask} (limits recalled from the Recommendation: check your copy)"
+        fig.suptitle(head, fontsize=TITLE_SIZE, x=0.01, ha="left")
+        put_footer(fig, footer or tool_footer(analysis_time))
     return MaskDrawn(
         fig,
         tuple(axes),

@@ -13,7 +13,13 @@
 
 from __future__ import annotations
 
-from .analysis import MtieCurve, SawtoothEffect, TimeErrorAnalysis, analyze_time_error
+from .analysis import (
+    MtieCurve,
+    SawtoothEffect,
+    TimeErrorAnalysis,
+    analyze_time_error,
+    read_sawtooth,
+)
 from .judging import MASK_CAUTION, MaskCheck, MaskJudgement, judge_mask
 from .masks import (
     MASK_STATISTICS,
@@ -41,6 +47,7 @@ from .metrics import (
 
 __all__ = [
     "analyze_time_error",
+    "read_sawtooth",
     "TimeErrorAnalysis",
     "MtieCurve",
     "SawtoothEffect",

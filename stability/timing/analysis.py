@@ -18,6 +18,7 @@ for the figure of the time error.
 from __future__ import annotations
 
 import math
+import os
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -27,6 +28,7 @@ from ..analysis import WORK_BUDGET, estimate
 from ..deviations.registry import get_statistic
 from ..deviations.time_error import mtie_windows
 from ..errors import AnalysisError, InputError
+from ..ingest import read_log
 from ..measurement import Measurement
 from ..table import StatisticResult
 from ..taus import parse_taus, tau_grid
@@ -44,7 +46,13 @@ from .metrics import (
     time_error_metrics,
 )
 
-__all__ = ["MtieCurve", "SawtoothEffect", "TimeErrorAnalysis", "analyze_time_error"]
+__all__ = [
+    "MtieCurve",
+    "SawtoothEffect",
+    "TimeErrorAnalysis",
+    "analyze_time_error",
+    "read_sawtooth",
+]
 
 
 @dataclass(frozen=True)
@@ -190,6 +198,24 @@ class TimeErrorAnalysis:
             "judgement": None if self.judgement is None else self.judgement.to_dict(),
             "notes": list(self.notes),
         }
+
+
+def read_sawtooth(
+    log: str | os.PathLike[str],
+    column: str,
+    read: dict[str, Any],
+    measurement: Measurement,
+) -> Measurement:
+    """The sawtooth column of ``log``, read as time error on the measurement's grid."""
+    kwargs = {**read, "column": column, "kind": "phase", "wrap": None}
+    saw = read_log(log, **kwargs)
+    if saw.n != measurement.n or saw.tau0 != measurement.tau0 or saw.start != measurement.start:
+        raise InputError(
+            f"the sawtooth column {column!r} does not lie on the time-error column's grid",
+            path=str(log),
+            hint="name a column of the same log, with a value on the same rows",
+        )
+    return saw
 
 
 def _plain(value: Any) -> Any:

@@ -45,6 +45,7 @@ from stability.figures.timing import mask_figure, tie_figure
 from stability.hat import separate
 from stability.phase_noise import model_to_phase_noise, phase_noise_to_stability
 from stability.reports.record import build_record, record_pages
+from stability.reports.record_timing import timing_pages
 from stability.run import run_analysis
 from stability.simulate import h_from_deviation, simulate
 from stability.spec import Info, Reference, Spec, judge
@@ -406,3 +407,5 @@ def test_time_error_figures_fit():
     check_layout(mask_figure(result, title="invented-pps.csv").figure, "MTIE and TDEV, masked")
     plain = analyze_time_error(Measurement.from_phase(x, 1.0), taus="octave")
     check_layout(mask_figure(plain).figure, "MTIE and TDEV without a mask")
+    for k, page in enumerate(timing_pages(result), start=1):
+        check_layout(page, f"record page {k} of the time error against a mask")
