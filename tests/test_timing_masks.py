@@ -13,6 +13,7 @@ fall as tau grows.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -172,3 +173,11 @@ def test_judging_marks_what_the_record_is_too_short_for():
     assert j.verdict_of("tdev") is Verdict.NOT_MEASURED
     d = j.to_dict()
     assert d["verdict"] == "fail" and "does not replace" in d["caution"]
+
+
+def test_the_readme_mask_file_example_reads():
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    block = text.split("A mask file of your own (TOML):", 1)[1].split("```toml\n", 1)[1]
+    mask = read_mask_text(block.split("```", 1)[0], "README")
+    assert mask.name == "house-gm" and mask.max_abs_te == pytest.approx(50e-9)
+    assert mask.curve("mtie").limit_at(1000.0)[0] == pytest.approx(220e-9)

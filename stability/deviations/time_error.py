@@ -43,7 +43,7 @@ __all__ = ["mtie", "tie_rms", "mtie_many", "mtie_windows", "MtieWindow"]
 
 #: Samples per block of the in-place raise and of a window's query: cache-sized
 #: pieces, so no step allocates an array of the data's length.
-_BLOCK = 1 << 15
+_BLOCK = 1 << 14
 
 
 class MtieWindow(NamedTuple):
