@@ -113,10 +113,10 @@ def _sweep_one(
             best, best_block = top, s
     if used == 0 or best_block < 0:
         return MtieWindow(math.nan, 0, -1)
-    # locate the worst window inside its block only
-    e = min(best_block + _BLOCK, count)
-    span = np.maximum(hi[best_block:e], hi[best_block + shift : e + shift])
-    span -= np.minimum(lo[best_block:e], lo[best_block + shift : e + shift])
+    # locate the worst window inside its block only, in the same buffers
+    s, e = best_block, min(best_block + _BLOCK, count)
+    span = np.maximum(hi[s:e], hi[s + shift : e + shift], out=b1[: e - s])
+    np.subtract(span, np.minimum(lo[s:e], lo[s + shift : e + shift], out=b2[: e - s]), out=span)
     if gappy:
         bad = np.isnan(span)
         if seg is not None:

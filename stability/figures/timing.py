@@ -158,7 +158,10 @@ def _panel(ax: Any, result: TimeErrorAnalysis, name: str) -> tuple[Any, ...]:
     style = statistic_style(name)
     log_axes(ax)
     style_axes(ax)
-    ax.plot(tau, value, color=style.color, linewidth=1.0, label=name.upper())
+    label = name.upper()
+    if name == "mtie":
+        label += ", offset removed" if result.offset is not None else ", offset kept"
+    ax.plot(tau, value, color=style.color, linewidth=1.0, label=label)
     limit_tau = np.zeros(0)
     limit = np.zeros(0)
     colours: list[str] = []

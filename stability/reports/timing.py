@@ -35,7 +35,10 @@ __all__ = [
     "mask_lines",
 ]
 
-TIMING_COLUMNS = ("statistic", "tau_s", "m", "value_s", "count", "limit_s", "margin", "verdict")
+TIMING_COLUMNS = (
+    "statistic", "tau_s", "m", "value_s", "count", "limit_s", "margin", "verdict",
+    "offset_removed",
+)  # fmt: skip
 
 
 def _check(result: Any) -> TimeErrorAnalysis:
@@ -47,6 +50,8 @@ def _check(result: Any) -> TimeErrorAnalysis:
 
 
 def _cell(value: Any) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
     if isinstance(value, float):
         return "" if not math.isfinite(value) else repr(value)
     return str(value)

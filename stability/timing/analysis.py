@@ -151,7 +151,11 @@ class TimeErrorAnalysis:
         return longest_tau("tdev", self.span)
 
     def rows(self) -> list[dict[str, Any]]:
-        """One row per (statistic, tau): value, count, limit, margin, verdict (for tables)."""
+        """One row per (statistic, tau): value, count, limit, margin, verdict (for tables).
+
+        ``offset_removed`` says, on the MTIE rows, whether the frequency offset
+        was removed first (empty on TDEV rows, which do not see it).
+        """
         checks: dict[tuple[str, float], Any] = {}
         if self.judgement is not None:
             checks = {(c.statistic, c.tau): c for c in self.judgement.checks}
@@ -173,6 +177,8 @@ class TimeErrorAnalysis:
                         "limit_s": check.limit if check else math.nan,
                         "margin": check.margin if check else math.nan,
                         "verdict": str(check.verdict) if check else "",
+                        # MTIE sees a frequency offset, TDEV (second differences) does not
+                        "offset_removed": (self.offset is not None) if name == "mtie" else "",
                     }
                 )
         return out

@@ -36,8 +36,8 @@ __all__ = ["main"]
 
 CAP_S = 60.0
 TARGET_MEMORY = 2.0
-#: Block-sized buffers alive at once in a sweep (two query buffers, and numpy's
-#: copy of an overlapping block in the in-place raise, one each for max and min).
+#: Block-sized buffers alive at once in a sweep: the two query buffers and
+#: numpy's copy of an overlapping block in the in-place raise (one more for slack).
 BLOCK_BUFFERS = 4
 
 

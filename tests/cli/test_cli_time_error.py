@@ -13,10 +13,12 @@ import importlib.util
 import json
 from pathlib import Path
 
+import pandas as pd
 import pytest
 from pypdf import PdfReader
 from typer.testing import CliRunner
 
+from stability.reports.timing import TIMING_COLUMNS
 from stability_cli.main import app
 
 runner = CliRunner()
@@ -79,6 +81,13 @@ def test_time_error_with_sawtooth_and_mask(pps, tmp_path):
     assert te["judgement"]["verdict"] == "pass" and te["offset_removed"] is False
     assert te["sawtooth"]["tdev_ratio"] < 0.5
     assert data["settings"]["mask"] == "g8272-prtc-a" and data["input"]["sha256"]
+    table = pd.read_csv(out / "time_error.csv")
+    assert list(table.columns) == list(TIMING_COLUMNS)
+    mtie = table[table.statistic == "mtie"]
+    assert (mtie.offset_removed == False).all()  # noqa: E712 - the CSV's own word
+    assert table[table.statistic == "tdev"].offset_removed.isna().all()
+    first = next(r for r in te["rows"] if r["statistic"] == "mtie")
+    assert mtie.value_s.iloc[0] == first["value_s"]  # every digit kept
     raw = runner.invoke(app, [*args, "--mask", "g8272-prtc-a", "--remove-offset", "--json"])
     assert raw.exit_code == 0, raw.output
     data = json.loads(raw.output)["time_error"]
