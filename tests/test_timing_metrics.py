@@ -16,7 +16,7 @@ import math
 import numpy as np
 import pytest
 
-from stability import Measurement
+from stability import Measurement, read_log
 from stability.errors import InputError
 from stability.timing import (
     TDEV_RECORD_FACTOR,
@@ -164,3 +164,17 @@ def test_absolute_time_error_keeps_the_logged_offset():
     assert res.offset is None and any("not removed" in n for n in res.notes)
     rel = analyze_time_error(Measurement.from_frequency(np.zeros(100) + 1e-9, 1.0))
     assert not rel.absolute and any("relative" in n for n in rel.notes)
+
+
+@pytest.mark.parametrize("digits", [3, 17])
+def test_the_reader_keeps_the_first_reading_as_origin(tmp_path, digits):
+    # exact decimal text (3 decimals) and plain floats (17 digits) both keep the absolute TE
+    te = 21.6 + np.random.default_rng(9).standard_normal(50)
+    stamps = np.datetime64("2026-04-14T06:00:00", "s") + np.arange(50).astype("timedelta64[s]")
+    rows = [f"{s}Z,{v:.{digits}f}" for s, v in zip(stamps, te, strict=True)]
+    path = tmp_path / "pps.csv"
+    path.write_text("timestamp,te_ns\n" + "\n".join(rows) + "\n")
+    meas = read_log(path)
+    logged = np.array([float(r.split(",")[1]) for r in rows]) * 1e-9
+    np.testing.assert_allclose(meas.phase + meas.origin, logged, rtol=0, atol=1e-21)
+    assert meas.origin == pytest.approx(logged[0], rel=1e-15)
