@@ -169,3 +169,19 @@ def test_record_with_a_mask(pps, tmp_path):
     assert "Time error against a mask" in text and "not read from them" in " ".join(text.split())
     alone = runner.invoke(app, [*args, "--sawtooth", "qerr_ns", "--force"])
     assert alone.exit_code == 2 and "--sawtooth applies to" in alone.output
+
+
+def test_demo_judges_the_timing_log_when_it_is_there(tmp_path):
+    spec = importlib.util.spec_from_file_location("make_demo", DEMO / "make_demo.py")
+    maker = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(maker)
+    data = tmp_path / "data"
+    maker.make_demo(data, hours=0.5)
+    _maker().make_timing_demo(data, hours=1.0)
+    done = runner.invoke(app, ["demo", "--data", str(data), "--out", str(tmp_path / "out")])
+    assert done.exit_code == 0, done.output
+    assert "GNSS timing receiver 1 PPS against PRTC-A" in done.output
+    assert "mask g8272-prtc-a" in done.output and "sawtooth correction (qerr_ns)" in done.output
+    timing = tmp_path / "out" / "timing"
+    assert (timing / "tie.png").is_file() and (timing / "mtie_tdev.png").is_file()
+    assert str(timing / "time_error.md") in done.output
