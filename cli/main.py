@@ -22,11 +22,13 @@ from . import (
     demo_cmd,
     history_cmd,
     inspect_cmd,
+    masks_cmd,
     overlay_cmd,
     phase_noise_cmd,
     record_cmd,
     separate_cmd,
     simulate_cmd,
+    time_error_cmd,
     timeline_cmd,
     validate_cmd,
 )
@@ -77,6 +79,8 @@ app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
 app.command("validate")(validate_cmd.validate_command)
+app.command("time-error")(time_error_cmd.time_error)
+app.command("masks")(masks_cmd.masks)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(

@@ -37,7 +37,6 @@ from stability.deviations.registry import statistic_names
 from stability.ingest import KINDS
 from stability.prepare.drift import DRIFT_MODELS, check_drift_model
 from stability.settings import RunSettings
-from stability.validation import check_coverage_stats, coverage_statistics
 from stability.workflow import PLOT_FORMATS, check_plot_format
 
 from .common import guarded
@@ -55,6 +54,7 @@ from .option_checks import (
 )
 
 __all__ = [
+    "flag",
     "OptionSpec",
     "RunOptions",
     "build_options",
@@ -97,7 +97,6 @@ __all__ = [
     "STABILITY_PLOT",
     "JSON",
     "DEBUG",
-    "VALIDATING",
 ]
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -146,7 +145,7 @@ class OptionSpec:
         )
 
 
-def _flag(name: str, flag: str, help: str) -> OptionSpec:
+def flag(name: str, flag: str, help: str) -> OptionSpec:
     # a bool option declared without "/--no-..." is a flag: no value, no placeholder
     return OptionSpec(name, flag, bool, False, help)
 
@@ -248,8 +247,8 @@ WRAP = OptionSpec(
     metavar="DURATION",
     check=duration_check("--wrap"),
 )
-STRICT = _flag("strict", "--strict", "Make every unreadable row an error instead of a gap.")
-UNUSUAL_TIMING = _flag(
+STRICT = flag("strict", "--strict", "Make every unreadable row an error instead of a gap.")
+UNUSUAL_TIMING = flag(
     "allow_unusual",
     "--unusual-timing",
     "Read a sample interval below 1 ns or above one day, a record spanning more than a "
@@ -324,9 +323,9 @@ TAUS = OptionSpec(
     "--taus",
     str,
     "octave",
-    "Tau grid: octave (1, 2, 4, ... tau0), decade (1-2-5), all (every multiple of tau0) "
-    "or a comma list of taus in seconds, e.g. 1,10,100.",
-    metavar="octave|decade|all|LIST",
+    "Tau grid: octave (1, 2, 4, ... tau0), decade (1-2-5), dense (20 log-spaced per "
+    "decade), all (every multiple of tau0) or a comma list of taus in seconds, e.g. 1,10,100.",
+    metavar="octave|decade|dense|all|LIST",
     check=taus_check,
 )
 CONFIDENCE = OptionSpec(
@@ -393,12 +392,13 @@ TITLE = OptionSpec(
     "Title of the stability figure (default: the log's file name).",
     metavar="TEXT",
 )
-JSON = _flag(
+JSON = flag(
     "json_out",
     "--json",
     "Print the machine-readable summary (JSON) to standard output instead of the tables.",
 )
-DEBUG = _flag("debug", "--debug", "Show the full traceback of an error.")
+DEBUG = flag("debug", "--debug", "Show the full traceback of an error.")
+
 
 #: The option groups, in the order the help lists them.
 READING = (
@@ -421,37 +421,6 @@ ANALYSING = (STATS, TAUS, CONFIDENCE, BIAS_CORRECTION)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)
 #: Options of the commands that draw the stability plot of one log (analyze, record).
 STABILITY_PLOT = (NOISE_LABELS,)
-
-#: Options of ``stability validate``: the coverage run's statistics (as given, else
-#: those of the specification, else oadev,mdev), its length, the output folder.
-VALIDATING = (
-    STATS.but(
-        type=str | None,
-        default=None,
-        help="Statistics whose confidence intervals the coverage run checks, a comma list of "
-        f"{', '.join(coverage_statistics())} (default: the statistic of --spec, else "
-        "oadev,mdev).",
-        check=lambda value: ",".join(check_coverage_stats(value)),
-    ),
-    OptionSpec(
-        "spec",
-        "--spec",
-        Path | None,
-        None,
-        "Specification file (TOML) of the lab: the coverage run checks its statistic.",
-        metavar="FILE",
-    ),
-    _flag(
-        "thorough",
-        "--thorough",
-        "The long coverage run: 2000 records of 1024 points per case and m = 1 to 128, "
-        "instead of 300 records of 512 points and m = 1, 4, 16, 64.",
-    ),
-    OUT.but(
-        help="Output folder of validation.pdf and validation.json "
-        "(default: stability-validation/ in the current folder)."
-    ),  # fmt: skip
-)
 
 #: Option names that are settings of :class:`RunSettings` (the rest are outputs).
 SETTING_NAMES = tuple(o.name for o in READING + PREPARING + ANALYSING)

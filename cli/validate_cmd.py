@@ -15,8 +15,9 @@ import typer
 
 from stability.validation import GROUPS, step_count, validate
 
+from .command_options import VALIDATING
 from .common import EXIT_ERROR, echo
-from .options import VALIDATING, RunOptions, command
+from .options import RunOptions, command
 from .progress import ProgressDisplay
 
 __all__ = ["validate_command"]

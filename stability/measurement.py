@@ -151,6 +151,10 @@ class Measurement:
         Where the data came from.
     notes
         What reading and preparation did, in plain sentences.
+    origin
+        The time error subtracted to make the first finite sample zero, in
+        seconds (phase input; 0 for frequency input, whose absolute time error
+        is unknown): the absolute time error is ``phase + origin``.
     """
 
     phase: np.ndarray
@@ -163,6 +167,7 @@ class Measurement:
     lines: np.ndarray | None = None
     provenance: Provenance = field(default_factory=Provenance)
     notes: list[str] = field(default_factory=list)
+    origin: float = 0.0
 
     def __post_init__(self) -> None:
         phase = _as_float_array(self.phase, "phase")
@@ -192,7 +197,11 @@ class Measurement:
         finite = np.isfinite(phase)
         if not finite.any():
             raise InputError("phase holds no finite sample: every value is missing")
-        phase = phase - phase[np.argmax(finite)]
+        first = float(phase[np.argmax(finite)])
+        self.origin = float(self.origin) + first
+        if not math.isfinite(self.origin):
+            raise InputError("origin must be finite")
+        phase = phase - first
         phase.flags.writeable = False
         self.phase = phase
         if self.lines is not None:

@@ -38,6 +38,7 @@ from .run import (
 from .settings import RunSettings
 from .spec import Info, Judgement, judge, load_info, load_spec
 from .summary import summary_json
+from .timing import Mask, TimeErrorAnalysis, analyze_time_error, load_mask, read_sawtooth
 
 __all__ = [
     "analyze_into",
@@ -255,6 +256,8 @@ class RecordOutcome:
     files: dict[str, Path]
     #: Where the record was stored in the calibration history (None: history not asked for).
     history: StoredRecord | None = None
+    #: The time error judged against the mask (None: no --mask).
+    timing: TimeErrorAnalysis | None = None
 
 
 def _store_in_history(
@@ -289,6 +292,8 @@ def record_into(
     noise_labels: Any = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
+    mask: Mask | str | None = None,
+    timing_options: dict[str, Any] | None = None,
     **options: Any,
 ) -> RecordOutcome:
     """Analyse ``log``, judge it against a specification and write the calibration record.
@@ -305,13 +310,22 @@ def record_into(
     record of the same input and settings already there is refused unless
     ``force`` (which replaces it). The history file is checked before the
     analysis starts.
+
+    With ``mask`` (a bundled name, a mask file or a :class:`stability.timing.Mask`)
+    the time error of the log as read is also judged against it
+    (:func:`stability.timing.analyze_time_error`, dense taus) and the record
+    carries that verdict too; ``timing_options`` are that function's keywords
+    (``remove_offset``, ``cte_window``, ``bandwidth``, ``sawtooth_sign``,
+    ``sawtooth_applies_to``) plus ``sawtooth``, the log's sawtooth column.
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
     spec = load_spec(spec_path)
     info = load_info(info_path)
+    mask_file = [mask] if isinstance(mask, str | os.PathLike) and Path(mask).is_file() else []
+    mask = load_mask(mask) if isinstance(mask, str | os.PathLike) else mask
     names, stale = output_names(fmt)
-    inputs = [log, spec_path, info_path, *([history] if history is not None else [])]
+    inputs = [log, spec_path, info_path, *([history] if history is not None else []), *mask_file]
     stats = settings.analysis.stats
     wanted = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
     wanted = [s for s in wanted if s]
@@ -328,6 +342,14 @@ def record_into(
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
         run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
         judgement = judge(run.table, spec, reference=info.reference)
+        timing = None
+        if mask is not None:
+            extra = dict(timing_options or {})
+            column = extra.pop("sawtooth", None)
+            if column:
+                extra["sawtooth"] = read_sawtooth(log, column, settings.read.as_kwargs(), source)
+                extra["sawtooth_column"] = column
+            timing = analyze_time_error(source, mask=mask, **extra)
         _write_all(
             run,
             _paths(out.pending, fmt),
@@ -338,11 +360,15 @@ def record_into(
             title=title,
             noise_labels=noise_labels,
         )
-        write_record_files(run, judgement, info, out.path("record.pdf"), out.path("record.json"))
+        write_record_files(
+            run, judgement, info, out.path("record.pdf"), out.path("record.json"), timing
+        )
         stored = None
         if store is None:
             files = out.commit()
         else:
             stored, files = _store_in_history(store, out, force)
     paths = {**_paths(files, fmt), **{name: files[name] for name in RECORD_NAMES}}
-    return RecordOutcome(run, judgement, info, Path(spec_path), paths, history=stored)
+    return RecordOutcome(
+        run, judgement, info, Path(spec_path), paths, history=stored, timing=timing
+    )

@@ -57,7 +57,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
         ),
     ),
     (4, ("stability.analysis",)),
-    (5, ("stability.spec",)),
+    (5, ("stability.spec", "stability.timing")),
     (
         6,
         (
@@ -73,7 +73,15 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
     (7, ("stability.summary", "stability.run")),
     (8, ("stability.figures",)),
     (9, ("stability.reports",)),
-    (10, ("stability.workflow", "stability.history", "stability.validation")),
+    (
+        10,
+        (
+            "stability.workflow",
+            "stability.workflow_timing",
+            "stability.history",
+            "stability.validation",
+        ),
+    ),
     (11, ("stability.__init__", "stability.__main__")),
     (12, ("stability_cli",)),
 ]

@@ -222,6 +222,10 @@ def _read(
     )
     finish_report(rep, plan, vk, placement.size, hasher.result())
     m = make_measurement(series, rows.lines, placement, vk, nominal, total_rows, rep)
+    if rows.delta is not None and rows.ref_text is not None and vk.kind in ("phase", "carrier"):
+        # readings were taken relative to the first one: keep it as the time-error origin
+        first = float(rows.ref_text) * vk.scale
+        m = m.replace(origin=m.origin + (first / nominal if vk.kind == "carrier" else first))
     return m, rep
 
 

@@ -129,3 +129,6 @@ def test_installed_package_runs_the_demo_anywhere(tmp_path):
 
     helped = _run([str(python), "-m", "stability", "--help"], elsewhere, env)
     assert "Usage: python -m stability" in helped.stdout and "demo" in helped.stdout
+    # the bundled time-error masks are package data of the installed copy
+    masks = _run([str(_bin(venv, "stability")), "masks", "g8272-prtc-a"], elsewhere, env)
+    assert "0.025 + 0.000275 tau us" in masks.stdout

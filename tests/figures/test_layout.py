@@ -41,12 +41,15 @@ from stability.figures import (
     stability_figure,
     timeline_figure,
 )
+from stability.figures.timing import mask_figure, tie_figure
 from stability.hat import separate
 from stability.phase_noise import model_to_phase_noise, phase_noise_to_stability
 from stability.reports.record import build_record, record_pages
+from stability.reports.record_timing import timing_pages
 from stability.run import run_analysis
 from stability.simulate import h_from_deviation, simulate
 from stability.spec import Info, Reference, Spec, judge
+from stability.timing import analyze_time_error
 
 START = datetime(2026, 3, 2, 18, 4, tzinfo=UTC)
 ALL_FRACTIONAL = "adev,oadev,mdev,hdev,ohdev,totdev,mtot,htot,theo1,theobr,theoh,pdev"
@@ -418,3 +421,18 @@ def test_every_validation_page_fits(monkeypatch):
     assert report["result"] == "fail"
     for k, page in enumerate(validation_pages(report), start=1):
         check_layout(page, f"validation page {k}")
+
+
+def test_time_error_figures_fit():
+    # invented 1 PPS log of a clock of PRTC class: 2 ns white phase, 5 ns wander, two gaps
+    rng = np.random.default_rng(12)
+    k = np.arange(20000)
+    x = 30e-9 + 5e-9 * np.sin(2 * np.pi * k / 3600) + 2e-9 * rng.standard_normal(k.size)
+    x[[700, 9000]] = np.nan
+    result = analyze_time_error(Measurement.from_phase(x, 1.0), mask="g8272-prtc-a")
+    check_layout(tie_figure(result, title="invented-pps.csv").figure, "TIE")
+    check_layout(mask_figure(result, title="invented-pps.csv").figure, "MTIE and TDEV, masked")
+    plain = analyze_time_error(Measurement.from_phase(x, 1.0), taus="octave")
+    check_layout(mask_figure(plain).figure, "MTIE and TDEV without a mask")
+    for k, page in enumerate(timing_pages(result), start=1):
+        check_layout(page, f"record page {k} of the time error against a mask")
