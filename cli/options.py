@@ -96,6 +96,8 @@ __all__ = [
     "STABILITY_PLOT",
     "JSON",
     "DEBUG",
+    "STOP_AFTER",
+    "WATCHING",
 ]
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -419,6 +421,55 @@ ANALYSING = (STATS, TAUS, CONFIDENCE, BIAS_CORRECTION)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)
 #: Options of the commands that draw the stability plot of one log (analyze, record).
 STABILITY_PLOT = (NOISE_LABELS,)
+
+#: Options of the commands that run until stopped (watch, capture).
+STOP_AFTER = OptionSpec(
+    "stop_after",
+    "--duration",
+    str | None,
+    None,
+    "Stop after this long (e.g. 8h); default: run until Ctrl-C.",
+    metavar="DURATION",
+    check=duration_check("--duration"),
+)
+EVERY = OptionSpec(
+    "every",
+    "--every",
+    str,
+    "5min",
+    "Re-analyse this often while new lines arrive.",
+    metavar="DURATION",
+    check=duration_check("--every"),
+)
+ROWS = OptionSpec(
+    "rows",
+    "--rows",
+    int | None,
+    None,
+    "Also re-analyse as soon as this many new lines arrived "
+    "(default: when the log has doubled since the last analysis).",
+    metavar="N",
+    extra={"min": 1},
+)
+STALL = OptionSpec(
+    "stall",
+    "--stall",
+    str,
+    "2min",
+    "Show the logger as stalled after this long without a new line.",
+    metavar="DURATION",
+    check=duration_check("--stall"),
+)
+POLL = OptionSpec(
+    "poll",
+    "--poll",
+    str,
+    "1s",
+    "Look at the log this often.",
+    metavar="DURATION",
+    check=duration_check("--poll"),
+)
+WATCHING = (EVERY, ROWS, STALL, POLL, STOP_AFTER)
 
 #: Option names that are settings of :class:`RunSettings` (the rest are outputs).
 SETTING_NAMES = tuple(o.name for o in READING + PREPARING + ANALYSING)
