@@ -19,6 +19,7 @@ from stability._version import __version__
 
 from . import (
     analyze_cmd,
+    capture_cmd,
     demo_cmd,
     history_cmd,
     inspect_cmd,
@@ -77,6 +78,7 @@ app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
 app.command("watch")(watch_cmd.watch)
+app.command("capture")(capture_cmd.capture)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(
