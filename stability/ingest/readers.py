@@ -319,8 +319,8 @@ def _local_time(
 
 def _exact_differences(rows: DataRows, d: Dialect, rep: LogReport) -> DataRows:
     """The rows with readings minus the first one, exact from the decimal text."""
-    res = decimal_deltas(rows.texts, rows.values, rows.bad, d.decimal)
-    rows.texts = None
+    res = decimal_deltas(rows.texts, rows.values, rows.bad, d.decimal, rows.decimals)
+    rows.texts = rows.decimals = None
     if res is not None:
         rows.ref_text, rows.delta = res
         rep.exact_decimal = True

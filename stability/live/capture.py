@@ -72,6 +72,8 @@ class CaptureResult:
     readings: int = 0
     errors: int = 0
     outages: int = 0
+    #: Slots missed because an answer came later than the next slot.
+    late: int = 0
     identity: str = ""
     stopped: str = ""
 
@@ -261,7 +263,8 @@ class Capture:
         for line in lines:
             self._write(f"# {line}")
         self._write(f"# query: {self.settings.query}")
-        self._write(f"# interval: {format_duration(self.settings.interval)}")
+        # the interval asked for; the stamps say when each reading was taken
+        self._write(f"# requested interval: {format_duration(self.settings.interval)}")
         self._write("# readings as answered; 'error' marks an answer that is not a number")
         if not self._header_written:
             self._write(HEADER)
@@ -289,9 +292,19 @@ class Capture:
                 answer = None
             if answer is not None:
                 self._reading(moment, answer)
+                if count is not None and self.result.readings + self.result.errors >= count:
+                    break
             # the next slot not yet passed by more than a quarter interval (a stamp that
             # late still sits on its slot); slots missed stay gaps, never made up
-            slot = max(slot + 1, math.ceil((self.clock() - start) / step - _LATE))
+            following = max(slot + 1, math.ceil((self.clock() - start) / step - _LATE))
+            if answer is not None and following > slot + 1:
+                self.result.late += following - slot - 1
+                if self.result.late == following - slot - 1:  # said once, the first time
+                    self._comment(
+                        "the instrument took longer than the interval to answer; readings "
+                        "are missed (gaps): lengthen the interval or shorten the gate time"
+                    )
+            slot = following
         self.result.stopped = "count reached"
 
     def _reading(self, moment: datetime, answer: str) -> None:

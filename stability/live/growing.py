@@ -36,7 +36,7 @@ import numpy as np
 from ..errors import InputError
 from ..ingest.containers import container_of, valid_utf8
 from ..ingest.hints import ReadHints
-from ..ingest.parsing import ParsedRows, parse_rows
+from ..ingest.parsing import ParsedRows, decimal_text_parts, parse_rows
 from ..ingest.readers import ReadingPlan, measurement_from_rows, plan_reading
 from ..ingest.report import LogReport
 from ..ingest.sniff import (
@@ -47,6 +47,7 @@ from ..ingest.sniff import (
     _encoding,
     _line_endings,
 )
+from ..ingest.values import DecimalParts
 from ..measurement import Measurement
 
 __all__ = ["GrowingLog", "check_followable"]
@@ -220,6 +221,7 @@ class GrowingLog:
             texts=None if part.texts is None else part.texts[keep],
             units=None if part.units is None else part.units[keep],
             skipped=[s for s in part.skipped if s > self._parsed_line],
+            decimals=None if part.decimals is None else part.decimals.take(keep),
         )
 
     def _parse_new(self, src: RawSource, how: ReadingPlan) -> int:
@@ -254,6 +256,8 @@ class GrowingLog:
         )
         part_dialect = dataclasses.replace(how.dialect, first_data_line=1, preamble=[])
         part = parse_rows(part_src, part_dialect, how.columns, exact=how.exact, suffix=how.suffix)
+        if part.texts is not None:  # the digits of each reading, split once, as it arrives
+            part.decimals = decimal_text_parts(part.texts, how.dialect.decimal)
         part.lines = part.lines + shift
         part.skipped = [s + shift for s in part.skipped]
         return part
@@ -295,4 +299,9 @@ def _joined(parts: list[ParsedRows]) -> ParsedRows:
         texts=cat("texts"),
         units=cat("units"),
         skipped=[s for p in parts for s in p.skipped],
+        decimals=(
+            None
+            if any(p.decimals is None for p in parts)
+            else DecimalParts.join([p.decimals for p in parts])
+        ),
     )

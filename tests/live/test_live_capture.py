@@ -250,3 +250,42 @@ def test_capture_through_visa(tmp_path):
     assert result.readings == 6 and result.identity == IDENTITY
     assert _readings(tmp_path / "v.csv") == server.sent
     assert read_log(tmp_path / "v.csv").n == 7  # six frequency readings, seven phase points
+
+
+def test_an_instrument_slower_than_the_interval_is_said_once(tmp_path):
+    fake = FakeTime()
+
+    class SlowLink:
+        """An instrument whose reading takes 1.5 intervals (a gate as long as the interval)."""
+
+        where = "slow"
+
+        def connect(self):
+            pass
+
+        def write(self, command):
+            pass
+
+        def query(self, command):
+            if command == "*IDN?":
+                return IDENTITY
+            fake.sleep(1.5)
+            return "+1.000000000000E+07" if int(fake.t) % 4 else "+1.000000000010E+07"
+
+        def close(self):
+            pass
+
+    settings = CaptureSettings(query="MEAS:FREQ?", address="127.0.0.1", port=5025)
+    result = Capture(
+        settings,
+        tmp_path / "s.csv",
+        link=SlowLink(),
+        now=fake.now,
+        clock=fake.clock,
+        sleep=fake.sleep,
+    ).run(count=10)
+    text = (tmp_path / "s.csv").read_text()
+    assert text.count("took longer than the interval") == 1 and result.late == 9
+    # the stamps say the truth: one reading every 2 s, which the reader finds as tau0
+    assert "# requested interval: 1 s" in text
+    assert read_log(tmp_path / "s.csv").tau0 == 2.0

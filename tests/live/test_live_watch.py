@@ -17,7 +17,10 @@ from live_logs import ChunkWriter, counter_bytes
 
 from stability.errors import InputError
 from stability.live.watch import Watcher, next_tau
+from stability.reports.tables import table_csv, table_markdown
+from stability.run import run_analysis
 from stability.settings import RunSettings
+from stability.summary import summary_json
 from stability.workflow import analyze_into
 
 SETTINGS = RunSettings.from_options(stats="oadev,mdev")
@@ -40,20 +43,39 @@ def _summary(path: Path) -> dict:
     return data
 
 
-def _equals_one_shot(tmp_path: Path, watcher: Watcher, name: str = "counter.csv") -> None:
+def _equals_one_shot(
+    tmp_path: Path, watcher: Watcher, name: str = "counter.csv", *, figures: bool = False
+) -> None:
+    """The watcher's outputs equal a one-shot analysis of a file with the same bytes.
+
+    With ``figures`` the one-shot run is ``analyze_into`` itself (all five files);
+    without, the same run's texts are made by the functions ``analyze_into`` writes
+    them with (the figures are then only checked to exist), to keep the test fast.
+    """
     folder = tmp_path / "one-shot"
     folder.mkdir(exist_ok=True)
     (folder / name).write_bytes(watcher.growing.data())
     cwd = os.getcwd()
     os.chdir(folder)
     try:
-        _, files = analyze_into(name, "out", SETTINGS)
+        if figures:
+            _, files = analyze_into(name, "out", SETTINGS)
+            texts = {k: files[k].read_bytes() for k in ("table.csv", "table.md")}
+            summary = _summary(files["summary.json"])
+        else:
+            run = run_analysis(name, SETTINGS)
+            texts = {
+                "table.csv": table_csv(run.table).encode(),
+                "table.md": table_markdown(run.table).encode(),
+            }
+            summary = json.loads(summary_json(run.summary()))
+            summary.pop("analysis_time")
     finally:
         os.chdir(cwd)
     got = watcher.written
-    assert got["table.csv"].read_bytes() == files["table.csv"].read_bytes()
-    assert got["table.md"].read_bytes() == files["table.md"].read_bytes()
-    assert _summary(got["summary.json"]) == _summary(files["summary.json"])
+    assert got["table.csv"].read_bytes() == texts["table.csv"]
+    assert got["table.md"].read_bytes() == texts["table.md"]
+    assert _summary(got["summary.json"]) == summary
     assert got["sigma_tau"].stat().st_size > 0 and got["series"].stat().st_size > 0
 
 
@@ -73,7 +95,14 @@ def test_outputs_after_each_update_equal_one_shot(tmp_path, monkeypatch):
     clock = FakeClock()
     writer = ChunkWriter(tmp_path / "counter.csv", counter_bytes(2400), seed=4, hi=16000)
     watcher = Watcher(
-        "counter.csv", "out", SETTINGS, every=50, stall=30, clock=clock, sleep=clock.sleep
+        "counter.csv",
+        "out",
+        SETTINGS,
+        every=90,
+        rows=1200,
+        stall=30,
+        clock=clock,
+        sleep=clock.sleep,
     )
     status = watcher.step()
     assert status.missing and status.waiting == "the log does not exist (yet)"
@@ -94,7 +123,7 @@ def test_outputs_after_each_update_equal_one_shot(tmp_path, monkeypatch):
     assert status.stalled and status.silent_for > 30
     # the final analysis covers every complete line
     status = watcher.finish()
-    _equals_one_shot(tmp_path, watcher)
+    _equals_one_shot(tmp_path, watcher, figures=True)
     assert status.lines == counter_bytes(2400).count(b"\n")
 
 
@@ -137,10 +166,13 @@ def test_interrupt_writes_the_final_analysis(tmp_path, monkeypatch):
             raise KeyboardInterrupt
         writer.write()
 
-    watcher = Watcher("counter.csv", "out", SETTINGS, every=3600, clock=clock, sleep=sleep)
+    watcher = Watcher(
+        "counter.csv", "out", SETTINGS, every=3600, rows=10**6, clock=clock, sleep=sleep
+    )
     status = watcher.run(poll=1.0, on_status=looks.append)
     assert status.lines == counter_bytes(1800).count(b"\n")
-    _equals_one_shot(tmp_path, watcher)
+    assert status.analyses == 2  # the first, as soon as the log could be read, and the final
+    _equals_one_shot(tmp_path, watcher, figures=True)
     assert looks[-1] is status or looks[-1] == status
 
 
@@ -156,3 +188,21 @@ def test_next_tau_says_when_the_next_octave_has_terms(tmp_path, monkeypatch):
     assert nxt.statistic == "oadev" and nxt.tau == 512.0
     assert nxt.samples_needed == 1025 - run.measurement.n
     assert nxt.seconds == nxt.samples_needed * 1.0
+
+
+def test_doubled_log_is_analysed_before_the_interval(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    clock = FakeClock()
+    data = counter_bytes(1300)
+    lines = data.splitlines(keepends=True)
+    log = tmp_path / "counter.csv"
+    log.write_bytes(b"".join(lines[:600]))
+    watcher = Watcher("counter.csv", "out", SETTINGS, every=3600, clock=clock, sleep=clock.sleep)
+    assert watcher.step().analyses == 1
+    with open(log, "ab") as fh:
+        fh.write(b"".join(lines[600:900]))
+    assert watcher.step().analyses == 1  # half as many new lines: not yet
+    with open(log, "ab") as fh:
+        fh.write(b"".join(lines[900:1200]))
+    assert watcher.step().analyses == 2  # doubled: the next octave of tau is there
+    _equals_one_shot(tmp_path, watcher)
