@@ -187,6 +187,13 @@ class Watcher:
     def look(self) -> bool:
         """Read the lines appended since the last look; True when there were any."""
         update = self._tail.poll()
+        while update.more and not update.restarted:  # a backlog: read it all before analysing
+            more = self._tail.poll()
+            if more.restarted:
+                update = more
+                break
+            update.lines += more.lines
+            update.more = more.more
         self._missing = update.missing
         if update.restarted:
             self._notes.append(

@@ -7,8 +7,11 @@ error). The panel is drawn by ``stability_cli.watch_panel.panel`` into a
 
 from __future__ import annotations
 
+import hashlib
 import io
 import json
+import signal
+import subprocess
 import sys
 from pathlib import Path
 
@@ -125,3 +128,28 @@ def test_a_log_that_cannot_grow_is_an_error(tmp_path, monkeypatch):
     result = runner.invoke(app, ["watch", "old.csv.gz", "--duration", "1s", "--poll", "0.2s"])
     assert result.exit_code == 1, result.output
     assert "error: " in result.output and "cannot be followed" in result.output
+
+
+def test_ctrl_c_writes_a_final_analysis_and_exits_0(log):
+    # a real process and a real SIGINT, as a user at a terminal would stop it
+    whole = counter_bytes(1500)
+    log.write_bytes(whole[: whole.index(b"\n", len(whole) // 2) + 1])
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "stability", "watch", log.name, "--poll", "0.2s", "--every", "1h"],
+        cwd=log.parent,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+    try:
+        first = proc.stdout.readline()  # the first analysis, once the log could be read
+        assert "analysis 1:" in first, first + proc.stderr.read()
+        log.write_bytes(whole)  # the logger writes on (appends the rest)
+        proc.send_signal(signal.SIGINT)
+        out, err = proc.communicate(timeout=120)
+    finally:
+        proc.kill()
+    assert proc.returncode == 0, err
+    assert "wrote 2 analyses into" in out and err == ""
+    summary = json.loads((log.parent / "counter.csv-stability" / "summary.json").read_text())
+    assert summary["input"]["sha256"] == hashlib.sha256(whole).hexdigest()

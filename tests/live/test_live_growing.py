@@ -178,3 +178,16 @@ def test_decimal_parts_found_in_chunks_give_the_whole_file_differences():
     assert exact_delta(long, ok) is None
     pieces = np.split(long, [500])
     assert exact_delta(long, ok, DecimalParts.join([decimal_parts(p) for p in pieces])) is None
+
+
+def test_tail_reads_a_backlog_in_pieces(tmp_path):
+    log = tmp_path / "counter.csv"
+    log.write_bytes(b"".join(b"line %d\n" % i for i in range(1000)))
+    tail = LogTail(log, read_limit=1000)
+    got = b""
+    while True:
+        update = tail.poll()
+        got += update.lines
+        if not update.more:
+            break
+    assert got == log.read_bytes()
