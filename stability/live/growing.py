@@ -89,6 +89,7 @@ class GrowingLog:
         self.path = str(path)
         self.hints = hints
         self._data = bytearray()
+        self._lines = 0
         self._sha = hashlib.sha256()
         self._utf8 = True  # every line so far is valid UTF-8
         self._plan: tuple[str, ReadingPlan] | None = None
@@ -107,7 +108,7 @@ class GrowingLog:
     @property
     def lines(self) -> int:
         """Complete lines held."""
-        return self._data.count(b"\n") if self._data else 0
+        return self._lines
 
     def data(self) -> bytes:
         """The complete lines held, as bytes (what a one-shot read of the same file sees)."""
@@ -126,6 +127,7 @@ class GrowingLog:
         if not self._data:
             check_followable(lines[:8], self.path)
         self._data += lines
+        self._lines += lines.count(b"\n")
         self._sha.update(lines)
         if self._utf8 and not valid_utf8(lines):  # lines split at newlines: checked piecewise
             self._utf8 = False
@@ -188,10 +190,10 @@ class GrowingLog:
             self._parsed_line = how.dialect.first_data_line - 1
         self.last_parsed_bytes = self._parse_new(src, how)
         if not self._parts:
-            raise InputError(
-                "no data rows below the header yet",
+            raise InputError(  # as the reader says it of a file without rows
+                "no data rows below the header",
                 path=self.path,
-                hint="wait for the logger to write rows",
+                hint="give a log with at least two data rows",
             )
         parsed = _joined(self._parts)
         self._parts = [parsed]

@@ -23,6 +23,9 @@ from stability.live.scpi import (
     check_command,
     load_capture_settings,
 )
+from stability.live.watch import Watcher
+from stability.settings import RunSettings
+from stability.workflow import analyze_into
 
 START = datetime(2026, 3, 4, 22, 0, 0, tzinfo=UTC)
 
@@ -289,3 +292,32 @@ def test_an_instrument_slower_than_the_interval_is_said_once(tmp_path):
     # the stamps say the truth: one reading every 2 s, which the reader finds as tau0
     assert "# requested interval: 1 s" in text
     assert read_log(tmp_path / "s.csv").tau0 == 2.0
+
+
+def test_watch_follows_a_capture_as_it_is_written(tmp_path, monkeypatch):
+    # capture and watch together: the watcher looks in as the capture writes (outages
+    # and all), and its last outputs equal a one-shot analysis of the finished log
+    monkeypatch.chdir(tmp_path)
+    fake = FakeTime()
+    settings = RunSettings.from_options(stats="oadev")
+    watcher = Watcher("night.csv", "live", settings, every=3600, rows=150, clock=fake.clock)
+    written = []
+
+    def on_line(line):
+        written.append(line)
+        if len(written) % 50 == 0:
+            watcher.step()
+
+    with CounterServer(drop_at={120}, error_at={200}) as server:
+        Capture(
+            _settings(server.port),
+            "night.csv",
+            now=fake.now,
+            clock=fake.clock,
+            sleep=fake.sleep,
+            on_line=on_line,
+        ).run(count=300)
+    status = watcher.finish()
+    assert status.analyses >= 2 and status.waiting == ""
+    _, files = analyze_into("night.csv", "once", settings)
+    assert watcher.written["table.csv"].read_bytes() == files["table.csv"].read_bytes()
