@@ -7,3 +7,26 @@
 log grows; :mod:`stability.live.capture` logs a counter over a raw SCPI socket
 or VISA.
 """
+
+from .capture import Capture, CaptureResult
+from .growing import GrowingLog
+from .scpi import CaptureSettings, LinkLost, SocketLink, VisaLink, load_capture_settings
+from .tail import LogTail, TailUpdate
+from .watch import NextTau, Watcher, WatchStatus, next_tau
+
+__all__ = [
+    "Capture",
+    "CaptureResult",
+    "CaptureSettings",
+    "GrowingLog",
+    "LinkLost",
+    "LogTail",
+    "NextTau",
+    "SocketLink",
+    "TailUpdate",
+    "VisaLink",
+    "WatchStatus",
+    "Watcher",
+    "load_capture_settings",
+    "next_tau",
+]
