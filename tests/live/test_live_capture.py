@@ -24,6 +24,7 @@ from stability.live.scpi import (
     load_capture_settings,
 )
 from stability.live.watch import Watcher
+from stability.run import run_analysis
 from stability.settings import RunSettings
 from stability.workflow import analyze_into
 
@@ -144,6 +145,10 @@ def test_capture_survives_two_drops_and_an_error(tmp_path):
     # the error answer at 30 s, the drop at 45 s
     assert missing.tolist() == [20, 30, 45]
     assert m.provenance.details["bad_value_count"] == 1
+    # and analysed as it is: each missing frequency reading drops the two m = 1 second
+    # differences that use it (NIST SP 1065 section 5.14: terms across a gap are left out)
+    run = run_analysis(log, stats="oadev")
+    assert run.table["oadev"].n_terms[0] == m.n - 2 - 2 * 3
 
 
 def test_existing_log_is_refused_and_append_resumes(tmp_path):
