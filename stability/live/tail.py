@@ -21,6 +21,8 @@ __all__ = ["LogTail", "TailUpdate"]
 
 #: Bytes compared at the start of the log to notice a file rewritten in place.
 HEAD_BYTES = 256
+#: Longest line waited for (a log line is far shorter; a file without newlines is no log).
+MAX_LINE = 1024 * 1024
 #: Bytes read at most per look (a logger that wrote more is caught up over a few looks).
 READ_LIMIT = 64 * 1024 * 1024
 
@@ -102,6 +104,13 @@ class LogTail:
         buffered = self._partial + new
         cut = buffered.rfind(b"\n") + 1
         self._partial = buffered[cut:]
+        if len(self._partial) > MAX_LINE:
+            raise InputError(
+                f"a line longer than {MAX_LINE // 1024} kB without its end: not a log written "
+                "line by line",
+                path=self.path,
+                hint="watch the text log a logger appends lines to",
+            )
         return TailUpdate(lines=buffered[:cut], restarted=why, more=more)
 
     def _changed(self, fh: BinaryIO, st: os.stat_result) -> str:

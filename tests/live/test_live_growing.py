@@ -191,3 +191,10 @@ def test_tail_reads_a_backlog_in_pieces(tmp_path):
         if not update.more:
             break
     assert got == log.read_bytes()
+
+
+def test_tail_refuses_a_file_without_line_ends(tmp_path):
+    log = tmp_path / "blob.bin"
+    log.write_bytes(b"x" * (2 * 1024 * 1024))
+    with pytest.raises(InputError, match="a line longer than 1024 kB"):
+        LogTail(log).poll()
