@@ -219,30 +219,43 @@ def _read(
         )
     hasher = InputHasher(str(path), src.raw)
     how = plan_reading(src, hints, rep)
+    # the parsed rows go straight into the call, so the reference dropped there frees them
+    return measurement_from_rows(
+        src, hints, how, _parse(src, hints, how, on_progress, stamps), rep, hasher.result
+    )
+
+
+def _parse(
+    src: RawSource,
+    hints: ReadHints,
+    how: ReadingPlan,
+    on_progress: ProgressCallback | None,
+    stamps: str,
+) -> ParsedRows:
+    """Every row of the log: pyarrow's reader where it applies (engine auto), else pandas."""
     d, plan = how.dialect, how.columns
-    parsed = None
     if hints.engine != "pandas":
         problem = arrow_layout_problem(src, d, plan, how.exact or how.suffix)
         if not problem:
             parsed = arrow_rows(src, d, plan, on_progress)
-            problem = "" if parsed is not None else "a row does not parse cleanly"
-        if parsed is None and hints.engine == "pyarrow":
+            if parsed is not None:
+                return parsed
+            problem = "a row does not parse cleanly"
+        if hints.engine == "pyarrow":
             raise InputError(
                 f"the pyarrow engine cannot read this log: {problem}",
                 path=src.path,
                 hint="pass --engine auto (or pandas), which reads every log",
             )
-    if parsed is None:
-        parsed = parse_rows(
-            src,
-            d,
-            plan,
-            exact=how.exact,
-            suffix=how.suffix,
-            stamps=stamps,
-            on_progress=on_progress,
-        )
-    return measurement_from_rows(src, hints, how, parsed, rep, hasher.result)
+    return parse_rows(
+        src,
+        d,
+        plan,
+        exact=how.exact,
+        suffix=how.suffix,
+        stamps=stamps,
+        on_progress=on_progress,
+    )
 
 
 def measurement_from_rows(
