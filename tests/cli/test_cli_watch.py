@@ -153,3 +153,11 @@ def test_ctrl_c_writes_a_final_analysis_and_exits_0(log):
     assert "wrote 2 analyses into" in out and err == ""
     summary = json.loads((log.parent / "counter.csv-stability" / "summary.json").read_text())
     assert summary["input"]["sha256"] == hashlib.sha256(whole).hexdigest()
+
+
+def test_panel_before_the_first_analysis_says_why(tmp_path):
+    watcher = Watcher(tmp_path / "later.csv", tmp_path / "out", clock=FakeClock())
+    text = _render(panel(watcher.step())).export_text()
+    assert "lines      0" in text and "last line  no line yet" in text
+    assert "waiting    the log does not exist (yet)" in text
+    assert "0 analyses written into" in text
