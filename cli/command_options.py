@@ -1,5 +1,5 @@
-"""Option groups of single commands: ``stability time-error`` (and ``record --mask``)
-and ``stability validate``.
+"""Option groups of single commands: ``stability time-error`` (and ``record --mask``),
+``stability validate``, ``stability watch`` and ``stability capture``.
 
 Declared with the one builder of :mod:`.options` (:class:`~.options.OptionSpec`),
 kept apart from the shared groups so that each module stays readable.
@@ -24,6 +24,8 @@ __all__ = [
     "DTE_BANDWIDTH",
     "TIMING",
     "VALIDATING",
+    "STOP_AFTER",
+    "WATCHING",
 ]
 
 # Time-error analysis (stability time-error, and record --mask)
@@ -103,3 +105,53 @@ VALIDATING = (
         "(default: stability-validation/ in the current folder)."
     ),  # fmt: skip
 )
+
+
+#: Options of the commands that run until stopped (watch, capture).
+STOP_AFTER = OptionSpec(
+    "stop_after",
+    "--duration",
+    str | None,
+    None,
+    "Stop after this long (e.g. 8h); default: run until Ctrl-C.",
+    metavar="DURATION",
+    check=duration_check("--duration"),
+)
+EVERY = OptionSpec(
+    "every",
+    "--every",
+    str,
+    "5min",
+    "Re-analyse this often while new lines arrive.",
+    metavar="DURATION",
+    check=duration_check("--every"),
+)
+ROWS = OptionSpec(
+    "rows",
+    "--rows",
+    int | None,
+    None,
+    "Also re-analyse as soon as this many new lines arrived "
+    "(default: when the log has doubled since the last analysis).",
+    metavar="N",
+    extra={"min": 1},
+)
+STALL = OptionSpec(
+    "stall",
+    "--stall",
+    str,
+    "2min",
+    "Show the logger as stalled after this long without a new line.",
+    metavar="DURATION",
+    check=duration_check("--stall"),
+)
+POLL = OptionSpec(
+    "poll",
+    "--poll",
+    str,
+    "1s",
+    "Look at the log this often.",
+    metavar="DURATION",
+    check=duration_check("--poll"),
+)
+WATCHING = (EVERY, ROWS, STALL, POLL, STOP_AFTER)

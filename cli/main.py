@@ -19,6 +19,7 @@ from stability._version import __version__
 
 from . import (
     analyze_cmd,
+    capture_cmd,
     demo_cmd,
     history_cmd,
     inspect_cmd,
@@ -31,6 +32,7 @@ from . import (
     time_error_cmd,
     timeline_cmd,
     validate_cmd,
+    watch_cmd,
 )
 from .common import StabilityGroup, run_program
 
@@ -81,6 +83,8 @@ app.command("demo")(demo_cmd.demo)
 app.command("validate")(validate_cmd.validate_command)
 app.command("time-error")(time_error_cmd.time_error)
 app.command("masks")(masks_cmd.masks)
+app.command("watch")(watch_cmd.watch)
+app.command("capture")(capture_cmd.capture)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(

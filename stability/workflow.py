@@ -181,7 +181,10 @@ def analyze_into(
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
     names, stale = output_names(fmt)
-    inputs = [] if isinstance(log, Measurement) else [log]
+    if isinstance(log, Measurement):  # the file it was read from is protected all the same
+        inputs = [log.provenance.path] if log.provenance.path else []
+    else:
+        inputs = [log]
     _refuse_record_folder(Path(folder))
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)

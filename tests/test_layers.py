@@ -80,6 +80,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
             "stability.workflow_timing",
             "stability.history",
             "stability.validation",
+            "stability.live",
         ),
     ),
     (11, ("stability.__init__", "stability.__main__")),
