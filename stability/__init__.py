@@ -17,8 +17,16 @@ from __future__ import annotations
 import importlib
 from typing import TYPE_CHECKING, Any
 
+from . import display as _display
 from ._version import __version__
 from .errors import AnalysisError, InputError, SpecError, StabilityError, StabilityWarning
+
+# The results' plot methods and rich displays are drawn and formatted floors
+# above the result types; those floors register them with stability.display
+# when imported, and are imported on the first plot() or display, not here.
+_display.add_provider(f"{__name__}.figures")
+_display.add_provider(f"{__name__}.reports.html")
+_display.add_provider(f"{__name__}.history.display")
 
 #: Public name -> module that defines it (relative to this package), or
 #: ``module:attribute`` where the public name differs from the defining one.

@@ -20,7 +20,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError
-from .figures import run_series_figure, save_figure, stability_figure
+from .figures import run_series_figure, run_stability_figure, save_figure
 from .figures.labels import default_footer, default_title
 from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
@@ -84,12 +84,10 @@ def _draw_stability(
     footer: str | None,
     noise_labels: Any = None,
 ) -> Path:
-    fig = stability_figure(
-        run.table,
-        model_curve=run.model_curves(),
+    fig = run_stability_figure(
+        run,
         limits=limits,
         limits_statistic=limits_statistic,
-        analysis_time=run.analysis_time,
         title=title,
         footer=footer,
         noise_labels=noise_labels,
