@@ -177,3 +177,20 @@ def test_device_review_html_lists_every_calibration(tmp_path):
         if c.offset is not None:
             assert f"{c.offset:.4g}" in text
     assert f"due {review.due.date().isoformat()}" in text
+
+
+def test_log_report_and_preparation_show_what_the_commands_print():
+    report = stability.inspect_log(DEMO / "ocxo-vs-rb-counter.csv.gz", nominal="10MHz")
+    text, tags = parsed(report._repr_html_())
+    assert "pre" in tags and "What is in the log" in text
+    assert report.sha256 in text and "nominal 10 MHz" in text
+    assert stability.display.text(report) == report.to_text()
+
+    y = np.random.default_rng(6).normal(0, 1e-11, 1000) + 1e-14 * np.arange(1000)
+    y[500] = 5e-9  # one outlier, five robust sigmas and far beyond
+    _, prep = stability.prepare_measurement(Measurement.from_frequency(y, 1.0), drift="linear")
+    text, _ = parsed(prep._repr_html_())
+    assert "outliers removed 1" in text and "drift removed linear" in text
+    for note in prep.notes:
+        assert " ".join(note.split()) in text
+    assert stability.display.text(prep).startswith("Preparation")

@@ -24,8 +24,10 @@ from ..display import register_html, register_text
 from ..dynamic import DynamicResult
 from ..figures.style import VERDICT_COLORS
 from ..hat import HatResult
+from ..ingest import LogReport
 from ..measurement import Measurement
 from ..phase_noise import PhaseNoiseStability
+from ..prepare import PreparationReport
 from ..run import AnalysisRun
 from ..spec import Judgement
 from ..table import StabilityTable
@@ -45,6 +47,9 @@ __all__ = [
     "phase_noise_html",
     "dynamic_html",
     "verdict_badge",
+    "log_report_html",
+    "preparation_html",
+    "preparation_text",
 ]
 
 _BOX = 'class="stability-result" style="font-family:sans-serif;font-size:90%"'
@@ -138,6 +143,32 @@ def measurement_text(m: Measurement) -> str:
     lines = ["Measurement"] + [f"  {k.ljust(width)}  {v}" for k, v in _measurement_facts(m)]
     lines += [f"  - {n}" for n in m.notes]
     return "\n".join(lines)
+
+
+# ---------------------------------------------------------------------- reading, preparing
+def log_report_html(report: LogReport) -> str:
+    """What ``stability inspect`` prints, as preformatted text."""
+    return _box("What is in the log", f"<pre>{escape(report.to_text())}</pre>")
+
+
+def _preparation_facts(prep: PreparationReport) -> list[tuple[str, str]]:
+    return [
+        ("samples", f"{prep.samples_before} before, {prep.samples_after} after"),
+        ("gaps", f"{prep.gaps_before} before, {prep.gaps_after} after"),
+        ("outliers removed", str(len(prep.outliers.samples))),
+        ("phase steps found", str(len(prep.steps))),
+        ("drift removed", prep.drift_model),
+        ("averaged", "no" if prep.average_factor == 1 else f"{prep.average_factor} samples"),
+    ]
+
+
+def preparation_html(prep: PreparationReport) -> str:
+    return _box("Preparation", _facts(_preparation_facts(prep)), _notes(prep.notes))
+
+
+def preparation_text(prep: PreparationReport) -> str:
+    lines = ["Preparation"] + [f"  {k}: {v}" for k, v in _preparation_facts(prep)]
+    return "\n".join(lines + [f"  - {n}" for n in prep.notes])
 
 
 # ---------------------------------------------------------------------- results table
@@ -328,6 +359,10 @@ def dynamic_html(result: DynamicResult) -> str:
     return _box(title, facts, _table(header, cells, {0, 1, 2, 3}), _notes(result.notes))
 
 
+register_html(LogReport, log_report_html)
+register_text(LogReport, LogReport.to_text)
+register_html(PreparationReport, preparation_html)
+register_text(PreparationReport, preparation_text)
 register_html(Measurement, measurement_html)
 register_text(Measurement, measurement_text)
 register_html(StabilityTable, table_html)
