@@ -20,8 +20,10 @@ import stability
 from stability.figures.style import VERDICT_COLORS
 from stability.history import import_records, open_history, review_device
 from stability.measurement import Measurement, Provenance
+from stability.reports import html as html_display
 from stability.reports.tables import format_tau, format_value, people_rows
-from stability.spec import judge, load_spec
+from stability.spec import judge, load_info, load_spec
+from stability.workflow import RecordOutcome
 
 DEMO = Path(__file__).resolve().parents[1] / "datasets" / "demo"
 _VOID = {"br", "hr", "img", "meta", "link", "input", "col", "wbr"}
@@ -194,3 +196,30 @@ def test_log_report_and_preparation_show_what_the_commands_print():
     for note in prep.notes:
         assert " ".join(note.split()) in text
     assert stability.display.text(prep).startswith("Preparation")
+
+
+def test_a_long_table_shows_its_first_and_last_rows():
+    m = Measurement.from_frequency(np.random.default_rng(9).normal(0, 1e-11, 400), 1.0)
+    table = stability.analyze(m, stats="oadev", taus="all")
+    _, rows = people_rows(table)
+    assert len(rows) > html_display.HTML_ROWS
+    text, tags = parsed(table._repr_html_())
+    assert tags.count("tr") == 1 + 60 + 1 + 20
+    assert f"{len(rows) - 80} rows not shown; to_frame() holds every row." in text
+    for row in (rows[0], rows[-1]):
+        assert " ".join(" ".join(row).split()) in text
+
+
+def test_record_outcome_shows_where_the_record_went_and_its_verdicts(tmp_path):
+    y = np.random.default_rng(12).normal(0, 1e-12, 2000)
+    run = stability.run_analysis(Measurement.from_frequency(y, 1.0), stats="oadev")
+    judgement = judge(run.table, load_spec(DEMO / "spec-example.toml"))
+    files = {name: tmp_path / name for name in ("record.pdf", "record.json", "table.md")}
+    outcome = RecordOutcome(
+        run, judgement, load_info(DEMO / "info-example.toml"), DEMO / "spec-example.toml", files
+    )
+    text, _ = parsed(outcome._repr_html_())
+    assert "Calibration record" in text and "device HM-OCXO-0417" in text
+    assert "files record.json, record.pdf, table.md" in text and str(tmp_path) in text
+    assert f"overall: {judgement.overall.value}" in text
+    assert stability.display.text(outcome).startswith("Calibration record")

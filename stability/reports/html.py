@@ -47,6 +47,8 @@ __all__ = [
     "phase_noise_html",
     "dynamic_html",
     "verdict_badge",
+    "result_box",
+    "facts_table",
     "log_report_html",
     "preparation_html",
     "preparation_text",
@@ -72,8 +74,8 @@ def _table(header: Sequence[str], rows: Iterable[Sequence[str]], numeric: set[in
     return f"<table><thead>{head}</thead><tbody>{body}</tbody></table>"
 
 
-def _facts(pairs: Iterable[tuple[str, str]]) -> str:
-    """Label/value rows (values escaped)."""
+def facts_table(pairs: Iterable[tuple[str, str]]) -> str:
+    """An HTML table of label/value rows (both escaped here)."""
     rows = "".join(
         f'<tr><th style="text-align:left;padding:1px 8px">{escape(k)}</th>'
         f'<td style="text-align:left;padding:1px 8px">{escape(v)}</td></tr>'
@@ -87,7 +89,8 @@ def _notes(notes: Iterable[str], title: str = "notes") -> str:
     return f"<p><b>{escape(title)}</b></p><ul>{items}</ul>" if items else ""
 
 
-def _box(title: str, *parts: str) -> str:
+def result_box(title: str, *parts: str) -> str:
+    """A result's display: its title (escaped) over HTML ``parts`` already made safe."""
     return f"<div {_BOX}><p><b>{escape(title)}</b></p>{''.join(parts)}</div>"
 
 
@@ -135,7 +138,7 @@ def _measurement_facts(m: Measurement) -> list[tuple[str, str]]:
 
 
 def measurement_html(m: Measurement) -> str:
-    return _box("Measurement", _facts(_measurement_facts(m)), _notes(m.notes))
+    return result_box("Measurement", facts_table(_measurement_facts(m)), _notes(m.notes))
 
 
 def measurement_text(m: Measurement) -> str:
@@ -148,7 +151,7 @@ def measurement_text(m: Measurement) -> str:
 # ---------------------------------------------------------------------- reading, preparing
 def log_report_html(report: LogReport) -> str:
     """What ``stability inspect`` prints, as preformatted text."""
-    return _box("What is in the log", f"<pre>{escape(report.to_text())}</pre>")
+    return result_box("What is in the log", f"<pre>{escape(report.to_text())}</pre>")
 
 
 def _preparation_facts(prep: PreparationReport) -> list[tuple[str, str]]:
@@ -163,7 +166,7 @@ def _preparation_facts(prep: PreparationReport) -> list[tuple[str, str]]:
 
 
 def preparation_html(prep: PreparationReport) -> str:
-    return _box("Preparation", _facts(_preparation_facts(prep)), _notes(prep.notes))
+    return result_box("Preparation", facts_table(_preparation_facts(prep)), _notes(prep.notes))
 
 
 def preparation_text(prep: PreparationReport) -> str:
@@ -189,14 +192,25 @@ def _model_text(table: StabilityTable) -> list[str]:
     return out
 
 
+#: A results table longer than this shows its first and last rows in a notebook.
+HTML_ROWS = 120
+_HEAD, _TAIL = 60, 20
+
+
 def table_html(table: StabilityTable) -> str:
     header, rows = people_rows(table)
     cells = [[escape(c) for c in row] for row in rows]
+    omitted = len(cells) - _HEAD - _TAIL if len(cells) > HTML_ROWS else 0
+    if omitted:
+        gap = ["…"] + [""] * (len(header) - 1)
+        cells = [*cells[:_HEAD], gap, *cells[-_TAIL:]]
     parts = [_table(header, cells, {1, 2, 3, 4, 6, 7})]
+    if omitted:
+        parts.append(f"<p>{omitted} rows not shown; to_frame() holds every row.</p>")
     if len(header) == 8:
         parts.append(f"<p>Rows with a bias factor are {escape(BIAS_NOTE)}.</p>")
     parts.append(_notes(_model_text(table), "offset and drift"))
-    return _box(_table_title(table), *parts)
+    return result_box(_table_title(table), *parts)
 
 
 def table_text(table: StabilityTable) -> str:
@@ -244,7 +258,7 @@ def judgement_html(judgement: Judgement) -> str:
     header = [*_CHECK_HEADER]
     header[3] = f"{level:.3g} % interval"
     title = f"Judgement of {judgement.statistic.upper()} against the specification"
-    return _box(
+    return result_box(
         title,
         f"<p>overall: {verdict_badge(judgement.overall)}</p>",
         _table(header, _check_rows(judgement, badge=True), {0, 1, 2, 3}),
@@ -273,10 +287,10 @@ def _run_facts(run: AnalysisRun) -> list[tuple[str, str]]:
 
 
 def run_html(run: AnalysisRun) -> str:
-    return _box(
+    return result_box(
         "Analysis run",
         measurement_html(run.source),
-        _facts(_run_facts(run)),
+        facts_table(_run_facts(run)),
         _notes(run.preparation.notes, "preparation"),
         table_html(run.table),
     )
@@ -310,7 +324,7 @@ def hat_html(result: HatResult) -> str:
         "status",
     ]
     title = f"Three-cornered hat: {result.statistic.upper()} of {', '.join(result.names)}"
-    return _box(title, _table(header, cells, {1, 2, 3}), _notes(result.notes))
+    return result_box(title, _table(header, cells, {1, 2, 3}), _notes(result.notes))
 
 
 def phase_noise_html(result: PhaseNoiseStability) -> str:
@@ -320,14 +334,14 @@ def phase_noise_html(result: PhaseNoiseStability) -> str:
         + [escape(_number(result.deviations[s][i], statistic_unit(s))) for s in result.statistics]
         for i, tau in enumerate(result.tau)
     ]
-    facts = _facts(
+    facts = facts_table(
         [
             ("carrier", format_frequency(result.nominal)),
             ("bandwidth f_h", format_frequency(result.f_h)),
             ("above the last offset", result.beyond),
         ]
     )
-    return _box(
+    return result_box(
         "Stability from a phase-noise table",
         facts,
         _table(header, rows, set(range(len(header)))),
@@ -346,7 +360,7 @@ def dynamic_html(result: DynamicResult) -> str:
         rows.append(
             [format_tau(float(tau)), _number(low, unit), _number(high, unit), str(good.size)]
         )
-    facts = _facts(
+    facts = facts_table(
         [
             ("windows", str(windows)),
             ("window", f"{result.window_points} phase samples"),
@@ -356,7 +370,7 @@ def dynamic_html(result: DynamicResult) -> str:
     header = ["tau", "smallest", "largest", "windows with a value"]
     cells = [[escape(c) for c in row] for row in rows]
     title = f"Stability over time: {result.statistic.upper()}, {windows} windows x {taus} taus"
-    return _box(title, facts, _table(header, cells, {0, 1, 2, 3}), _notes(result.notes))
+    return result_box(title, facts, _table(header, cells, {0, 1, 2, 3}), _notes(result.notes))
 
 
 register_html(LogReport, log_report_html)
