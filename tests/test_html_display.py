@@ -147,6 +147,8 @@ def test_studies_show_their_figures():
     assert "Three-cornered hat: OADEV of A, B, C" in text
     osc = hat["B"]
     assert format_value(float(osc.deviation[0])) in text
+    plain = stability.display.text(hat)
+    assert plain.startswith("Three-cornered hat") and format_value(float(osc.deviation[0])) in plain
 
     conversion = stability.phase_noise_to_stability(
         [1.0, 10.0, 100.0], [-100.0, -120.0, -130.0], nominal=1e7, f_h=100.0,
@@ -154,6 +156,7 @@ def test_studies_show_their_figures():
     )  # fmt: skip
     text, _ = parsed(conversion._repr_html_())
     assert "carrier 10 MHz" in text and format_value(float(conversion["adev"][0])) in text
+    assert "carrier: 10 MHz" in stability.display.text(conversion)
 
     dynamic = stability.dynamic_stability(
         Measurement.from_frequency(rng.normal(0, 1e-11, 1200), 1.0),
@@ -163,6 +166,7 @@ def test_studies_show_their_figures():
     assert f"{dynamic.shape[0]} windows x 2 taus" in text
     first = dynamic.deviation[:, 0]
     assert format_value(float(np.nanmin(first))) in text
+    assert format_value(float(np.nanmin(first))) in stability.display.text(dynamic)
 
 
 def test_device_review_html_lists_every_calibration(tmp_path):
@@ -179,6 +183,9 @@ def test_device_review_html_lists_every_calibration(tmp_path):
         if c.offset is not None:
             assert f"{c.offset:.4g}" in text
     assert f"due {review.due.date().isoformat()}" in text
+    plain = stability.display.text(review)
+    assert plain.startswith("Calibration history of HM-OCXO-0417")
+    assert len(plain.splitlines()) == 1 + facts + len(review.calibrations)
 
 
 def test_log_report_and_preparation_show_what_the_commands_print():

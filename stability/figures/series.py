@@ -453,16 +453,16 @@ def series_figure(
         return origin + scale * tau0 * np.asarray(index, dtype=float)
 
     decimate = y.size > 4 * max_columns
+    given: list[Axes] | None = None
     if axes is not None:
-        frame, axes = _given_panels(axes, 1 + len(shown), into)
+        frame, given = _given_panels(axes, 1 + len(shown), into)
     else:
         frame = frame_for(into, 10.0, 2.0 + 2.1 * (1 + len(shown)))
     if title is None and frame.own:
         title = default_title(measurement, "data over time")
     if footer is None and frame.own:
         footer = default_footer(measurement, analysis_time=analysis_time)
-    if not isinstance(axes, list):
-        axes = _panels(frame, 1 + len(shown), bool(title), bool(footer))
+    axes = given if given is not None else _panels(frame, 1 + len(shown), bool(title), bool(footer))
     y_idx, y_val = _reduced(y, decimate, max_columns)
     frequency = (axis(y_idx), y_val)
     axes[0].plot(*frequency, color=FREQUENCY_COLOR, linewidth=0.6, label="fractional frequency")

@@ -14,13 +14,13 @@ from __future__ import annotations
 from html import escape
 from typing import Any
 
-from ..display import register_html, register_plot
+from ..display import register_html, register_plot, register_text
 from ..errors import InputError
 from ..figures import HistoryDrawn, history_figure
 from ..reports.html import verdict_badge
 from .review import DeviceReview
 
-__all__ = ["review_figure", "review_html"]
+__all__ = ["review_figure", "review_html", "review_text"]
 
 
 def review_figure(
@@ -55,8 +55,7 @@ def _signed(value: float | None, u: float | None) -> str:
     return f"{value:.4g}" + ("" if u is None else f" ± {u:.2g}")
 
 
-def review_html(review: DeviceReview) -> str:
-    """The review as HTML: the device, due date and aging verdicts, one row per calibration."""
+def _review_facts(review: DeviceReview) -> list[tuple[str, str]]:
     device = review.device
     facts = [
         ("device", f"{device.device_id} {device.description or ''}".strip()),
@@ -74,6 +73,24 @@ def review_html(review: DeviceReview) -> str:
     if review.tolerance is not None and review.within is not None:
         word = "stays within" if review.within else "does not stay within"
         facts.append(("tolerance", f"±{review.tolerance:.3g}: prediction {word} it until due"))
+    return facts
+
+
+def review_text(review: DeviceReview) -> str:
+    """The review as plain text: the facts, then one line per calibration."""
+    lines = [f"Calibration history of {review.device.device_id}"]
+    lines += [f"  {k}: {v}" for k, v in _review_facts(review)]
+    for c in review.calibrations:
+        offset = _signed(c.offset, c.u_offset) or "no offset"
+        when = c.when.date().isoformat()
+        lines.append(f"  {c.number:>3}  {when}  {offset}  {c.verdict}".rstrip())
+    return "\n".join(lines)
+
+
+def review_html(review: DeviceReview) -> str:
+    """The review as HTML: the device, due date and aging verdicts, one row per calibration."""
+    device = review.device
+    facts = _review_facts(review)
     head = "".join(
         f'<tr><th style="text-align:left;padding:1px 8px">{escape(k)}</th>'
         f'<td style="padding:1px 8px">{escape(v)}</td></tr>'
@@ -100,3 +117,4 @@ def review_html(review: DeviceReview) -> str:
 
 register_plot(DeviceReview, review_figure)
 register_html(DeviceReview, review_html)
+register_text(DeviceReview, review_text)

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
 from html import escape
 from typing import Any
 
@@ -302,54 +303,83 @@ def run_text(run: AnalysisRun) -> str:
 
 
 # ---------------------------------------------------------------------- studies
-def hat_html(result: HatResult) -> str:
+@dataclass(frozen=True)
+class _Shown:
+    """A study's display as data: shown as HTML in a notebook, as aligned text elsewhere."""
+
+    title: str
+    facts: list[tuple[str, str]]
+    header: list[str]
+    rows: list[list[str]]
+    numeric: set[int]
+    notes: list[str]
+
+    def html(self) -> str:
+        cells = [[escape(c) for c in row] for row in self.rows]
+        facts = facts_table(self.facts) if self.facts else ""
+        return result_box(
+            self.title, facts, _table(self.header, cells, self.numeric), _notes(self.notes)
+        )
+
+    def text(self) -> str:
+        lines = [self.title] + [f"  {k}: {v}" for k, v in self.facts]
+        table = [self.header, *self.rows]
+        widths = [max(len(row[j]) for row in table) for j in range(len(self.header))]
+        for row in table:
+            cells = [
+                c.rjust(w) if j in self.numeric else c.ljust(w)
+                for j, (c, w) in enumerate(zip(row, widths, strict=True))
+            ]
+            lines.append("  " + "  ".join(cells).rstrip())
+        return "\n".join(lines + [f"  - {n}" for n in self.notes])
+
+
+def _hat(result: HatResult) -> _Shown:
     unit = statistic_unit(result.statistic)
     rows = []
     for name, osc in result.oscillators.items():
         for i, tau in enumerate(osc.tau):
             below = osc.status[i] == "below resolution"
-            value = (
-                f"< {_number(osc.upper_bound[i], unit)}"
-                if below
-                else _number(osc.deviation[i], unit)
-            )
+            value = _number(osc.upper_bound[i] if below else osc.deviation[i], unit)
             interval = f"[{_number(osc.ci_low[i], unit)}, {_number(osc.ci_high[i], unit)}]"
-            rows.append([name, format_tau(float(tau)), value, interval, osc.status[i]])
-    cells = [[escape(c) for c in row] for row in rows]
-    header = [
-        "oscillator",
-        "tau",
-        "deviation",
-        f"{100 * result.confidence:.3g} % interval",
-        "status",
-    ]
-    title = f"Three-cornered hat: {result.statistic.upper()} of {', '.join(result.names)}"
-    return result_box(title, _table(header, cells, {1, 2, 3}), _notes(result.notes))
+            rows.append(
+                [name, format_tau(float(tau)), f"< {value}" if below else value, interval,
+                 osc.status[i]]
+            )  # fmt: skip
+    level = f"{100 * result.confidence:.3g} % interval"
+    return _Shown(
+        f"Three-cornered hat: {result.statistic.upper()} of {', '.join(result.names)}",
+        [],
+        ["oscillator", "tau", "deviation", level, "status"],
+        rows,
+        {1, 2, 3},
+        list(result.notes),
+    )
 
 
-def phase_noise_html(result: PhaseNoiseStability) -> str:
-    header = ["tau", *(s.upper() for s in result.statistics)]
+def _phase_noise(result: PhaseNoiseStability) -> _Shown:
     rows = [
-        [escape(format_tau(float(tau)))]
-        + [escape(_number(result.deviations[s][i], statistic_unit(s))) for s in result.statistics]
+        [format_tau(float(tau))]
+        + [_number(result.deviations[s][i], statistic_unit(s)) for s in result.statistics]
         for i, tau in enumerate(result.tau)
     ]
-    facts = facts_table(
-        [
-            ("carrier", format_frequency(result.nominal)),
-            ("bandwidth f_h", format_frequency(result.f_h)),
-            ("above the last offset", result.beyond),
-        ]
-    )
-    return result_box(
+    facts = [
+        ("carrier", format_frequency(result.nominal)),
+        ("bandwidth f_h", format_frequency(result.f_h)),
+        ("above the last offset", result.beyond),
+    ]
+    header = ["tau", *(s.upper() for s in result.statistics)]
+    return _Shown(
         "Stability from a phase-noise table",
         facts,
-        _table(header, rows, set(range(len(header)))),
-        _notes(result.notes),
+        header,
+        rows,
+        set(range(len(header))),
+        list(result.notes),
     )
 
 
-def dynamic_html(result: DynamicResult) -> str:
+def _dynamic(result: DynamicResult) -> _Shown:
     windows, taus = result.shape
     unit = statistic_unit(result.statistic)
     rows = []
@@ -360,17 +390,31 @@ def dynamic_html(result: DynamicResult) -> str:
         rows.append(
             [format_tau(float(tau)), _number(low, unit), _number(high, unit), str(good.size)]
         )
-    facts = facts_table(
-        [
-            ("windows", str(windows)),
-            ("window", f"{result.window_points} phase samples"),
-            ("step", f"{result.step_points} phase samples"),
-        ]
+    facts = [
+        ("windows", str(windows)),
+        ("window", f"{result.window_points} phase samples"),
+        ("step", f"{result.step_points} phase samples"),
+    ]
+    return _Shown(
+        f"Stability over time: {result.statistic.upper()}, {windows} windows x {taus} taus",
+        facts,
+        ["tau", "smallest", "largest", "windows with a value"],
+        rows,
+        {0, 1, 2, 3},
+        list(result.notes),
     )
-    header = ["tau", "smallest", "largest", "windows with a value"]
-    cells = [[escape(c) for c in row] for row in rows]
-    title = f"Stability over time: {result.statistic.upper()}, {windows} windows x {taus} taus"
-    return result_box(title, facts, _table(header, cells, {0, 1, 2, 3}), _notes(result.notes))
+
+
+def hat_html(result: HatResult) -> str:
+    return _hat(result).html()
+
+
+def phase_noise_html(result: PhaseNoiseStability) -> str:
+    return _phase_noise(result).html()
+
+
+def dynamic_html(result: DynamicResult) -> str:
+    return _dynamic(result).html()
 
 
 register_html(LogReport, log_report_html)
@@ -388,3 +432,6 @@ register_text(AnalysisRun, run_text)
 register_html(HatResult, hat_html)
 register_html(PhaseNoiseStability, phase_noise_html)
 register_html(DynamicResult, dynamic_html)
+register_text(HatResult, lambda result: _hat(result).text())
+register_text(PhaseNoiseStability, lambda result: _phase_noise(result).text())
+register_text(DynamicResult, lambda result: _dynamic(result).text())
