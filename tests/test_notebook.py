@@ -50,7 +50,8 @@ def _outputs(cell) -> set[str]:
     return kinds
 
 
-def test_the_demo_notebook_runs_and_its_results_show_themselves():
+def test_the_demo_notebook_runs_and_its_results_show_themselves(tmp_path, monkeypatch):
+    monkeypatch.setenv("TMPDIR", str(tmp_path))  # the kernel writes the record in here
     notebook = nbformat.read(NOTEBOOK, as_version=4)
     assert all(not c.get("outputs") for c in notebook.cells if c.cell_type == "code"), (
         "the notebook is kept without outputs"
@@ -68,5 +69,7 @@ def test_the_demo_notebook_runs_and_its_results_show_themselves():
     record = next(c for c in code if "record_into(" in c.source)
     listed = record.outputs[0]["data"]["text/plain"]
     assert "record.pdf" in listed and "record.json" in listed and "sigma_tau.png" in listed
+    written = list(tmp_path.glob("stability-record-*/record.pdf"))
+    assert len(written) == 1 and written[0].read_bytes().startswith(b"%PDF")
     shown = next(c for c in code if c.source.strip() == "outcome").outputs[0]["data"]["text/html"]
     assert "Calibration record" in shown and "record.pdf" in shown and 'class="verdict"' in shown
