@@ -281,7 +281,7 @@ def timeline_figure(
     )
     if ax_line is not None:
         _draw_trace(ax_line, result, x, x_label)
-    else:  # the map alone carries the time axis
+    if ax_cb is None:  # on a caller's axes the map carries its own time axis
         ax_map.tick_params(axis="x", labelbottom=True)
         ax_map.set_xlabel(x_label, fontsize=LABEL_SIZE)
     bottom = ax_map if ax_line is None else ax_line

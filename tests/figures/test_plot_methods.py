@@ -251,7 +251,10 @@ def test_dynamic_result_draws_onto_given_axes():
     )
     drawn = _on_axes(result)
     assert isinstance(drawn, TimelineDrawn) and len(drawn.axes) == 1
-    assert isinstance(_on_axes(result, 2), TimelineDrawn)
+    both = _on_axes(result, 2)
+    assert isinstance(both, TimelineDrawn)
+    # on a caller's axes the map keeps its own time axis (the panels may sit side by side)
+    assert both.axes[0].get_xlabel() == both.x_label == both.axes[1].get_xlabel()
 
 
 def test_device_review_draws_onto_given_axes(tmp_path):
@@ -262,3 +265,24 @@ def test_device_review_draws_onto_given_axes(tmp_path):
     assert isinstance(drawn, HistoryDrawn) and drawn.offset.size == 6
     assert isinstance(_on_axes(review, 2), HistoryDrawn)
     assert review.plot().figure.canvas.manager is None
+
+
+def test_studies_draw_their_whole_figure_into_a_subfigure(hat_result, tmp_path):
+    y = np.random.default_rng(5).normal(0, 1e-11, 1200)
+    dynamic = stability.dynamic_stability(
+        Measurement.from_frequency(y, 1.0), window=300.0, step=100.0, taus=[1.0, 4.0]
+    )
+    with open_history(tmp_path / "history.sqlite") as store:
+        import_records(store, sorted(glob.glob(str(DEMO / "history" / "*.json"))))
+        review = review_device(store, "HM-OCXO-0417")
+    page = Figure(figsize=(12, 14), layout="constrained")
+    regions = page.subfigures(3, 1)
+    for region, result, panels in zip(
+        regions, (hat_result, dynamic, review), (1, 2, 2), strict=True
+    ):
+        drawn = result.plot(figure=region)
+        assert drawn.figure is page and len(drawn.axes) == panels
+        assert all(ax.get_figure(root=False) is region for ax in drawn.axes)
+        assert not region.texts or all(t.get_text() == "" for t in region.texts)  # no footer
+        assert region._suptitle is None  # a region of a page carries no title of its own
+    page.savefig(io.BytesIO(), format="png")
