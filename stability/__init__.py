@@ -8,6 +8,10 @@ of deviations with noise identification and confidence intervals::
     table = stability.analyze(m, stats="oadev,mdev")
     print(table.to_frame())
 
+Results draw themselves with the command's own figures (``table.plot()``,
+``measurement.plot(ax=ax)``) and show as tables in a notebook; see
+:mod:`stability.display` for how, without the result types importing the figures.
+
 The names below are loaded on first use, so that ``import stability`` (and the
 command line's start-up) pays only for the parts a job touches.
 """
