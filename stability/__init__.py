@@ -8,6 +8,10 @@ of deviations with noise identification and confidence intervals::
     table = stability.analyze(m, stats="oadev,mdev")
     print(table.to_frame())
 
+Results draw themselves with the command's own figures (``table.plot()``,
+``measurement.plot(ax=ax)``) and show as tables in a notebook; see
+:mod:`stability.display` for how, without the result types importing the figures.
+
 The names below are loaded on first use, so that ``import stability`` (and the
 command line's start-up) pays only for the parts a job touches.
 """
@@ -17,8 +21,16 @@ from __future__ import annotations
 import importlib
 from typing import TYPE_CHECKING, Any
 
+from . import display as _display
 from ._version import __version__
 from .errors import AnalysisError, InputError, SpecError, StabilityError, StabilityWarning
+
+# The results' plot methods and rich displays are drawn and formatted floors
+# above the result types; those floors register them with stability.display
+# when imported, and are imported on the first plot() or display, not here.
+_display.add_provider(f"{__name__}.figures")
+_display.add_provider(f"{__name__}.reports.html")
+_display.add_provider(f"{__name__}.history.display")
 
 #: Public name -> module that defines it (relative to this package), or
 #: ``module:attribute`` where the public name differs from the defining one.

@@ -31,6 +31,8 @@ from typing import Any
 
 import numpy as np
 
+from .display import Displayable
+from .display import plot as _plot
 from .errors import InputError
 
 __all__ = ["Measurement", "Provenance", "TAU0_RANGE"]
@@ -118,7 +120,7 @@ def _check_meta(meta: dict[str, Any]) -> None:
 
 
 @dataclass(eq=False)
-class Measurement:
+class Measurement(Displayable):
     """Phase data in seconds on a uniform grid, with provenance.
 
     Build one with :meth:`from_phase` or :meth:`from_frequency` rather than
@@ -302,5 +304,30 @@ class Measurement:
         src = self.provenance.path or "memory"
         return (
             f"Measurement(n={self.n}, tau0={self.tau0:g} s, kind={self.kind!r}, "
-            f"gaps={self.gap_count()}, source={src!r})"
+            f"span={self.span:g} s, gaps={self.gap_count()}, notes={len(self.notes)}, "
+            f"source={src!r})"
         )
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The data over time, as ``stability analyze`` draws it in ``series.png``.
+
+        Parameters
+        ----------
+        ax
+            A matplotlib ``Axes`` (or a list of them) to draw into: the figure's
+            panels in order (fractional frequency first), as many as given.
+            None draws a figure of its own (``matplotlib.figure.Figure``, never
+            pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`stability.figures.series_figure` (drift curve,
+            outliers, title, footer ...).
+
+        Returns
+        -------
+        stability.figures.SeriesDrawn
+            The figure, its panels (``.axes``) and the data as drawn; it shows
+            itself in a notebook.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)

@@ -19,12 +19,14 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from .display import Displayable, register_html, register_text
 from .errors import InputError
-from .figures import run_series_figure, save_figure, stability_figure
+from .figures import run_series_figure, run_stability_figure, save_figure
 from .figures.labels import default_footer, default_title
 from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
 from .outputs import OutputSet
+from .reports.html import facts_table, judgement_html, judgement_text, result_box
 from .reports.record import RECORD_NAMES, write_record_files
 from .reports.tables import table_csv, table_markdown
 from .run import (
@@ -85,12 +87,10 @@ def _draw_stability(
     footer: str | None,
     noise_labels: Any = None,
 ) -> Path:
-    fig = stability_figure(
-        run.table,
-        model_curve=run.model_curves(),
+    fig = run_stability_figure(
+        run,
         limits=limits,
         limits_statistic=limits_statistic,
-        analysis_time=run.analysis_time,
         title=title,
         footer=footer,
         noise_labels=noise_labels,
@@ -249,8 +249,8 @@ def _refuse_record_folder(folder: Path) -> None:
 
 
 @dataclass(frozen=True)
-class RecordOutcome:
-    """A calibration record made by :func:`record_into`."""
+class RecordOutcome(Displayable):
+    """A calibration record made by :func:`record_into` (shows itself in a notebook)."""
 
     run: AnalysisRun
     judgement: Judgement
@@ -375,3 +375,33 @@ def record_into(
     return RecordOutcome(
         run, judgement, info, Path(spec_path), paths, history=stored, timing=timing
     )
+
+
+def _outcome_facts(outcome: RecordOutcome) -> list[tuple[str, str]]:
+    folder = next(iter(outcome.files.values())).parent
+    facts = [
+        ("device", outcome.info.device_id),
+        ("folder", str(folder)),
+        ("files", ", ".join(sorted(p.name for p in outcome.files.values()))),
+        ("specification", outcome.spec_path.name),
+    ]
+    if outcome.history is not None:
+        facts.append(("stored in the history", f"record {outcome.history.number}"))
+    return facts
+
+
+def _outcome_html(outcome: RecordOutcome) -> str:
+    return result_box(
+        "Calibration record",
+        facts_table(_outcome_facts(outcome)),
+        judgement_html(outcome.judgement),
+    )
+
+
+def _outcome_text(outcome: RecordOutcome) -> str:
+    facts = "\n".join(f"  {k}: {v}" for k, v in _outcome_facts(outcome))
+    return f"Calibration record\n{facts}\n{judgement_text(outcome.judgement)}"
+
+
+register_html(RecordOutcome, _outcome_html)
+register_text(RecordOutcome, _outcome_text)

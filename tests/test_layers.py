@@ -34,6 +34,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
             "stability.intervals",
             "stability.table",
             "stability.settings",
+            "stability.display",
         ),
     ),
     (1, ("stability.ingest", "stability.prepare")),

@@ -40,6 +40,8 @@ from matplotlib.axes import Axes
 from matplotlib.legend import Legend
 
 from ..deviations.registry import get_statistic
+from ..errors import InputError
+from ..run import AnalysisRun
 from ..table import StabilityTable
 from .labels import default_footer, default_title
 from .placement import LabelRequest, extent, obstacles_of, place_labels, renderer_of
@@ -67,6 +69,7 @@ from .style import (
     Frame,
     deviation_label,
     frame_for,
+    given_axes,
     is_time_statistic,
     log_axes,
     log_paper,
@@ -80,6 +83,7 @@ __all__ = [
     "SLOPES",
     "StabilityDrawn",
     "stability_figure",
+    "run_stability_figure",
     "stability_series",
     "slope_key",
     "noise_label_statistics",
@@ -414,6 +418,7 @@ def stability_figure(
     footer: str | None = None,
     analysis_time: datetime | None = None,
     into: Any = None,
+    axes: Any = None,
 ) -> StabilityDrawn:
     """The sigma-tau plot of an analysis.
 
@@ -448,6 +453,13 @@ def stability_figure(
     into
         A ``Figure`` or ``SubFigure`` (a region of a page) to draw into,
         instead of a new figure.
+    axes
+        An ``Axes`` (or one per panel: fractional-frequency statistics, then
+        time statistics) to draw the data panels into, for a figure the
+        caller lays out (a notebook's grid of plots). The panels are drawn
+        as on the figure of its own; each legend goes beside its panel, at
+        the right, the key of slopes is left out, and there is no title or
+        footer unless given.
 
     Returns
     -------
@@ -469,6 +481,21 @@ def stability_figure(
         "reference_panel": next(g[0] for g in groups if target in g),
         "reference_drawn": None,
     }
+    if axes is not None:
+        given = given_axes(axes, len(groups), "panels", into)
+        panels = [
+            _draw_panel(ax, table, names, series, extras)
+            for ax, names in zip(given, groups, strict=True)
+        ]
+        for panel in panels:
+            _legend_beside(panel, table.confidence)
+        written = _write_noise_labels(panels, table, series, labelled)
+        if title:
+            given[0].get_figure(root=False).suptitle(title, fontsize=TITLE_SIZE)
+        if footer:
+            put_footer(given[0].get_figure(root=False), footer)
+        root = given[0].get_figure(root=True)
+        return _drawn(root, panels, series, rows, (), written, table, extras)
     height = max(5.4, 1.2 + _estimate_column(groups, extras))
     frame = frame_for(into, 9.4 if len(groups) == 1 else 14.2, height)
     if title is None and frame.own:
@@ -481,6 +508,18 @@ def stability_figure(
         ax = frame.target.add_axes(frame.rect(*rect))
         panels.append(_draw_panel(ax, table, names, series, extras))
     keys = _side_column(frame, layout, panels, table.confidence)
+    written = _write_noise_labels(panels, table, series, labelled)
+    if title:
+        frame.target.suptitle(title, fontsize=TITLE_SIZE)
+    if footer:
+        put_footer(frame.target, footer)
+    return _drawn(frame.figure, panels, series, rows, keys, written, table, extras)
+
+
+def _write_noise_labels(
+    panels: list[_Panel], table: StabilityTable, series: dict[str, Series], labelled: list[str]
+) -> dict[str, list[tuple[float, str]]]:
+    """The noise labels of every panel, each where it touches nothing drawn; those written."""
     written: dict[str, list[tuple[float, str]]] = {}
     for panel in panels:
         requests, owners = _noise_requests(table, panel.names, series, labelled)
@@ -488,14 +527,37 @@ def stability_figure(
         for request, owner, label in zip(requests, owners, placed, strict=True):
             if label is not None:
                 written.setdefault(owner, []).append((float(request.xy[0]), request.text))
-    if title:
-        frame.target.suptitle(title, fontsize=TITLE_SIZE)
-    if footer:
-        put_footer(frame.target, footer)
-    axes = tuple(p.ax for p in panels)
+    return written
+
+
+def _legend_beside(panel: _Panel, level: float) -> None:
+    """A panel's legend at its right, with the error bars' confidence (drawing into axes)."""
+    if panel.entries > 1 or panel.bars:
+        panel.legend = panel.ax.legend(
+            loc="upper left",
+            bbox_to_anchor=(1.02, 1.0),
+            fontsize=LEGEND_SIZE,
+            frameon=False,
+            borderaxespad=0.0,
+            handlelength=1.8,
+            title=f"error bars: {100 * level:.3g} % confidence" if panel.bars else None,
+            title_fontsize=LEGEND_SIZE,
+        )
+
+
+def _drawn(
+    figure: Any,
+    panels: list[_Panel],
+    series: dict[str, Series],
+    rows: list[LimitRow],
+    keys: Sequence[Axes],
+    written: dict[str, list[tuple[float, str]]],
+    table: StabilityTable,
+    extras: dict[str, Any],
+) -> StabilityDrawn:
     return StabilityDrawn(
-        frame.figure,
-        axes,
+        figure,
+        tuple(p.ax for p in panels),
         series=series,
         panel={name: p.ax for p in panels for name in p.names},
         limits=tuple(rows),
@@ -504,3 +566,17 @@ def stability_figure(
         confidence=float(table.confidence),
         reference=extras["reference_drawn"],
     )
+
+
+def run_stability_figure(run: AnalysisRun, **options: Any) -> StabilityDrawn:
+    """The sigma-tau plot of an analysis run, as ``stability analyze`` draws it.
+
+    The table with its fitted power-law model, the footer dated with the run's
+    analysis time; ``options`` are those of :func:`stability_figure` (limits,
+    title, footer, noise labels, ``into``, ``axes`` ...). The command and
+    :meth:`stability.AnalysisRun.plot` both draw through this function.
+    """
+    if not isinstance(run, AnalysisRun):
+        raise InputError(f"run must be a stability.AnalysisRun, got {type(run).__name__}")
+    options.setdefault("analysis_time", run.analysis_time)
+    return stability_figure(run.table, model_curve=run.model_curves(), **options)
