@@ -19,6 +19,7 @@ from stability._version import __version__
 
 from . import (
     analyze_cmd,
+    batch_cmd,
     demo_cmd,
     history_cmd,
     inspect_cmd,
@@ -75,6 +76,7 @@ app.command("phase-noise")(phase_noise_cmd.phase_noise_command)
 app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
+app.command("batch")(batch_cmd.batch)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(

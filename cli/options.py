@@ -96,6 +96,12 @@ __all__ = [
     "STABILITY_PLOT",
     "JSON",
     "DEBUG",
+    "FLEET",
+    "MANIFEST",
+    "DEVICE_ID",
+    "AT",
+    "WORKERS",
+    "SCHEDULER",
 ]
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -397,6 +403,55 @@ JSON = _flag(
     "Print the machine-readable summary (JSON) to standard output instead of the tables.",
 )
 DEBUG = _flag("debug", "--debug", "Show the full traceback of an error.")
+
+# the options of a fleet (stability batch)
+MANIFEST = OptionSpec(
+    "manifest",
+    "--manifest",
+    Path | None,
+    None,
+    "Manifest of the fleet (CSV with a header row, or TOML): one log per row with its path, "
+    "device id, reading hints and specification.",
+    metavar="FILE",
+)
+DEVICE_ID = OptionSpec(
+    "device_id",
+    "--device-id",
+    str | None,
+    None,
+    "Regular expression giving the device id from a log's file name: its group id, else its "
+    "first group, else the match (default: the name without extensions).",
+    metavar="REGEX",
+)
+AT = OptionSpec(
+    "at",
+    "--at",
+    str,
+    "100s",
+    "Averaging time of the distribution figure, e.g. 100s.",
+    metavar="DURATION",
+    check=duration_check("--at"),
+)
+WORKERS = OptionSpec(
+    "workers",
+    "--workers",
+    int | None,
+    None,
+    "Worker processes of the local Dask cluster (default: one per core).",
+    metavar="N",
+    extra={"min": 1},
+)
+SCHEDULER = OptionSpec(
+    "scheduler",
+    "--scheduler",
+    str | None,
+    None,
+    "Address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786, instead of a local "
+    "cluster; its workers must see the logs and --out under the same paths.",
+    metavar="ADDRESS",
+)
+#: Options of a fleet run (stability batch).
+FLEET = (MANIFEST, DEVICE_ID, AT, WORKERS, SCHEDULER)
 
 #: The option groups, in the order the help lists them.
 READING = (

@@ -1,0 +1,234 @@
+"""The parts of a fleet that need no cluster: manifests, device ids, the progress file,
+the fleet table and ranking, the figures and the pages.
+
+The data are invented; the ranking's robust z-score is checked against a value
+worked by hand from its definition (median and 1.4826 MAD, common practice).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from stability.errors import InputError
+from stability.figures.fleet import distribution_figure, fleet_figure
+from stability.fleet import (
+    device_from_name,
+    fleet_frame,
+    jobs_from_patterns,
+    population,
+    rank_devices,
+    read_manifest,
+    read_progress,
+)
+from stability.fleet.state import PROGRESS_NAME, ProgressLog
+from stability.fleet.work import job_hash
+from stability.reports.fleet import fleet_html, fleet_markdown
+from stability.settings import RunSettings
+
+
+# ---------------------------------------------------------------------- manifests
+def test_manifest_errors_name_what_and_where(tmp_path):
+    bad = tmp_path / "m.csv"
+    bad.write_text("path,device,colour\na.csv,A,red\n")
+    with pytest.raises(InputError, match=r"m\.csv:2: unknown field\(s\) colour \(known fields"):
+        read_manifest(bad)
+    bad.write_text("device\nA\n")
+    with pytest.raises(InputError, match="header has no path column"):
+        read_manifest(bad)
+    bad.write_text("path,device\na.csv,A\nb.csv,A\n")
+    with pytest.raises(InputError, match=r"m\.csv:3: device id 'A' is given twice \(also at"):
+        read_manifest(bad)
+    bad.write_text("path,device\na.csv,../up\n")
+    with pytest.raises(InputError, match="device id '../up' cannot name an output folder"):
+        read_manifest(bad)
+    bad.write_text("path,strict\na.csv,maybe\n")
+    with pytest.raises(InputError, match="strict must be true or false"):
+        read_manifest(bad)
+    bad.write_text("path,device\na.csv,A,extra\n")
+    with pytest.raises(InputError, match="3 cells where the header has 2"):
+        read_manifest(bad)
+    with pytest.raises(InputError, match="no such manifest file"):
+        read_manifest(tmp_path / "none.csv")
+    toml = tmp_path / "m.toml"
+    toml.write_text("[[logs]]\npath = 'a.csv'\n")
+    with pytest.raises(InputError, match=r"unknown table\(s\) logs"):
+        read_manifest(toml)
+    toml.write_text("[[log]]\npath = 'a.csv'\ninfo = 'i.toml'\n")
+    with pytest.raises(InputError, match="an information file without a specification"):
+        read_manifest(toml)
+
+
+def test_csv_and_toml_manifests_give_the_same_jobs(tmp_path):
+    (tmp_path / "logs").mkdir()
+    base = RunSettings.from_options(stats="oadev,mdev", nominal="10MHz")
+    csv_file = tmp_path / "fleet.csv"
+    csv_file.write_text(
+        "# production week 12\n"
+        "path,device,column,tau0,spec,strict\n"
+        "logs/ocxo-1.csv,OCXO-1,2,,spec.toml,\n"
+        "logs/ocxo-2.csv,,,10s,,yes\n"
+    )
+    toml_file = tmp_path / "fleet.toml"
+    toml_file.write_text(
+        '[defaults]\nspec = "spec.toml"\n\n'
+        '[[log]]\npath = "logs/ocxo-1.csv"\ndevice = "OCXO-1"\ncolumn = "2"\n\n'
+        '[[log]]\npath = "logs/ocxo-2.csv"\ntau0 = "10s"\nstrict = true\nspec = ""\n'
+    )
+    from_csv = read_manifest(csv_file, base)
+    from_toml = read_manifest(toml_file, base)
+    assert [j.device for j in from_csv] == ["OCXO-1", "ocxo-2"]  # the name's stem by default
+    assert from_csv[0].path == tmp_path / "logs" / "ocxo-1.csv"  # from the manifest's folder
+    assert from_csv[0].spec == tmp_path / "spec.toml" and from_csv[1].spec is None
+    assert from_csv[0].settings.read.column == "2" and from_csv[0].settings.read.nominal == "10MHz"
+    assert from_csv[1].settings.read.tau0 == "10s" and from_csv[1].settings.read.strict is True
+    assert from_csv[1].settings.analysis.stats == "oadev,mdev"  # the fleet's own settings kept
+    assert [(j.device, j.path, j.settings) for j in from_csv] == [
+        (j.device, j.path, j.settings) for j in from_toml
+    ]
+    assert from_toml[1].spec is None  # an empty value takes the default back
+
+
+def test_device_ids_from_file_names(tmp_path):
+    assert device_from_name("logs/OCXO-0042.csv.gz") == "OCXO-0042"
+    assert device_from_name("bench3_OCXO-0042_night.csv", r"OCXO-(\d+)") == "0042"
+    assert device_from_name("bench3_OCXO-0042.csv", r"(?P<id>OCXO-\d+)") == "OCXO-0042"
+    assert device_from_name("rx-17.log", r"rx-\d+") == "rx-17"
+    with pytest.raises(InputError, match="does not match the file name"):
+        device_from_name("other.csv", r"OCXO-(\d+)")
+    with pytest.raises(InputError, match="is not a regular expression"):
+        device_from_name("other.csv", r"OCXO-(")
+    for name in ("b.csv", "a.csv", "sub/c.csv"):
+        (tmp_path / name).parent.mkdir(exist_ok=True)
+        (tmp_path / name).write_text("1\n")
+    jobs = jobs_from_patterns([tmp_path / "*.csv", tmp_path / "**" / "*.csv"])
+    assert [j.device for j in jobs] == ["a", "b", "c"]  # sorted, each file once
+    with pytest.raises(InputError, match="no log matches this pattern"):
+        jobs_from_patterns([tmp_path / "*.txt"])
+
+
+# ---------------------------------------------------------------------- progress file
+def test_progress_file_survives_a_torn_line_and_the_last_line_wins(tmp_path):
+    with ProgressLog(tmp_path) as log:
+        log.add({"device": "A", "status": "ok", "sha256": "1", "row": {"x": math.nan}})
+        log.add({"device": "B", "status": "ok", "sha256": "2"})
+        log.add({"device": "A", "status": "error", "sha256": "3"})
+    with open(tmp_path / PROGRESS_NAME, "a") as handle:
+        handle.write('{"format": "stability fleet progress 1", "device": "C", "sta')  # killed
+    entries = read_progress(tmp_path)
+    assert sorted(entries) == ["A", "B"]
+    assert entries["A"]["status"] == "error" and entries["A"]["sha256"] == "3"
+    assert read_progress(tmp_path / "none") == {}
+
+
+def test_job_hash_follows_settings_spec_and_outputs(tmp_path):
+    spec = tmp_path / "spec.toml"
+    spec.write_text('statistic = "oadev"\n[[limit]]\ntau_s = 1\nmax = 1e-11\n')
+    jobs = jobs_from_patterns([spec])  # any file will do as a log here
+    job = jobs[0]
+    first = job_hash(job, "oadev", (1.0,), "png", False)
+    assert first == job_hash(job, "oadev", (1.0,), "png", False)
+    assert first != job_hash(job, "oadev", (1.0,), "svg", False)
+    assert first != job_hash(job, "mdev", (1.0,), "png", False)
+    judged = type(job)(job.device, job.path, job.settings, spec=spec)
+    before = job_hash(judged, "oadev", (1.0,), "png", False)
+    spec.write_text('statistic = "oadev"\n[[limit]]\ntau_s = 1\nmax = 2e-11\n')
+    assert job_hash(judged, "oadev", (1.0,), "png", False) != before  # the spec's content counts
+
+
+# ---------------------------------------------------------------------- table and ranking
+def _result(device: str, level: float, status: str = "ok") -> dict:
+    taus = [1.0, 10.0, 100.0]
+    curve = [(t, level / math.sqrt(t)) for t in taus]
+    row = {"readings": 1000, "gaps": 0, "outliers_removed": 1, "offset": 1e-12, "noise": "WFM"}
+    for t, d in curve:
+        row[f"oadev_{t:g}s"] = d
+    return {
+        "device": device,
+        "file": f"{device}.csv",
+        "sha256": "0" * 64,
+        "status": status,
+        "error": "" if status != "error" else f"{device}.csv: no such file",
+        "row": row if status != "error" else {},
+        "curve": curve if status != "error" else [],
+        "seconds": 1.0,
+    }
+
+
+def test_fleet_frame_band_and_ranking():
+    levels = {"A": 1.0e-11, "B": 1.1e-11, "C": 1.2e-11, "D": 0.9e-11, "E": 4.0e-11}
+    results = [_result(d, v) for d, v in levels.items()] + [_result("F", 0, "error")]
+    frame = fleet_frame(results, "oadev", (1.0, 10.0, 100.0), judged=False)
+    assert list(frame["device"]) == list("ABCDEF")
+    assert frame["readings"].dtype == "Int64" and frame["status"].tolist()[-1] == "error"
+    assert "verdict" not in frame  # a fleet without a specification has no verdicts
+    # robust z of E at every tau: logs of the five levels, median log10(1.1e-11),
+    # |log10(v / 1.1e-11)| sorted: 0, log10(1.2/1.1), log10(1.1/1.0), log10(1.1/0.9), log10(4/1.1);
+    # MAD = log10(1.1), z = log10(4 / 1.1) / (1.4826 MAD)
+    expected = math.log10(4.0 / 1.1) / (1.4826 * math.log10(1.1))
+    assert frame.set_index("device").at["E", "population_z"] == pytest.approx(expected, rel=1e-12)
+    ranked = rank_devices(frame)
+    assert ranked["device"].tolist()[0] == "E" and "F" not in ranked["device"].tolist()
+    tau, med, low, high = population(
+        {d: (np.array([1.0]), np.array([v])) for d, v in levels.items()}
+    )
+    assert med[0] == pytest.approx(1.1e-11)
+    assert low[0] == pytest.approx(np.percentile(list(levels.values()), 10))
+    assert high[0] == pytest.approx(np.percentile(list(levels.values()), 90))
+
+
+def test_pages_hold_every_device_and_escape_log_text():
+    results = [_result(f"U{k}", 1e-11 * (1 + k / 10)) for k in range(5)]
+    results.append(_result("X", 0, "error"))
+    results[-1]["error"] = "<script>alert(1)</script>.csv: no such file"
+    frame = fleet_frame(results, "oadev", (1.0, 10.0), judged=False)
+    ranked = rank_devices(frame)
+    page = fleet_html(
+        frame,
+        ranked,
+        statistic="oadev",
+        key_taus=(1.0, 10.0),
+        figures={"a figure": b"\x89PNG"},
+        title="week <12>",
+    )
+    assert "<script>alert(1)</script>" not in page and "&lt;script&gt;" in page
+    assert "<title>week &lt;12&gt;</title>" in page
+    assert page.count("<tr") == 1 + len(ranked) + 1 + len(frame)
+    assert 'src="data:image/png;base64,iVBORw=="' in page
+    text = fleet_markdown(
+        frame, ranked, statistic="oadev", key_taus=(1.0, 10.0), figures={"fleet": "fleet.png"}
+    )
+    assert "6 logs: 5 analysed, 1 failed." in text and "![fleet](fleet.png)" in text
+    assert all(f"| U{k} |" in text for k in range(5))
+
+
+# ---------------------------------------------------------------------- figures
+def test_fleet_figures_draw_what_they_are_given():
+    rng = np.random.default_rng(2)  # invented curves around 1e-11 / sqrt(tau)
+    tau = np.array([1.0, 10.0, 100.0, 1000.0])
+    curves = {f"U{k}": (tau, 1e-11 * rng.uniform(0.8, 1.3) / np.sqrt(tau)) for k in range(12)}
+    band = population(curves, 3)
+    drawn = fleet_figure(
+        curves,
+        band,
+        statistic="oadev",
+        limits=[(1.0, 2e-11), (100.0, 2e-12)],
+        named=["U3", "U5", "nobody"],
+        title="fleet",
+        footer="footer",
+    )
+    assert set(drawn.curves) == set(curves) and drawn.named == ("U3", "U5")
+    assert drawn.limits == ((1.0, 2e-11), (100.0, 2e-12))
+    np.testing.assert_allclose(drawn.band[1], np.median([c[1] for c in curves.values()], axis=0))
+    values = {name: float(c[1][2]) for name, c in curves.items()}
+    spread = distribution_figure(values, 100.0, statistic="oadev", limit=2e-12, named=["U3"])
+    assert spread.counts.sum() == 12 and spread.limit == 2e-12
+    assert spread.median == pytest.approx(np.median(list(values.values())))
+    empty = distribution_figure({"U1": math.nan}, 100.0, statistic="oadev")
+    assert empty.values == {} and math.isnan(empty.median)
+    nothing = fleet_figure({}, population({}), statistic="oadev")
+    assert nothing.curves == {}
+    with pytest.raises(InputError, match="curve of 'U1'"):
+        fleet_figure({"U1": ([1.0], [1.0, 2.0])}, band, statistic="oadev")
