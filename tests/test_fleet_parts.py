@@ -7,6 +7,7 @@ worked by hand from its definition (median and 1.4826 MAD, common practice).
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -23,10 +24,14 @@ from stability.fleet import (
     read_manifest,
     read_progress,
 )
+from stability.fleet.engine import fleet_statistic
+from stability.fleet.manifest import FleetJob
 from stability.fleet.state import PROGRESS_NAME, ProgressLog
-from stability.fleet.work import job_hash
+from stability.fleet.work import FleetTask, job_hash, run_task
 from stability.reports.fleet import fleet_html, fleet_markdown
 from stability.settings import RunSettings
+from stability.simulate import h_from_deviation, simulate
+from stability.workflow import record_into
 
 
 # ---------------------------------------------------------------------- manifests
@@ -232,3 +237,80 @@ def test_fleet_figures_draw_what_they_are_given():
     assert nothing.curves == {}
     with pytest.raises(InputError, match="curve of 'U1'"):
         fleet_figure({"U1": ([1.0], [1.0, 2.0])}, band, statistic="oadev")
+
+
+# ---------------------------------------------------------------------- judged logs
+SPEC = """statistic = "oadev"
+confidence = 0.95
+[[limit]]
+tau_s = 1
+max = 1.2e-11
+[[limit]]
+tau_s = 10
+max = 3e-12
+[[limit]]
+tau_s = 100
+max = 1e-13
+"""
+
+
+def _judged_fleet(tmp_path):
+    # invented: white FM 1e-11 at 1 s; the spec passes at 1 s, is close at 10 s, fails at 100 s
+    y = simulate(2000, 1.0, levels={0: h_from_deviation(0, 1e-11, 1.0)}, seed=11)
+    log = tmp_path / "OCXO-7.txt"
+    log.write_text("fractional_frequency\n" + "".join(f"{v:.6e}\n" for v in y))
+    spec = tmp_path / "spec.toml"
+    spec.write_text(SPEC)
+    info = tmp_path / "info.toml"
+    info.write_text('[device]\nid = "OCXO-7"\n')
+    return log, spec, info
+
+
+def _task(job, folder, taus):
+    return FleetTask(job=job, folder=folder, statistic="oadev", key_taus=taus, settings_hash="h")
+
+
+def test_a_judged_log_gets_the_verdicts_of_a_record(tmp_path):
+    log, spec, info = _judged_fleet(tmp_path)
+    settings = RunSettings.from_options(tau0="1s", stats="mdev", taus="decade")
+    job = FleetJob("OCXO-7", log, settings, spec=spec, info=info)
+    statistic, taus, _ = fleet_statistic([job])
+    assert statistic == "oadev" and taus == (1.0, 10.0, 100.0)  # the specification's own
+    result = run_task(_task(job, tmp_path / "out" / "OCXO-7", taus))
+    assert result["status"] == "ok", result["error"]
+    record = record_into(log, tmp_path / "single", spec, info, settings)
+    row = result["row"]
+    assert row["verdict"] == str(record.judgement.overall) == "fail"
+    for check in record.judgement.listed:
+        assert row[f"verdict_{check.tau_s:g}s"] == str(check.verdict)
+        assert row[f"oadev_{check.tau_s:g}s"] == check.deviation
+    ratios = [c.deviation / c.limit for c in record.judgement.listed]
+    assert row["worst_ratio"] == max(ratios) > 1
+    names = {p.name for p in (tmp_path / "out" / "OCXO-7").iterdir()}
+    assert {"record.pdf", "record.json", "summary.json", "sigma_tau.png"} <= names
+    # judged without an information file: the same verdicts, the analysis outputs only
+    bare = FleetJob("OCXO-7", log, settings, spec=spec)
+    again = run_task(_task(bare, tmp_path / "bare", taus))
+    assert again["row"] == row
+    assert "record.pdf" not in {p.name for p in (tmp_path / "bare").iterdir()}
+    # an information file naming another device is refused for this one
+    other = FleetJob("OCXO-8", log, settings, spec=spec, info=info)
+    refused = run_task(_task(other, tmp_path / "other", taus))
+    assert refused["status"] == "error"
+    assert "the information file is for device 'OCXO-7', not 'OCXO-8'" in refused["error"]
+    assert not (tmp_path / "other").exists()
+
+
+def test_a_finished_log_is_skipped_only_while_input_settings_and_outputs_hold(tmp_path):
+    log, spec, _ = _judged_fleet(tmp_path)
+    job = FleetJob("OCXO-7", log, RunSettings.from_options(tau0="1s"))
+    folder = tmp_path / "out"
+    first = run_task(_task(job, folder, (1.0,)))
+    entry = {**first, "status": "ok"}
+    skipped = run_task(dataclasses.replace(_task(job, folder, (1.0,)), previous=entry))
+    assert skipped["status"] == "skipped" and skipped["row"] == first["row"]
+    moved = dataclasses.replace(_task(job, folder, (1.0,)), previous=entry, settings_hash="new")
+    assert run_task(moved)["status"] == "ok"  # other settings: done again
+    (folder / "summary.json").unlink()
+    gone = dataclasses.replace(_task(job, folder, (1.0,)), previous=entry)
+    assert run_task(gone)["status"] == "ok"  # outputs removed meanwhile: done again

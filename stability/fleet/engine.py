@@ -104,7 +104,13 @@ def fleet_statistic(
 
 def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any, str | None]:
     """(client, local cluster or None, dashboard address or None)."""
-    from dask.distributed import Client, LocalCluster
+    try:
+        from dask.distributed import Client, LocalCluster
+    except ImportError:
+        raise InputError(
+            "a fleet runs on Dask, which is not installed",
+            hint="pip install 'stability[fleet]' (dask[distributed])",
+        ) from None
 
     if scheduler is not None:
         try:

@@ -21,10 +21,10 @@ from pathlib import Path
 from typing import Any
 
 from .._version import __version__
-from ..errors import StabilityError
+from ..errors import InputError, StabilityError
 from ..files import settings_hash, sha256_file
 from ..run import AnalysisRun
-from ..spec import Judgement, Spec, judge, load_spec
+from ..spec import Judgement, Spec, judge, load_info, load_spec
 from ..workflow import analyze_into, record_into, spec_settings
 from .manifest import FleetJob
 
@@ -180,6 +180,13 @@ def _analyse(task: FleetTask) -> tuple[AnalysisRun, Judgement | None]:
         run, _ = analyze_into(job.path, task.folder, job.settings, plot_format=task.plot_format)
         return run, None
     if job.info is not None:
+        named = load_info(job.info).device_id
+        if named != job.device:  # a record must not carry another device's id
+            raise InputError(
+                f"the information file is for device {named!r}, not {job.device!r}",
+                path=str(job.info),
+                hint="give each device its own information file (the manifest's info field)",
+            )
         outcome = record_into(
             job.path,
             task.folder,
