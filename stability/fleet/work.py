@@ -14,6 +14,8 @@ gives a row with status ``error`` and its one-line message.
 from __future__ import annotations
 
 import math
+import os
+import resource
 import time
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -219,7 +221,9 @@ def run_task(task: FleetTask) -> dict[str, Any]:
     Keys: ``device``, ``file``, ``sha256``, ``status`` (``ok``, ``skipped`` for
     a log finished by an earlier run with the same input and settings, or
     ``error``), ``error`` (the one-line message), ``seconds``, ``row`` (the
-    fleet-table values) and ``curve`` (the statistic's (tau, deviation) pairs).
+    fleet-table values), ``curve`` (the statistic's (tau, deviation) pairs),
+    ``worker`` (host:pid) and ``worker_peak_mb`` (that process's peak resident
+    memory so far, MiB).
     Only an interruption (``KeyboardInterrupt``) is raised.
     """
     start = time.perf_counter()
@@ -249,4 +253,7 @@ def run_task(task: FleetTask) -> dict[str, Any]:
         text = " ".join(str(exc).split()) or type(exc).__name__
         out.update(status="error", error=f"{job.path}: internal error: {text}")
     out["seconds"] = time.perf_counter() - start
+    # the worker process's peak resident memory so far (Linux reports KiB), for sizing a cluster
+    out["worker"] = f"{os.uname().nodename}:{os.getpid()}"
+    out["worker_peak_mb"] = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     return out
