@@ -276,3 +276,36 @@ def test_fleet_page_in_headless_chromium(fleet, tmp_path):
     pixels = matplotlib.image.imread(shot)[..., :3]
     assert pixels.std() > 0.05  # not blank: figures and table drawn
     assert (pixels < 0.5).mean() > 0.01  # dark pixels of text and lines
+
+
+def test_a_running_scheduler_takes_the_fleet(tmp_path):
+    from dask.distributed import Client, LocalCluster
+
+    from stability.fleet import batch, jobs_from_patterns
+
+    for k in range(3):
+        y = simulate(N, 1.0, levels={0: h_from_deviation(0, _level(k), 1.0)}, seed=500 + k)
+        (tmp_path / f"rx-{k}.txt").write_text(
+            "fractional_frequency\n" + "".join(f"{v:.6e}\n" for v in y)
+        )
+    jobs = jobs_from_patterns([tmp_path / "rx-*.txt"], RunSettings.from_options(tau0="1s"))
+    results, dashboards = [], []
+    with (
+        LocalCluster(
+            n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1",
+            dashboard_address=None,
+        ) as cluster,
+        Client(cluster) as client,
+    ):  # fmt: skip
+        pids = set(client.run(os.getpid).values())
+        frame = batch(
+            jobs,
+            tmp_path / "out",
+            scheduler=cluster.scheduler_address,
+            on_start=dashboards.append,
+            on_result=lambda done, total, result: results.append(result),
+        )
+        assert len(client.scheduler_info()["workers"]) == 1  # the cluster outlives the batch
+    assert (frame["status"] == "ok").all() and len(frame) == 3
+    assert {int(r["worker"].rsplit(":", 1)[1]) for r in results} == pids  # its worker did it
+    assert len(dashboards) == 1  # the scheduler's dashboard address, if it serves one

@@ -314,3 +314,27 @@ def test_a_finished_log_is_skipped_only_while_input_settings_and_outputs_hold(tm
     (folder / "summary.json").unlink()
     gone = dataclasses.replace(_task(job, folder, (1.0,)), previous=entry)
     assert run_task(gone)["status"] == "ok"  # outputs removed meanwhile: done again
+
+
+# ---------------------------------------------------------------------- the command line
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["a.csv", "--manifest", "m.csv"], "give either a --manifest or log patterns, not both"),
+        ([], "no logs given"),
+        (["a.csv", "--device-id", "OCXO-("], "is not a regular expression"),
+        (["a.csv", "--info", "i.toml"], "--info needs --spec"),
+        (["a.csv", "--at", "soon"], "--at"),
+        (["a.csv", "--workers", "0"], "--workers"),
+    ],
+)
+def test_batch_usage_errors_are_one_line_exit_2(args, message, tmp_path, monkeypatch):
+    from typer.testing import CliRunner
+
+    from stability_cli.main import app
+
+    monkeypatch.chdir(tmp_path)
+    result = CliRunner().invoke(app, ["batch", *args])
+    assert result.exit_code == 2, result.output
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("error:") and message in lines[0], lines

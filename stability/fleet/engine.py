@@ -121,7 +121,8 @@ def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any, str |
                 path=scheduler,
                 hint="check the address (tcp://host:8786) and that the scheduler runs",
             ) from None
-        return client, None, client.dashboard_link
+        services = client.scheduler_info().get("services", {})
+        return client, None, client.dashboard_link if "dashboard" in services else None
     count = workers if workers is not None else (os.cpu_count() or 1)
     # the dashboard needs bokeh; like the cluster it listens on the loopback address only
     dashboard = f"{LOCAL_HOST}:8787" if importlib.util.find_spec("bokeh") is not None else None
