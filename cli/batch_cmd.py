@@ -30,6 +30,7 @@ from .options import (
     ANALYSING,
     FLEET,
     JSON,
+    OUT,
     PREPARING,
     READING,
     TAUS,
@@ -90,6 +91,7 @@ PatternsArg = Annotated[
             + " Default here: decade, so the fleet table's 1, 10, 100 s are measured.",
         ),
         TITLE.but(help="Title of the fleet figures and pages (default: fleet of N logs)."),
+        OUT.but(help="Output folder (default: fleet-stability/ in the current folder)."),
         JSON.but(help="Print the fleet table (JSON records) to standard output."),
     ),
 )

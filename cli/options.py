@@ -447,7 +447,7 @@ SCHEDULER = OptionSpec(
     str | None,
     None,
     "Address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786, instead of a local "
-    "cluster; its workers must see the logs and --out under the same paths.",
+    "cluster; its workers must see the logs and the output folder under the same paths.",
     metavar="ADDRESS",
 )
 #: Options of a fleet run (stability batch).

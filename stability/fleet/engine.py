@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import contextlib
 import importlib.util
+import logging
 import os
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -132,6 +133,7 @@ def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any, str |
         processes=True,
         host=LOCAL_HOST,
         dashboard_address=dashboard,
+        silence_logs=logging.ERROR,  # the command line speaks in its own one-line messages
     )
     client = Client(cluster)
     return client, cluster, client.dashboard_link if dashboard is not None else None

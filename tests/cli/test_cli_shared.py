@@ -42,6 +42,7 @@ SHARED = {
     "overlay": READING + PREPARING + ANALYSING + WRITING,
     "separate": READING + PREPARING + ANALYSING + WRITING,
     "timeline": READING + PREPARING + ANALYSING + WRITING,
+    "batch": READING + PREPARING + ANALYSING + WRITING,
     "phase-noise": READING + PREPARING + ("--stats", "--confidence") + WRITING,
     "inspect": READING + ("--json",),
     "simulate": ("--tau0", "--nominal"),
