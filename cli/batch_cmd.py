@@ -159,6 +159,7 @@ def batch(
             workers=given["workers"],
             scheduler=given["scheduler"],
             title=opts.title,
+            inputs=[manifest] if manifest is not None else [],
             on_start=started,
             on_result=finished,
         )

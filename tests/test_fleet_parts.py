@@ -338,3 +338,31 @@ def test_batch_usage_errors_are_one_line_exit_2(args, message, tmp_path, monkeyp
     assert result.exit_code == 2, result.output
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith("error:") and message in lines[0], lines
+
+
+def test_a_fleet_never_writes_over_its_manifest_and_logs_and_shows_its_progress(tmp_path):
+    import io
+
+    from rich.console import Console
+
+    from stability.fleet import batch
+    from stability_cli.progress import LogsProgress
+
+    manifest = tmp_path / "fleet.csv"
+    manifest.write_text("path,device\nlog.txt,A\n")
+    jobs = read_manifest(manifest)
+    with pytest.raises(InputError, match="the output fleet.csv would overwrite the input file"):
+        batch(jobs, tmp_path, inputs=[manifest])  # refused before any cluster starts
+    with pytest.raises(InputError, match="the output fleet.csv would overwrite the input file"):
+        batch(manifest, tmp_path)
+    assert manifest.read_text() == "path,device\nlog.txt,A\n"
+    screen = io.StringIO()
+    console = Console(file=screen, force_terminal=True, width=100)
+    with LogsProgress(console=console) as bar:
+        bar.update(1, 3, {"status": "ok"})
+        bar.update(2, 3, {"status": "error"})
+        console.file.flush()
+    assert bar.shown and bar.failed == 1 and "logs (1 failed)" in screen.getvalue()
+    with LogsProgress(console=Console(file=io.StringIO())) as quiet:  # not a terminal
+        quiet.update(1, 1, {"status": "ok"})
+    assert not quiet.shown

@@ -128,6 +128,7 @@ def batch(
     workers: int | None = None,
     scheduler: str | None = None,
     title: str | None = None,
+    inputs: Sequence[str | os.PathLike[str]] = (),
     on_start: OnStart | None = None,
     on_result: OnResult | None = None,
     **options: Any,
@@ -156,6 +157,9 @@ def batch(
         the address of a running Dask scheduler.
     title
         The heading of the figures and pages (default ``fleet of N logs``).
+    inputs
+        Further input files no output may overwrite (the manifest the jobs
+        came from; a manifest given as ``jobs`` is protected anyway).
     on_start, on_result
         Called when the cluster is up (with the dashboard's address) and as
         each log finishes (done, total, result).
@@ -174,8 +178,9 @@ def batch(
     if not (at > 0 and math.isfinite(at)):
         raise InputError(f"at must be a positive tau in seconds, got {at!r}")
     names, stale = fleet_names()
-    inputs = [p for job in listed for p in (job.path, job.spec, job.info) if p is not None]
-    with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
+    protected = [*inputs, *([jobs] if isinstance(jobs, (str, os.PathLike)) else [])]
+    protected += [p for job in listed for p in (job.path, job.spec, job.info) if p is not None]
+    with OutputSet(folder, names, inputs=protected, stale=stale) as out:
         run = run_fleet(
             listed,
             folder,
