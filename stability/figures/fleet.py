@@ -208,10 +208,10 @@ def fleet_figure(
             lv,
             color=LIMIT_COLOR,
             linestyle="--",
-            linewidth=1.2,
+            linewidth=1.6,
             marker="_",
-            markersize=10,
-            zorder=3,
+            markersize=12,
+            zorder=6,  # above every curve: the line the fleet is judged against
             label="specification limit",
         )
     ax.set_xlabel(TAU_LABEL, fontsize=LABEL_SIZE)

@@ -41,7 +41,7 @@ from .table import curves_of, fleet_frame, population, rank_devices
 
 __all__ = ["batch", "fleet_names", "NAMED_DEVICES"]
 
-#: How many devices the fleet figure names.
+#: How many devices the fleet figure names at most (and a quarter of the fleet at most).
 NAMED_DEVICES = 5
 #: Devices needed at a tau for the fleet figure's median and band there.
 _BAND_MINIMUM = 3
@@ -89,7 +89,9 @@ def _draw(
     run: FleetRun, ranking: pd.DataFrame, at: float, title: str, moment: datetime
 ) -> dict[str, Any]:
     curves = curves_of(run.results)
-    named = list(ranking["device"].head(NAMED_DEVICES))
+    # a quarter of the finished devices at most, so a small fleet is not all in colour
+    count = min(NAMED_DEVICES, max(1, len(curves) // 4))
+    named = list(ranking["device"].head(count))
     spec = next(iter(run.specs.values())) if len(run.specs) == 1 else None
     limits = spec.limits if spec is not None and spec.statistic == run.statistic else None
     footer = tool_footer(moment)
