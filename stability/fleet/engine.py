@@ -24,6 +24,7 @@ References
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import importlib.util
 import logging
 import os
@@ -149,6 +150,16 @@ def _tidy(folder: Path) -> None:
         folder.rmdir()  # only when empty
 
 
+def _absolute(job: FleetJob) -> FleetJob:
+    """The job with its files named by absolute paths (from this process's folder)."""
+    return dataclasses.replace(
+        job,
+        path=job.path.absolute(),
+        spec=job.spec.absolute() if job.spec is not None else None,
+        info=job.info.absolute() if job.info is not None else None,
+    )
+
+
 def _error(job: FleetJob, message: str, settings_hash: str) -> dict[str, Any]:
     return {
         "device": job.device,
@@ -195,6 +206,8 @@ def run_fleet(
     tasks = []
     for job in jobs:
         digest = job_hash(job, stat, taus, plot_format, force)
+        if scheduler is not None:  # workers elsewhere run in other folders: absolute paths
+            job = _absolute(job)
         entry = previous.get(job.device)
         tasks.append(
             FleetTask(
