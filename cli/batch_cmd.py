@@ -12,6 +12,7 @@ skips the logs finished with unchanged input and settings.
 from __future__ import annotations
 
 import json
+import os
 from pathlib import Path
 from typing import Annotated
 
@@ -136,11 +137,14 @@ def batch(
         )
 
     def started(dashboard: str | None) -> None:
-        where = given["scheduler"] or f"a local cluster of {given['workers'] or 'one per core'}"
-        if not opts.json:
-            echo(f"{len(jobs)} logs on {where} worker(s)", err=True)
-            if dashboard:
-                echo(f"Dask dashboard: {dashboard}", err=True)
+        if given["scheduler"] is not None:
+            where = f"the workers of the Dask scheduler {given['scheduler']}"
+        else:
+            where = f"a local cluster of {given['workers'] or os.cpu_count() or 1} worker processes"
+        if bar.shown:  # on a terminal only, as the bar
+            echo(f"{len(jobs)} logs on {where}", err=True)
+        if dashboard and not opts.json:
+            echo(f"Dask dashboard: {dashboard}", err=True)
 
     resumed = []
 
