@@ -6,7 +6,7 @@
     frame = batch("manifest.toml", "out/")                        # a manifest, CSV or TOML
     frame = batch(jobs_from_patterns(["logs/*.csv"]), "out/", workers=2)
 
-The package has five parts:
+The package has these parts:
 
 :mod:`stability.fleet.manifest`
     the jobs of a fleet, from a manifest or from file-name patterns;
