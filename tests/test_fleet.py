@@ -213,10 +213,12 @@ def test_fleet_outputs(fleet):
         assert pd.read_parquet(out / "fleet.parquet")["device"].tolist() == frame["device"].tolist()
     text = (out / "fleet.md").read_text()
     assert "20 logs: 18 analysed, 2 failed." in text
+    assert "Settings of every log: outliers 5, drift none, average 1, stats oadev,mdev" in text
     assert all(f"| OCXO-{k:02d} |" in text for k in range(20))
     page = (out / "fleet.html").read_text()
     assert "http://" not in page and "https://" not in page  # nothing to fetch
     assert page.count('src="data:image/png;base64,') == 2
+    assert '<p id="settings">Settings of every log:' in page
     # the progress file holds the 18 finished logs and the 2 failed ones, one line each
     entries = read_progress(out)
     assert sorted(e["status"] for e in entries.values()) == ["error"] * 2 + ["ok"] * GOOD

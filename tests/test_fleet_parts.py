@@ -28,7 +28,7 @@ from stability.fleet.engine import fleet_statistic
 from stability.fleet.manifest import FleetJob
 from stability.fleet.state import PROGRESS_NAME, ProgressLog
 from stability.fleet.work import FleetTask, job_hash, run_task
-from stability.reports.fleet import fleet_html, fleet_markdown
+from stability.reports.fleet import fleet_html, fleet_markdown, settings_line
 from stability.settings import RunSettings
 from stability.simulate import h_from_deviation, simulate
 from stability.workflow import record_into
@@ -366,3 +366,17 @@ def test_a_fleet_never_writes_over_its_manifest_and_logs_and_shows_its_progress(
     with LogsProgress(console=Console(file=io.StringIO())) as quiet:  # not a terminal
         quiet.update(1, 1, {"status": "ok"})
     assert not quiet.shown
+
+
+def test_the_pages_say_the_fleet_settings_and_what_a_specification_changes(tmp_path):
+    from stability.fleet.batch import _shared_settings
+
+    settings = RunSettings.from_options(stats="oadev", drift="linear")
+    plain = FleetJob("A", tmp_path / "a.csv", settings)
+    judged = FleetJob("B", tmp_path / "b.csv", settings, spec=tmp_path / "spec.toml")
+    line = settings_line(_shared_settings([plain, plain]))
+    assert "stats oadev" in line and "drift linear" in line and "confidence 0.683" in line
+    mixed = settings_line(_shared_settings([plain, judged]))
+    assert "confidence 0.683 (the specification's level where judged)" in mixed
+    other = FleetJob("C", tmp_path / "c.csv", settings.replace(stats="mdev"))
+    assert _shared_settings([plain, other]) == {}  # differing settings are not summed up

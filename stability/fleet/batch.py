@@ -16,6 +16,7 @@ SIGTERM writes none of them; its progress file lets the next run resume.
 
 from __future__ import annotations
 
+import dataclasses
 import importlib.util
 import math
 import os
@@ -117,6 +118,29 @@ def _draw(
     return {"fleet.png": fleet, "fleet_distribution.png": spread}
 
 
+def _shared_settings(jobs: Sequence[FleetJob]) -> dict[str, Any]:
+    """The preparation and analysis settings every log shares (empty when they differ).
+
+    A judged log adds its specification's statistic and uses its confidence
+    level, as a calibration record does; the line says so.
+    """
+    shared = [
+        {**dataclasses.asdict(j.settings.prepare), **dataclasses.asdict(j.settings.analysis)}
+        for j in jobs
+    ]
+    if any(s != shared[0] for s in shared[1:]):
+        return {}
+    out = dict(shared[0])
+    judged = sum(job.spec is not None for job in jobs)
+    if judged == len(jobs):
+        out["confidence"] = "the specification's level"
+    elif judged:
+        out["confidence"] = f"{out['confidence']:g} (the specification's level where judged)"
+    if judged:
+        out["stats"] = f"{out['stats']} and the specification's statistic"
+    return out
+
+
 def batch(
     jobs: Sequence[FleetJob] | str | os.PathLike[str],
     folder: str | os.PathLike[str],
@@ -214,6 +238,7 @@ def batch(
             "key_taus": run.key_taus,
             "title": heading,
             "generated": analysis_date(moment),
+            "settings": _shared_settings(listed),
         }
         out.write_text("fleet.md", fleet_markdown(frame, ranking, figures=captions, **common))
         images = {c: Path(out.path(n)).read_bytes() for c, n in captions.items()}

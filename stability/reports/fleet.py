@@ -21,7 +21,14 @@ import pandas as pd
 
 from .._version import __version__
 
-__all__ = ["fleet_markdown", "fleet_html", "CAUTION", "fleet_counts", "format_cell"]
+__all__ = [
+    "fleet_markdown",
+    "fleet_html",
+    "CAUTION",
+    "fleet_counts",
+    "format_cell",
+    "settings_line",
+]
 
 CAUTION = (
     "Each verdict covers one statistic at the listed taus of its specification, from this "
@@ -88,6 +95,14 @@ def _interval(frame: pd.DataFrame, name: str, index: Any) -> str:
     return ""
 
 
+def settings_line(settings: Mapping[str, Any]) -> str:
+    """The fleet's shared settings in one line (each log's own are in its summary.json)."""
+    shown = ", ".join(
+        f"{k} {format_cell(v) if v is not None else 'default'}" for k, v in settings.items()
+    )
+    return f"Settings of every log: {shown}; each log's reading in its summary.json."
+
+
 def _md_escape(text: str) -> str:
     return text.replace("|", "\\|").replace("\n", " ")
 
@@ -111,15 +126,19 @@ def fleet_markdown(
     figures: Mapping[str, str],
     title: str = "Fleet",
     generated: str = "",
+    settings: Mapping[str, Any] | None = None,
 ) -> str:
     """``fleet.md``: counts, ranking, the table (value [interval] at the key taus), figures.
 
-    ``figures`` maps a caption to the figure's file name beside the page.
+    ``figures`` maps a caption to the figure's file name beside the page;
+    ``settings`` are the fleet's shared settings, listed under the counts.
     """
     counts = fleet_counts(frame)
     lines = [f"# {_md_escape(title)}", "", _counts_line(counts) + ".", ""]
     if generated:
         lines += [f"Made by stability {__version__} on {generated}.", ""]
+    if settings:
+        lines += [_md_escape(settings_line(settings)), ""]
     for caption, name in figures.items():
         lines += [f"![{_md_escape(caption)}]({name})", ""]
     if len(ranking):
@@ -142,8 +161,12 @@ def fleet_markdown(
                 text += _interval(frame, name, index)
             cells.append(_md_escape(text))
         lines.append("| " + " | ".join(cells) + " |")
-    lines += ["", "Intervals are the analysis's confidence intervals; "
-              "offset is the mean fractional frequency.", ""]  # fmt: skip
+    lines += [
+        "",
+        "Intervals are the analysis's confidence intervals; "
+        "offset is the mean fractional frequency.",
+        "",
+    ]
     if "verdict" in frame:
         lines += ["## Caution", "", CAUTION, ""]
     return "\n".join(lines)
@@ -225,6 +248,7 @@ def fleet_html(
     figures: Mapping[str, bytes],
     title: str = "Fleet",
     generated: str = "",
+    settings: Mapping[str, Any] | None = None,
 ) -> str:
     """``fleet.html``: one self-contained page (see the module doc).
 
@@ -240,8 +264,11 @@ def fleet_html(
         f'<p id="counts">{html.escape(_counts_line(counts))}.</p>',
     ]
     if generated:
-        parts.append(f"<p>Made by stability {html.escape(__version__)} on "
-                     f"{html.escape(generated)}.</p>")  # fmt: skip
+        parts.append(
+            f"<p>Made by stability {html.escape(__version__)} on {html.escape(generated)}.</p>"
+        )
+    if settings:
+        parts.append(f'<p id="settings">{html.escape(settings_line(settings))}</p>')
     for caption, data in figures.items():
         encoded = base64.b64encode(data).decode("ascii")
         parts.append(
