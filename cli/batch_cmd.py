@@ -29,7 +29,6 @@ from stability.units import parse_duration
 from .common import EXIT_ERROR, command_line_checks, echo
 from .options import (
     ANALYSING,
-    FLEET,
     JSON,
     OUT,
     PREPARING,
@@ -69,6 +68,50 @@ ForceOpt = Annotated[
         "--force", help="Overwrite existing calibration records (with --info), as record --force."
     ),
 ]
+ManifestOpt = Annotated[
+    Path | None,
+    typer.Option(
+        "--manifest",
+        help="Manifest of the fleet (CSV with a header row, or TOML): one log per row with its "
+        "path, device id, reading hints and specification.",
+        metavar="FILE",
+        show_default=False,
+    ),
+]
+DeviceIdOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--device-id",
+        help="Regular expression giving the device id from a log's file name: its group id, "
+        "else its first group, else the match (default: the name without extensions).",
+        metavar="REGEX",
+        show_default=False,
+    ),
+]
+AtOpt = Annotated[
+    str,
+    typer.Option("--at", help="Averaging time of the distribution figure.", metavar="DURATION"),
+]
+WorkersOpt = Annotated[
+    int | None,
+    typer.Option(
+        "--workers",
+        help="Worker processes of the local Dask cluster (default: one per core).",
+        metavar="N",
+        min=1,
+        show_default=False,
+    ),
+]
+SchedulerOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--scheduler",
+        help="Address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786, instead of a local "
+        "cluster; its workers must see the logs and the output folder under the same paths.",
+        metavar="ADDRESS",
+        show_default=False,
+    ),
+]
 PatternsArg = Annotated[
     list[str] | None,
     typer.Argument(
@@ -84,7 +127,6 @@ PatternsArg = Annotated[
     PREPARING,
     ANALYSING,
     WRITING,
-    FLEET,
     variants=(
         TAUS.but(
             default="decade",
@@ -98,9 +140,14 @@ PatternsArg = Annotated[
 )
 def batch(
     patterns: PatternsArg = None,
+    manifest: ManifestOpt = None,
+    device_id: DeviceIdOpt = None,
     spec: SpecOpt = None,
     info: InfoOpt = None,
     force: ForceOpt = False,
+    at: AtOpt = "100s",
+    workers: WorkersOpt = None,
+    scheduler: SchedulerOpt = None,
     *,
     opts: RunOptions,
 ) -> None:
@@ -112,8 +159,7 @@ def batch(
 
     Example: stability batch 'logs/*.csv' --device-id 'OCXO-(\\d+)' --spec ocxo.toml --out fleet/
     """
-    given = opts.given
-    manifest, rule = given["manifest"], given["device_id"]
+    rule = device_id
     with command_line_checks():
         if manifest is not None and patterns:
             raise InputError("give either a --manifest or log patterns, not both")
@@ -123,7 +169,7 @@ def batch(
             compile_device_rule(rule)
         if info is not None and spec is None:
             raise InputError("--info needs --spec", hint="add --spec FILE")
-        at = parse_duration(given["at"], "--at")
+        seconds = parse_duration(at, "--at")
     if spec is not None:  # a shared file is checked once, before any log is started
         load_spec(spec)
     if info is not None:
@@ -137,10 +183,10 @@ def batch(
         )
 
     def started(dashboard: str | None) -> None:
-        if given["scheduler"] is not None:
-            where = f"the workers of the Dask scheduler {given['scheduler']}"
+        if scheduler is not None:
+            where = f"the workers of the Dask scheduler {scheduler}"
         else:
-            where = f"a local cluster of {given['workers'] or os.cpu_count() or 1} worker processes"
+            where = f"a local cluster of {workers or os.cpu_count() or 1} worker processes"
         if bar.shown:  # on a terminal only, as the bar
             echo(f"{len(jobs)} logs on {where}", err=True)
         if dashboard and not opts.json:
@@ -157,11 +203,11 @@ def batch(
         frame = run_batch(
             jobs,
             folder,
-            at=at,
+            at=seconds,
             plot_format=opts.plot_format,
             force=force,
-            workers=given["workers"],
-            scheduler=given["scheduler"],
+            workers=workers,
+            scheduler=scheduler,
             title=opts.title,
             inputs=[manifest] if manifest is not None else [],
             on_start=started,

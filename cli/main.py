@@ -29,6 +29,7 @@ from . import (
     separate_cmd,
     simulate_cmd,
     timeline_cmd,
+    validate_cmd,
 )
 from .common import StabilityGroup, run_program
 
@@ -77,6 +78,7 @@ app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
 app.command("batch")(batch_cmd.batch)
+app.command("validate")(validate_cmd.validate_command)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(

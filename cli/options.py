@@ -37,6 +37,7 @@ from stability.deviations.registry import statistic_names
 from stability.ingest import KINDS
 from stability.prepare.drift import DRIFT_MODELS, check_drift_model
 from stability.settings import RunSettings
+from stability.validation import check_coverage_stats, coverage_statistics
 from stability.workflow import PLOT_FORMATS, check_plot_format
 
 from .common import guarded
@@ -96,12 +97,7 @@ __all__ = [
     "STABILITY_PLOT",
     "JSON",
     "DEBUG",
-    "FLEET",
-    "MANIFEST",
-    "DEVICE_ID",
-    "AT",
-    "WORKERS",
-    "SCHEDULER",
+    "VALIDATING",
 ]
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -404,55 +400,6 @@ JSON = _flag(
 )
 DEBUG = _flag("debug", "--debug", "Show the full traceback of an error.")
 
-# the options of a fleet (stability batch)
-MANIFEST = OptionSpec(
-    "manifest",
-    "--manifest",
-    Path | None,
-    None,
-    "Manifest of the fleet (CSV with a header row, or TOML): one log per row with its path, "
-    "device id, reading hints and specification.",
-    metavar="FILE",
-)
-DEVICE_ID = OptionSpec(
-    "device_id",
-    "--device-id",
-    str | None,
-    None,
-    "Regular expression giving the device id from a log's file name: its group id, else its "
-    "first group, else the match (default: the name without extensions).",
-    metavar="REGEX",
-)
-AT = OptionSpec(
-    "at",
-    "--at",
-    str,
-    "100s",
-    "Averaging time of the distribution figure, e.g. 100s.",
-    metavar="DURATION",
-    check=duration_check("--at"),
-)
-WORKERS = OptionSpec(
-    "workers",
-    "--workers",
-    int | None,
-    None,
-    "Worker processes of the local Dask cluster (default: one per core).",
-    metavar="N",
-    extra={"min": 1},
-)
-SCHEDULER = OptionSpec(
-    "scheduler",
-    "--scheduler",
-    str | None,
-    None,
-    "Address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786, instead of a local "
-    "cluster; its workers must see the logs and the output folder under the same paths.",
-    metavar="ADDRESS",
-)
-#: Options of a fleet run (stability batch).
-FLEET = (MANIFEST, DEVICE_ID, AT, WORKERS, SCHEDULER)
-
 #: The option groups, in the order the help lists them.
 READING = (
     KIND,
@@ -474,6 +421,37 @@ ANALYSING = (STATS, TAUS, CONFIDENCE, BIAS_CORRECTION)
 WRITING = (OUT, PLOT_FORMAT, TITLE, JSON)
 #: Options of the commands that draw the stability plot of one log (analyze, record).
 STABILITY_PLOT = (NOISE_LABELS,)
+
+#: Options of ``stability validate``: the coverage run's statistics (as given, else
+#: those of the specification, else oadev,mdev), its length, the output folder.
+VALIDATING = (
+    STATS.but(
+        type=str | None,
+        default=None,
+        help="Statistics whose confidence intervals the coverage run checks, a comma list of "
+        f"{', '.join(coverage_statistics())} (default: the statistic of --spec, else "
+        "oadev,mdev).",
+        check=lambda value: ",".join(check_coverage_stats(value)),
+    ),
+    OptionSpec(
+        "spec",
+        "--spec",
+        Path | None,
+        None,
+        "Specification file (TOML) of the lab: the coverage run checks its statistic.",
+        metavar="FILE",
+    ),
+    _flag(
+        "thorough",
+        "--thorough",
+        "The long coverage run: 2000 records of 1024 points per case and m = 1 to 128, "
+        "instead of 300 records of 512 points and m = 1, 4, 16, 64.",
+    ),
+    OUT.but(
+        help="Output folder of validation.pdf and validation.json "
+        "(default: stability-validation/ in the current folder)."
+    ),  # fmt: skip
+)
 
 #: Option names that are settings of :class:`RunSettings` (the rest are outputs).
 SETTING_NAMES = tuple(o.name for o in READING + PREPARING + ANALYSING)

@@ -55,6 +55,7 @@ _LAZY = {
     "ReadSettings": ".settings",
     "PrepareSettings": ".settings",
     "AnalysisSettings": ".settings",
+    "validate": ".validation",
 }
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
@@ -74,11 +75,22 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from .settings import AnalysisSettings, PrepareSettings, ReadSettings, RunSettings
     from .table import COLUMNS, ConfidenceInterval, StabilityTable, StatisticResult
     from .taus import tau_grid
+    from .validation import validate
     from .workflow import analyze_into, write_analysis
 
 
 #: Subpackages reached as attributes (``stability.prepare.three_point_drift``).
-_SUBPACKAGES = ("prepare", "ingest", "deviations", "spec", "figures", "reports", "history", "aging")
+_SUBPACKAGES = (
+    "prepare",
+    "ingest",
+    "deviations",
+    "spec",
+    "figures",
+    "reports",
+    "history",
+    "aging",
+    "validation",
+)
 
 
 def __getattr__(name: str) -> Any:
@@ -134,6 +146,7 @@ __all__ = [
     "get_statistic",
     "statistic_names",
     "tau_grid",
+    "validate",
     "StabilityError",
     "InputError",
     "AnalysisError",

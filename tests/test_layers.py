@@ -73,7 +73,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
     (7, ("stability.summary", "stability.run")),
     (8, ("stability.figures",)),
     (9, ("stability.reports",)),
-    (10, ("stability.workflow", "stability.history", "stability.fleet")),
+    (10, ("stability.workflow", "stability.history", "stability.fleet", "stability.validation")),
     (11, ("stability.__init__", "stability.__main__")),
     (12, ("stability_cli",)),
 ]

@@ -414,3 +414,30 @@ def test_the_checks_catch_what_they_check():
     ax4.set_xticks([1, 2])
     with pytest.raises(AssertionError, match="labelled ticks"):
         check_layout(fig4, "broken")
+
+
+def test_every_validation_page_fits(monkeypatch):
+    # a validation report with failed checks (a patched estimator) and every group's table
+    import dataclasses
+    import json
+
+    from stability.deviations import STATISTICS
+    from stability.validation import report as validation_report
+    from stability.validation.coverage import CoveragePlan
+    from stability.validation.pages import validation_pages
+
+    monkeypatch.setattr(
+        validation_report, "DEFAULT_PLAN", CoveragePlan(points=128, trials=60, factors=(1, 4))
+    )
+    stat = STATISTICS["mdev"]
+
+    def off(x, tau0, m, seg):
+        value, n = stat.func(x, tau0, m, seg)
+        return value * 1.001, n
+
+    monkeypatch.setitem(STATISTICS, "mdev", dataclasses.replace(stat, func=off, multi=None))
+    result = validation_report.run_checks(stats="oadev")
+    report = json.loads(validation_report.validation_json(result))
+    assert report["result"] == "fail"
+    for k, page in enumerate(validation_pages(report), start=1):
+        check_layout(page, f"validation page {k}")
