@@ -19,6 +19,7 @@ from stability._version import __version__
 
 from . import (
     analyze_cmd,
+    batch_cmd,
     capture_cmd,
     demo_cmd,
     history_cmd,
@@ -80,6 +81,7 @@ app.command("phase-noise")(phase_noise_cmd.phase_noise_command)
 app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
+app.command("batch")(batch_cmd.batch)
 app.command("validate")(validate_cmd.validate_command)
 app.command("time-error")(time_error_cmd.time_error)
 app.command("masks")(masks_cmd.masks)

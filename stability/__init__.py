@@ -60,6 +60,7 @@ _LAZY = {
     "read_and_prepare": ".run",
     "write_analysis": ".workflow",
     "analyze_into": ".workflow",
+    "batch": ".fleet",
     "PreparationReport": ".prepare",
     "prepare_measurement": ".prepare:prepare",
     "RunSettings": ".settings",
@@ -74,6 +75,7 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from .analysis import analyze, estimate
     from .deviations import STATISTICS, get_statistic, statistic_names
     from .dynamic import dynamic_stability
+    from .fleet import batch
     from .hat import separate
     from .ingest import LogReport, inspect_log, read_log
     from .measurement import Measurement, Provenance
@@ -135,6 +137,7 @@ __all__ = [
     "read_and_prepare",
     "write_analysis",
     "analyze_into",
+    "batch",
     "RunSettings",
     "ReadSettings",
     "PrepareSettings",

@@ -38,13 +38,14 @@ from .run import (
     resolve_settings,
 )
 from .settings import RunSettings
-from .spec import Info, Judgement, judge, load_info, load_spec
+from .spec import Info, Judgement, Spec, judge, load_info, load_spec
 from .summary import summary_json
 from .timing import Mask, TimeErrorAnalysis, analyze_time_error, load_mask, read_sawtooth
 
 __all__ = [
     "analyze_into",
     "record_into",
+    "spec_settings",
     "RecordOutcome",
     "write_analysis",
     "output_names",
@@ -162,6 +163,7 @@ def analyze_into(
     limits_statistic: str | None = None,
     title: str | None = None,
     noise_labels: Any = None,
+    spec: Spec | None = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
     **options: Any,
@@ -171,7 +173,9 @@ def analyze_into(
     ``settings`` (or keyword settings as :func:`stability.run_analysis` takes
     them) say what to do; ``title`` replaces the stability figure's title and
     ``noise_labels`` says whose noise types it writes (see
-    :func:`stability.figures.stability_figure`). The
+    :func:`stability.figures.stability_figure`). With ``spec`` (settings made
+    with :func:`spec_settings`) the stability figure draws the specification's
+    limits coloured by their verdicts, as the calibration record does. The
     five files appear together or not at all
     (:class:`stability.outputs.OutputSet`): an output that would overwrite the
     log is refused before anything is read, a folder another run is writing
@@ -190,6 +194,8 @@ def analyze_into(
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
         moment = datetime.now(UTC)
         run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
+        if spec is not None:
+            limits, limits_statistic = judge(run.table, spec).plot_limits(), spec.statistic
         pending = _paths(out.pending, fmt)
         _write_all(
             run,
@@ -246,6 +252,23 @@ def _refuse_record_folder(folder: Path) -> None:
             path=str(folder),
             hint="pass another --out, or make the record again with stability record --force",
         )
+
+
+def spec_settings(
+    settings: RunSettings, spec: Spec, confidence: float | None = None
+) -> RunSettings:
+    """The settings of a run judged against ``spec``, as the calibration record makes them.
+
+    The specification's statistic is added to the statistics when missing, and
+    its confidence level is used unless ``confidence`` is given.
+    """
+    stats = settings.analysis.stats
+    wanted = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
+    wanted = [s for s in wanted if s]
+    if spec.statistic not in wanted:
+        wanted.append(spec.statistic)
+    level = spec.confidence if confidence is None else confidence
+    return settings.replace(stats=",".join(wanted), confidence=level)
 
 
 @dataclass(frozen=True)
@@ -329,13 +352,7 @@ def record_into(
     mask = load_mask(mask) if isinstance(mask, str | os.PathLike) else mask
     names, stale = output_names(fmt)
     inputs = [log, spec_path, info_path, *([history] if history is not None else []), *mask_file]
-    stats = settings.analysis.stats
-    wanted = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
-    wanted = [s for s in wanted if s]
-    if spec.statistic not in wanted:
-        wanted.append(spec.statistic)
-    level = spec.confidence if confidence is None else confidence
-    settings = settings.replace(stats=",".join(wanted), confidence=level)
+    settings = spec_settings(settings, spec, confidence)
     store = open_history(history) if history is not None else None
     # the record's own files first: they are what --force is about
     with (

@@ -82,6 +82,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
             "stability.history",
             "stability.validation",
             "stability.live",
+            "stability.fleet",
         ),
     ),
     (11, ("stability.__init__", "stability.__main__")),

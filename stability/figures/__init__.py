@@ -9,6 +9,7 @@
 ``phase_noise``  stability from a phase-noise table (:func:`phase_noise_figure`)
 ``timeline``     stability over time (:func:`timeline_figure`)
 ``overlay``      several analyses on one plot (:func:`overlay_figure`)
+``fleet``        a fleet's curves, band and spread (:mod:`stability.figures.fleet`)
 ``save``         writing PNG, SVG or PDF atomically (:func:`save_figure`)
 ``ticks``        tick positions and plain-text tick labels (three or more on any axis)
 ``placement``    labels placed beside their points where they touch nothing drawn

@@ -77,6 +77,10 @@ __all__ = [
     "GUIDE_COLOR",
     "NOTE_COLOR",
     "LIMIT_COLOR",
+    "FLEET_CURVE",
+    "FLEET_MEDIAN_COLOR",
+    "FLEET_BAND",
+    "FLEET_NAMED_COLORS",
     "TITLE_SIZE",
     "LABEL_SIZE",
     "SMALL_LABEL_SIZE",
@@ -205,6 +209,15 @@ VERDICT_COLORS = {
     "inconclusive": "#d08c2a",
     "not measured": "#9a9a9a",
 }
+
+#: A fleet figure: every device's curve faint, the population's median and 10-90 % band,
+#: and the colours of the devices it names (furthest from the population or the limit).
+FLEET_CURVE = {"color": "#8c8c8c", "linewidth": 0.6, "alpha": 0.35}
+FLEET_MEDIAN_COLOR = OKABE_ITO["blue"]
+FLEET_BAND = {"color": OKABE_ITO["sky blue"], "alpha": 0.3}
+FLEET_NAMED_COLORS = tuple(
+    OKABE_ITO[c] for c in ("vermillion", "orange", "reddish purple", "bluish green", "black")
+)
 
 #: Colours of series that are not statistics (the oscillators of a hat), in drawing order.
 ORDERED_COLORS = tuple(

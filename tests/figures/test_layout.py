@@ -41,7 +41,9 @@ from stability.figures import (
     stability_figure,
     timeline_figure,
 )
+from stability.figures.fleet import distribution_figure, fleet_figure
 from stability.figures.timing import mask_figure, tie_figure
+from stability.fleet import population
 from stability.hat import separate
 from stability.phase_noise import model_to_phase_noise, phase_noise_to_stability
 from stability.reports.record import build_record, record_pages
@@ -335,6 +337,27 @@ def test_overlay_fits():
         y = simulate(2048, 1.0, levels={0: h_from_deviation(0, level, 1.0)}, seed=seed)
         tables[label] = analyze(Measurement.from_frequency(y, 1.0), stats="oadev,mdev,tdev")
     check_layout(overlay_figure(tables).figure, "overlay")
+
+
+def test_fleet_figures_fit():
+    rng = np.random.default_rng(6)  # invented: 40 devices around 1e-11 / sqrt(tau)
+    tau = np.array([1.0, 2.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0, 500.0, 1000.0])
+    curves = {
+        f"OCXO-{k:04d}": (tau, 1e-11 * rng.lognormal(0.0, 0.2) / np.sqrt(tau)) for k in range(40)
+    }
+    named = ["OCXO-0007", "OCXO-0012", "OCXO-0031", "OCXO-0002", "OCXO-0039"]
+    limits = [(1.0, 2e-11), (100.0, 2e-12)]
+    title, footer = "fleet of 40 logs: oadev", "stability · analysed today"
+    band = population(curves, 3)
+    drawn = fleet_figure(
+        curves, band, statistic="oadev", limits=limits, named=named, title=title, footer=footer
+    )
+    check_layout(drawn.figure, "fleet")
+    values = {name: float(c[1][6]) for name, c in curves.items()}
+    spread = distribution_figure(
+        values, 100.0, statistic="oadev", limit=2e-12, named=named, title=title, footer=footer
+    )
+    check_layout(spread.figure, "fleet distribution")
 
 
 def test_every_record_page_fits():
