@@ -8,6 +8,7 @@ matplotlib.
 from __future__ import annotations
 
 import ast
+import importlib.util
 import os
 import subprocess
 import sys
@@ -154,13 +155,19 @@ def test_every_module_has_a_docstring_and_all_and_stays_short():
     assert not (PACKAGE / "plots.py").exists()
 
 
-#: Project modules below the figures' layer (8) that a figure module may import.
-_BELOW = (
-    "_version", "errors", "units", "files", "measurement", "taus", "intervals", "table",
-    "settings", "display", "ingest", "prepare", "deviations", "confidence", "powerlaw", "noise",
-    "qualify", "analysis", "spec", "hat", "phase_noise", "dynamic", "simulate", "aging", "run",
-    "figures",
-)  # fmt: skip
+def _layer_map():
+    """The layer map of the project, read from its one place (``tests/test_layers.py``)."""
+    spec = importlib.util.spec_from_file_location(
+        "project_layers", Path(__file__).resolve().parents[1] / "test_layers.py"
+    )
+    layers = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(layers)
+    return layers
+
+
+_LAYERS = _layer_map()
+#: The figures' floor: a figure module may import its own floor and those below.
+_FIGURES_FLOOR = _LAYERS.layer_of("stability.figures")
 
 
 def _project_target(node: ast.ImportFrom, module: str) -> str | None:
@@ -182,8 +189,11 @@ def test_imports_follow_the_layers_and_sit_at_module_level():
             if isinstance(node, ast.ImportFrom):
                 target = _project_target(node, module)
                 if target is not None:
-                    assert target.split(".")[0] in _BELOW, f"{path.name} imports {target}"
                     assert target != "", f"{path.name} imports the package face"
+                    floor = _LAYERS.layer_of(f"stability.{target}")
+                    assert floor is not None and floor <= _FIGURES_FLOOR, (
+                        f"{path.name} imports {target}"
+                    )
 
 
 def test_the_library_never_touches_pyplot():
