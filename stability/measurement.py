@@ -33,7 +33,7 @@ import numpy as np
 
 from .errors import InputError
 
-__all__ = ["Measurement", "Provenance", "TAU0_RANGE"]
+__all__ = ["Measurement", "Provenance", "Auxiliary", "TAU0_RANGE"]
 
 
 @dataclass(frozen=True)
@@ -62,6 +62,20 @@ class Provenance:
 
     def to_dict(self) -> dict[str, Any]:
         return dataclasses.asdict(self)
+
+
+@dataclass(frozen=True)
+class Auxiliary:
+    """An auxiliary series read beside the values (temperature, pressure, ...).
+
+    ``values`` has one entry per source value of the measurement (frequency
+    readings for frequency input, phase samples for phase input), NaN where the
+    log has none; ``unit`` is as read (``K``, ``degC``, ``Pa``, ``%``, ``V``).
+    """
+
+    values: np.ndarray
+    unit: str = ""
+    column: str | None = None
 
 
 def _as_float_array(values: Any, name: str) -> np.ndarray:
@@ -105,7 +119,7 @@ def _check_tau0(tau0: Any) -> float:
     return value
 
 
-_META = ("nominal", "start", "lines", "provenance", "notes")
+_META = ("nominal", "start", "lines", "provenance", "notes", "auxiliary")
 
 
 def _check_meta(meta: dict[str, Any]) -> None:
@@ -151,6 +165,8 @@ class Measurement:
         Where the data came from.
     notes
         What reading and preparation did, in plain sentences.
+    auxiliary
+        Optional auxiliary series by quantity name (``temperature`` ...).
     """
 
     phase: np.ndarray
@@ -163,6 +179,7 @@ class Measurement:
     lines: np.ndarray | None = None
     provenance: Provenance = field(default_factory=Provenance)
     notes: list[str] = field(default_factory=list)
+    auxiliary: dict[str, Auxiliary] | None = None
 
     def __post_init__(self) -> None:
         phase = _as_float_array(self.phase, "phase")
