@@ -27,6 +27,7 @@ from . import (
     record_cmd,
     separate_cmd,
     simulate_cmd,
+    spectrum_cmd,
     timeline_cmd,
 )
 from .common import StabilityGroup, run_program
@@ -75,6 +76,7 @@ app.command("phase-noise")(phase_noise_cmd.phase_noise_command)
 app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
+app.command("spectrum")(spectrum_cmd.spectrum_command)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(

@@ -17,6 +17,7 @@ import typer
 from stability.history import history_for_record
 from stability.workflow import record_into
 
+from .cause_options import CAUSES, SPECTRUM, cause_settings
 from .common import echo
 from .options import (
     ANALYSING,
@@ -31,7 +32,7 @@ from .options import (
     command,
 )
 from .progress import ProgressDisplay, step_count
-from .reporting import record_lines
+from .reporting import counter_warning, record_lines
 
 __all__ = ["record"]
 
@@ -88,6 +89,8 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
     ANALYSING,
     WRITING,
     STABILITY_PLOT,
+    CAUSES,
+    SPECTRUM,
     variants=(
         RECORD_CONFIDENCE,
         JSON.but(help="Print record.json to standard output instead of the verdict lines."),
@@ -108,6 +111,8 @@ def record(
     """
     folder = opts.folder(Path.cwd() / f"{log.name}-stability")
     stats = opts.settings.analysis.stats
+    causes = cause_settings(opts)
+    counter_warning(causes)
     with ProgressDisplay(enabled=not opts.json) as bar:
         outcome = record_into(
             log,
@@ -123,6 +128,7 @@ def record(
             noise_labels=opts.noise_labels,
             on_progress=bar.reading(log.name),
             on_step=bar.steps(log.name, step_count(stats) + 1),
+            causes=causes,
         )
     if opts.json:
         echo(outcome.files["record.json"].read_text(encoding="utf-8"), nl=False)

@@ -68,6 +68,8 @@ LOW_BINS = 2
 #: the continuous power law (aliasing of the discrete process); not fitted.
 HIGH_FRACTION = 0.25
 _REWEIGHT_STEPS = 12
+#: Bands per decade in which ordinates are averaged before the power-law fit.
+BANDS_PER_DECADE = 40
 #: A fitted term is kept only when its coefficient is this many standard
 #: uncertainties above zero (backward elimination, weakest term first).
 _KEEP_Z = 2.0
@@ -299,12 +301,19 @@ def welch_spectrum(
             f"every segment of {length} samples holds a gap: no spectrum can be formed",
             hint="ask for more, shorter segments (--segments)",
         )
-    blocks = np.stack([y[starts[i] : starts[i] + length] for i in kept])
     fs = 1.0 / measurement.tau0
-    f, pxx = welch(
-        blocks, fs=fs, window=WINDOW, nperseg=length, noverlap=0, detrend="constant", axis=-1
-    )
-    s_y = pxx.mean(axis=0)
+    total = None
+    for i in kept:  # one segment at a time: no copy of the whole record
+        f, pxx = welch(
+            y[starts[i] : starts[i] + length],
+            fs=fs,
+            window=WINDOW,
+            nperseg=length,
+            noverlap=0,
+            detrend="constant",
+        )
+        total = pxx if total is None else total + pxx
+    s_y = total / kept.size
     inner = slice(1, f.size - 1 if length % 2 == 0 else f.size)
     f, s_y = f[inner], s_y[inner]
     window = get_window(WINDOW, length)
@@ -338,28 +347,43 @@ def welch_spectrum(
     return Spectrum(**{**spec.__dict__, "fit": fit_spectrum(spec)})
 
 
+def _bands(f: np.ndarray, s: np.ndarray, alphas: list[int]) -> tuple[np.ndarray, ...]:
+    """Ordinates averaged in log-spaced bands (BANDS_PER_DECADE): (design, mean, count).
+
+    The design holds the band mean of f^alpha, so the band mean of S_y has the
+    model's expectation exactly; a band of n ordinates has n times their degrees of
+    freedom (less their correlation, carried by the caller).
+    """
+    edges = np.exp(
+        np.arange(math.log(f[0]), math.log(f[-1]) + 1e-12, math.log(10) / BANDS_PER_DECADE)
+    )
+    band = np.searchsorted(edges, f, side="right")
+    _, index, count = np.unique(band, return_inverse=True, return_counts=True)
+    mean = np.bincount(index, weights=s) / count
+    design = np.column_stack([np.bincount(index, weights=f**a) / count for a in alphas])
+    return design, mean, count.astype(float)
+
+
 def _reweighted(
     f: np.ndarray, s: np.ndarray, terms: list[int], spectrum: Spectrum
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Non-negative IRLS fit of the terms; (coefficients, covariance, model)."""
-    design = np.column_stack([f**a for a in terms])
-    model = s.copy()
+    """Non-negative IRLS fit of the terms; (coefficients, covariance, model at the bands)."""
+    design, mean, count = _bands(f, s, terms)
+    root = np.sqrt(count)
+    model = mean.copy()
     coef = np.zeros(len(terms))
     for _ in range(_REWEIGHT_STEPS):
-        w = 1.0 / np.maximum(model, 1e-300)
+        w = root / np.maximum(model, 1e-300)
         scale = np.linalg.norm(design * w[:, None], axis=0)
         scale = np.where(scale > 0, scale, 1.0)
-        coef = nonnegative_least_squares(design * w[:, None] / scale, s * w) / scale
+        coef = nonnegative_least_squares(design * w[:, None] / scale, mean * w) / scale
         new = np.maximum(design @ coef, 1e-300)
         done = np.all(np.abs(new - model) <= 1e-8 * np.abs(model))
         model = new
         if done:
             break
-    sub = design / model[:, None]
-    try:
-        cov = np.linalg.pinv(sub.T @ sub) * (2.0 / spectrum.edf) * spectrum.bin_correlation
-    except np.linalg.LinAlgError:
-        cov = np.full((len(terms), len(terms)), np.inf)
+    sub = design * (root / model)[:, None]
+    cov = np.linalg.pinv(sub.T @ sub) * (2.0 / spectrum.edf) * spectrum.bin_correlation
     return coef, cov, model
 
 
@@ -371,11 +395,12 @@ def fit_spectrum(
 ) -> SpectrumFit | None:
     """Fit S_y = sum h_alpha f^alpha to the ordinates that follow the power law.
 
-    Weighted non-negative least squares, the weights the inverse standard
-    deviation sqrt(nu / 2) / S at the model's own value (reweighted until it
-    settles). The weakest term is dropped while it is less than two standard
-    uncertainties above zero, and the rest refitted; the uncertainties carry the
-    correlation of neighbouring ordinates.
+    The ordinates are first averaged in bands of 1/40 decade (a band of n
+    ordinates has about n nu degrees of freedom); then weighted non-negative least
+    squares, the weights the inverse standard deviation sqrt(n nu / 2) / S at the
+    model's own value (reweighted until it settles). The weakest term is dropped
+    while it is less than two standard uncertainties above zero, and the rest
+    refitted; the uncertainties carry the correlation of neighbouring ordinates.
     """
     use = spectrum.fit_mask() if mask is None else mask
     f, s = spectrum.f[use], spectrum.s_y[use]

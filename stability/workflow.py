@@ -19,8 +19,16 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from .errors import InputError
-from .figures import run_series_figure, save_figure, stability_figure
+from .causes import CauseSettings, periodic_marks, run_with_causes
+from .environment import aux_on_frequency_grid
+from .errors import AnalysisError, InputError
+from .figures import (
+    environment_figure,
+    run_series_figure,
+    save_figure,
+    spectrum_figure,
+    stability_figure,
+)
 from .figures.labels import default_footer, default_title
 from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
@@ -41,6 +49,9 @@ from .summary import summary_json
 
 __all__ = [
     "analyze_into",
+    "spectrum_into",
+    "spectrum_drawing",
+    "environment_drawing",
     "record_into",
     "RecordOutcome",
     "write_analysis",
@@ -93,6 +104,7 @@ def _draw_stability(
         title=title,
         footer=footer,
         noise_labels=noise_labels,
+        marks=periodic_marks(run.table),
     )
     return save_figure(fig, target, fmt)
 
@@ -163,6 +175,7 @@ def analyze_into(
     noise_labels: Any = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
+    causes: CauseSettings | None = None,
     **options: Any,
 ) -> tuple[AnalysisRun, dict[str, Path]]:
     """Read, prepare, analyse and write the five outputs into ``folder``: (run, files).
@@ -176,16 +189,29 @@ def analyze_into(
     log is refused before anything is read, a folder another run is writing
     into is refused, and the figures of another plot format from an earlier
     run in the folder are removed, so the folder describes this run only.
+
+    With ``causes`` (:class:`stability.causes.CauseSettings`) the run also says
+    where the instability comes from (:func:`stability.causes.run_with_causes`);
+    a regression on an auxiliary quantity adds ``environment.<format>``.
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
     names, stale = output_names(fmt)
+    if causes is not None and causes.regress:
+        names.append(f"environment.{fmt}")
     inputs = [] if isinstance(log, Measurement) else [log]
     _refuse_record_folder(Path(folder))
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
-        source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
-        moment = datetime.now(UTC)
-        run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
+        if causes is None:
+            source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+            moment = datetime.now(UTC)
+            run = analyse_prepared(
+                source, prepared, report, settings, moment=moment, on_step=on_step
+            )
+        else:
+            run = run_with_causes(log, settings, causes, on_progress=on_progress, on_step=on_step)
+            if causes.regress:
+                _draw_environment(out.pending[f"environment.{fmt}"], fmt, run)
         pending = _paths(out.pending, fmt)
         _write_all(
             run,
@@ -198,7 +224,91 @@ def analyze_into(
             noise_labels=noise_labels,
         )
         files = out.commit()
-    return run, _paths(files, fmt)
+    result = _paths(files, fmt)
+    if f"environment.{fmt}" in files:
+        result["environment"] = files[f"environment.{fmt}"]
+    return run, result
+
+
+def environment_drawing(run: AnalysisRun) -> Any:
+    """The environment figure of a run with a regression: frequency and the quantity."""
+    fitted = run.table.extras["cause_objects"]["sensitivity"]
+    source = run.source
+    return environment_figure(
+        source.frequency(),
+        aux_on_frequency_grid(source, fitted.quantity),
+        source.tau0,
+        fitted,
+        aux_unit=source.auxiliary[fitted.quantity].unit,
+        title=default_title(source, f"frequency and {fitted.quantity}"),
+        footer=default_footer(run.table, analysis_time=run.analysis_time),
+    )
+
+
+def _draw_environment(target: Path, fmt: str, run: AnalysisRun) -> Path:
+    return save_figure(environment_drawing(run), target, fmt)
+
+
+def spectrum_drawing(run: AnalysisRun, title: str | None = None) -> Any:
+    """The spectrum figure of a run made by :func:`stability.causes.run_with_causes`:
+    the Welch spectrum, the Allan-deviation model beside the spectrum's own fit, the
+    periodic components found."""
+    objects = run.table.extras["cause_objects"]
+    spectrum, lines = objects["spectrum"], objects["lines"]
+    if spectrum is None:
+        raise AnalysisError(
+            f"{run.measurement.n - 1} frequency samples are too few for a spectrum",
+            hint="use a longer log",
+        )
+    model = run.table.extras.get("power_law_model")
+    models = {}
+    if model is not None and any(v > 0 for v in model.h.values()):
+        models["model of the Allan deviation"] = dict(model.h)
+    if spectrum.fit is not None:
+        models["fit to this spectrum"] = dict(spectrum.fit.h)
+    return spectrum_figure(
+        spectrum,
+        models=models,
+        lines=lines,
+        title=title if title is not None else default_title(run.source, "spectrum"),
+        footer=default_footer(run.table, analysis_time=run.analysis_time),
+    )
+
+
+def spectrum_into(
+    log: str | os.PathLike[str] | Measurement,
+    folder: str | os.PathLike[str],
+    settings: RunSettings | None = None,
+    causes: CauseSettings | None = None,
+    *,
+    plot_format: str = "png",
+    title: str | None = None,
+    on_progress: ReadProgress | None = None,
+) -> tuple[AnalysisRun, Any, dict[str, Path]]:
+    """The spectrum of a log into ``folder``: (run, spectrum, files).
+
+    Writes ``spectrum.csv`` (f, S_y with its band, S_x, L(f) with a nominal
+    frequency), ``summary.json`` (the analysis summary, whose ``causes`` field
+    holds the spectrum's settings, its power-law fit beside the Allan-deviation
+    model, and the periodic components) and ``spectrum.<format>``, all or nothing.
+    """
+    fmt = check_plot_format(plot_format)
+    settings = resolve_settings(settings, {})
+    causes = causes or CauseSettings()
+    names = ["spectrum.csv", "summary.json", f"spectrum.{fmt}"]
+    stale = [f"spectrum.{other}" for other in PLOT_FORMATS if other != fmt]
+    inputs = [] if isinstance(log, Measurement) else [log]
+    with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
+        run = run_with_causes(log, settings, causes, on_progress=on_progress)
+        drawn = spectrum_drawing(run, title)
+        spectrum = run.table.extras["cause_objects"]["spectrum"]
+        out.pending["spectrum.csv"].write_text(
+            spectrum.to_frame().to_csv(index=False, float_format="%.6g"), encoding="utf-8"
+        )
+        out.pending["summary.json"].write_text(summary_json(run.summary()), encoding="utf-8")
+        save_figure(drawn, out.pending[f"spectrum.{fmt}"], fmt)
+        files = out.commit()
+    return run, spectrum, dict(files)
 
 
 def write_analysis(
@@ -289,6 +399,7 @@ def record_into(
     noise_labels: Any = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
+    causes: CauseSettings | None = None,
     **options: Any,
 ) -> RecordOutcome:
     """Analyse ``log``, judge it against a specification and write the calibration record.
@@ -325,8 +436,11 @@ def record_into(
         store if store is not None else contextlib.nullcontext(),
         OutputSet(folder, [*RECORD_NAMES, *names], inputs=inputs, force=force, stale=stale) as out,
     ):
-        source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
-        run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
+        if causes is None:
+            source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+            run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
+        else:  # the record states the counter type and dead time (stability.causes)
+            run = run_with_causes(log, settings, causes, on_progress=on_progress, on_step=on_step)
         judgement = judge(run.table, spec, reference=info.reference)
         _write_all(
             run,

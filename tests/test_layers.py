@@ -73,7 +73,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
             "stability.environment",
         ),
     ),
-    (7, ("stability.summary", "stability.run")),
+    (7, ("stability.summary", "stability.run", "stability.causes")),
     (8, ("stability.figures",)),
     (9, ("stability.reports",)),
     (10, ("stability.workflow", "stability.history")),

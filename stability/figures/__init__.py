@@ -8,6 +8,8 @@
 ``hat``          the three-cornered hat (:func:`hat_figure`)
 ``phase_noise``  stability from a phase-noise table (:func:`phase_noise_figure`)
 ``timeline``     stability over time (:func:`timeline_figure`)
+``spectrum``     the Welch spectrum with its band, models and lines (:func:`spectrum_figure`)
+``environment``  frequency and an auxiliary quantity (:func:`environment_figure`)
 ``overlay``      several analyses on one plot (:func:`overlay_figure`)
 ``save``         writing PNG, SVG or PDF atomically (:func:`save_figure`)
 ``ticks``        tick positions and plain-text tick labels (three or more on any axis)
@@ -23,6 +25,7 @@ drawn. Importing this package loads matplotlib; nothing on the reading and
 analysis path imports it.
 """
 
+from .environment import EnvironmentDrawn, environment_figure
 from .hat import HatDrawn, hat_figure
 from .history import HistoryDrawn as HistoryDrawn
 from .history import history_figure as history_figure
@@ -32,6 +35,7 @@ from .phase_noise import PhaseNoiseDrawn, phase_noise_figure
 from .save import FORMATS, save_figure
 from .series import SeriesDrawn, envelope, run_series_figure, series_figure
 from .sigma_tau import SLOPES, StabilityDrawn, slope_key, stability_figure, stability_series
+from .spectrum import SpectrumDrawn, spectrum_figure
 from .style import STATISTIC_STYLES, VERDICT_COLORS, Drawn, statistic_style
 from .timeline import TimelineDrawn, timeline_figure
 
@@ -45,6 +49,8 @@ __all__ = [
     "hat_figure",
     "phase_noise_figure",
     "timeline_figure",
+    "spectrum_figure",
+    "environment_figure",
     "overlay_figure",
     "overlay_footer",
     "save_figure",
@@ -60,6 +66,8 @@ __all__ = [
     "HatDrawn",
     "PhaseNoiseDrawn",
     "TimelineDrawn",
+    "SpectrumDrawn",
+    "EnvironmentDrawn",
     "OverlayDrawn",
     "FORMATS",
     "SLOPES",

@@ -58,6 +58,7 @@ from .style import (
     LABEL_SIZE,
     LEGEND_SIZE,
     LIMIT_COLOR,
+    MARK_COLOR,
     NOTE_COLOR,
     NOTE_SIZE,
     TAU_LABEL,
@@ -122,6 +123,8 @@ class StabilityDrawn(Drawn):
         The confidence level of the error bars, as written on the figure.
     reference
         (tau, deviation) of the reference's stated stability as drawn, or None.
+    marks
+        The tau spans shaded, as ``(tau_low, tau_high, label)``.
     """
 
     series: dict[str, Series]
@@ -131,6 +134,7 @@ class StabilityDrawn(Drawn):
     noise_labels: dict[str, tuple[tuple[float, str], ...]] | None = None
     confidence: float = math.nan
     reference: tuple[np.ndarray, np.ndarray] | None = None
+    marks: tuple[tuple[float, float, str], ...] = ()
 
 
 # ---------------------------------------------------------------------- drawing
@@ -325,6 +329,7 @@ def _estimate_column(groups: list[list[str]], extras: dict[str, Any]) -> float:
         lines += sum(1 for n in names if extras["model_curve"] and n in extras["model_curve"])
     rows = extras["limits"][0]
     lines += (1 + len({r[2] for r in rows})) if rows else 0
+    lines += sum(textwrap.fill(m[2], _LEGEND_WIDTH).count("\n") + 1 for m in extras["marks"])
     return 0.3 + 0.16 * lines + len(groups) * (_KEY + 0.15)
 
 
@@ -349,6 +354,27 @@ def panel_layout(frame: Frame, n: int, titled: bool, footed: bool) -> PanelLayou
         for k in range(n)
     )
     return PanelLayout(panels, tuple((p[1], p[1] + p[3]) for p in panels), side_x)
+
+
+def _draw_marks(
+    panels: list[_Panel], fractional: list[str], marks: Sequence[tuple[float, float, str]]
+) -> tuple[tuple[float, float, str], ...]:
+    """Shade the marked tau spans behind the data of the fractional-frequency panel."""
+    if not marks or not fractional:
+        return ()
+    panel = panels[0]
+    lo_x, hi_x = panel.ax.get_xlim()
+    drawn = []
+    for low, high, label in marks:
+        low, high = max(float(low), lo_x), min(float(high), hi_x)
+        if not high > low:
+            continue
+        text = textwrap.fill(label, _LEGEND_WIDTH)
+        panel.ax.axvspan(low, high, color=MARK_COLOR, lw=0, zorder=0, label=text)
+        panel.entries += 1
+        drawn.append((low, high, label))
+    panel.ax.set_xlim(lo_x, hi_x)
+    return tuple(drawn)
 
 
 def _side_column(
@@ -414,6 +440,7 @@ def stability_figure(
     footer: str | None = None,
     analysis_time: datetime | None = None,
     into: Any = None,
+    marks: Sequence[tuple[float, float, str]] = (),
 ) -> StabilityDrawn:
     """The sigma-tau plot of an analysis.
 
@@ -448,6 +475,10 @@ def stability_figure(
     into
         A ``Figure`` or ``SubFigure`` (a region of a page) to draw into,
         instead of a new figure.
+    marks
+        Spans of tau to shade on the fractional-frequency panel as
+        ``(tau_low, tau_high, label)``, e.g. the taus a periodic component
+        affects; the label goes to the legend.
 
     Returns
     -------
@@ -468,6 +499,7 @@ def stability_figure(
         "reference": ref_curve,
         "reference_panel": next(g[0] for g in groups if target in g),
         "reference_drawn": None,
+        "marks": list(marks),
     }
     height = max(5.4, 1.2 + _estimate_column(groups, extras))
     frame = frame_for(into, 9.4 if len(groups) == 1 else 14.2, height)
@@ -480,6 +512,7 @@ def stability_figure(
     for rect, names in zip(layout.panels, groups, strict=True):
         ax = frame.target.add_axes(frame.rect(*rect))
         panels.append(_draw_panel(ax, table, names, series, extras))
+    drawn_marks = _draw_marks(panels, fractional, marks)
     keys = _side_column(frame, layout, panels, table.confidence)
     written: dict[str, list[tuple[float, str]]] = {}
     for panel in panels:
@@ -503,4 +536,5 @@ def stability_figure(
         noise_labels={k: tuple(v) for k, v in written.items()},
         confidence=float(table.confidence),
         reference=extras["reference_drawn"],
+        marks=drawn_marks,
     )

@@ -159,7 +159,7 @@ _BELOW = (
     "_version", "errors", "units", "files", "measurement", "taus", "intervals", "table",
     "settings", "ingest", "prepare", "deviations", "confidence", "powerlaw", "noise",
     "qualify", "analysis", "spec", "hat", "phase_noise", "dynamic", "simulate", "aging", "run",
-    "figures",
+    "figures", "spectrum", "periodic", "environment",
 )  # fmt: skip
 
 
