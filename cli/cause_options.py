@@ -140,6 +140,7 @@ SEGMENTS = OptionSpec(
     int,
     16,
     "Half-overlapping segments of the Welch spectrum (more: smoother, less resolution).",
+    metavar="N",
     check=_positive_count("--segments"),
 )
 FALSE_ALARM = OptionSpec(

@@ -18,8 +18,10 @@ from .cause_options import CAUSES, SPECTRUM, cause_settings
 from .common import echo
 from .options import (
     ANALYSING,
+    OUT,
     PREPARING,
     READING,
+    TITLE,
     WRITING,
     LogArg,
     RunOptions,
@@ -31,7 +33,18 @@ from .reporting import counter_warning, spectrum_lines
 __all__ = ["spectrum_command"]
 
 
-@command(READING, PREPARING, ANALYSING, WRITING, SPECTRUM, CAUSES)
+@command(
+    READING,
+    PREPARING,
+    ANALYSING,
+    WRITING,
+    SPECTRUM,
+    CAUSES,
+    variants=(
+        OUT.but(help="Output folder (default: <log name>-spectrum/ in the current folder)."),
+        TITLE.but(help="Title of the spectrum figure (default: the log's file name)."),
+    ),
+)
 def spectrum_command(log: LogArg, *, opts: RunOptions) -> None:
     """Spectrum of a log: S_y(f), S_x(f), L(f), the noise model and periodic components.
 

@@ -26,6 +26,7 @@ import dataclasses
 import math
 import os
 from dataclasses import dataclass
+from datetime import datetime
 from typing import Any
 
 import numpy as np
@@ -33,12 +34,11 @@ import numpy as np
 from .dead_time import check_counter, counter_note, dead_time_bias, gate_ratio, mu_of_alpha
 from .environment import DEFAULT_LAG_RANGE, aux_on_frequency_grid, regress, remove_effect
 from .errors import AnalysisError, InputError
-from .ingest import read_log
 from .ingest.auxiliary import AUX_QUANTITIES, parse_aux_spec, read_auxiliary
 from .measurement import Measurement
 from .periodic import FALSE_ALARM, Line, affected_taus, find_lines
-from .prepare import prepare, require_variation
-from .run import AnalysisRun, analyse_prepared, resolve_settings
+from .prepare import PreparationReport
+from .run import AnalysisRun, analyse_prepared, read_and_prepare, resolve_settings
 from .settings import RunSettings
 from .spectrum import DEFAULT_SEGMENTS, Spectrum, compare_models, welch_spectrum
 from .table import StabilityTable, StatisticResult
@@ -46,6 +46,7 @@ from .table import StabilityTable, StatisticResult
 __all__ = [
     "CauseSettings",
     "run_with_causes",
+    "analyse_with_causes",
     "correct_dead_time",
     "periodic_study",
     "periodic_marks",
@@ -240,6 +241,11 @@ def _sensitivity(
     if not causes.regress:
         return prepared, None, None
     quantity = causes.regress
+    if quantity in (source.auxiliary or {}) and quantity not in (prepared.auxiliary or {}):
+        raise AnalysisError(
+            f"the {quantity} series is on the log's grid, and preparation changed the grid",
+            hint="regress without --average",
+        )
     aux = aux_on_frequency_grid(prepared, quantity)
     unit = prepared.auxiliary[quantity].unit  # type: ignore[index]
     coefficient_unit = "K" if unit == "degC" else unit
@@ -268,23 +274,38 @@ def run_with_causes(
     and, with dead time given, corrected Allan deviations.
     """
     settings = resolve_settings(settings, options)
+    source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+    return analyse_with_causes(source, prepared, report, settings, causes, on_step=on_step)
+
+
+def _check_causes(causes: Any) -> CauseSettings:
     causes = causes or CauseSettings()
     if not isinstance(causes, CauseSettings):
         raise InputError(f"causes must be a CauseSettings, got {type(causes).__name__}")
-    if isinstance(log, Measurement):
-        source = log
-    else:
-        source = read_log(log, **settings.read.as_kwargs(), on_progress=on_progress)
+    return causes
+
+
+def analyse_with_causes(
+    source: Measurement,
+    prepared: Measurement,
+    report: PreparationReport,
+    settings: RunSettings,
+    causes: CauseSettings | None = None,
+    *,
+    moment: datetime | None = None,
+    on_step: Any = None,
+) -> AnalysisRun:
+    """:func:`run_with_causes` on data already read and prepared
+    (:func:`stability.run.read_and_prepare`)."""
+    causes = _check_causes(causes)
     wanted = causes.aux_spec()
     if wanted:
         spec = ",".join(k if v is None else f"{k}={v}" for k, v in wanted.items())
         source = read_auxiliary(source, spec)
-    require_variation(source)
-    prepared, report = prepare(source, **settings.prepare.as_kwargs())
-    if source.auxiliary and prepared.auxiliary is None and prepared.n == source.n:
-        prepared = prepared.replace(auxiliary=source.auxiliary)
+        if prepared.n == source.n:  # the same grid: the auxiliary series apply as read
+            prepared = prepared.replace(auxiliary=source.auxiliary)
     prepared, sensitivity, fitted = _sensitivity(source, prepared, causes)
-    run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
+    run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
     table = run.table
     notes: list[str] = []
     r = None

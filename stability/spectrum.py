@@ -244,6 +244,24 @@ def _edf(kept: np.ndarray, rho: np.ndarray) -> float:
     return 2.0 * k * k / total
 
 
+def _smooth_below(n: int) -> int:
+    """The largest 2^a 3^b 5^c <= n (fast Fourier transforms), n itself below 16."""
+    if n < MIN_SEGMENT:
+        return n
+    best = 1
+    p2 = 1
+    while p2 <= n:
+        p3 = p2
+        while p3 <= n:
+            p5 = p3
+            while p5 <= n:
+                best = max(best, p5)
+                p5 *= 5
+            p3 *= 3
+        p2 *= 2
+    return best
+
+
 def _validate(measurement: Any, segments: Any, confidence: Any) -> tuple[int, float]:
     if not isinstance(measurement, Measurement):
         raise InputError(
@@ -270,8 +288,9 @@ def welch_spectrum(
         The data; gaps are honoured (segments holding one are left out).
     segments
         Number of half-overlapping segments an unbroken record of the same
-        length would give; the segment length is floor(2 M / (segments + 1))
-        for M frequency samples.
+        length would give: the segment length is floor(2 M / (segments + 1))
+        for M frequency samples, rounded down to a product of 2, 3 and 5 (for
+        fast transforms), so a few more segments may fit.
     confidence
         Two-sided level of the band.
     nominal
@@ -284,7 +303,7 @@ def welch_spectrum(
 
     count, p = _validate(measurement, segments, confidence)
     y = measurement.frequency()
-    length = int(2 * y.size // (count + 1))
+    length = _smooth_below(int(2 * y.size // (count + 1)))
     if length < MIN_SEGMENT:
         raise AnalysisError(
             f"{y.size} frequency samples are too few for {count} segments of at least "
@@ -302,21 +321,25 @@ def welch_spectrum(
             hint="ask for more, shorter segments (--segments)",
         )
     fs = 1.0 / measurement.tau0
+    window = get_window(WINDOW, length)  # the periodic Hann window scipy.signal.welch uses
     total = None
-    for i in kept:  # one segment at a time: no copy of the whole record
+    # one welch call per run of consecutive kept segments (a stretch without gaps)
+    breaks = np.flatnonzero(np.diff(kept) != 1) + 1
+    for run in np.split(kept, breaks):
+        first, last = starts[run[0]], starts[run[-1]] + length
         f, pxx = welch(
-            y[starts[i] : starts[i] + length],
+            y[first:last],
             fs=fs,
-            window=WINDOW,
+            window=window,
             nperseg=length,
-            noverlap=0,
+            noverlap=length - step,
             detrend="constant",
         )
-        total = pxx if total is None else total + pxx
+        part = pxx * run.size
+        total = part if total is None else total + part
     s_y = total / kept.size
     inner = slice(1, f.size - 1 if length % 2 == 0 else f.size)
     f, s_y = f[inner], s_y[inner]
-    window = get_window(WINDOW, length)
     rho = _overlap_rho(window, step, lags=int(math.ceil(length / step)))
     nu = _edf(kept, rho)
     upper_q = chdtri(nu, (1.0 - p) / 2.0)  # upper-tail probability (1 - p)/2

@@ -19,7 +19,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from .causes import CauseSettings, periodic_marks, run_with_causes
+from .causes import CauseSettings, analyse_with_causes, periodic_marks
 from .environment import aux_on_frequency_grid
 from .errors import AnalysisError, InputError
 from .figures import (
@@ -202,14 +202,16 @@ def analyze_into(
     inputs = [] if isinstance(log, Measurement) else [log]
     _refuse_record_folder(Path(folder))
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
+        source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+        moment = datetime.now(UTC)
         if causes is None:
-            source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
-            moment = datetime.now(UTC)
             run = analyse_prepared(
                 source, prepared, report, settings, moment=moment, on_step=on_step
             )
         else:
-            run = run_with_causes(log, settings, causes, on_progress=on_progress, on_step=on_step)
+            run = analyse_with_causes(
+                source, prepared, report, settings, causes, moment=moment, on_step=on_step
+            )
             if causes.regress:
                 _draw_environment(out.pending[f"environment.{fmt}"], fmt, run)
         pending = _paths(out.pending, fmt)
@@ -299,7 +301,8 @@ def spectrum_into(
     stale = [f"spectrum.{other}" for other in PLOT_FORMATS if other != fmt]
     inputs = [] if isinstance(log, Measurement) else [log]
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
-        run = run_with_causes(log, settings, causes, on_progress=on_progress)
+        source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+        run = analyse_with_causes(source, prepared, report, settings, causes)
         drawn = spectrum_drawing(run, title)
         spectrum = run.table.extras["cause_objects"]["spectrum"]
         out.pending["spectrum.csv"].write_text(
@@ -436,11 +439,11 @@ def record_into(
         store if store is not None else contextlib.nullcontext(),
         OutputSet(folder, [*RECORD_NAMES, *names], inputs=inputs, force=force, stale=stale) as out,
     ):
+        source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
         if causes is None:
-            source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
             run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
         else:  # the record states the counter type and dead time (stability.causes)
-            run = run_with_causes(log, settings, causes, on_progress=on_progress, on_step=on_step)
+            run = analyse_with_causes(source, prepared, report, settings, causes, on_step=on_step)
         judgement = judge(run.table, spec, reference=info.reference)
         _write_all(
             run,

@@ -189,3 +189,11 @@ def test_demo_log_is_made_by_its_script():
     stored = gzip.decompress((folder / module.AIRCON_NAME).read_bytes()).decode("ascii")
     assert stored == module.aircon_log()
     assert stored.splitlines()[0] == "timestamp,frequency_hz,temperature_C"
+
+
+def test_regression_refuses_a_changed_grid(tmp_path):
+    from stability import AnalysisError  # noqa: PLC0415
+
+    path = _log(tmp_path / "lab.csv", n=2048)
+    with pytest.raises(AnalysisError, match="preparation changed the grid"):
+        run_with_causes(path, None, CauseSettings(regress="temperature"), average=2)
