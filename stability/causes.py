@@ -25,6 +25,7 @@ from __future__ import annotations
 import dataclasses
 import math
 import os
+import re
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
@@ -302,8 +303,8 @@ def analyse_with_causes(
     if wanted:
         spec = ",".join(k if v is None else f"{k}={v}" for k, v in wanted.items())
         source = read_auxiliary(source, spec)
-        if prepared.n == source.n:  # the same grid: the auxiliary series apply as read
-            prepared = prepared.replace(auxiliary=source.auxiliary)
+    if source.auxiliary and prepared.n == source.n:  # the same grid: they apply as read
+        prepared = prepared.replace(auxiliary=source.auxiliary)
     prepared, sensitivity, fitted = _sensitivity(source, prepared, causes)
     run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
     table = run.table
@@ -362,7 +363,9 @@ def periodic_marks(table: StabilityTable) -> list[tuple[float, float, str]]:
     for line in (causes.get("periodic") or {}).get("lines") or []:
         taus = line.get("affected_taus_s") or []
         if taus:
-            label = f"taus a {line['summary']} affects"
+            # no line break inside "1 208 s" when the legend wraps the label
+            summary = re.sub(r"(?<=\d) (?=\d|s\b)", "\u00a0", line["summary"])
+            label = f"taus a {summary} affects"
             marks.append((min(taus) / 1.15, max(taus) * 1.15, label))
     return marks
 

@@ -207,13 +207,22 @@ class _Problem:
         return self.transform(lagged(self.u, self.tau0, tc))
 
     def solve(self, cols: list[np.ndarray]) -> tuple[np.ndarray, float, np.ndarray]:
-        """(coefficients, residual sum of squares, unscaled covariance) of weighted LS."""
-        w = self.weight
-        a = np.column_stack([np.concatenate([(c * w).real, (c * w).imag]) for c in cols])
-        b = np.concatenate([(self.Y * w).real, (self.Y * w).imag])
-        coef, *_ = np.linalg.lstsq(a, b, rcond=None)
-        resid = b - a @ coef
-        return coef, float(resid @ resid), np.linalg.pinv(a.T @ a)
+        """(coefficients, residual sum of squares, unscaled covariance) of weighted LS.
+
+        The real and imaginary parts of the weighted transforms are the rows; with
+        two or three columns the normal equations (columns scaled to unit length)
+        cost O(N), where a general least-squares solver would cost far more.
+        """
+        w2 = self.weight**2
+        gram = np.array([[np.sum(w2 * (ci.conj() * cj).real) for cj in cols] for ci in cols])
+        rhs = np.array([np.sum(w2 * (ci.conj() * self.Y).real) for ci in cols])
+        scale = np.sqrt(np.diag(gram))
+        scale = np.where(scale > 0, scale, 1.0)
+        inverse = np.linalg.pinv(gram / np.outer(scale, scale)) / np.outer(scale, scale)
+        coef = inverse @ rhs
+        yy = float(np.sum(w2 * (self.Y.conj() * self.Y).real))
+        rss = max(yy - float(coef @ rhs), 0.0)
+        return coef, rss, inverse
 
     def rss(self, tc: float) -> float:
         return self.solve([self.columns(tc), self.T])[1]
@@ -257,7 +266,8 @@ def _lag_interval(
         if edge == tc or excess(edge) <= 0:
             ends.append(edge)
         else:
-            ends.append(float(brentq(excess, min(tc, edge), max(tc, edge), xtol=1e-3 * tc)))
+            tol = 1e-3 * max(tc, problem.tau0)
+            ends.append(float(brentq(excess, min(tc, edge), max(tc, edge), xtol=tol)))
     return (min(ends), max(ends))
 
 

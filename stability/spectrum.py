@@ -401,7 +401,7 @@ def _reweighted(
         scale = np.where(scale > 0, scale, 1.0)
         coef = nonnegative_least_squares(design * w[:, None] / scale, mean * w) / scale
         new = np.maximum(design @ coef, 1e-300)
-        done = np.all(np.abs(new - model) <= 1e-8 * np.abs(model))
+        done = np.all(np.abs(new - model) <= 1e-6 * np.abs(model))
         model = new
         if done:
             break

@@ -208,3 +208,13 @@ def test_dead_time_correction_restores_adev(alpha):
     m1, _ = oadev(x_gated, 1.0, 1)
     t1, _ = oadev(x_full, 1.0, 1)
     assert abs(m1 / t1 - 1) > 0.05
+
+
+def test_regression_without_a_lag():
+    # invented: the frequency follows the temperature at once (no thermal lag)
+    rng = np.random.default_rng(2)
+    temp = np.cumsum(rng.normal(0, 0.01, 4096))
+    y = power_law(0, 4096, h=1e-24, seed=3) + 5e-12 * temp
+    sens = regress(Measurement.from_frequency(y, 1.0), temp, lag_range=(0, 600))
+    assert sens.lag_interval[0] == 0.0
+    assert sens.coefficient == pytest.approx(5e-12, abs=3 * sens.uncertainty)

@@ -200,6 +200,9 @@ def read_auxiliary(measurement: Measurement, aux: Any = None) -> Measurement:
             f"measurement must be a stability.Measurement, got {type(measurement).__name__}"
         )
     wanted = parse_aux_spec(aux)
+    have = measurement.auxiliary or {}
+    if wanted and all(q in have for q in wanted):
+        return measurement  # attached already (read before, or made in memory)
     details = measurement.provenance.details or {}
     path = measurement.provenance.path
     if path is None or measurement.lines is None or "header" not in details:
