@@ -224,12 +224,9 @@ def _overlap_rho(window: np.ndarray, step: int, lags: int) -> np.ndarray:
 
 def _bin_correlation(window: np.ndarray) -> float:
     """1 + 2 sum_j |rho_j|^2 of neighbouring periodogram ordinates (j = 1, 2, 3)."""
-    n = window.size
-    t = np.arange(n)
-    w2 = window**2
-    total = float(w2.sum())
-    rho = [abs(np.sum(w2 * np.exp(2j * math.pi * j * t / n))) / total for j in (1, 2, 3)]
-    return 1.0 + 2.0 * sum(r * r for r in rho)
+    spectrum = np.fft.rfft(window**2)  # rho_j = |sum_t w_t^2 e^(-2 pi i j t / n)| / sum w^2
+    rho = np.abs(spectrum[1:4]) / spectrum[0].real
+    return 1.0 + 2.0 * float(np.sum(rho * rho))
 
 
 def _edf(kept: np.ndarray, rho: np.ndarray) -> float:

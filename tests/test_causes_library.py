@@ -69,6 +69,9 @@ def test_spectrum_matches_h_alpha_within_band(alpha):
         2 * spec.segments_used**2 / (spec.segments_used + 2 * (spec.segments_used - 1) / 36),
         rel=0.02,
     )  # Hann at 50 % overlap: rho(1)^2 = 1/36 (Percival & Walden eq. 292b)
+    # neighbouring Hann ordinates: |rho_1| = 2/3, |rho_2| = 1/6 (from the Fourier series of
+    # sin^4, the squared Hann window; Percival & Walden section 6.6)
+    assert spec.bin_correlation == pytest.approx(1 + 2 * (4 / 9 + 1 / 36))
 
 
 def test_spectrum_leaves_out_and_counts_gap_segments():
