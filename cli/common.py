@@ -4,7 +4,8 @@ Exit codes (the one place they are written down):
 
 * 0: success (also when standard output is a pipe closed early, as by ``| head``);
 * 1: an input or analysis error: a file that cannot be read or used, data the
-  analysis cannot work on; one ``error:`` line on standard error;
+  analysis cannot work on; one ``error:`` line on standard error; also ``stability validate``
+  when any of its checks fails (the report says which);
 * 2: a usage error: the command line itself is wrong (an unknown option, a missing
   argument, a value of the wrong form or out of range, options that contradict
   each other); one ``error:`` line on standard error.

@@ -15,7 +15,11 @@ receiver against the same reference. The demo runs what a practitioner would:
   source (ITU-T G.810 [2]_), no drift removed (the frequency offset of the
   reference is part of the time error that MTIE judges);
 * when the example specification and information files are there, the
-  calibration record of the counter log.
+  calibration record of the counter log;
+* when the timing demo log is there (``make_timing_demo.py``, a second invented
+  scenario), ``stability time-error`` on it: the receiver's sawtooth removed and
+  the time error judged against the bundled PRTC-A mask (limits recalled from
+  ITU-T G.8272, from memory).
 
 References
 ----------
@@ -35,9 +39,11 @@ import typer
 
 from stability.errors import InputError
 from stability.reports.tables import terminal_table
+from stability.reports.timing import time_error_lines
 from stability.run import AnalysisRun
 from stability.settings import RunSettings
 from stability.workflow import analyze_into, record_into
+from stability.workflow_timing import time_error_into
 
 from .common import echo
 from .options import PLOT_FORMAT, RunOptions, command
@@ -51,6 +57,8 @@ __all__ = [
     "PPS_LOG",
     "SPEC_FILE",
     "INFO_FILE",
+    "TIMING_LOG",
+    "TIMING_SETTINGS",
     "COUNTER_SETTINGS",
     "PPS_SETTINGS",
 ]
@@ -64,6 +72,9 @@ INFO_FILE = "info-example.toml"
 COUNTER_SETTINGS = {"nominal": "10MHz", "stats": "oadev,mdev,hdev", "drift": "log"}
 #: How the demo analyses the PPS log.
 PPS_SETTINGS = {"stats": "tdev,mtie,oadev", "drift": "none"}
+#: The timing demo log (optional) and how the demo analyses it.
+TIMING_LOG = "gnss-timing-receiver-pps.csv.gz"
+TIMING_SETTINGS = {"column": "pps_te_ns", "mask": "g8272-prtc-a", "sawtooth": "qerr_ns"}
 
 DemoOutOpt = Annotated[
     Path | None,
@@ -147,8 +158,9 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
     """Run the whole job on the bundled demo data (an invented OCXO qualification).
 
     Analyses the counter log (oadev, mdev, hdev; log drift model) into counter/,
-    the 1 PPS log (tdev, mtie, oadev) into pps/, and writes the calibration
-    record into record/ when the example spec and info files are there.
+    the 1 PPS log (tdev, mtie, oadev) into pps/, writes the calibration
+    record into record/ when the example spec and info files are there, and
+    judges the timing demo log against PRTC-A into timing/ when it is there.
 
     Example: stability demo --out stability-demo
     """
@@ -185,6 +197,23 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
             echo(line)
         echo("")
 
+    timing_files = None
+    if (folder / TIMING_LOG).is_file():
+        echo("== GNSS timing receiver 1 PPS against PRTC-A (second invented scenario)")
+        settings = dict(TIMING_SETTINGS)
+        with ProgressDisplay() as bar:
+            timing, timing_files = time_error_into(
+                folder / TIMING_LOG,
+                target / "timing",
+                RunSettings.from_options(column=settings.pop("column")),
+                plot_format=opts.plot_format,
+                on_progress=bar.reading(TIMING_LOG),
+                **settings,
+            )
+        for line in time_error_lines(timing):
+            echo(line)
+        echo("")
+
     shown: list[tuple[str, Path]] = []
     for label, files in (("counter", counter_files), ("pps", pps_files)):
         shown += [
@@ -195,6 +224,12 @@ def demo(out: DemoOutOpt = None, data: DataOpt = None, *, opts: RunOptions) -> N
         ]
     if record_folder is not None:
         shown.append(("calibration record", record_folder / "record.pdf"))
+    if timing_files is not None:
+        shown += [
+            ("timing: time interval error", timing_files[f"tie.{opts.plot_format}"]),
+            ("timing: MTIE and TDEV, mask", timing_files[f"mtie_tdev.{opts.plot_format}"]),
+            ("timing: report", timing_files["time_error.md"]),
+        ]
     width = max(len(what) for what, _ in shown)
     echo("Open these:")
     for what, path in shown:

@@ -26,7 +26,7 @@ import typer
 
 from stability.aging import AGING_MODELS, parse_interval
 from stability.errors import InputError
-from stability.figures import history_figure, save_figure
+from stability.figures import save_figure
 from stability.figures.labels import tool_footer
 from stability.files import jsonable
 from stability.history import (
@@ -41,6 +41,7 @@ from stability.history import (
     review_device,
     write_stored_record,
 )
+from stability.history.display import review_figure
 from stability.outputs import OutputSet
 from stability.reports.tables import format_tau, format_value, statistic_unit
 
@@ -282,12 +283,8 @@ def _draw(review: DeviceReview, store: HistoryStore, opts: RunOptions) -> Path:
     folder = opts.folder(Path.cwd())
     fmt = opts.plot_format
     now = datetime.now(UTC)
-    drawn = history_figure(
-        review.calibrations,
-        review.fit,
-        due=review.due,
-        tolerance=review.tolerance,
-        confidence=review.confidence,
+    drawn = review_figure(
+        review,
         title=opts.title or f"calibration history of {review.device.device_id}",
         footer=f"{len(review.calibrations)} records from {store.path.name} · {tool_footer(now)}",
     )

@@ -19,16 +19,22 @@ from stability._version import __version__
 
 from . import (
     analyze_cmd,
+    batch_cmd,
+    capture_cmd,
     demo_cmd,
     history_cmd,
     inspect_cmd,
+    masks_cmd,
     overlay_cmd,
     phase_noise_cmd,
     record_cmd,
     separate_cmd,
     simulate_cmd,
     spectrum_cmd,
+    time_error_cmd,
     timeline_cmd,
+    validate_cmd,
+    watch_cmd,
 )
 from .common import StabilityGroup, run_program
 
@@ -76,6 +82,12 @@ app.command("phase-noise")(phase_noise_cmd.phase_noise_command)
 app.command("timeline")(timeline_cmd.timeline_command)
 app.command("simulate")(simulate_cmd.simulate_cmd)
 app.command("demo")(demo_cmd.demo)
+app.command("batch")(batch_cmd.batch)
+app.command("validate")(validate_cmd.validate_command)
+app.command("time-error")(time_error_cmd.time_error)
+app.command("masks")(masks_cmd.masks)
+app.command("watch")(watch_cmd.watch)
+app.command("capture")(capture_cmd.capture)
 app.command("spectrum")(spectrum_cmd.spectrum_command)
 
 #: ``stability history`` and its subcommands (calibration history per device).

@@ -32,6 +32,8 @@ __all__ = [
     "confidence_check",
     "stats_check",
     "on_off_check",
+    "word_check",
+    "mask_check",
 ]
 
 
@@ -140,3 +142,22 @@ def on_off_check(value: str) -> bool:
     if word not in ("on", "off"):
         raise InputError(f"--bias-correction takes on or off, got {value!r}")
     return word == "on"
+
+
+def word_check(flag: str, words: dict[str, Any]) -> Callable[[Any], Any]:
+    """An option whose value is one of ``words`` (any case); returns the word's meaning."""
+
+    def check(value: Any) -> Any:
+        word = str(value).strip().lower()
+        if word not in words:
+            raise InputError(f"{flag} must be {' or '.join(words)}, got {value!r}")
+        return words[word]
+
+    return check
+
+
+def mask_check(value: Any) -> str:
+    text = str(value).strip()
+    if not text:
+        raise InputError("--mask needs a bundled mask name or a mask file")
+    return text

@@ -54,6 +54,7 @@ from .option_checks import (
 )
 
 __all__ = [
+    "flag",
     "OptionSpec",
     "RunOptions",
     "build_options",
@@ -144,7 +145,7 @@ class OptionSpec:
         )
 
 
-def _flag(name: str, flag: str, help: str) -> OptionSpec:
+def flag(name: str, flag: str, help: str) -> OptionSpec:
     # a bool option declared without "/--no-..." is a flag: no value, no placeholder
     return OptionSpec(name, flag, bool, False, help)
 
@@ -246,8 +247,8 @@ WRAP = OptionSpec(
     metavar="DURATION",
     check=duration_check("--wrap"),
 )
-STRICT = _flag("strict", "--strict", "Make every unreadable row an error instead of a gap.")
-UNUSUAL_TIMING = _flag(
+STRICT = flag("strict", "--strict", "Make every unreadable row an error instead of a gap.")
+UNUSUAL_TIMING = flag(
     "allow_unusual",
     "--unusual-timing",
     "Read a sample interval below 1 ns or above one day, a record spanning more than a "
@@ -322,9 +323,9 @@ TAUS = OptionSpec(
     "--taus",
     str,
     "octave",
-    "Tau grid: octave (1, 2, 4, ... tau0), decade (1-2-5), all (every multiple of tau0) "
-    "or a comma list of taus in seconds, e.g. 1,10,100.",
-    metavar="octave|decade|all|LIST",
+    "Tau grid: octave (1, 2, 4, ... tau0), decade (1-2-5), dense (20 log-spaced per "
+    "decade), all (every multiple of tau0) or a comma list of taus in seconds, e.g. 1,10,100.",
+    metavar="octave|decade|dense|all|LIST",
     check=taus_check,
 )
 CONFIDENCE = OptionSpec(
@@ -391,12 +392,13 @@ TITLE = OptionSpec(
     "Title of the stability figure (default: the log's file name).",
     metavar="TEXT",
 )
-JSON = _flag(
+JSON = flag(
     "json_out",
     "--json",
     "Print the machine-readable summary (JSON) to standard output instead of the tables.",
 )
-DEBUG = _flag("debug", "--debug", "Show the full traceback of an error.")
+DEBUG = flag("debug", "--debug", "Show the full traceback of an error.")
+
 
 #: The option groups, in the order the help lists them.
 READING = (

@@ -15,11 +15,18 @@ from types import TracebackType
 from typing import Any
 
 from rich.console import Console
-from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.progress import (
+    BarColumn,
+    MofNCompleteColumn,
+    Progress,
+    TextColumn,
+    TimeElapsedColumn,
+    TimeRemainingColumn,
+)
 
 from .common import printable
 
-__all__ = ["ProgressDisplay", "step_count"]
+__all__ = ["ProgressDisplay", "step_count", "LogsProgress"]
 
 
 def step_count(stats: Any) -> int:
@@ -96,3 +103,52 @@ class ProgressDisplay:
             bar.update(task, advance=1, description=f"analysing {name} ({label} done)")
 
         return on_step
+
+
+class LogsProgress:
+    """A bar over the logs of a fleet with the time left, on a terminal only.
+
+    :meth:`update` takes the ``on_result(done, total, result)`` calls of
+    :func:`stability.fleet.batch`; failed logs are counted in the bar's text.
+    """
+
+    def __init__(self, enabled: bool = True, console: Console | None = None) -> None:
+        self.console = console if console is not None else Console(stderr=True)
+        self.shown = bool(enabled) and self.console.is_terminal
+        self._bar: Progress | None = None
+        self._task: Any = None
+        self.failed = 0
+
+    def __enter__(self) -> LogsProgress:
+        if self.shown:
+            self._bar = Progress(
+                TextColumn("{task.description}", markup=False),
+                BarColumn(),
+                MofNCompleteColumn(),
+                TimeElapsedColumn(),
+                TextColumn("left"),
+                TimeRemainingColumn(),
+                console=self.console,
+                transient=True,
+            )
+            self._bar.start()
+            self._task = self._bar.add_task("logs", total=None)
+        return self
+
+    def __exit__(
+        self,
+        kind: type[BaseException] | None,
+        error: BaseException | None,
+        trace: TracebackType | None,
+    ) -> None:
+        if self._bar is not None:
+            self._bar.stop()
+            self._bar = None
+
+    def update(self, done: int, total: int, result: Any) -> None:
+        """Move the bar on by one finished log (nothing when no bar is shown)."""
+        if result.get("status") == "error":
+            self.failed += 1
+        if self._bar is not None:
+            text = f"logs ({self.failed} failed)" if self.failed else "logs"
+            self._bar.update(self._task, completed=done, total=total, description=text)

@@ -15,10 +15,12 @@ from typing import Annotated
 import typer
 
 from stability.history import history_for_record
+from stability.units import parse_duration, parse_frequency
 from stability.workflow import record_into
 
 from .cause_options import CAUSES, SPECTRUM, cause_settings
-from .common import echo
+from .command_options import TIMING
+from .common import UsageProblem, echo
 from .options import (
     ANALYSING,
     CONFIDENCE,
@@ -89,6 +91,7 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
     ANALYSING,
     WRITING,
     STABILITY_PLOT,
+    TIMING,
     CAUSES,
     SPECTRUM,
     variants=(
@@ -107,10 +110,17 @@ def record(
 ) -> None:
     """Write a calibration record (PDF and JSON) with verdicts against a specification.
 
+    With --mask the time error of the log as read (after --sawtooth, when
+    given) is also judged against a time-error mask (bundled or a file) and
+    the record carries that verdict.
+
     Example: stability record counter.csv --spec spec.toml --info info.toml --out rec/
     """
     folder = opts.folder(Path.cwd() / f"{log.name}-stability")
     stats = opts.settings.analysis.stats
+    given = opts.given
+    if given["mask"] is None and given["sawtooth"] is not None:
+        raise UsageProblem("--sawtooth applies to the time error judged against a --mask")
     causes = cause_settings(opts)
     counter_warning(causes)
     with ProgressDisplay(enabled=not opts.json) as bar:
@@ -128,6 +138,15 @@ def record(
             noise_labels=opts.noise_labels,
             on_progress=bar.reading(log.name),
             on_step=bar.steps(log.name, step_count(stats) + 1),
+            mask=given["mask"],
+            timing_options={
+                "remove_offset": bool(given["remove_offset"]),
+                "sawtooth": given["sawtooth"],
+                "sawtooth_sign": given["sawtooth_sign"],
+                "sawtooth_applies_to": given["sawtooth_row"],
+                "cte_window": parse_duration(given["cte_window"], what="--cte-window"),
+                "bandwidth": parse_frequency(given["dte_bandwidth"], what="--dte-bandwidth"),
+            },
             causes=causes,
         )
     if opts.json:

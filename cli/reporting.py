@@ -18,6 +18,7 @@ import stability
 from stability.causes import CauseSettings, cause_notes
 from stability.figures.labels import column_text
 from stability.reports.tables import format_tau, format_value, statistic_unit
+from stability.reports.timing import mask_lines
 from stability.run import AnalysisRun
 from stability.table import NOISE_LABELS as NOISE_NAMES
 from stability.units import format_duration, format_frequency, format_seconds
@@ -123,6 +124,9 @@ def record_lines(outcome: RecordOutcome) -> list[str]:
             + (f", {failing} fail" if failing else "")
         )
     lines.append(f"overall verdict: {judgement.overall}")
+    if outcome.timing is not None:
+        lines.append("time error of the log as read, against a mask:")
+        lines += [f"  {line}" for line in mask_lines(outcome.timing)]
     return lines
 
 

@@ -8,6 +8,10 @@ of deviations with noise identification and confidence intervals::
     table = stability.analyze(m, stats="oadev,mdev")
     print(table.to_frame())
 
+Results draw themselves with the command's own figures (``table.plot()``,
+``measurement.plot(ax=ax)``) and show as tables in a notebook; see
+:mod:`stability.display` for how, without the result types importing the figures.
+
 The names below are loaded on first use, so that ``import stability`` (and the
 command line's start-up) pays only for the parts a job touches.
 """
@@ -17,8 +21,16 @@ from __future__ import annotations
 import importlib
 from typing import TYPE_CHECKING, Any
 
+from . import display as _display
 from ._version import __version__
 from .errors import AnalysisError, InputError, SpecError, StabilityError, StabilityWarning
+
+# The results' plot methods and rich displays are drawn and formatted floors
+# above the result types; those floors register them with stability.display
+# when imported, and are imported on the first plot() or display, not here.
+_display.add_provider(f"{__name__}.figures")
+_display.add_provider(f"{__name__}.reports.html")
+_display.add_provider(f"{__name__}.history.display")
 
 #: Public name -> module that defines it (relative to this package), or
 #: ``module:attribute`` where the public name differs from the defining one.
@@ -48,6 +60,7 @@ _LAZY = {
     "read_and_prepare": ".run",
     "write_analysis": ".workflow",
     "analyze_into": ".workflow",
+    "batch": ".fleet",
     "PreparationReport": ".prepare",
     "prepare_measurement": ".prepare:prepare",
     "RunSettings": ".settings",
@@ -57,6 +70,7 @@ _LAZY = {
     "run_with_causes": ".causes",
     "CauseSettings": ".causes",
     "welch_spectrum": ".spectrum",
+    "validate": ".validation",
 }
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
@@ -65,6 +79,7 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from .causes import CauseSettings, run_with_causes
     from .deviations import STATISTICS, get_statistic, statistic_names
     from .dynamic import dynamic_stability
+    from .fleet import batch
     from .hat import separate
     from .ingest import LogReport, inspect_log, read_log
     from .measurement import Measurement, Provenance
@@ -77,11 +92,22 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from .spectrum import welch_spectrum
     from .table import COLUMNS, ConfidenceInterval, StabilityTable, StatisticResult
     from .taus import tau_grid
+    from .validation import validate
     from .workflow import analyze_into, write_analysis
 
 
 #: Subpackages reached as attributes (``stability.prepare.three_point_drift``).
-_SUBPACKAGES = ("prepare", "ingest", "deviations", "spec", "figures", "reports", "history", "aging")
+_SUBPACKAGES = (
+    "prepare",
+    "ingest",
+    "deviations",
+    "spec",
+    "figures",
+    "reports",
+    "history",
+    "aging",
+    "validation",
+)
 
 
 def __getattr__(name: str) -> Any:
@@ -116,6 +142,7 @@ __all__ = [
     "read_and_prepare",
     "write_analysis",
     "analyze_into",
+    "batch",
     "RunSettings",
     "ReadSettings",
     "PrepareSettings",
@@ -139,6 +166,7 @@ __all__ = [
     "get_statistic",
     "statistic_names",
     "tau_grid",
+    "validate",
     "StabilityError",
     "InputError",
     "AnalysisError",

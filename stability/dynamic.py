@@ -55,6 +55,8 @@ import pandas as pd
 
 from .deviations._kernels import comb_terms
 from .deviations.registry import get_statistic
+from .display import Displayable
+from .display import plot as _plot
 from .errors import AnalysisError, InputError, StabilityWarning
 from .intervals import chi2_interval
 from .measurement import Measurement
@@ -73,7 +75,7 @@ _WHOLE_RTOL = 1e-6
 
 
 @dataclass
-class DynamicResult:
+class DynamicResult(Displayable):
     """A deviation over (window centre time, tau).
 
     Matrices have shape (windows, taus); a cell is NaN where the window has
@@ -124,6 +126,29 @@ class DynamicResult:
     @property
     def shape(self) -> tuple[int, int]:
         return self.deviation.shape
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """Stability over time, as ``stability timeline`` draws it: the map and its trace.
+
+        Parameters
+        ----------
+        ax
+            A matplotlib ``Axes`` (or two: the map, then the shortest-tau
+            trace) to draw into, in a figure the caller lays out. None draws
+            a figure of its own
+            (``matplotlib.figure.Figure``, never pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`stability.figures.timeline_figure` (title, footer).
+
+        Returns
+        -------
+        stability.figures.TimelineDrawn
+            The figure, its panels (``.axes``) and the data as drawn; it shows
+            itself in a notebook.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)
 
     def to_frame(self) -> pd.DataFrame:
         """Long format, one row per (window, tau).

@@ -74,6 +74,8 @@ import pandas as pd
 
 from .analysis import estimate
 from .deviations.registry import get_statistic
+from .display import Displayable
+from .display import plot as _plot
 from .errors import AnalysisError, InputError
 from .hat_intervals import difference_matrix, hat_intervals
 from .intervals import check_confidence
@@ -370,7 +372,7 @@ class OscillatorStability:
 
 
 @dataclass
-class HatResult:
+class HatResult(Displayable):
     """Separated stabilities of every oscillator and the pair curves they come from.
 
     Attributes
@@ -407,6 +409,28 @@ class HatResult:
         """One row per (oscillator, tau): oscillator, statistic, tau_s, m, deviation,
         ci_low, ci_high, edf, status, upper_bound, variance, resolution."""
         return pd.concat([o.to_frame() for o in self.oscillators.values()], ignore_index=True)
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The separated stability of each oscillator, as ``stability separate`` draws it.
+
+        Parameters
+        ----------
+        ax
+            A matplotlib ``Axes`` (one panel) to draw into, in a figure the
+            caller lays out. None draws a figure of its own
+            (``matplotlib.figure.Figure``, never pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`stability.figures.hat_figure` (title, footer).
+
+        Returns
+        -------
+        stability.figures.HatDrawn
+            The figure, its panels (``.axes``) and the data as drawn; it shows
+            itself in a notebook.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)
 
     def pairs_frame(self) -> pd.DataFrame:
         """The pair curves: a ``pair`` column (``A-B``) followed by the results-table columns."""

@@ -31,6 +31,8 @@ from typing import Any
 
 import numpy as np
 
+from .display import Displayable
+from .display import plot as _plot
 from .errors import InputError
 
 __all__ = ["Measurement", "Provenance", "Auxiliary", "TAU0_RANGE"]
@@ -132,7 +134,7 @@ def _check_meta(meta: dict[str, Any]) -> None:
 
 
 @dataclass(eq=False)
-class Measurement:
+class Measurement(Displayable):
     """Phase data in seconds on a uniform grid, with provenance.
 
     Build one with :meth:`from_phase` or :meth:`from_frequency` rather than
@@ -165,6 +167,10 @@ class Measurement:
         Where the data came from.
     notes
         What reading and preparation did, in plain sentences.
+    origin
+        The time error subtracted to make the first finite sample zero, in
+        seconds (phase input; 0 for frequency input, whose absolute time error
+        is unknown): the absolute time error is ``phase + origin``.
     auxiliary
         Optional auxiliary series by quantity name (``temperature`` ...).
     """
@@ -179,6 +185,7 @@ class Measurement:
     lines: np.ndarray | None = None
     provenance: Provenance = field(default_factory=Provenance)
     notes: list[str] = field(default_factory=list)
+    origin: float = 0.0
     auxiliary: dict[str, Auxiliary] | None = None
 
     def __post_init__(self) -> None:
@@ -209,7 +216,11 @@ class Measurement:
         finite = np.isfinite(phase)
         if not finite.any():
             raise InputError("phase holds no finite sample: every value is missing")
-        phase = phase - phase[np.argmax(finite)]
+        first = float(phase[np.argmax(finite)])
+        self.origin = float(self.origin) + first
+        if not math.isfinite(self.origin):
+            raise InputError("origin must be finite")
+        phase = phase - first
         phase.flags.writeable = False
         self.phase = phase
         if self.lines is not None:
@@ -310,5 +321,30 @@ class Measurement:
         src = self.provenance.path or "memory"
         return (
             f"Measurement(n={self.n}, tau0={self.tau0:g} s, kind={self.kind!r}, "
-            f"gaps={self.gap_count()}, source={src!r})"
+            f"span={self.span:g} s, gaps={self.gap_count()}, notes={len(self.notes)}, "
+            f"source={src!r})"
         )
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The data over time, as ``stability analyze`` draws it in ``series.png``.
+
+        Parameters
+        ----------
+        ax
+            A matplotlib ``Axes`` (or a list of them) to draw into: the figure's
+            panels in order (fractional frequency first), as many as given.
+            None draws a figure of its own (``matplotlib.figure.Figure``, never
+            pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`stability.figures.series_figure` (drift curve,
+            outliers, title, footer ...).
+
+        Returns
+        -------
+        stability.figures.SeriesDrawn
+            The figure, its panels (``.axes``) and the data as drawn; it shows
+            itself in a notebook.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)

@@ -72,6 +72,8 @@ from typing import Any, Literal
 import numpy as np
 import pandas as pd
 
+from .display import Displayable
+from .display import plot as _plot
 from .errors import AnalysisError, InputError
 from .phase_noise_table import positive, read_phase_noise_table, validate_table
 from .taus import GRIDS, parse_taus
@@ -336,7 +338,7 @@ _PREFACTOR = {"avar": 2.0, "mvar": 2.0, "hvar": 8.0 / 3.0}
 
 # ---------------------------------------------------------------------------- the result
 @dataclass
-class PhaseNoiseStability:
+class PhaseNoiseStability(Displayable):
     """Deviations implied by a phase-noise table.
 
     Attributes
@@ -368,6 +370,30 @@ class PhaseNoiseStability:
     @property
     def statistics(self) -> list[str]:
         return list(self.deviations)
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The stability implied by the table, as ``stability phase-noise`` draws it.
+
+        Parameters
+        ----------
+        ax
+            A matplotlib ``Axes`` (or two: the stability, then the phase-noise
+            table when ``table=`` or ``model=`` is given) to draw into, in a
+            figure the caller lays out. None draws a figure of its own
+            (``matplotlib.figure.Figure``, never pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`stability.figures.phase_noise_figure` (the input
+            table, a measured table to compare, title ...).
+
+        Returns
+        -------
+        stability.figures.PhaseNoiseDrawn
+            The figure, its panels (``.axes``) and the data as drawn; it shows
+            itself in a notebook.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)
 
     def to_frame(self) -> pd.DataFrame:
         """Long format: one row per (statistic, tau) with columns statistic, tau_s, deviation."""

@@ -40,6 +40,7 @@ __all__ = [
     "qualify_result",
     "effective_points",
     "model_curve",
+    "model_curves",
 ]
 
 
@@ -297,3 +298,17 @@ def model_curve(model: PowerLawModel | None, tau: np.ndarray) -> tuple[np.ndarra
         return np.zeros(0), np.zeros(0)
     grid = np.geomspace(float(np.min(tau)), float(np.max(tau)), 200)
     return grid, model.deviation(grid)
+
+
+def model_curves(table: StabilityTable) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+    """The table's fitted power-law model as (tau, sigma) for its Allan-type statistics.
+
+    The model describes the (overlapping) Allan variance, so only ``oadev`` and
+    ``adev`` get a curve; none when no model was fitted.
+    """
+    model = table.extras.get("power_law_model")
+    out = {}
+    for name in ("oadev", "adev"):
+        if name in table.results:
+            out[name] = model_curve(model, table[name].tau)
+    return {k: v for k, v in out.items() if v[0].size}

@@ -22,11 +22,13 @@ from typing import Any
 import numpy as np
 
 from .analysis import analyze
+from .display import Displayable
+from .display import plot as _plot
 from .errors import InputError
 from .ingest import read_log
 from .measurement import Measurement
 from .prepare import PreparationReport, prepare, require_variation
-from .qualify import model_curve
+from .qualify import model_curves
 from .settings import RunSettings
 from .summary import build_summary
 from .table import StabilityTable
@@ -47,7 +49,7 @@ StepProgress = Callable[[str], None]
 
 
 @dataclass(frozen=True)
-class AnalysisRun:
+class AnalysisRun(Displayable):
     """One analysis, from the data as read to the qualified table.
 
     Attributes
@@ -89,12 +91,25 @@ class AnalysisRun:
 
     def model_curves(self) -> dict[str, tuple[np.ndarray, np.ndarray]]:
         """The fitted power-law model as (tau, sigma) for the Allan-type statistics."""
-        model = self.table.extras.get("power_law_model")
-        out = {}
-        for name in ("oadev", "adev"):
-            if name in self.table.results:
-                out[name] = model_curve(model, self.table[name].tau)
-        return {k: v for k, v in out.items() if v[0].size}
+        return model_curves(self.table)
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The sigma-tau plot exactly as ``stability analyze`` draws it in ``sigma_tau.png``.
+
+        ``ax``, ``figure`` and ``options`` as for :meth:`StabilityTable.plot`;
+        the footer carries this run's analysis date. Returns the
+        :class:`stability.figures.StabilityDrawn`.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)
+
+    def plot_series(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The data over time as ``stability analyze`` draws it in ``series.png``.
+
+        The drift curve, outliers and phase steps of this run's preparation
+        over the prepared data; ``ax``, ``figure`` and ``options`` as for
+        :meth:`Measurement.plot`. Returns the :class:`stability.figures.SeriesDrawn`.
+        """
+        return _plot(self, ax=ax, figure=figure, view="series", **options)
 
 
 def resolve_settings(settings: RunSettings | None, options: dict[str, Any]) -> RunSettings:

@@ -17,6 +17,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .display import Displayable
+from .display import plot as _plot
 from .intervals import ConfidenceInterval, chi2_interval
 
 __all__ = ["COLUMNS", "NOISE_LABELS", "ConfidenceInterval", "StatisticResult", "StabilityTable"]
@@ -171,8 +173,8 @@ class StatisticResult:
         )
 
 
-@dataclass(frozen=True)
-class StabilityTable:
+@dataclass(frozen=True, repr=False)
+class StabilityTable(Displayable):
     """All statistics of one analysis, with what produced them.
 
     Attributes
@@ -217,3 +219,38 @@ class StabilityTable:
         if not frames:
             return pd.DataFrame(columns=list(COLUMNS))
         return pd.concat(frames, ignore_index=True)
+
+    def __repr__(self) -> str:
+        source = getattr(getattr(self.measurement, "provenance", None), "path", None)
+        return (
+            f"StabilityTable({', '.join(self.results) or 'no statistics'}: {len(self)} rows, "
+            f"confidence={self.confidence:g}, source={source or 'memory'!r})"
+        )
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The sigma-tau plot, as ``stability analyze`` draws it in ``sigma_tau.png``.
+
+        Intervals as error bars, the identified noise types, the fitted
+        power-law model of the Allan-type statistics and the key of slopes.
+
+        Parameters
+        ----------
+        ax
+            A matplotlib ``Axes`` to draw the data into (a list of two when
+            the table holds both fractional-frequency and time statistics,
+            which never share an axis); the legend then goes inside the
+            panel and the key of slopes is left out. None draws a figure of
+            its own (``matplotlib.figure.Figure``, never pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`stability.figures.stability_figure` (limits,
+            reference, noise_labels, title, footer ...).
+
+        Returns
+        -------
+        stability.figures.StabilityDrawn
+            The figure, its panels (``.axes``) and the data as drawn; it shows
+            itself in a notebook.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)

@@ -2,6 +2,8 @@
 
 ``octave``  m = 1, 2, 4, 8, ...
 ``decade``  m = 1, 2, 5, 10, 20, 50, ... (the 1-2-5 sequence)
+``dense``   about 20 log-spaced m per decade (1, 2, 3, ..., 11, 13, 14, 16, ...): the
+            grid of time-error work, where a mask is judged between octaves
 ``all``     every m from 1 up
 a list      explicit taus in seconds, each a whole multiple of tau0
 
@@ -20,7 +22,10 @@ from .units import parse_duration
 
 __all__ = ["GRIDS", "MAX_FACTOR", "tau_grid", "parse_taus"]
 
-GRIDS = ("octave", "decade", "all")
+GRIDS = ("octave", "decade", "dense", "all")
+
+#: Averaging factors per decade of the ``dense`` grid.
+DENSE_PER_DECADE = 20
 
 #: Relative tolerance for "a whole multiple of tau0".
 _MULTIPLE_RTOL = 1e-6
@@ -45,7 +50,7 @@ def parse_taus(spec: str | Sequence[float]) -> str | list[float]:
         out.append(parse_duration(part, what="tau"))
     if not out:
         raise InputError(
-            f"no taus in {spec!r}", hint="use octave, decade, all or a list such as 1,10,100"
+            f"no taus in {spec!r}", hint="use octave, decade, dense, all or a list such as 1,10,100"
         )
     return out
 
@@ -83,7 +88,7 @@ def tau_grid(
     Parameters
     ----------
     grid
-        ``"octave"``, ``"decade"``, ``"all"`` or a sequence of taus in seconds.
+        ``"octave"``, ``"decade"``, ``"dense"``, ``"all"`` or a sequence of taus in seconds.
     max_m
         Largest averaging factor allowed (from the statistic and N).
     tau0
@@ -100,12 +105,17 @@ def tau_grid(
         elif name == "decade":
             decades = 10 ** np.arange(int(math.log10(max_m)) + 1)
             ms = (decades[:, None] * np.array([1, 2, 5])).ravel()
+        elif name == "dense":
+            top = math.log10(max_m)
+            steps = np.arange(int(math.floor(top * DENSE_PER_DECADE)) + 1) / DENSE_PER_DECADE
+            ms = np.unique(np.round(10.0**steps).astype(np.int64))
+            ms = np.append(ms, max_m)  # the longest window the record allows
         elif name == "all":
             ms = np.arange(1, max_m + 1)
         else:
             raise InputError(
                 f"unknown tau grid {grid!r}",
-                hint="choose octave, decade, all or a list of taus in seconds",
+                hint="choose octave, decade, dense, all or a list of taus in seconds",
             )
         ms = np.asarray(ms, dtype=np.int64)
         if step > 1:

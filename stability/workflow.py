@@ -20,19 +20,21 @@ from pathlib import Path
 from typing import Any
 
 from .causes import CauseSettings, analyse_with_causes, periodic_marks
+from .display import Displayable, register_html, register_text
 from .environment import aux_on_frequency_grid
 from .errors import AnalysisError, InputError
 from .figures import (
     environment_figure,
     run_series_figure,
+    run_stability_figure,
     save_figure,
     spectrum_figure,
-    stability_figure,
 )
 from .figures.labels import default_footer, default_title
 from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
 from .outputs import OutputSet
+from .reports.html import facts_table, judgement_html, judgement_text, result_box
 from .reports.record import RECORD_NAMES, write_record_files
 from .reports.tables import table_csv, table_markdown
 from .run import (
@@ -44,8 +46,9 @@ from .run import (
     resolve_settings,
 )
 from .settings import RunSettings
-from .spec import Info, Judgement, judge, load_info, load_spec
+from .spec import Info, Judgement, Spec, judge, load_info, load_spec
 from .summary import summary_json
+from .timing import Mask, TimeErrorAnalysis, analyze_time_error, load_mask, read_sawtooth
 
 __all__ = [
     "analyze_into",
@@ -53,6 +56,7 @@ __all__ = [
     "spectrum_drawing",
     "environment_drawing",
     "record_into",
+    "spec_settings",
     "RecordOutcome",
     "write_analysis",
     "output_names",
@@ -95,12 +99,10 @@ def _draw_stability(
     footer: str | None,
     noise_labels: Any = None,
 ) -> Path:
-    fig = stability_figure(
-        run.table,
-        model_curve=run.model_curves(),
+    fig = run_stability_figure(
+        run,
         limits=limits,
         limits_statistic=limits_statistic,
-        analysis_time=run.analysis_time,
         title=title,
         footer=footer,
         noise_labels=noise_labels,
@@ -173,6 +175,7 @@ def analyze_into(
     limits_statistic: str | None = None,
     title: str | None = None,
     noise_labels: Any = None,
+    spec: Spec | None = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
     causes: CauseSettings | None = None,
@@ -183,7 +186,9 @@ def analyze_into(
     ``settings`` (or keyword settings as :func:`stability.run_analysis` takes
     them) say what to do; ``title`` replaces the stability figure's title and
     ``noise_labels`` says whose noise types it writes (see
-    :func:`stability.figures.stability_figure`). The
+    :func:`stability.figures.stability_figure`). With ``spec`` (settings made
+    with :func:`spec_settings`) the stability figure draws the specification's
+    limits coloured by their verdicts, as the calibration record does. The
     five files appear together or not at all
     (:class:`stability.outputs.OutputSet`): an output that would overwrite the
     log is refused before anything is read, a folder another run is writing
@@ -199,7 +204,10 @@ def analyze_into(
     names, stale = output_names(fmt)
     if causes is not None and causes.regress:
         names.append(f"environment.{fmt}")
-    inputs = [] if isinstance(log, Measurement) else [log]
+    if isinstance(log, Measurement):  # the file it was read from is protected all the same
+        inputs = [log.provenance.path] if log.provenance.path else []
+    else:
+        inputs = [log]
     _refuse_record_folder(Path(folder))
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
@@ -214,6 +222,8 @@ def analyze_into(
             )
             if causes.regress:
                 _draw_environment(out.pending[f"environment.{fmt}"], fmt, run)
+        if spec is not None:
+            limits, limits_statistic = judge(run.table, spec).plot_limits(), spec.statistic
         pending = _paths(out.pending, fmt)
         _write_all(
             run,
@@ -357,9 +367,26 @@ def _refuse_record_folder(folder: Path) -> None:
         )
 
 
+def spec_settings(
+    settings: RunSettings, spec: Spec, confidence: float | None = None
+) -> RunSettings:
+    """The settings of a run judged against ``spec``, as the calibration record makes them.
+
+    The specification's statistic is added to the statistics when missing, and
+    its confidence level is used unless ``confidence`` is given.
+    """
+    stats = settings.analysis.stats
+    wanted = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
+    wanted = [s for s in wanted if s]
+    if spec.statistic not in wanted:
+        wanted.append(spec.statistic)
+    level = spec.confidence if confidence is None else confidence
+    return settings.replace(stats=",".join(wanted), confidence=level)
+
+
 @dataclass(frozen=True)
-class RecordOutcome:
-    """A calibration record made by :func:`record_into`."""
+class RecordOutcome(Displayable):
+    """A calibration record made by :func:`record_into` (shows itself in a notebook)."""
 
     run: AnalysisRun
     judgement: Judgement
@@ -368,6 +395,8 @@ class RecordOutcome:
     files: dict[str, Path]
     #: Where the record was stored in the calibration history (None: history not asked for).
     history: StoredRecord | None = None
+    #: The time error judged against the mask (None: no --mask).
+    timing: TimeErrorAnalysis | None = None
 
 
 def _store_in_history(
@@ -402,6 +431,8 @@ def record_into(
     noise_labels: Any = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
+    mask: Mask | str | None = None,
+    timing_options: dict[str, Any] | None = None,
     causes: CauseSettings | None = None,
     **options: Any,
 ) -> RecordOutcome:
@@ -419,20 +450,23 @@ def record_into(
     record of the same input and settings already there is refused unless
     ``force`` (which replaces it). The history file is checked before the
     analysis starts.
+
+    With ``mask`` (a bundled name, a mask file or a :class:`stability.timing.Mask`)
+    the time error of the log as read is also judged against it
+    (:func:`stability.timing.analyze_time_error`, dense taus) and the record
+    carries that verdict too; ``timing_options`` are that function's keywords
+    (``remove_offset``, ``cte_window``, ``bandwidth``, ``sawtooth_sign``,
+    ``sawtooth_applies_to``) plus ``sawtooth``, the log's sawtooth column.
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
     spec = load_spec(spec_path)
     info = load_info(info_path)
+    mask_file = [mask] if isinstance(mask, str | os.PathLike) and Path(mask).is_file() else []
+    mask = load_mask(mask) if isinstance(mask, str | os.PathLike) else mask
     names, stale = output_names(fmt)
-    inputs = [log, spec_path, info_path, *([history] if history is not None else [])]
-    stats = settings.analysis.stats
-    wanted = [s.strip() for s in (stats.split(",") if isinstance(stats, str) else stats)]
-    wanted = [s for s in wanted if s]
-    if spec.statistic not in wanted:
-        wanted.append(spec.statistic)
-    level = spec.confidence if confidence is None else confidence
-    settings = settings.replace(stats=",".join(wanted), confidence=level)
+    inputs = [log, spec_path, info_path, *([history] if history is not None else []), *mask_file]
+    settings = spec_settings(settings, spec, confidence)
     store = open_history(history) if history is not None else None
     # the record's own files first: they are what --force is about
     with (
@@ -445,6 +479,14 @@ def record_into(
         else:  # the record states the counter type and dead time (stability.causes)
             run = analyse_with_causes(source, prepared, report, settings, causes, on_step=on_step)
         judgement = judge(run.table, spec, reference=info.reference)
+        timing = None
+        if mask is not None:
+            extra = dict(timing_options or {})
+            column = extra.pop("sawtooth", None)
+            if column:
+                extra["sawtooth"] = read_sawtooth(log, column, settings.read.as_kwargs(), source)
+                extra["sawtooth_column"] = column
+            timing = analyze_time_error(source, mask=mask, **extra)
         _write_all(
             run,
             _paths(out.pending, fmt),
@@ -455,11 +497,45 @@ def record_into(
             title=title,
             noise_labels=noise_labels,
         )
-        write_record_files(run, judgement, info, out.path("record.pdf"), out.path("record.json"))
+        write_record_files(
+            run, judgement, info, out.path("record.pdf"), out.path("record.json"), timing
+        )
         stored = None
         if store is None:
             files = out.commit()
         else:
             stored, files = _store_in_history(store, out, force)
     paths = {**_paths(files, fmt), **{name: files[name] for name in RECORD_NAMES}}
-    return RecordOutcome(run, judgement, info, Path(spec_path), paths, history=stored)
+    return RecordOutcome(
+        run, judgement, info, Path(spec_path), paths, history=stored, timing=timing
+    )
+
+
+def _outcome_facts(outcome: RecordOutcome) -> list[tuple[str, str]]:
+    folder = next(iter(outcome.files.values())).parent
+    facts = [
+        ("device", outcome.info.device_id),
+        ("folder", str(folder)),
+        ("files", ", ".join(sorted(p.name for p in outcome.files.values()))),
+        ("specification", outcome.spec_path.name),
+    ]
+    if outcome.history is not None:
+        facts.append(("stored in the history", f"record {outcome.history.number}"))
+    return facts
+
+
+def _outcome_html(outcome: RecordOutcome) -> str:
+    return result_box(
+        "Calibration record",
+        facts_table(_outcome_facts(outcome)),
+        judgement_html(outcome.judgement),
+    )
+
+
+def _outcome_text(outcome: RecordOutcome) -> str:
+    facts = "\n".join(f"  {k}: {v}" for k, v in _outcome_facts(outcome))
+    return f"Calibration record\n{facts}\n{judgement_text(outcome.judgement)}"
+
+
+register_html(RecordOutcome, _outcome_html)
+register_text(RecordOutcome, _outcome_text)

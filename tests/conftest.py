@@ -90,8 +90,8 @@ def _kasdin_walter(alpha: float, n: int, seed: int) -> np.ndarray:
 
 @pytest.fixture(scope="session")
 def reference_dir() -> Path:
-    """datasets/reference/ of the repository."""
-    return REPO / "datasets" / "reference"
+    """The published data sets as the package ships them (stability/validation/data/)."""
+    return REPO / "stability" / "validation" / "data"
 
 
 @pytest.fixture(scope="session")

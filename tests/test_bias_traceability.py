@@ -14,7 +14,7 @@ from stability.reports.tables import table_markdown, terminal_table
 from stability.workflow import analyze_into
 
 ROOT = Path(__file__).resolve().parents[1]
-NBS14 = ROOT / "datasets/reference/nbs14.txt"
+NBS14 = ROOT / "stability/validation/data/nbs14.txt"
 
 
 def _rows(path: Path) -> list[dict[str, str]]:

@@ -16,34 +16,22 @@ import pytest
 
 import stability
 from stability import Measurement, analyze, estimate, get_statistic
+from stability.validation import published_set
 
 ALLAN_FAMILY = ("adev", "oadev", "mdev", "tdev", "hdev", "ohdev", "totdev")
 ALL_STATS = (*ALLAN_FAMILY, "mtie", "tie_rms")
 
-# NBS14, tau = 1 s and 2 s. Source: NBS Monograph 140 Annex 8.E; NIST SP 1065
-# section 12.3; Riley, "The Calculation of Time Domain Frequency Stability", table I.
-NBS14_EXPECTED = {
-    "adev": (91.22945, 115.8082),
-    "oadev": (91.22945, 85.95287),
-    "mdev": (91.22945, 74.78849),
-    "tdev": (52.67135, 86.35831),
-    "hdev": (70.80607, 116.7980),
-    "ohdev": (70.80607, 85.61487),
-    "totdev": (91.22945, 93.90379),
-}
-
-# 1000-point set, tau = 1, 10, 100 s. Source: NIST SP 1065 section 12.4;
-# Riley, "The Calculation of Time Domain Frequency Stability", table II.
-SP1065_1000PT_EXPECTED = {
-    "adev": (2.922319e-01, 9.965736e-02, 3.897804e-02),
-    "oadev": (2.922319e-01, 9.159953e-02, 3.241343e-02),
-    "mdev": (2.922319e-01, 6.172376e-02, 2.170921e-02),
-    "tdev": (1.687202e-01, 3.563623e-01, 1.253382e00),
-    "hdev": (2.943883e-01, 1.052754e-01, 3.910861e-02),
-    "ohdev": (2.943883e-01, 9.581083e-02, 3.237638e-02),
-    "totdev": (2.922319e-01, 9.134743e-02, 3.406530e-02),
-}
-SP1065_1000PT_MEAN = 0.4897745  # NIST SP 1065 section 12.4; Riley table II
+# The published values ship with the package (stability/validation/data/published.toml,
+# which names each source beside them: NBS Monograph 140 Annex 8.E; NIST SP 1065
+# sections 12.3 and 12.4; Riley, "The Calculation of Time Domain Frequency Stability",
+# tables I and II); `stability validate` checks against the same values.
+_NBS14 = published_set("nbs14")
+_SET1000 = published_set("sp1065_1000pt")
+# NBS14, tau = 1 s and 2 s.
+NBS14_EXPECTED = {k: tuple(float(v) for v in vs) for k, vs in _NBS14.values.items()}
+# 1000-point set, tau = 1, 10, 100 s.
+SP1065_1000PT_EXPECTED = {k: tuple(float(v) for v in vs) for k, vs in _SET1000.values.items()}
+SP1065_1000PT_MEAN = float(_SET1000.mean)
 
 
 def _table(meas, stats, taus):
@@ -106,9 +94,13 @@ def test_reference_files_equal_generated_values(
     np.testing.assert_array_equal(big, sp1065_1000pt_frequency)  # exact doubles
     header = (reference_dir / "sp1065_1000pt.txt").read_text(encoding="utf-8")[:400]
     assert "SP 1065" in header
-    note = (reference_dir / "SOURCE.md").read_text(encoding="utf-8")
-    for text in ("nbs14.txt", "sp1065_1000pt.txt", "91.22945", "3.406530e-02"):
-        assert text in note
+    # the shipped values carry their sources and the printed digits
+    assert _NBS14.path == reference_dir / "nbs14.txt"
+    assert any("section 12.3" in s for s in _NBS14.sources)
+    assert any("section 12.4" in s for s in _SET1000.sources)
+    assert _NBS14.values["oadev"] == ("91.22945", "85.95287")
+    assert _SET1000.values["totdev"][2] == "3.406530e-02"
+    assert set(NBS14_EXPECTED) == set(SP1065_1000PT_EXPECTED) == set(ALLAN_FAMILY)
 
 
 # ---------------------------------------------------------------- allantools cross-check

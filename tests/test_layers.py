@@ -34,6 +34,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
             "stability.intervals",
             "stability.table",
             "stability.settings",
+            "stability.display",
         ),
     ),
     (1, ("stability.ingest", "stability.prepare")),
@@ -57,7 +58,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
         ),
     ),
     (4, ("stability.analysis",)),
-    (5, ("stability.spec",)),
+    (5, ("stability.spec", "stability.timing")),
     (
         6,
         (
@@ -76,7 +77,17 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
     (7, ("stability.summary", "stability.run", "stability.causes")),
     (8, ("stability.figures",)),
     (9, ("stability.reports",)),
-    (10, ("stability.workflow", "stability.history")),
+    (
+        10,
+        (
+            "stability.workflow",
+            "stability.workflow_timing",
+            "stability.history",
+            "stability.validation",
+            "stability.live",
+            "stability.fleet",
+        ),
+    ),
     (11, ("stability.__init__", "stability.__main__")),
     (12, ("stability_cli",)),
 ]

@@ -29,7 +29,7 @@ def test_readme_has_python_examples():
 
 def test_readme_python_examples_run(tmp_path, monkeypatch):
     shutil.copyfile(ROOT / "datasets/demo/ocxo-vs-rb-counter.csv.gz", tmp_path / "counter-log.csv")
-    for name in ("spec-example.toml", "info-example.toml"):
+    for name in ("spec-example.toml", "info-example.toml", "gnss-timing-receiver-pps.csv.gz"):
         shutil.copyfile(ROOT / "datasets/demo" / name, tmp_path / name)
     monkeypatch.chdir(tmp_path)
     namespace: dict = {"__name__": "readme"}

@@ -63,7 +63,8 @@ def test_step_keeps_multiples():
 
 
 def test_parse_taus():
-    assert GRIDS == ("octave", "decade", "all")
+    assert GRIDS == ("octave", "decade", "dense", "all")
+    assert parse_taus("Dense") == "dense"
     assert parse_taus("octave") == "octave"
     assert parse_taus(" DECADE ") == "decade"
     assert parse_taus("1,10,100") == [1.0, 10.0, 100.0]

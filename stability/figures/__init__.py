@@ -11,12 +11,15 @@
 ``spectrum``     the Welch spectrum with its band, models and lines (:func:`spectrum_figure`)
 ``environment``  frequency and an auxiliary quantity (:func:`environment_figure`)
 ``overlay``      several analyses on one plot (:func:`overlay_figure`)
+``fleet``        a fleet's curves, band and spread (:mod:`stability.figures.fleet`)
 ``save``         writing PNG, SVG or PDF atomically (:func:`save_figure`)
 ``ticks``        tick positions and plain-text tick labels (three or more on any axis)
 ``placement``    labels placed beside their points where they touch nothing drawn
 ``slope_key``    the key of power-law slopes beside a sigma-tau panel
 ``sigma_inputs`` the sigma-tau plot's argument checks and drawn series
 ``reduce``       min/max envelopes and merged gap spans of long records
+``plot_methods`` the figures behind the results' ``plot`` methods (registered
+                 with :mod:`stability.display` on import)
 
 Every figure function validates its input, draws on a new ``Figure`` with the
 Agg canvas (never pyplot's global state) and returns a frozen dataclass, a
@@ -32,15 +35,24 @@ from .history import history_figure as history_figure
 from .labels import analysis_date, column_text, default_footer, default_title, tool_footer
 from .overlay import OverlayDrawn, overlay_figure, overlay_footer
 from .phase_noise import PhaseNoiseDrawn, phase_noise_figure
+from .plot_methods import plot_measurement as plot_measurement
 from .save import FORMATS, save_figure
 from .series import SeriesDrawn, envelope, run_series_figure, series_figure
-from .sigma_tau import SLOPES, StabilityDrawn, slope_key, stability_figure, stability_series
+from .sigma_tau import (
+    SLOPES,
+    StabilityDrawn,
+    run_stability_figure,
+    slope_key,
+    stability_figure,
+    stability_series,
+)
 from .spectrum import SpectrumDrawn, spectrum_figure
 from .style import STATISTIC_STYLES, VERDICT_COLORS, Drawn, statistic_style
 from .timeline import TimelineDrawn, timeline_figure
 
 __all__ = [
     "stability_figure",
+    "run_stability_figure",
     "stability_series",
     "slope_key",
     "series_figure",

@@ -41,11 +41,12 @@ from .style import (
     TITLE_SIZE,
     Drawn,
     deviation_label,
+    given_axes,
     log_axes,
-    new_figure,
     put_footer,
     short_name,
     style_axes,
+    target_for,
 )
 
 __all__ = ["HatDrawn", "hat_figure"]
@@ -178,8 +179,11 @@ def _draw_oscillator(ax: Axes, name: str, osc: Any, color: str) -> dict[str, np.
     }
 
 
-def _hat_legend(fig: Any, ax: Axes, any_below: bool) -> None:
-    """One legend for the figure, outside the panels at the right (the colours are shared)."""
+def _hat_legend(fig: Any, ax: Axes, any_below: bool, beside: Axes | None = None) -> None:
+    """One legend for the figure, outside the panels at the right (the colours are shared).
+
+    With ``beside`` (drawing into a caller's axes) it goes at that panel's right.
+    """
     handles, labels = ax.get_legend_handles_labels()
     handles.append(Line2D([], [], color=GUIDE_COLOR, linestyle="--", alpha=0.55))
     labels.append("pair curves")
@@ -187,6 +191,17 @@ def _hat_legend(fig: Any, ax: Axes, any_below: bool) -> None:
         triangle = {"marker": "v", "markerfacecolor": "white", "markeredgecolor": "#555555"}
         handles.append(Line2D([], [], linestyle="none", **triangle))
         labels.append("below resolution\n(upper bound)")
+    if beside is not None:
+        beside.legend(
+            handles,
+            labels,
+            loc="upper left",
+            bbox_to_anchor=(1.02, 1.0),
+            fontsize=LEGEND_SIZE,
+            frameon=False,
+            borderaxespad=0.0,
+        )
+        return
     fig.legend(handles, labels, loc="outside right upper", fontsize=LEGEND_SIZE, frameon=False)
 
 
@@ -196,6 +211,8 @@ def hat_figure(
     title: str | None = None,
     footer: str | None = None,
     analysis_time: datetime | None = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> HatDrawn:
     """The separated stability of each oscillator (three-cornered hat) on a sigma-tau plot.
 
@@ -210,6 +227,12 @@ def hat_figure(
         Footer text (default: tool version and analysis date).
     analysis_time
         Date for the default footer (default: now).
+    into
+        A ``Figure`` or ``SubFigure`` to draw into (no title or footer unless given).
+    axes
+        An ``Axes`` per result to draw the panels into, for a figure the
+        caller lays out (the legend goes beside the last; no title or footer
+        unless given).
 
     Returns
     -------
@@ -217,8 +240,12 @@ def hat_figure(
         The figure, its panels and the data as drawn.
     """
     items = _validate(result, title, footer)
-    fig = new_figure(5.8 + 4.0 * len(items), 5.4)
-    axes = tuple(fig.subplots(1, len(items), squeeze=False)[0])
+    if axes is not None:
+        axes = given_axes(axes, len(items), "panels (one per statistic)", into)
+        fig, own = axes[0].get_figure(root=False), False
+    else:
+        fig, own = target_for(into, 5.8 + 4.0 * len(items), 5.4)
+        axes = tuple(fig.subplots(1, len(items), squeeze=False)[0])
     series: dict[str, dict[str, dict[str, np.ndarray]]] = {}
     pairs: dict[str, dict[str, Curve]] = {}
     colors: dict[str, str] = {}
@@ -237,11 +264,16 @@ def hat_figure(
         level = 100.0 * float(item.confidence)
         ax.set_title(f"{short_name(stat)}, {level:.3g} % intervals", fontsize=LABEL_SIZE)
     below = any(d["below_tau"].size for per in series.values() for d in per.values())
-    _hat_legend(fig, axes[0], below)
-    fig.suptitle(title or f"three-cornered hat: {', '.join(colors)}", fontsize=TITLE_SIZE)
-    put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
-    fig.draw_without_rendering()  # the layout places the panels; then it is kept as it is
-    fig.set_layout_engine("none")
+    given = axes if into is None and not own else None
+    _hat_legend(fig, axes[0], below, beside=None if given is None else axes[-1])
+    if own or title:
+        fig.suptitle(title or f"three-cornered hat: {', '.join(colors)}", fontsize=TITLE_SIZE)
+    if own or footer:
+        put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
+    root = fig.get_figure(root=True)
+    root.draw_without_rendering()  # the layout places the panels; then it is kept as it is
+    if own:
+        fig.set_layout_engine("none")
     for ax, item in zip(axes, items, strict=True):
         _label_pairs(ax, pairs[item.statistic])
-    return HatDrawn(fig, axes, series=series, pairs=pairs, colors=colors)
+    return HatDrawn(root, tuple(axes), series=series, pairs=pairs, colors=colors)

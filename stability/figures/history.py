@@ -40,12 +40,13 @@ from .style import (
     VERDICT_COLORS,
     Drawn,
     PlainScalar,
+    given_axes,
     log_axes,
-    new_figure,
     put_footer,
     short_name,
     statistic_style,
     style_axes,
+    target_for,
 )
 
 __all__ = ["HistoryDrawn", "history_figure"]
@@ -299,6 +300,8 @@ def history_figure(
     title: str | None = None,
     footer: str | None = None,
     analysis_time: datetime | None = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> HistoryDrawn:
     """Draw a device's calibration history (module docstring).
 
@@ -319,17 +322,31 @@ def history_figure(
         version and date).
     analysis_time
         Date for the default footer (default: now).
+    into
+        A ``Figure`` or ``SubFigure`` to draw into (no title or footer unless given).
+    axes
+        An ``Axes`` (or two: the offsets, then the key taus) to draw the
+        panels into, for a figure the caller lays out; as many panels are
+        drawn as axes are given (no title or footer unless given).
 
     Returns
     -------
     HistoryDrawn
     """
     items = _validate(calibrations, fit, due, tolerance, title, footer)
-    fig = new_figure(9.0, 7.0)
-    grid = fig.add_gridspec(2, 1, height_ratios=(1.6, 1.0))
-    ax_off = fig.add_subplot(grid[0, 0])
-    ax_tau = fig.add_subplot(grid[1, 0], sharex=ax_off)
-    for ax in (ax_off, ax_tau):
+    if axes is not None:
+        given = given_axes(axes, 2, "panels (offsets, then key taus)", into, fewer=True)
+        fig, own = given[0].get_figure(root=False), False
+        ax_off, ax_tau = given[0], (given[1] if len(given) > 1 else None)
+        if ax_tau is not None and not ax_tau.get_shared_x_axes().joined(ax_tau, ax_off):
+            ax_tau.sharex(ax_off)
+    else:
+        fig, own = target_for(into, 9.0, 7.0)
+        grid = fig.add_gridspec(2, 1, height_ratios=(1.6, 1.0))
+        ax_off = fig.add_subplot(grid[0, 0])
+        ax_tau = fig.add_subplot(grid[1, 0], sharex=ax_off)
+    panels = (ax_off,) if ax_tau is None else (ax_off, ax_tau)
+    for ax in panels:
         style_axes(ax)
     x, y, u = _offset_points(ax_off, items)
     model = forecast = None
@@ -345,18 +362,20 @@ def history_figure(
     _offset_limits(ax_off, shown, tolerance, toward)
     ax_off.yaxis.set_major_formatter(PlainScalar())
     ax_off.set_ylabel("fractional frequency offset", fontsize=LABEL_SIZE)
-    ax_off.tick_params(axis="x", labelbottom=False)
+    ax_off.tick_params(axis="x", labelbottom=ax_tau is None)
     ax_off.legend(fontsize=LEGEND_SIZE, frameon=False, loc="best")
-    key_taus = _draw_key_taus(ax_tau, items)
+    key_taus = {} if ax_tau is None else _draw_key_taus(ax_tau, items)
     locator = mdates.AutoDateLocator()
-    ax_tau.xaxis.set_major_locator(locator)
-    ax_tau.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
-    ax_tau.set_xlabel("calibration date (UTC)", fontsize=LABEL_SIZE)
-    fig.suptitle(title or "calibration history", fontsize=TITLE_SIZE)
-    put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
+    panels[-1].xaxis.set_major_locator(locator)
+    panels[-1].xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
+    panels[-1].set_xlabel("calibration date (UTC)", fontsize=LABEL_SIZE)
+    if own or title:
+        fig.suptitle(title or "calibration history", fontsize=TITLE_SIZE)
+    if own or footer:
+        put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
     return HistoryDrawn(
-        fig,
-        (ax_off, ax_tau),
+        fig.get_figure(root=True),
+        panels,
         x=x,
         offset=y,
         u_offset=u,

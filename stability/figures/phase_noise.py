@@ -42,12 +42,13 @@ from .style import (
     TITLE_SIZE,
     Drawn,
     deviation_label,
+    given_axes,
     log_axes,
-    new_figure,
     put_footer,
     short_name,
     statistic_style,
     style_axes,
+    target_for,
 )
 
 __all__ = ["PhaseNoiseDrawn", "phase_noise_figure", "PHASE_NOISE_LABEL"]
@@ -217,6 +218,8 @@ def phase_noise_figure(
     title: str | None = None,
     footer: str | None = None,
     analysis_time: datetime | None = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> PhaseNoiseDrawn:
     """Stability implied by a phase-noise table, beside the table itself.
 
@@ -236,6 +239,12 @@ def phase_noise_figure(
         (default: tool version and analysis date).
     analysis_time
         Date for the default footer (default: now).
+    into
+        A ``Figure`` or ``SubFigure`` to draw into (no title or footer unless given).
+    axes
+        An ``Axes`` (or two: the stability, then the phase-noise table) to
+        draw the panels into, for a figure the caller lays out; as many
+        panels are drawn as axes are given (no title or footer unless given).
 
     Returns
     -------
@@ -244,8 +253,13 @@ def phase_noise_figure(
     """
     table_curve, model_curve = _validate(conversion, table, measured, model, title, footer)
     has_spectrum = table_curve is not None or model_curve is not None
-    fig = new_figure(10.0 if has_spectrum else 6.4, 5.8)
-    axes = tuple(fig.subplots(1, 2 if has_spectrum else 1, squeeze=False)[0])
+    count = 2 if has_spectrum else 1
+    if axes is not None:
+        axes = given_axes(axes, count, "panels (stability, then phase noise)", into, fewer=True)
+        fig, own = axes[0].get_figure(root=False), False
+    else:
+        fig, own = target_for(into, 10.0 if has_spectrum else 6.4, 5.8)
+        axes = tuple(fig.subplots(1, count, squeeze=False)[0])
     ax = axes[0]
     style_axes(ax)
     log_axes(ax)
@@ -258,13 +272,15 @@ def phase_noise_figure(
         f"carrier {format_frequency(conversion.nominal)}, f_h {format_frequency(conversion.f_h)}",
         fontsize=LABEL_SIZE,
     )
-    if has_spectrum:
+    if has_spectrum and len(axes) > 1:
         _draw_spectrum(axes[1], conversion, table_curve, model_curve)
-    fig.suptitle(title or "stability from phase noise", fontsize=TITLE_SIZE)
-    put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
+    if own or title:
+        fig.suptitle(title or "stability from phase noise", fontsize=TITLE_SIZE)
+    if own or footer:
+        put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
     return PhaseNoiseDrawn(
-        fig,
-        axes,
+        fig.get_figure(root=True),
+        tuple(axes),
         converted=converted,
         measured=drawn_measured,
         table=table_curve,

@@ -61,6 +61,7 @@ from .style import (
     clock_label,
     elapsed_unit,
     frame_for,
+    given_axes,
     put_footer,
     style_axes,
 )
@@ -321,12 +322,31 @@ def _panels(frame: Frame, count: int, titled: bool, footed: bool) -> list[Axes]:
         y = top - (k + 1) * height - k * _BETWEEN
         rect = frame.rect(_LEFT, y, width, height)
         axes.append(frame.target.add_axes(rect, sharex=axes[0] if axes else None))
-    for ax in axes:
-        style_axes(ax, minor_grid=False)
-        ax.yaxis.set_major_formatter(PlainScalar())
+    _style_panels(axes)
     for ax in axes[:-1]:
         ax.tick_params(labelbottom=False)
     return axes
+
+
+def _style_panels(axes: list[Axes]) -> None:
+    for ax in axes:
+        style_axes(ax, minor_grid=False)
+        ax.yaxis.set_major_formatter(PlainScalar())
+
+
+def _given_panels(axes: Any, count: int, into: Any) -> tuple[Frame, list[Axes]]:
+    """The caller's axes for the first panels (time shared), and the frame holding them."""
+    given = list(
+        given_axes(axes, count, "panels (frequency, then time error or phase)", into, fewer=True)
+    )
+    for ax in given[1:]:
+        if not ax.get_shared_x_axes().joined(ax, given[0]):
+            ax.sharex(given[0])
+    _style_panels(given)
+    target = given[0].get_figure(root=False)
+    root = target.get_figure(root=True)
+    width, height = (target.bbox.width / root.dpi, target.bbox.height / root.dpi)
+    return Frame(target, width, height, False), given
 
 
 def _missing_readings(measurement: Measurement, outliers: np.ndarray) -> tuple[np.ndarray, int]:
@@ -355,6 +375,7 @@ def series_figure(
     analysis_time: datetime | None = None,
     max_columns: int = 2000,
     into: Any = None,
+    axes: Any = None,
 ) -> SeriesDrawn:
     """The record over time as analysed: frequency, time error (phase logs), phase residual.
 
@@ -391,6 +412,10 @@ def series_figure(
         Longer records are drawn as a min/max envelope over this many buckets.
     into
         A ``Figure`` or ``SubFigure`` (a region of a page) to draw into.
+    axes
+        An ``Axes`` or a list of them to draw the first panels into (the
+        frequency first), for a figure the caller lays out; no title or
+        footer unless given.
 
     Returns
     -------
@@ -428,12 +453,16 @@ def series_figure(
         return origin + scale * tau0 * np.asarray(index, dtype=float)
 
     decimate = y.size > 4 * max_columns
-    frame = frame_for(into, 10.0, 2.0 + 2.1 * (1 + len(shown)))
+    given: list[Axes] | None = None
+    if axes is not None:
+        frame, given = _given_panels(axes, 1 + len(shown), into)
+    else:
+        frame = frame_for(into, 10.0, 2.0 + 2.1 * (1 + len(shown)))
     if title is None and frame.own:
         title = default_title(measurement, "data over time")
     if footer is None and frame.own:
         footer = default_footer(measurement, analysis_time=analysis_time)
-    axes = _panels(frame, 1 + len(shown), bool(title), bool(footer))
+    axes = given if given is not None else _panels(frame, 1 + len(shown), bool(title), bool(footer))
     y_idx, y_val = _reduced(y, decimate, max_columns)
     frequency = (axis(y_idx), y_val)
     axes[0].plot(*frequency, color=FREQUENCY_COLOR, linewidth=0.6, label="fractional frequency")
@@ -521,10 +550,12 @@ def run_series_figure(run: AnalysisRun, **options: Any) -> SeriesDrawn:
 
     The drift curve is the model removed (named with its model) or, when none
     was, the linear estimate; outliers and phase steps are those the
-    preparation found. ``options`` are those of :func:`series_figure`.
+    preparation found; the footer is dated with the run's analysis time.
+    ``options`` are those of :func:`series_figure`.
     """
     if not isinstance(run, AnalysisRun):
         raise InputError(f"run must be a stability.AnalysisRun, got {type(run).__name__}")
+    options.setdefault("analysis_time", run.analysis_time)
     prep = run.preparation
     removed = prep.removed_drift
     fit = removed if removed is not None else prep.linear_drift

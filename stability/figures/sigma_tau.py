@@ -40,6 +40,8 @@ from matplotlib.axes import Axes
 from matplotlib.legend import Legend
 
 from ..deviations.registry import get_statistic
+from ..errors import InputError
+from ..run import AnalysisRun
 from ..table import StabilityTable
 from .labels import default_footer, default_title
 from .placement import LabelRequest, extent, obstacles_of, place_labels, renderer_of
@@ -58,7 +60,6 @@ from .style import (
     LABEL_SIZE,
     LEGEND_SIZE,
     LIMIT_COLOR,
-    MARK_COLOR,
     NOTE_COLOR,
     NOTE_SIZE,
     TAU_LABEL,
@@ -68,6 +69,7 @@ from .style import (
     Frame,
     deviation_label,
     frame_for,
+    given_axes,
     is_time_statistic,
     log_axes,
     log_paper,
@@ -76,11 +78,13 @@ from .style import (
     statistic_style,
     style_axes,
 )
+from .tau_marks import Mark, draw_tau_marks, mark_lines
 
 __all__ = [
     "SLOPES",
     "StabilityDrawn",
     "stability_figure",
+    "run_stability_figure",
     "stability_series",
     "slope_key",
     "noise_label_statistics",
@@ -134,7 +138,7 @@ class StabilityDrawn(Drawn):
     noise_labels: dict[str, tuple[tuple[float, str], ...]] | None = None
     confidence: float = math.nan
     reference: tuple[np.ndarray, np.ndarray] | None = None
-    marks: tuple[tuple[float, float, str], ...] = ()
+    marks: tuple[Mark, ...] = ()
 
 
 # ---------------------------------------------------------------------- drawing
@@ -329,7 +333,7 @@ def _estimate_column(groups: list[list[str]], extras: dict[str, Any]) -> float:
         lines += sum(1 for n in names if extras["model_curve"] and n in extras["model_curve"])
     rows = extras["limits"][0]
     lines += (1 + len({r[2] for r in rows})) if rows else 0
-    lines += sum(textwrap.fill(m[2], _LEGEND_WIDTH).count("\n") + 1 for m in extras["marks"])
+    lines += mark_lines(extras["marks"], _LEGEND_WIDTH)
     return 0.3 + 0.16 * lines + len(groups) * (_KEY + 0.15)
 
 
@@ -354,27 +358,6 @@ def panel_layout(frame: Frame, n: int, titled: bool, footed: bool) -> PanelLayou
         for k in range(n)
     )
     return PanelLayout(panels, tuple((p[1], p[1] + p[3]) for p in panels), side_x)
-
-
-def _draw_marks(
-    panels: list[_Panel], fractional: list[str], marks: Sequence[tuple[float, float, str]]
-) -> tuple[tuple[float, float, str], ...]:
-    """Shade the marked tau spans behind the data of the fractional-frequency panel."""
-    if not marks or not fractional:
-        return ()
-    panel = panels[0]
-    lo_x, hi_x = panel.ax.get_xlim()
-    drawn = []
-    for low, high, label in marks:
-        low, high = max(float(low), lo_x), min(float(high), hi_x)
-        if not high > low:
-            continue
-        text = textwrap.fill(label, _LEGEND_WIDTH)
-        panel.ax.axvspan(low, high, color=MARK_COLOR, lw=0, zorder=0, label=text)
-        panel.entries += 1
-        drawn.append((low, high, label))
-    panel.ax.set_xlim(lo_x, hi_x)
-    return tuple(drawn)
 
 
 def _side_column(
@@ -440,7 +423,8 @@ def stability_figure(
     footer: str | None = None,
     analysis_time: datetime | None = None,
     into: Any = None,
-    marks: Sequence[tuple[float, float, str]] = (),
+    axes: Any = None,
+    marks: Sequence[Mark] = (),
 ) -> StabilityDrawn:
     """The sigma-tau plot of an analysis.
 
@@ -475,10 +459,15 @@ def stability_figure(
     into
         A ``Figure`` or ``SubFigure`` (a region of a page) to draw into,
         instead of a new figure.
+    axes
+        An ``Axes`` (or one per panel: fractional-frequency statistics, then
+        time statistics) to draw the data panels into, for a figure the
+        caller lays out (a notebook's grid of plots). The panels are drawn
+        as on the figure of its own; each legend goes beside its panel, at
+        the right, the key of slopes is left out, and there is no title or
+        footer unless given.
     marks
-        Spans of tau to shade on the fractional-frequency panel as
-        ``(tau_low, tau_high, label)``, e.g. the taus a periodic component
-        affects; the label goes to the legend.
+        Tau spans ``(low, high, label)`` shaded on the fractional panel, labelled in the legend.
 
     Returns
     -------
@@ -501,6 +490,22 @@ def stability_figure(
         "reference_drawn": None,
         "marks": list(marks),
     }
+    if axes is not None:
+        given = given_axes(axes, len(groups), "panels", into)
+        panels = [
+            _draw_panel(ax, table, names, series, extras)
+            for ax, names in zip(given, groups, strict=True)
+        ]
+        _draw_marks(panels, marks if fractional else (), extras)
+        for panel in panels:
+            _legend_beside(panel, table.confidence)
+        written = _write_noise_labels(panels, table, series, labelled)
+        if title:
+            given[0].get_figure(root=False).suptitle(title, fontsize=TITLE_SIZE)
+        if footer:
+            put_footer(given[0].get_figure(root=False), footer)
+        root = given[0].get_figure(root=True)
+        return _drawn(root, panels, series, rows, (), written, table, extras)
     height = max(5.4, 1.2 + _estimate_column(groups, extras))
     frame = frame_for(into, 9.4 if len(groups) == 1 else 14.2, height)
     if title is None and frame.own:
@@ -512,8 +517,25 @@ def stability_figure(
     for rect, names in zip(layout.panels, groups, strict=True):
         ax = frame.target.add_axes(frame.rect(*rect))
         panels.append(_draw_panel(ax, table, names, series, extras))
-    drawn_marks = _draw_marks(panels, fractional, marks)
+    _draw_marks(panels, marks if fractional else (), extras)
     keys = _side_column(frame, layout, panels, table.confidence)
+    written = _write_noise_labels(panels, table, series, labelled)
+    if title:
+        frame.target.suptitle(title, fontsize=TITLE_SIZE)
+    if footer:
+        put_footer(frame.target, footer)
+    return _drawn(frame.figure, panels, series, rows, keys, written, table, extras)
+
+
+def _draw_marks(panels: list[_Panel], marks: Sequence[Mark], extras: dict[str, Any]) -> None:
+    extras["marks_drawn"] = draw_tau_marks(panels[0].ax, marks, _LEGEND_WIDTH)
+    panels[0].entries += len(extras["marks_drawn"])
+
+
+def _write_noise_labels(
+    panels: list[_Panel], table: StabilityTable, series: dict[str, Series], labelled: list[str]
+) -> dict[str, list[tuple[float, str]]]:
+    """The noise labels of every panel, each where it touches nothing drawn; those written."""
     written: dict[str, list[tuple[float, str]]] = {}
     for panel in panels:
         requests, owners = _noise_requests(table, panel.names, series, labelled)
@@ -521,14 +543,37 @@ def stability_figure(
         for request, owner, label in zip(requests, owners, placed, strict=True):
             if label is not None:
                 written.setdefault(owner, []).append((float(request.xy[0]), request.text))
-    if title:
-        frame.target.suptitle(title, fontsize=TITLE_SIZE)
-    if footer:
-        put_footer(frame.target, footer)
-    axes = tuple(p.ax for p in panels)
+    return written
+
+
+def _legend_beside(panel: _Panel, level: float) -> None:
+    """A panel's legend at its right, with the error bars' confidence (drawing into axes)."""
+    if panel.entries > 1 or panel.bars:
+        panel.legend = panel.ax.legend(
+            loc="upper left",
+            bbox_to_anchor=(1.02, 1.0),
+            fontsize=LEGEND_SIZE,
+            frameon=False,
+            borderaxespad=0.0,
+            handlelength=1.8,
+            title=f"error bars: {100 * level:.3g} % confidence" if panel.bars else None,
+            title_fontsize=LEGEND_SIZE,
+        )
+
+
+def _drawn(
+    figure: Any,
+    panels: list[_Panel],
+    series: dict[str, Series],
+    rows: list[LimitRow],
+    keys: Sequence[Axes],
+    written: dict[str, list[tuple[float, str]]],
+    table: StabilityTable,
+    extras: dict[str, Any],
+) -> StabilityDrawn:
     return StabilityDrawn(
-        frame.figure,
-        axes,
+        figure,
+        tuple(p.ax for p in panels),
         series=series,
         panel={name: p.ax for p in panels for name in p.names},
         limits=tuple(rows),
@@ -536,5 +581,19 @@ def stability_figure(
         noise_labels={k: tuple(v) for k, v in written.items()},
         confidence=float(table.confidence),
         reference=extras["reference_drawn"],
-        marks=drawn_marks,
+        marks=extras.get("marks_drawn", ()),
     )
+
+
+def run_stability_figure(run: AnalysisRun, **options: Any) -> StabilityDrawn:
+    """The sigma-tau plot of an analysis run, as ``stability analyze`` draws it.
+
+    The table with its fitted power-law model, the footer dated with the run's
+    analysis time; ``options`` are those of :func:`stability_figure` (limits,
+    title, footer, noise labels, ``into``, ``axes`` ...). The command and
+    :meth:`stability.AnalysisRun.plot` both draw through this function.
+    """
+    if not isinstance(run, AnalysisRun):
+        raise InputError(f"run must be a stability.AnalysisRun, got {type(run).__name__}")
+    options.setdefault("analysis_time", run.analysis_time)
+    return stability_figure(run.table, model_curve=run.model_curves(), **options)

@@ -41,6 +41,7 @@ References
 
 from __future__ import annotations
 
+import io
 import math
 import zlib
 from collections.abc import Sequence
@@ -50,6 +51,7 @@ from typing import Any, Literal
 
 import numpy as np
 from matplotlib.axes import Axes
+from matplotlib.backend_bases import FigureCanvasBase
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure, SubFigure
@@ -75,6 +77,10 @@ __all__ = [
     "GUIDE_COLOR",
     "NOTE_COLOR",
     "LIMIT_COLOR",
+    "FLEET_CURVE",
+    "FLEET_MEDIAN_COLOR",
+    "FLEET_BAND",
+    "FLEET_NAMED_COLORS",
     "TITLE_SIZE",
     "LABEL_SIZE",
     "SMALL_LABEL_SIZE",
@@ -97,6 +103,8 @@ __all__ = [
     "new_figure",
     "Frame",
     "frame_for",
+    "given_axes",
+    "target_for",
     "style_axes",
     "log_axes",
     "log_paper",
@@ -123,6 +131,21 @@ class Drawn:
 
     figure: Figure
     axes: tuple[Axes, ...]
+
+    def _repr_png_(self) -> bytes | None:
+        """The figure as PNG for a notebook; None for a pyplot figure (pyplot shows those)."""
+        if getattr(self.figure.canvas, "manager", None) is not None:
+            return None
+        buffer = io.BytesIO()
+        self.figure.savefig(buffer, format="png")
+        return buffer.getvalue()
+
+    def _repr_pretty_(self, printer: Any, cycle: bool) -> None:
+        width, height = self.figure.get_size_inches()
+        printer.text(
+            f"<{type(self).__name__}: {len(self.axes)} panel(s) on a "
+            f"{width:.1f} x {height:.1f} in figure>"
+        )
 
 
 # ---------------------------------------------------------------------- colours
@@ -186,6 +209,15 @@ VERDICT_COLORS = {
     "inconclusive": "#d08c2a",
     "not measured": "#9a9a9a",
 }
+
+#: A fleet figure: every device's curve faint, the population's median and 10-90 % band,
+#: and the colours of the devices it names (furthest from the population or the limit).
+FLEET_CURVE = {"color": "#8c8c8c", "linewidth": 0.6, "alpha": 0.35}
+FLEET_MEDIAN_COLOR = OKABE_ITO["blue"]
+FLEET_BAND = {"color": OKABE_ITO["sky blue"], "alpha": 0.3}
+FLEET_NAMED_COLORS = tuple(
+    OKABE_ITO[c] for c in ("vermillion", "orange", "reddish purple", "bluish green", "black")
+)
 
 #: Colours of series that are not statistics (the oscillators of a hat), in drawing order.
 ORDERED_COLORS = tuple(
@@ -326,6 +358,48 @@ def frame_for(into: Any, width: float, height: float) -> Frame:
     if not isinstance(root.canvas, FigureCanvasAgg):
         FigureCanvasAgg(root)
     return Frame(into, into.bbox.width / root.dpi, into.bbox.height / root.dpi, False)
+
+
+def given_axes(axes: Any, count: int, what: str, into: Any = None, *, fewer: bool = False) -> tuple:
+    """The ``Axes`` a caller gave a figure function to draw its ``count`` data panels into.
+
+    ``axes`` is one ``Axes`` or a sequence of them, one per panel in the
+    figure's order; with ``fewer`` the first panels are drawn into as many
+    as are given. The root figure gets an Agg canvas when it has none that
+    can measure text (a bare ``Figure()``); a pyplot figure keeps its own.
+    """
+    if into is not None:
+        raise InputError("give either into (a whole figure) or axes (its panels), not both")
+    given = (axes,) if isinstance(axes, Axes) else axes
+    try:
+        given = tuple(given)
+    except TypeError:
+        raise InputError(
+            f"ax must be a matplotlib Axes or a list of them, got {type(axes).__name__}"
+        ) from None
+    if not given or not all(isinstance(a, Axes) for a in given):
+        raise InputError("ax must be a matplotlib Axes or a list of them, one per panel")
+    if len(given) > count or (len(given) < count and not fewer):
+        raise InputError(
+            f"this figure has {count} {what}; {len(given)} axes given",
+            hint=f"pass {count} axes, or none for a figure of its own",
+        )
+    root = given[0].get_figure(root=True)
+    if type(root.canvas) is FigureCanvasBase:
+        FigureCanvasAgg(root)
+    return given
+
+
+def target_for(into: Any, width: float, height: float) -> tuple[Figure | SubFigure, bool]:
+    """(where to draw, whether it is a figure of its own) for a constrained-layout figure.
+
+    A new :func:`new_figure` of ``width`` x ``height`` inches, or the
+    ``Figure`` or ``SubFigure`` ``into`` (checked as :func:`frame_for` does),
+    which carries no title or footer unless they are given.
+    """
+    if into is None:
+        return new_figure(width, height), True
+    return frame_for(into, width, height).target, False
 
 
 def style_axes(ax: Axes, *, minor_grid: bool = True) -> None:

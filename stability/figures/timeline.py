@@ -26,7 +26,6 @@ from matplotlib import dates as mdates
 from matplotlib.axes import Axes
 from matplotlib.colorbar import Colorbar
 from matplotlib.colors import LogNorm
-from matplotlib.figure import Figure
 from matplotlib.ticker import FixedLocator, FuncFormatter, NullLocator
 
 from ..deviations.registry import get_statistic
@@ -44,13 +43,14 @@ from .style import (
     clock_label,
     deviation_label,
     elapsed_unit,
+    given_axes,
     log_axes,
     log_ticks,
-    new_figure,
     put_footer,
     short_name,
     statistic_style,
     style_axes,
+    target_for,
 )
 from .ticks import plain_number, scaled_text
 
@@ -131,7 +131,11 @@ def _window_axis(result: DynamicResult, window_s: float) -> tuple[np.ndarray, fl
 
 
 def _draw_map(
-    fig: Figure, ax_map: Axes, ax_cb: Axes, edges: tuple[np.ndarray, np.ndarray], dev: np.ndarray
+    fig: Any,
+    ax_map: Axes,
+    ax_cb: Axes | None,
+    edges: tuple[np.ndarray, np.ndarray],
+    dev: np.ndarray,
 ) -> Colorbar:
     """The heat map of the deviation (log colour scale) over (window centre, tau), its colour bar.
 
@@ -161,7 +165,8 @@ def _draw_map(
     ax_map.set_ylabel(TAU_LABEL, fontsize=LABEL_SIZE)
     ax_map.tick_params(which="both", labelsize=TICK_SIZE)
     ax_map.tick_params(axis="x", labelbottom=False)
-    colorbar = fig.colorbar(mesh, cax=ax_cb)
+    # beside a caller's axes the colour bar takes its room from the map panel
+    colorbar = fig.colorbar(mesh, cax=ax_cb) if ax_cb is not None else fig.colorbar(mesh, ax=ax_map)
     log_ticks(colorbar.ax.yaxis)
     colorbar.ax.tick_params(which="both", labelsize=TICK_SIZE)
     return colorbar
@@ -218,6 +223,8 @@ def timeline_figure(
     title: str | None = None,
     footer: str | None = None,
     analysis_time: datetime | None = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> TimelineDrawn:
     """Stability over time: a map of the dynamic deviation and its shortest-tau trace.
 
@@ -230,6 +237,12 @@ def timeline_figure(
         (default: tool version and analysis date).
     analysis_time
         Date for the default footer (default: now).
+    into
+        A ``Figure`` or ``SubFigure`` to draw into (no title or footer unless given).
+    axes
+        An ``Axes`` (or two: the map, then the trace) to draw the panels into,
+        for a figure the caller lays out; the colour bar takes its room from
+        the map panel (no title or footer unless given).
 
     Returns
     -------
@@ -245,12 +258,20 @@ def timeline_figure(
     with np.errstate(divide="ignore", invalid="ignore"):
         logdev = np.where(result.deviation > 0, np.log10(result.deviation), np.nan)
 
-    fig = new_figure(10.0, 7.4)
-    grid = fig.add_gridspec(2, 2, height_ratios=(1.7, 1.2), width_ratios=(1.0, 0.025))
-    ax_map = fig.add_subplot(grid[0, 0])
-    ax_cb = fig.add_subplot(grid[0, 1])
-    ax_line = fig.add_subplot(grid[1, 0], sharex=ax_map)
-    fig.add_subplot(grid[1, 1]).set_axis_off()
+    ax_cb: Axes | None = None
+    if axes is not None:
+        given = given_axes(axes, 2, "panels (map, then trace)", into, fewer=True)
+        fig, own = given[0].get_figure(root=False), False
+        ax_map, ax_line = given[0], (given[1] if len(given) > 1 else None)
+        if ax_line is not None and not ax_line.get_shared_x_axes().joined(ax_line, ax_map):
+            ax_line.sharex(ax_map)
+    else:
+        fig, own = target_for(into, 10.0, 7.4)
+        grid = fig.add_gridspec(2, 2, height_ratios=(1.7, 1.2), width_ratios=(1.0, 0.025))
+        ax_map = fig.add_subplot(grid[0, 0])
+        ax_cb = fig.add_subplot(grid[0, 1])
+        ax_line = fig.add_subplot(grid[1, 0], sharex=ax_map)
+        fig.add_subplot(grid[1, 1]).set_axis_off()
     colorbar = _draw_map(fig, ax_map, ax_cb, (x_edges, tau_edges), result.deviation)
     colorbar.set_label(deviation_label([result.statistic]), fontsize=LABEL_SIZE)
     ax_map.set_title(
@@ -258,17 +279,24 @@ def timeline_figure(
         f"{format_duration(result.step_points * tau0)}",
         fontsize=LABEL_SIZE,
     )
-    _draw_trace(ax_line, result, x, x_label)
+    if ax_line is not None:
+        _draw_trace(ax_line, result, x, x_label)
+    if ax_cb is None:  # on a caller's axes the map carries its own time axis
+        ax_map.tick_params(axis="x", labelbottom=True)
+        ax_map.set_xlabel(x_label, fontsize=LABEL_SIZE)
+    bottom = ax_map if ax_line is None else ax_line
     if is_date:
         locator = mdates.AutoDateLocator()
-        ax_line.xaxis.set_major_locator(locator)
-        ax_line.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
-    ax_line.set_xlim(x_edges[0], x_edges[-1])
-    fig.suptitle(title or "stability over time", fontsize=TITLE_SIZE)
-    put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
+        bottom.xaxis.set_major_locator(locator)
+        bottom.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
+    bottom.set_xlim(x_edges[0], x_edges[-1])
+    if own or title:
+        fig.suptitle(title or "stability over time", fontsize=TITLE_SIZE)
+    if own or footer:
+        put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
     return TimelineDrawn(
-        fig,
-        (ax_map, ax_line),
+        fig.get_figure(root=True),
+        (ax_map,) if ax_line is None else (ax_map, ax_line),
         x=x,
         x_edges=x_edges,
         tau=np.asarray(result.tau, dtype=float).copy(),

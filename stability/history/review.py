@@ -30,6 +30,8 @@ from ..aging import (
     longest_interval,
     parse_interval,
 )
+from ..display import Displayable
+from ..display import plot as _plot
 from ..errors import InputError, StabilityError
 from ..files import jsonable
 from ..intervals import check_confidence
@@ -42,7 +44,7 @@ DEFAULT_INTERVAL = CalendarInterval(months=12)
 
 
 @dataclass(frozen=True)
-class DeviceReview:
+class DeviceReview(Displayable):
     """What the history says about one device (see :func:`review_device`).
 
     Attributes
@@ -88,6 +90,17 @@ class DeviceReview:
     def last(self) -> Calibration:
         """The latest calibration."""
         return self.calibrations[-1]
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The device's history as ``stability history --device`` draws it.
+
+        ``ax``: an ``Axes`` (or two: the offsets, then the key taus) in a
+        figure the caller lays out; ``figure``: a ``Figure`` or ``SubFigure``
+        to draw into; neither: a figure of its own (never pyplot). ``options``
+        are those of :func:`stability.figures.history_figure` (title, footer).
+        Returns the :class:`stability.figures.HistoryDrawn`.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)
 
     def overdue(self, now: datetime | None = None) -> bool:
         """Whether the due date has passed."""

@@ -204,7 +204,13 @@ def _report_spacing(grid: Grid, tau0: float | None, rep: LogReport) -> None:
     rep.median_spacing = grid.median_spacing
     stamps = f"{grid.position.size} stamps"
     if tau0 is None:
-        rep.tau0_source = f"from column {rep.time_column!r} (median spacing of {stamps})"
+        if abs(grid.tau0 - grid.median_spacing) <= 1e-9 * grid.tau0:
+            rep.tau0_source = f"from column {rep.time_column!r} (median spacing of {stamps})"
+        else:
+            rep.tau0_source = (
+                f"from column {rep.time_column!r} (mean spacing of {stamps} to the "
+                f"resolution of the stamps; median {format_duration(grid.median_spacing)})"
+            )
         return
     rep.tau0_source = (
         f"as given (median spacing of {stamps} in column {rep.time_column!r} is "

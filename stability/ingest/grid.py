@@ -1,7 +1,9 @@
 """The time grid of a log: sample interval, missing samples, duplicates, wrap-arounds.
 
 The sample interval tau0 is the median spacing of the time stamps (robust to a
-few gaps and glitches). Each step between consecutive stamps is rounded to a
+few gaps and glitches), or, where the stamps are too coarse for the median to be
+the interval, the mean step to the resolution of the stamps
+(:func:`stamp_interval`). Each step between consecutive stamps is rounded to a
 whole number k of tau0: k > 1 means k - 1 missing samples (inserted as NaN gaps),
 k = 0 two rows in one slot (a duplicate: the first one is kept). A stamp within
 the stamp tolerance (a third of tau0 unless given) of its slot is jitter of the
@@ -30,7 +32,7 @@ from ..errors import InputError
 from ..units import format_duration
 from .limits import BYTES_PER_ROW, UNUSUAL_OPTION, available_bytes, usual_interval
 
-__all__ = ["Grid", "build_grid", "unwrap", "DEFAULT_STAMP_TOLERANCE"]
+__all__ = ["Grid", "build_grid", "unwrap", "stamp_interval", "DEFAULT_STAMP_TOLERANCE"]
 
 
 @dataclass
@@ -219,7 +221,7 @@ def build_grid(
     median = float(np.median(positive))
     if tau0 is None and not allow_unusual and not usual_interval(median):
         raise _unusual_spacing(median, positive, dt, lines, path, column)
-    step = tau0 if tau0 is not None else median
+    step = tau0 if tau0 is not None else stamp_interval(median, dt)
     tol = tolerance * step
     n = seconds.size
     offset = dt - step
@@ -288,6 +290,35 @@ def build_grid(
         jitter=(kept_idx[jitter + 1], offset[jitter]),
         ambiguous=ambiguous,
     )
+
+
+def stamp_interval(median: float, dt: np.ndarray) -> float:
+    """The sample interval the stamps tell, to the resolution they are written with.
+
+    A median spacing written with at most six significant digits (1 s, 0.1 s,
+    1.000512 s) is the interval, cleared of binary rounding (0.1000000000000014
+    is 0.1): a slow PC clock with millisecond stamps still gives its 1 s. But
+    the median of coarse stamps is one rounded step, not the interval: stamps
+    written with 8 decimals of a day (0.864 ms) one second apart are 0.99965 s
+    or 1.00051 s apart. Then the mean over the steps of one slot averages the
+    rounding out, and is snapped to the value with the fewest significant digits
+    within its uncertainty (the spread of the steps over the square root of
+    their number), so such stamps give 1 s.
+    """
+    clean = float(f"{median:.6g}")
+    if abs(clean - median) <= 1e-12 * median:
+        return clean
+    one = dt[np.abs(dt - median) < 0.5 * median]
+    if one.size < 2:
+        return median
+    mean = float(one.mean())
+    spread = float(one.max() - one.min())
+    tolerance = max(spread / math.sqrt(one.size), 4 * np.finfo(float).eps * mean)
+    for digits in range(1, 16):
+        rounded = float(f"{mean:.{digits}g}")
+        if abs(rounded - mean) <= tolerance:
+            return rounded
+    return mean
 
 
 def _unusual_spacing(

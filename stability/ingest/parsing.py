@@ -43,6 +43,7 @@ __all__ = [
     "shift_lines",
     "apply_unit_suffixes",
     "decimal_deltas",
+    "decimal_text_parts",
 ]
 
 #: How date-time stamps are parsed: ``"auto"`` reads fixed-width stamps from the
@@ -81,6 +82,9 @@ class ParsedRows:
         The unit suffix of each value when values carry one, else None.
     skipped
         Lines the parser skipped without returning a row.
+    decimals
+        The value texts split into integer digits (:func:`decimal_text_parts`)
+        when found while parsing, else None (found from ``texts`` when needed).
     """
 
     lines: np.ndarray
@@ -91,6 +95,7 @@ class ParsedRows:
     texts: np.ndarray | None
     units: np.ndarray | None
     skipped: list[int]
+    decimals: vals.DecimalParts | None = None
 
 
 def needs_decimal_text(sample: list[str], d: Dialect, vk: vals.ValueKind) -> bool:
@@ -380,17 +385,29 @@ def apply_unit_suffixes(
     return values, bad | ~np.isfinite(values)
 
 
+def decimal_text_parts(texts: np.ndarray, decimal: str) -> vals.DecimalParts:
+    """The value texts split into integer digits, row by row (:func:`vals.decimal_parts`)."""
+    if decimal == ",":
+        texts = np.char.replace(texts.astype(str), ",", ".").astype(object)
+    return vals.decimal_parts(texts)
+
+
 def decimal_deltas(
-    texts: np.ndarray, values: np.ndarray, bad: np.ndarray, decimal: str
+    texts: np.ndarray,
+    values: np.ndarray,
+    bad: np.ndarray,
+    decimal: str,
+    parts: vals.DecimalParts | None = None,
 ) -> tuple[str, np.ndarray] | None:
     """(first reading as text, readings minus it) exact to the last written digit.
 
     Rows the decimal parser cannot take keep the float64 difference; unreadable
-    rows are NaN. None when the text is not plain decimal numbers.
+    rows are NaN. None when the text is not plain decimal numbers. ``parts``
+    are the texts' digits when already split (:func:`decimal_text_parts`).
     """
     if decimal == ",":
         texts = np.char.replace(texts.astype(str), ",", ".").astype(object)
-    res = vals.exact_delta(texts, ~bad)
+    res = vals.exact_delta(texts, ~bad, parts)
     if res is None:
         return None
     ref_text, delta, ok_exact = res

@@ -41,13 +41,21 @@ from .evidence import check_tau0, column_evidence, preamble_evidence
 from .hints import ReadHints
 from .local_time import check_zone, localize
 from .memory import check_memory
-from .parsing import decimal_deltas, needs_decimal_text, parse_rows
+from .parsing import ParsedRows, decimal_deltas, needs_decimal_text, parse_rows
 from .report import LogReport
 from .rows import DataRows, data_rows
 from .sniff import Dialect, RawSource, open_source, sniff_dialect
 from .timing import check_interval, check_nominal
 
-__all__ = ["read_log", "inspect_log", "validate_read_args", "KINDS"]
+__all__ = [
+    "read_log",
+    "inspect_log",
+    "validate_read_args",
+    "KINDS",
+    "ReadingPlan",
+    "plan_reading",
+    "measurement_from_rows",
+]
 
 KINDS = ("auto", "phase", "frequency", "fractional")
 
@@ -152,6 +160,43 @@ def _check_callback(on_progress: Any) -> ProgressCallback | None:
     return on_progress
 
 
+@dataclasses.dataclass(frozen=True)
+class ReadingPlan:
+    """How a log's rows are parsed, decided from its first lines.
+
+    Attributes
+    ----------
+    dialect, columns
+        The sniffed dialect and the chosen time and value columns.
+    kind
+        The kind and unit of the values.
+    suffix
+        The values carry a unit suffix.
+    exact
+        The values are kept as decimal text for exact differences.
+    """
+
+    dialect: Dialect
+    columns: ColumnPlan
+    kind: Any
+    suffix: bool
+    exact: bool
+
+
+def plan_reading(src: RawSource, hints: ReadHints, rep: LogReport) -> ReadingPlan:
+    """Sniff the dialect, choose the columns and the kind of the values (from the sample)."""
+    d = _sniff(src, rep)
+    check_memory(src, d)
+    plan = plan_columns(src, d, hints, rep)
+    sample = column_samples(src, d)[plan.value_col]
+    vk, suffix = decide_kind(
+        sample, plan.names[plan.value_col], d, hints, src.path, other_columns_hint(plan)
+    )
+    rep.kind, rep.unit, rep.kind_reason = vk.kind, vk.unit, vk.reason
+    exact = needs_decimal_text(sample, d, vk)
+    return ReadingPlan(d, plan, vk, suffix, exact)
+
+
 def _read(
     path: str | os.PathLike[str],
     hints: ReadHints,
@@ -173,37 +218,67 @@ def _read(
             f"{src.member!r} (choose another with --sheet)."
         )
     hasher = InputHasher(str(path), src.raw)
-    d = _sniff(src, rep)
-    check_memory(src, d)
-    plan = plan_columns(src, d, hints, rep)
-    sample = column_samples(src, d)[plan.value_col]
-    vname = plan.display[plan.value_col]
-    vk, suffix = decide_kind(
-        sample, plan.names[plan.value_col], d, hints, src.path, other_columns_hint(plan)
+    how = plan_reading(src, hints, rep)
+    # the parsed rows go straight into the call, so the reference dropped there frees them
+    return measurement_from_rows(
+        src, hints, how, _parse(src, hints, how, on_progress, stamps), rep, hasher.result
     )
-    rep.kind, rep.unit, rep.kind_reason = vk.kind, vk.unit, vk.reason
-    exact = needs_decimal_text(sample, d, vk)
-    parsed = None
+
+
+def _parse(
+    src: RawSource,
+    hints: ReadHints,
+    how: ReadingPlan,
+    on_progress: ProgressCallback | None,
+    stamps: str,
+) -> ParsedRows:
+    """Every row of the log: pyarrow's reader where it applies (engine auto), else pandas."""
+    d, plan = how.dialect, how.columns
     if hints.engine != "pandas":
-        problem = arrow_layout_problem(src, d, plan, exact or suffix)
+        problem = arrow_layout_problem(src, d, plan, how.exact or how.suffix)
         if not problem:
             parsed = arrow_rows(src, d, plan, on_progress)
-            problem = "" if parsed is not None else "a row does not parse cleanly"
-        if parsed is None and hints.engine == "pyarrow":
+            if parsed is not None:
+                return parsed
+            problem = "a row does not parse cleanly"
+        if hints.engine == "pyarrow":
             raise InputError(
                 f"the pyarrow engine cannot read this log: {problem}",
                 path=src.path,
                 hint="pass --engine auto (or pandas), which reads every log",
             )
-    if parsed is None:
-        parsed = parse_rows(
-            src, d, plan, exact=exact, suffix=suffix, stamps=stamps, on_progress=on_progress
-        )
+    return parse_rows(
+        src,
+        d,
+        plan,
+        exact=how.exact,
+        suffix=how.suffix,
+        stamps=stamps,
+        on_progress=on_progress,
+    )
+
+
+def measurement_from_rows(
+    src: RawSource,
+    hints: ReadHints,
+    how: ReadingPlan,
+    parsed: ParsedRows,
+    rep: LogReport,
+    sha256: Callable[[], str],
+) -> tuple[Measurement, LogReport]:
+    """The measurement of a log from its parsed rows (every row of the file, in order).
+
+    The rows may come from one parse of the whole file or be joined from parses
+    of its parts (:mod:`stability.live` parses a growing log a chunk at a time);
+    ``sha256`` gives the hex digest of the file's bytes when asked.
+    """
+    d, plan, vk = how.dialect, how.columns, how.kind
+    vname = plan.display[plan.value_col]
     rows, total_rows = data_rows(src, d, plan, vk.scale, parsed, hints.strict, rep)
     del parsed
     if hints.timezone is not None:
         plan = _local_time(rows, plan, hints.timezone, src.path, rep)
-    if exact:
+    if how.exact:
         rows = _exact_differences(rows, d, rep)
     evidence = preamble_evidence(src, d) + column_evidence(column_samples(src, d), plan)
     stated = [(e.source, e.says, e.tau0) for e in evidence]
@@ -220,8 +295,12 @@ def _read(
     series, nominal = canonical_series(
         rows, readings, vk, hints, src.path, vname, rep, other_columns_hint(plan)
     )
-    finish_report(rep, plan, vk, placement.size, hasher.result())
+    finish_report(rep, plan, vk, placement.size, sha256())
     m = make_measurement(series, rows.lines, placement, vk, nominal, total_rows, rep)
+    if rows.delta is not None and rows.ref_text is not None and vk.kind in ("phase", "carrier"):
+        # readings were taken relative to the first one: keep it as the time-error origin
+        first = float(rows.ref_text) * vk.scale
+        m = m.replace(origin=m.origin + (first / nominal if vk.kind == "carrier" else first))
     return m, rep
 
 
@@ -257,8 +336,8 @@ def _local_time(
 
 def _exact_differences(rows: DataRows, d: Dialect, rep: LogReport) -> DataRows:
     """The rows with readings minus the first one, exact from the decimal text."""
-    res = decimal_deltas(rows.texts, rows.values, rows.bad, d.decimal)
-    rows.texts = None
+    res = decimal_deltas(rows.texts, rows.values, rows.bad, d.decimal, rows.decimals)
+    rows.texts = rows.decimals = None
     if res is not None:
         rows.ref_text, rows.delta = res
         rep.exact_decimal = True

@@ -20,6 +20,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
+from ..display import Displayable
 from ..units import format_duration, format_frequency, format_seconds
 
 __all__ = ["ColumnInfo", "LogReport", "LIST_LIMIT"]
@@ -52,7 +53,7 @@ class ColumnInfo:
 
 
 @dataclass
-class LogReport:
+class LogReport(Displayable):
     """What :func:`stability.ingest.inspect_log` found in a log and what reading did.
 
     Every list of lines holds at most :data:`LIST_LIMIT` entries; the matching

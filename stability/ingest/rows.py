@@ -80,6 +80,8 @@ class DataRows:
     delta, ref_text
         Readings minus the first one, exact from the decimal text, and the first
         reading as written; None when not read as decimal text.
+    decimals
+        The texts split into integer digits when found while parsing, else None.
     """
 
     lines: np.ndarray
@@ -89,6 +91,7 @@ class DataRows:
     texts: np.ndarray | None = None
     delta: np.ndarray | None = None
     ref_text: str | None = None
+    decimals: vals.DecimalParts | None = None
 
     def take(self, keep: np.ndarray) -> DataRows:
         """The rows selected by a boolean mask or an index array."""
@@ -104,6 +107,7 @@ class DataRows:
             ticks=pick(self.ticks),
             texts=pick(self.texts),
             delta=pick(self.delta),
+            decimals=None if self.decimals is None else self.decimals.take(keep),
         )
 
 
@@ -141,7 +145,7 @@ def data_rows(
         _refuse_first_bad_line(parsed, bad_rows, fetch, rep, src.path, column)
     _report_bad_values(parsed.lines, bad_rows, d, plan.value_col, fetch, rep)
     rep.rows_read = _check_readable(int(keep.sum()), int(bad_rows.size), src.path, column)
-    rows = DataRows(parsed.lines, values, bad, parsed.ticks, parsed.texts)
+    rows = DataRows(parsed.lines, values, bad, parsed.ticks, parsed.texts, decimals=parsed.decimals)
     return (rows if keep.all() else rows.take(np.flatnonzero(keep))), total_rows
 
 

@@ -47,6 +47,8 @@ __all__ = [
     "infer_nominal",
     "parse_numbers",
     "exact_delta",
+    "decimal_parts",
+    "DecimalParts",
     "significant_digits",
 ]
 
@@ -206,12 +208,104 @@ def parse_numbers(
     return values, bad, text, (None if factors is None else factors.to_numpy(dtype=object))
 
 
-def exact_delta(text: np.ndarray, ok: np.ndarray) -> tuple[str, np.ndarray, np.ndarray] | None:
+@dataclass(frozen=True)
+class DecimalParts:
+    """Each reading's plain decimal text split into integers, row by row.
+
+    Attributes
+    ----------
+    ipart
+        The integer part, signed (int64).
+    frac, nfrac
+        The first ``nfrac`` (at most 18) fraction digits as a signed integer.
+    plain
+        Whether the text is a plain decimal number ``[+-]III.FFF`` with at most
+        18 integer digits.
+    usable
+        False when the texts as a whole cannot be read this way (a character
+        outside ASCII, or a text longer than 48 characters anywhere).
+    """
+
+    ipart: np.ndarray
+    frac: np.ndarray
+    nfrac: np.ndarray
+    plain: np.ndarray
+    usable: bool = True
+
+    def take(self, keep: np.ndarray) -> DecimalParts:
+        """The parts of the rows selected by a boolean mask or an index array."""
+        return DecimalParts(
+            self.ipart[keep], self.frac[keep], self.nfrac[keep], self.plain[keep], self.usable
+        )
+
+    @staticmethod
+    def join(parts: list[DecimalParts]) -> DecimalParts:
+        """The parts of several runs of rows, in order."""
+        return DecimalParts(
+            np.concatenate([p.ipart for p in parts]),
+            np.concatenate([p.frac for p in parts]),
+            np.concatenate([p.nfrac for p in parts]),
+            np.concatenate([p.plain for p in parts]),
+            all(p.usable for p in parts),
+        )
+
+
+_UNUSABLE = DecimalParts(
+    np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0, bool), False
+)
+
+
+def decimal_parts(text: np.ndarray) -> DecimalParts:
+    """Split each text into integer and fraction digits held as int64 (vectorised by column).
+
+    Each row is split on its own, so the parts of a log's rows may be found a
+    chunk at a time and joined (:meth:`DecimalParts.join`).
+    """
+    strs = np.asarray(text, dtype=object)
+    try:
+        raw = np.asarray(strs, dtype="S")
+    except (UnicodeEncodeError, ValueError):
+        return _UNUSABLE
+    width = raw.dtype.itemsize
+    if raw.size and (width == 0 or width > 48):
+        return _UNUSABLE
+    width = max(width, 1)
+    mat = raw.view(np.uint8).reshape(raw.size, width) if raw.size else np.zeros((0, 1), np.uint8)
+    length = (mat != 0).sum(axis=1)
+    neg = mat[:, 0] == ord("-")
+    start = (neg | (mat[:, 0] == ord("+"))).astype(np.int64)
+    is_dot = mat == ord(".")
+    has_dot = is_dot.any(axis=1)
+    dotpos = np.where(has_dot, np.argmax(is_dot, axis=1), length)
+    cols = np.arange(width)
+    digit = (mat >= ord("0")) & (mat <= ord("9"))
+    inside = (cols[None, :] >= start[:, None]) & (cols[None, :] < length[:, None])
+    plain = np.all(~inside | digit | is_dot, axis=1) & (is_dot.sum(axis=1) <= 1)
+    nfrac = np.minimum(np.where(has_dot, length - dotpos - 1, 0), 18)
+    plain &= (dotpos - start <= 18) & (length > start)
+    ipart = np.zeros(raw.size, dtype=np.int64)
+    frac = np.zeros(raw.size, dtype=np.int64)
+    d = mat.astype(np.int64) - ord("0")
+    for j in range(width):  # loop over character positions, not samples
+        in_int = digit[:, j] & (j >= start) & (j < dotpos)
+        ipart = np.where(in_int, ipart * 10 + d[:, j], ipart)
+        k = j - dotpos  # 1-based position after the point
+        in_frac = digit[:, j] & has_dot & (k >= 1) & (k <= nfrac) & (j < length)
+        power = np.power(10, np.clip(nfrac - k, 0, 18)).astype(np.int64)
+        frac = np.where(in_frac, frac + d[:, j] * power, frac)
+    sign = np.where(neg, -1, 1)
+    return DecimalParts(ipart * sign, frac * sign, nfrac.astype(np.int64), plain)
+
+
+def exact_delta(
+    text: np.ndarray, ok: np.ndarray, parts: DecimalParts | None = None
+) -> tuple[str, np.ndarray, np.ndarray] | None:
     """Readings minus the first one, from the decimal text, exact to the last written digit.
 
     Each plain decimal string ``[-]III.FFF`` is split into integer and fraction
-    digits held as int64 (up to 18 fraction digits); the differences from the
-    first reading are formed in integers and only then scaled to float64.
+    digits held as int64 (up to 18 fraction digits; :func:`decimal_parts`,
+    or ``parts`` found before); the differences from the first reading are
+    formed in integers and only then scaled to float64.
 
     Returns
     -------
@@ -224,50 +318,23 @@ def exact_delta(text: np.ndarray, ok: np.ndarray) -> tuple[str, np.ndarray, np.n
     idx = np.flatnonzero(ok)
     if idx.size == 0:
         return None
-    strs = np.asarray(text, dtype=object)
-    try:
-        raw = np.asarray(strs, dtype="S")
-    except (UnicodeEncodeError, ValueError):
+    parts = decimal_parts(text) if parts is None else parts
+    if not parts.usable:
         return None
-    width = raw.dtype.itemsize
-    if width == 0 or width > 48:
-        return None
-    mat = raw.view(np.uint8).reshape(raw.size, width)
-    length = (mat != 0).sum(axis=1)
-    neg = mat[:, 0] == ord("-")
-    start = (neg | (mat[:, 0] == ord("+"))).astype(np.int64)
-    is_dot = mat == ord(".")
-    has_dot = is_dot.any(axis=1)
-    dotpos = np.where(has_dot, np.argmax(is_dot, axis=1), length)
-    cols = np.arange(width)
-    digit = (mat >= ord("0")) & (mat <= ord("9"))
-    inside = (cols[None, :] >= start[:, None]) & (cols[None, :] < length[:, None])
-    valid = np.all(~inside | digit | is_dot, axis=1) & (is_dot.sum(axis=1) <= 1)
-    nfrac = np.where(has_dot, length - dotpos - 1, 0)
-    nint = dotpos - start
-    valid &= (nint <= 18) & ok & (length > start)
+    valid = parts.plain & ok
     if not valid[idx[0]]:
         return None
-    D = int(min(18, nfrac[valid].max(initial=0)))
-    ipart = np.zeros(raw.size, dtype=np.int64)
-    fpart = np.zeros(raw.size, dtype=np.int64)
-    d = mat.astype(np.int64) - ord("0")
-    for j in range(width):  # loop over character positions, not samples
-        in_int = digit[:, j] & (j >= start) & (j < dotpos)
-        ipart = np.where(in_int, ipart * 10 + d[:, j], ipart)
-        k = j - dotpos  # 1-based position after the point
-        in_frac = digit[:, j] & has_dot & (k >= 1) & (k <= D) & (j < length)
-        power = np.power(10, np.clip(D - k, 0, 18)).astype(np.int64)
-        fpart = np.where(in_frac, fpart + d[:, j] * power, fpart)
-    sign = np.where(neg, -1, 1)
-    ipart *= sign
-    fpart *= sign
+    D = int(parts.nfrac[valid].max(initial=0))
+    # fraction digits on a common scale of D digits (exact in int64: D <= 18)
+    shift = np.power(10, np.clip(D - parts.nfrac, 0, 18)).astype(np.int64)
+    fpart = np.where(valid, parts.frac * shift, 0)
+    ipart = parts.ipart
     ref = idx[0]
     delta = (ipart - ipart[ref]).astype(np.float64) + (fpart - fpart[ref]).astype(np.float64) * (
         10.0**-D
     )
     delta[~valid] = np.nan
-    return str(strs[ref]), delta, valid
+    return str(np.asarray(text, dtype=object)[ref]), delta, valid
 
 
 def decimal_offset(reference: str, scale: float, nominal: float) -> float:

@@ -30,6 +30,7 @@ from typing import Any
 
 import numpy as np
 
+from ..display import Displayable
 from ..errors import AnalysisError
 from ..measurement import Measurement
 from ._common import centred_frequency, check_measurement, check_threshold
@@ -48,7 +49,7 @@ _WINDOW = 7
 
 
 @dataclass
-class PreparationReport:
+class PreparationReport(Displayable):
     """Everything the preparation did and found.
 
     Attributes

@@ -54,7 +54,9 @@ from ..files import jsonable, settings_hash
 from ..outputs import OutputSet
 from ..run import AnalysisRun
 from ..spec import Info, Judgement, reference_contribution
+from ..timing import TimeErrorAnalysis
 from .record_pages import ROWS_PER_PAGE, record_pages, table_pages
+from .record_timing import timing_record
 
 __all__ = [
     "CAUTION",
@@ -197,8 +199,14 @@ def _counter_summary(run: Any) -> dict[str, Any]:
     }
 
 
-def build_record(run: Any, judgement: Judgement, info: Info) -> dict[str, Any]:
-    """Everything the record shows, as JSON types (the content of record.json)."""
+def build_record(
+    run: Any, judgement: Judgement, info: Info, timing: TimeErrorAnalysis | None = None
+) -> dict[str, Any]:
+    """Everything the record shows, as JSON types (the content of record.json).
+
+    ``timing`` (a time-error analysis judged against a mask, ``record --mask``)
+    adds the ``time_error_mask`` section.
+    """
 
     _validate_record_args(run, judgement, info)
     provenance = run.source.provenance
@@ -232,6 +240,8 @@ def build_record(run: Any, judgement: Judgement, info: Info) -> dict[str, Any]:
             "date": info.date,
         },
     }
+    if timing is not None:
+        record["time_error_mask"] = timing_record(timing)
     return jsonable(record)
 
 
@@ -285,13 +295,19 @@ def _save_pdf(pages: list[Figure], handle: IO[bytes], record: dict[str, Any]) ->
 
 
 def write_record_files(
-    run: Any, judgement: Judgement, info: Info, pdf_path: Path, json_path: Path
+    run: Any,
+    judgement: Judgement,
+    info: Info,
+    pdf_path: Path,
+    json_path: Path,
+    timing: TimeErrorAnalysis | None = None,
 ) -> None:
     """Write record.pdf and record.json to the given (pending) paths of an output set."""
     _validate_record_args(run, judgement, info)
-    record = build_record(run, judgement, info)
+    record = build_record(run, judgement, info, timing)
     text = record_json(record)
-    pages = record_pages(run, judgement, record)
+    extra = {"timing": timing} if timing is not None else {}
+    pages = record_pages(run, judgement, record, **extra)
     with open(pdf_path, "wb") as handle:
         _save_pdf(pages, handle, record)
     json_path.write_text(text, encoding="utf-8")

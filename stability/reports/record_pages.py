@@ -39,6 +39,7 @@ from ..figures import VERDICT_COLORS, run_series_figure, stability_figure
 from ..figures.ticks import power_of_ten
 from ..run import AnalysisRun
 from ..spec import Judgement
+from .record_timing import timing_pages
 from .tables import format_tau, format_value, statistic_unit
 from .typeset import A4, MARGIN, Column, PageFlow, Table
 
@@ -391,8 +392,13 @@ def _reference_curve(record: dict[str, Any]) -> tuple[np.ndarray, np.ndarray] | 
     return np.array([r["tau_s"] for r in rows]), np.array([r["reference"] for r in rows])
 
 
-def record_pages(run: AnalysisRun, judgement: Judgement, record: dict[str, Any]) -> list[Figure]:
-    """The pages of record.pdf as A4 figures, each with one footer."""
+def record_pages(
+    run: AnalysisRun, judgement: Judgement, record: dict[str, Any], *, timing: Any = None
+) -> list[Figure]:
+    """The pages of record.pdf as A4 figures, each with one footer.
+
+    ``timing`` (a time-error analysis judged against a mask) adds its page last.
+    """
     pages = identification_pages(record)
     checks = ", ".join(f"{format_tau(c.tau_s)} {c.verdict}" for c in judgement.listed)
     reference = _reference_curve(record)
@@ -428,6 +434,8 @@ def record_pages(run: AnalysisRun, judgement: Judgement, record: dict[str, Any])
     )
     run_series_figure(run, title="", footer="", into=region)
     pages.append(page)
+    if timing is not None:
+        pages.extend(timing_pages(timing))
     add_footers(pages, record)
     return pages
 

@@ -44,6 +44,8 @@ from ..table import COLUMNS, StabilityTable
 __all__ = [
     "table_csv",
     "table_markdown",
+    "people_rows",
+    "BIAS_NOTE",
     "terminal_table",
     "read_table_csv",
     "format_tau",
@@ -258,15 +260,23 @@ def _corrected(rows: list[list[str]]) -> bool:
     return any(row[7] for row in rows)
 
 
-def table_markdown(table: StabilityTable) -> str:
-    """The results table as a GitHub-flavoured Markdown table, rounded for people."""
+def people_rows(table: StabilityTable) -> tuple[list[str], list[list[str]]]:
+    """The header and rows of ``table.md``: rounded for people, with units.
+
+    A ``bias factor`` column is added only when some row carries a bias
+    correction. The Markdown table and a notebook's display both show these.
+    """
     _validate_table(table)
     header, rows = _people_rows(table)
-    corrected = _corrected(rows)
-    if corrected:
-        header = [*header, "bias factor"]
-    else:
-        rows = [row[:7] for row in rows]
+    if _corrected(rows):
+        return [*header, "bias factor"], rows
+    return header, [row[:7] for row in rows]
+
+
+def table_markdown(table: StabilityTable) -> str:
+    """The results table as a GitHub-flavoured Markdown table, rounded for people."""
+    header, rows = people_rows(table)
+    corrected = len(header) == 8
     numeric = {1, 2, 3, 4, 6, 7}
     lines = [
         "| " + " | ".join(header) + " |",

@@ -40,6 +40,7 @@ from typing import Any
 import numpy as np
 
 from ..deviations.registry import get_statistic
+from ..display import Displayable
 from ..errors import InputError
 from ..files import jsonable
 from ..powerlaw import model_from_levels
@@ -365,7 +366,7 @@ class Check:
 
 
 @dataclass
-class Judgement:
+class Judgement(Displayable):
     """All verdicts of one table against one specification."""
 
     spec: Spec

@@ -120,5 +120,15 @@ def test_installed_package_runs_the_demo_anywhere(tmp_path):
     assert (out / "record" / "record.pdf").is_file()
     assert "overall verdict:" in demo.stdout
 
+    # the validation's package data (published data sets, invented logs) are installed
+    shipped = REPO / "stability" / "validation" / "data"
+    installed = Path(site) / "stability" / "validation" / "data"
+    for path in shipped.rglob("*"):
+        if path.is_file() and "__pycache__" not in path.parts:
+            assert (installed / path.relative_to(shipped)).is_file(), path
+
     helped = _run([str(python), "-m", "stability", "--help"], elsewhere, env)
     assert "Usage: python -m stability" in helped.stdout and "demo" in helped.stdout
+    # the bundled time-error masks are package data of the installed copy
+    masks = _run([str(_bin(venv, "stability")), "masks", "g8272-prtc-a"], elsewhere, env)
+    assert "0.025 + 0.000275 tau us" in masks.stdout

@@ -69,7 +69,7 @@ def test_timezone_and_engine_are_usage_checked(tmp_path):
 
 def test_bias_correction_off_on_the_command_line(tmp_path):
     # NBS14 (NIST SP 1065 section 12.3): TOTDEV(2 s) = 93.90379 as published, raw.
-    nbs14 = Path(__file__).resolve().parents[2] / "datasets/reference/nbs14.txt"
+    nbs14 = Path(__file__).resolve().parents[2] / "stability/validation/data/nbs14.txt"
     done = _run("analyze", str(nbs14), "--kind", "fractional", "--tau0", "1s", "--stats",
                 "totdev", "--taus", "1,2", "--bias-correction", "off", "--out", str(tmp_path),
                 "--json")  # fmt: skip

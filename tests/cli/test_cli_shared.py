@@ -42,10 +42,13 @@ SHARED = {
     "overlay": READING + PREPARING + ANALYSING + WRITING,
     "separate": READING + PREPARING + ANALYSING + WRITING,
     "timeline": READING + PREPARING + ANALYSING + WRITING,
+    "batch": READING + PREPARING + ANALYSING + WRITING,
     "phase-noise": READING + PREPARING + ("--stats", "--confidence") + WRITING,
     "inspect": READING + ("--json",),
     "simulate": ("--tau0", "--nominal"),
     "demo": ("--out", "--plot-format"),
+    "time-error": READING + ("--taus",) + WRITING,
+    "masks": ("--json",),
 }
 DRAWING = ("analyze", "record", "overlay", "separate", "timeline", "phase-noise", "demo")
 
@@ -127,7 +130,7 @@ def test_command_modules_form_no_cycle():
     # (entry, the program's entry point above main, is the one module that imports it)
     folder = Path(stability_cli.__path__[0])
     commands = {p.stem for p in folder.glob("*_cmd.py")}
-    assert len(commands) == 11
+    assert len(commands) == 17
     for path in folder.glob("*.py"):
         tree = ast.parse(path.read_text(encoding="utf-8"))
         imported = set()

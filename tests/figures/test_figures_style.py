@@ -157,9 +157,9 @@ def test_every_module_has_a_docstring_and_all_and_stays_short():
 #: Project modules below the figures' layer (8) that a figure module may import.
 _BELOW = (
     "_version", "errors", "units", "files", "measurement", "taus", "intervals", "table",
-    "settings", "ingest", "prepare", "deviations", "confidence", "powerlaw", "noise",
+    "settings", "display", "ingest", "prepare", "deviations", "confidence", "powerlaw", "noise",
     "qualify", "analysis", "spec", "hat", "phase_noise", "dynamic", "simulate", "aging", "run",
-    "figures", "spectrum", "periodic", "environment",
+    "figures", "timing", "spectrum", "periodic", "environment", "causes",
 )  # fmt: skip
 
 

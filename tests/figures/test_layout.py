@@ -45,13 +45,18 @@ from stability.figures import (
     stability_figure,
     timeline_figure,
 )
+from stability.figures.fleet import distribution_figure, fleet_figure
+from stability.figures.timing import mask_figure, tie_figure
+from stability.fleet import population
 from stability.hat import separate
 from stability.phase_noise import model_to_phase_noise, phase_noise_to_stability
 from stability.reports.record import build_record, record_pages
+from stability.reports.record_timing import timing_pages
 from stability.run import run_analysis
 from stability.simulate import h_from_deviation, simulate
 from stability.spec import Info, Reference, Spec, judge
 from stability.spectrum import welch_spectrum
+from stability.timing import analyze_time_error
 
 START = datetime(2026, 3, 2, 18, 4, tzinfo=UTC)
 ALL_FRACTIONAL = "adev,oadev,mdev,hdev,ohdev,totdev,mtot,htot,theo1,theobr,theoh,pdev"
@@ -339,6 +344,27 @@ def test_overlay_fits():
     check_layout(overlay_figure(tables).figure, "overlay")
 
 
+def test_fleet_figures_fit():
+    rng = np.random.default_rng(6)  # invented: 40 devices around 1e-11 / sqrt(tau)
+    tau = np.array([1.0, 2.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0, 500.0, 1000.0])
+    curves = {
+        f"OCXO-{k:04d}": (tau, 1e-11 * rng.lognormal(0.0, 0.2) / np.sqrt(tau)) for k in range(40)
+    }
+    named = ["OCXO-0007", "OCXO-0012", "OCXO-0031", "OCXO-0002", "OCXO-0039"]
+    limits = [(1.0, 2e-11), (100.0, 2e-12)]
+    title, footer = "fleet of 40 logs: oadev", "stability · analysed today"
+    band = population(curves, 3)
+    drawn = fleet_figure(
+        curves, band, statistic="oadev", limits=limits, named=named, title=title, footer=footer
+    )
+    check_layout(drawn.figure, "fleet")
+    values = {name: float(c[1][6]) for name, c in curves.items()}
+    spread = distribution_figure(
+        values, 100.0, statistic="oadev", limit=2e-12, named=named, title=title, footer=footer
+    )
+    check_layout(spread.figure, "fleet distribution")
+
+
 def test_every_record_page_fits():
     run = _glitchy_run()
     spec = Spec(
@@ -419,3 +445,45 @@ def test_spectrum_environment_and_marked_stability_plot_fit():
     sens = regress(m, room, lag_range=(0, 600))
     env = environment_figure(y, room, 1.0, sens, aux_unit="degC", title="invented.csv")
     check_layout(env.figure, "frequency and temperature")
+
+
+def test_every_validation_page_fits(monkeypatch):
+    # a validation report with failed checks (a patched estimator) and every group's table
+    import dataclasses
+    import json
+
+    from stability.deviations import STATISTICS
+    from stability.validation import report as validation_report
+    from stability.validation.coverage import CoveragePlan
+    from stability.validation.pages import validation_pages
+
+    monkeypatch.setattr(
+        validation_report, "DEFAULT_PLAN", CoveragePlan(points=128, trials=60, factors=(1, 4))
+    )
+    stat = STATISTICS["mdev"]
+
+    def off(x, tau0, m, seg):
+        value, n = stat.func(x, tau0, m, seg)
+        return value * 1.001, n
+
+    monkeypatch.setitem(STATISTICS, "mdev", dataclasses.replace(stat, func=off, multi=None))
+    result = validation_report.run_checks(stats="oadev")
+    report = json.loads(validation_report.validation_json(result))
+    assert report["result"] == "fail"
+    for k, page in enumerate(validation_pages(report), start=1):
+        check_layout(page, f"validation page {k}")
+
+
+def test_time_error_figures_fit():
+    # invented 1 PPS log of a clock of PRTC class: 2 ns white phase, 5 ns wander, two gaps
+    rng = np.random.default_rng(12)
+    k = np.arange(20000)
+    x = 30e-9 + 5e-9 * np.sin(2 * np.pi * k / 3600) + 2e-9 * rng.standard_normal(k.size)
+    x[[700, 9000]] = np.nan
+    result = analyze_time_error(Measurement.from_phase(x, 1.0), mask="g8272-prtc-a")
+    check_layout(tie_figure(result, title="invented-pps.csv").figure, "TIE")
+    check_layout(mask_figure(result, title="invented-pps.csv").figure, "MTIE and TDEV, masked")
+    plain = analyze_time_error(Measurement.from_phase(x, 1.0), taus="octave")
+    check_layout(mask_figure(plain).figure, "MTIE and TDEV without a mask")
+    for k, page in enumerate(timing_pages(result), start=1):
+        check_layout(page, f"record page {k} of the time error against a mask")

@@ -11,7 +11,7 @@ import stability.ingest
 
 INGEST = Path(stability.ingest.__file__).parent
 #: Modules of the bottom layer that ingest may use (the layer map of the project).
-ALLOWED = {"errors", "units", "measurement", "files"}
+ALLOWED = {"errors", "units", "measurement", "files", "display"}
 MODULES = sorted(INGEST.glob("*.py"))
 
 

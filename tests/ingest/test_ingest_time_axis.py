@@ -215,3 +215,33 @@ def test_same_column_for_time_and_value_is_refused(tmp_path):
     p = _english(tmp_path)
     with pytest.raises(InputError, match="both as the time column and as the value column"):
         read_log(p, time_column=2, column="Time")
+
+
+@pytest.mark.parametrize("decimals", [6, 8])
+def test_coarse_mjd_stamps_give_the_round_interval(tmp_path, decimals):
+    """MJD stamps written with 8 decimals (0.864 ms) or 6 (86 ms) one second apart:
+    each rounded step is 0.99965 s or 1.00051 s (8 decimals), and the median of
+    them is one of those; tau0 is the 1 s the stamps tell to their resolution.
+    The expected value is the interval the invented log was written at."""
+    n = 2000
+    mjd = 61000.25 + np.arange(n) / 86400.0
+    y = np.round(RNG.normal(0.0, 1e-11, n), 15)
+    lines = ["MJD,y"] + [f"{m:.{decimals}f},{v:.6e}" for m, v in zip(mjd, y, strict=True)]
+    p = tmp_path / "mjd.csv"
+    p.write_text("\n".join(lines) + "\n")
+    meas = read_log(p)
+    assert meas.tau0 == 1.0
+    assert meas.phase.size == n + 1  # n frequency readings, one phase sample more
+    assert int(np.isnan(meas.phase).sum()) == 0
+    assert "resolution of the stamps" in inspect_log(p).to_text()
+
+
+def test_exact_stamps_keep_an_unusual_interval(tmp_path):
+    """Stamps written with every digit of an interval of 1.25 s keep it exactly."""
+    n = 500
+    lines = ["t,y"] + [f"{1.25 * i:.6f},{v:.6e}" for i, v in enumerate(RNG.normal(0, 1e-11, n))]
+    p = tmp_path / "elapsed.csv"
+    p.write_text("\n".join(lines) + "\n")
+    meas = read_log(p)
+    assert meas.tau0 == 1.25
+    assert meas.phase.size == n + 1
