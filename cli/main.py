@@ -30,6 +30,7 @@ from . import (
     record_cmd,
     separate_cmd,
     simulate_cmd,
+    spectrum_cmd,
     time_error_cmd,
     timeline_cmd,
     validate_cmd,
@@ -87,6 +88,7 @@ app.command("time-error")(time_error_cmd.time_error)
 app.command("masks")(masks_cmd.masks)
 app.command("watch")(watch_cmd.watch)
 app.command("capture")(capture_cmd.capture)
+app.command("spectrum")(spectrum_cmd.spectrum_command)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(

@@ -18,6 +18,7 @@ from stability.history import history_for_record
 from stability.units import parse_duration, parse_frequency
 from stability.workflow import record_into
 
+from .cause_options import CAUSES, SPECTRUM, cause_settings
 from .command_options import TIMING
 from .common import UsageProblem, echo
 from .options import (
@@ -33,7 +34,7 @@ from .options import (
     command,
 )
 from .progress import ProgressDisplay, step_count
-from .reporting import record_lines
+from .reporting import counter_warning, record_lines
 
 __all__ = ["record"]
 
@@ -91,6 +92,8 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
     WRITING,
     STABILITY_PLOT,
     TIMING,
+    CAUSES,
+    SPECTRUM,
     variants=(
         RECORD_CONFIDENCE,
         JSON.but(help="Print record.json to standard output instead of the verdict lines."),
@@ -118,6 +121,8 @@ def record(
     given = opts.given
     if given["mask"] is None and given["sawtooth"] is not None:
         raise UsageProblem("--sawtooth applies to the time error judged against a --mask")
+    causes = cause_settings(opts)
+    counter_warning(causes)
     with ProgressDisplay(enabled=not opts.json) as bar:
         outcome = record_into(
             log,
@@ -142,6 +147,7 @@ def record(
                 "cte_window": parse_duration(given["cte_window"], what="--cte-window"),
                 "bandwidth": parse_frequency(given["dte_bandwidth"], what="--dte-bandwidth"),
             },
+            causes=causes,
         )
     if opts.json:
         echo(outcome.files["record.json"].read_text(encoding="utf-8"), nl=False)

@@ -9,19 +9,25 @@ modules import these from here, never from each other.
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Iterable
 from datetime import datetime
+from typing import Any
 
 import stability
+from stability.causes import CauseSettings, cause_notes
 from stability.figures.labels import column_text
 from stability.reports.tables import format_tau, format_value, statistic_unit
 from stability.reports.timing import mask_lines
 from stability.run import AnalysisRun
+from stability.table import NOISE_LABELS as NOISE_NAMES
 from stability.units import format_duration, format_frequency, format_seconds
 from stability.workflow import RecordOutcome
 
 __all__ = [
     "summary_block",
+    "counter_warning",
+    "spectrum_lines",
     "record_lines",
     "footer",
     "text_table",
@@ -78,7 +84,19 @@ def summary_block(run: AnalysisRun) -> str:
             f"drift/day   {_plus_minus(od.drift_per_day, od.u_drift_per_day)} "
             "(linear drift estimate; uncertainty from the noise model)",
         ]
+    lines += [f"noted       {note}" for note in cause_notes(run.table)]
     return "\n".join(lines)
+
+
+def counter_warning(causes: CauseSettings) -> None:
+    """Warn on standard error when the counter type changes what the Allan deviation means."""
+    if causes.counter == "lambda":
+        warnings.warn(
+            "a lambda-type (averaging) counter: the Allan deviation of its readings behaves "
+            "like the modified Allan deviation, not the Allan deviation",
+            UserWarning,
+            stacklevel=2,
+        )
 
 
 def record_lines(outcome: RecordOutcome) -> list[str]:
@@ -131,3 +149,46 @@ def text_table(header: list[str], rows: list[list[str]]) -> str:
     for row in rows:
         out.append("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)).rstrip())
     return "\n".join(out)
+
+
+def spectrum_lines(run: AnalysisRun, spectrum: Any) -> str:
+    """What ``stability spectrum`` prints: the Welch settings, the two views of the noise
+    model side by side, and the periodic components."""
+    causes = run.table.extras.get("causes") or {}
+    periodic = causes.get("periodic") or {}
+    d = spectrum.describe()
+    lines = [
+        f"file        {run.source.provenance.path or 'data from memory'}",
+        f"spectrum    Welch, Hann window, {d['segments_used']} segments of "
+        f"{format_duration(d['segment_s'])} at 50 % overlap, {d['edf']:.3g} degrees of "
+        f"freedom, resolution {d['resolution_hz']:.3g} Hz",
+    ]
+    if d["segments_left_out_for_gaps"]:
+        lines.append(
+            f"gaps        {d['segments_left_out_for_gaps']} segment(s) holding a gap left out"
+        )
+    rows = periodic.get("model_comparison") or []
+    if rows:
+        lines.append("noise model h_alpha: fit to the spectrum | model of the Allan deviation")
+        for row in rows:
+            z = row["z"]
+            lines.append(
+                f"  alpha {row['alpha']:+d} {NOISE_NAMES.get(row['alpha'], ''):<5} "
+                f"{_plus_minus(row['h_spectrum'], row['u_spectrum'])} | "
+                f"{_plus_minus(row['h_allan'], row['u_allan'])}"
+                + ("" if z is None else f"  ({z:+.1f} combined standard uncertainties)")
+            )
+    found = periodic.get("lines") or []
+    p = periodic.get("false_alarm")
+    if not found:
+        lines.append(
+            f"periodic    none above the local background (false-alarm chance {p:g} "
+            "over the spectrum)"
+        )
+    for line in found:
+        lines.append(
+            f"periodic    {line['summary']}; Allan-deviation bump near tau = "
+            f"{line['adev_peak_tau_s']:.4g} s (0.371 T), height {line['adev_peak']:.2g}"
+        )
+    lines += [f"noted       {note}" for note in cause_notes(run.table) if "periodic" not in note]
+    return "\n".join(lines)

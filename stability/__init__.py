@@ -67,12 +67,16 @@ _LAZY = {
     "ReadSettings": ".settings",
     "PrepareSettings": ".settings",
     "AnalysisSettings": ".settings",
+    "run_with_causes": ".causes",
+    "CauseSettings": ".causes",
+    "welch_spectrum": ".spectrum",
     "validate": ".validation",
 }
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from . import simulate
     from .analysis import analyze, estimate
+    from .causes import CauseSettings, run_with_causes
     from .deviations import STATISTICS, get_statistic, statistic_names
     from .dynamic import dynamic_stability
     from .fleet import batch
@@ -85,6 +89,7 @@ if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from .prepare import prepare as prepare_measurement
     from .run import AnalysisRun, read_and_prepare, run_analysis
     from .settings import AnalysisSettings, PrepareSettings, ReadSettings, RunSettings
+    from .spectrum import welch_spectrum
     from .table import COLUMNS, ConfidenceInterval, StabilityTable, StatisticResult
     from .taus import tau_grid
     from .validation import validate
@@ -143,6 +148,9 @@ __all__ = [
     "PrepareSettings",
     "AnalysisSettings",
     "AnalysisRun",
+    "run_with_causes",
+    "CauseSettings",
+    "welch_spectrum",
     "identify",
     "separate",
     "phase_noise_to_stability",

@@ -35,7 +35,7 @@ from .display import Displayable
 from .display import plot as _plot
 from .errors import InputError
 
-__all__ = ["Measurement", "Provenance", "TAU0_RANGE"]
+__all__ = ["Measurement", "Provenance", "Auxiliary", "TAU0_RANGE"]
 
 
 @dataclass(frozen=True)
@@ -64,6 +64,20 @@ class Provenance:
 
     def to_dict(self) -> dict[str, Any]:
         return dataclasses.asdict(self)
+
+
+@dataclass(frozen=True)
+class Auxiliary:
+    """An auxiliary series read beside the values (temperature, pressure, ...).
+
+    ``values`` has one entry per source value of the measurement (frequency
+    readings for frequency input, phase samples for phase input), NaN where the
+    log has none; ``unit`` is as read (``K``, ``degC``, ``Pa``, ``%``, ``V``).
+    """
+
+    values: np.ndarray
+    unit: str = ""
+    column: str | None = None
 
 
 def _as_float_array(values: Any, name: str) -> np.ndarray:
@@ -107,7 +121,7 @@ def _check_tau0(tau0: Any) -> float:
     return value
 
 
-_META = ("nominal", "start", "lines", "provenance", "notes")
+_META = ("nominal", "start", "lines", "provenance", "notes", "auxiliary")
 
 
 def _check_meta(meta: dict[str, Any]) -> None:
@@ -157,6 +171,8 @@ class Measurement(Displayable):
         The time error subtracted to make the first finite sample zero, in
         seconds (phase input; 0 for frequency input, whose absolute time error
         is unknown): the absolute time error is ``phase + origin``.
+    auxiliary
+        Optional auxiliary series by quantity name (``temperature`` ...).
     """
 
     phase: np.ndarray
@@ -170,6 +186,7 @@ class Measurement(Displayable):
     provenance: Provenance = field(default_factory=Provenance)
     notes: list[str] = field(default_factory=list)
     origin: float = 0.0
+    auxiliary: dict[str, Auxiliary] | None = None
 
     def __post_init__(self) -> None:
         phase = _as_float_array(self.phase, "phase")

@@ -14,6 +14,7 @@ from typing import Any, Literal
 
 import numpy as np
 
+from .dead_time import barnes_b1
 from .errors import InputError
 
 __all__ = [
@@ -285,9 +286,7 @@ def b1_expected(k: int, mu: float) -> float:
     k = float(k)
     if k < 2:
         return math.nan
-    if mu == 0:
-        return k * math.log(k) / (2.0 * (k - 1.0) * math.log(2.0))
-    return k * (1.0 - k**mu) / (2.0 * (k - 1.0) * (1.0 - 2.0**mu))
+    return barnes_b1(k, mu)
 
 
 def rn_expected(n: int, alpha: int) -> float:

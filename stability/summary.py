@@ -38,6 +38,9 @@ field                             meaning
 ``settings_hash``                 first 16 hex digits of SHA-256 of the settings (canonical JSON)
 ``offset_drift``                  offset and drift estimates from the analysis, or null
 ``power_law_model``               fitted power-law noise model, or null
+``causes``                        where the instability comes from, or null: auxiliary
+                                  columns, environmental sensitivity, spectrum and periodic
+                                  components, dead time and counter type
 ``statistics.<id>.title``         full name of the statistic
 ``statistics.<id>.unit``          ``""`` fractional frequency, ``"s"`` time
 ``statistics.<id>.confidence``    two-sided confidence level of the intervals
@@ -89,6 +92,7 @@ SUMMARY_FIELDS = (
     "settings_hash",
     "offset_drift",
     "power_law_model",
+    "causes",
     "statistics",
     "table",
 )
@@ -255,6 +259,7 @@ def build_summary(
         "settings_hash": settings_hash(settings),
         "offset_drift": jsonable(extras.get("offset_drift")),
         "power_law_model": jsonable(extras.get("power_law_model")),
+        "causes": jsonable(extras.get("causes")),
         "statistics": _statistics_section(table),
         "table": table_rows(table),
     }

@@ -19,9 +19,17 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from .causes import CauseSettings, analyse_with_causes, periodic_marks
 from .display import Displayable, register_html, register_text
-from .errors import InputError
-from .figures import run_series_figure, run_stability_figure, save_figure
+from .environment import aux_on_frequency_grid
+from .errors import AnalysisError, InputError
+from .figures import (
+    environment_figure,
+    run_series_figure,
+    run_stability_figure,
+    save_figure,
+    spectrum_figure,
+)
 from .figures.labels import default_footer, default_title
 from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
@@ -44,6 +52,9 @@ from .timing import Mask, TimeErrorAnalysis, analyze_time_error, load_mask, read
 
 __all__ = [
     "analyze_into",
+    "spectrum_into",
+    "spectrum_drawing",
+    "environment_drawing",
     "record_into",
     "spec_settings",
     "RecordOutcome",
@@ -95,6 +106,7 @@ def _draw_stability(
         title=title,
         footer=footer,
         noise_labels=noise_labels,
+        marks=periodic_marks(run.table),
     )
     return save_figure(fig, target, fmt)
 
@@ -166,6 +178,7 @@ def analyze_into(
     spec: Spec | None = None,
     on_progress: ReadProgress | None = None,
     on_step: StepProgress | None = None,
+    causes: CauseSettings | None = None,
     **options: Any,
 ) -> tuple[AnalysisRun, dict[str, Path]]:
     """Read, prepare, analyse and write the five outputs into ``folder``: (run, files).
@@ -181,10 +194,16 @@ def analyze_into(
     log is refused before anything is read, a folder another run is writing
     into is refused, and the figures of another plot format from an earlier
     run in the folder are removed, so the folder describes this run only.
+
+    With ``causes`` (:class:`stability.causes.CauseSettings`) the run also says
+    where the instability comes from (:func:`stability.causes.run_with_causes`);
+    a regression on an auxiliary quantity adds ``environment.<format>``.
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
     names, stale = output_names(fmt)
+    if causes is not None and causes.regress:
+        names.append(f"environment.{fmt}")
     if isinstance(log, Measurement):  # the file it was read from is protected all the same
         inputs = [log.provenance.path] if log.provenance.path else []
     else:
@@ -193,7 +212,16 @@ def analyze_into(
     with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
         moment = datetime.now(UTC)
-        run = analyse_prepared(source, prepared, report, settings, moment=moment, on_step=on_step)
+        if causes is None:
+            run = analyse_prepared(
+                source, prepared, report, settings, moment=moment, on_step=on_step
+            )
+        else:
+            run = analyse_with_causes(
+                source, prepared, report, settings, causes, moment=moment, on_step=on_step
+            )
+            if causes.regress:
+                _draw_environment(out.pending[f"environment.{fmt}"], fmt, run)
         if spec is not None:
             limits, limits_statistic = judge(run.table, spec).plot_limits(), spec.statistic
         pending = _paths(out.pending, fmt)
@@ -208,7 +236,92 @@ def analyze_into(
             noise_labels=noise_labels,
         )
         files = out.commit()
-    return run, _paths(files, fmt)
+    result = _paths(files, fmt)
+    if f"environment.{fmt}" in files:
+        result["environment"] = files[f"environment.{fmt}"]
+    return run, result
+
+
+def environment_drawing(run: AnalysisRun) -> Any:
+    """The environment figure of a run with a regression: frequency and the quantity."""
+    fitted = run.table.extras["cause_objects"]["sensitivity"]
+    source = run.source
+    return environment_figure(
+        source.frequency(),
+        aux_on_frequency_grid(source, fitted.quantity),
+        source.tau0,
+        fitted,
+        aux_unit=source.auxiliary[fitted.quantity].unit,
+        title=default_title(source, f"frequency and {fitted.quantity}"),
+        footer=default_footer(run.table, analysis_time=run.analysis_time),
+    )
+
+
+def _draw_environment(target: Path, fmt: str, run: AnalysisRun) -> Path:
+    return save_figure(environment_drawing(run), target, fmt)
+
+
+def spectrum_drawing(run: AnalysisRun, title: str | None = None) -> Any:
+    """The spectrum figure of a run made by :func:`stability.causes.run_with_causes`:
+    the Welch spectrum, the Allan-deviation model beside the spectrum's own fit, the
+    periodic components found."""
+    objects = run.table.extras["cause_objects"]
+    spectrum, lines = objects["spectrum"], objects["lines"]
+    if spectrum is None:
+        raise AnalysisError(
+            f"{run.measurement.n - 1} frequency samples are too few for a spectrum",
+            hint="use a longer log",
+        )
+    model = run.table.extras.get("power_law_model")
+    models = {}
+    if model is not None and any(v > 0 for v in model.h.values()):
+        models["model of the Allan deviation"] = dict(model.h)
+    if spectrum.fit is not None:
+        models["fit to this spectrum"] = dict(spectrum.fit.h)
+    return spectrum_figure(
+        spectrum,
+        models=models,
+        lines=lines,
+        title=title if title is not None else default_title(run.source, "spectrum"),
+        footer=default_footer(run.table, analysis_time=run.analysis_time),
+    )
+
+
+def spectrum_into(
+    log: str | os.PathLike[str] | Measurement,
+    folder: str | os.PathLike[str],
+    settings: RunSettings | None = None,
+    causes: CauseSettings | None = None,
+    *,
+    plot_format: str = "png",
+    title: str | None = None,
+    on_progress: ReadProgress | None = None,
+) -> tuple[AnalysisRun, Any, dict[str, Path]]:
+    """The spectrum of a log into ``folder``: (run, spectrum, files).
+
+    Writes ``spectrum.csv`` (f, S_y with its band, S_x, L(f) with a nominal
+    frequency), ``summary.json`` (the analysis summary, whose ``causes`` field
+    holds the spectrum's settings, its power-law fit beside the Allan-deviation
+    model, and the periodic components) and ``spectrum.<format>``, all or nothing.
+    """
+    fmt = check_plot_format(plot_format)
+    settings = resolve_settings(settings, {})
+    causes = causes or CauseSettings()
+    names = ["spectrum.csv", "summary.json", f"spectrum.{fmt}"]
+    stale = [f"spectrum.{other}" for other in PLOT_FORMATS if other != fmt]
+    inputs = [] if isinstance(log, Measurement) else [log]
+    with OutputSet(folder, names, inputs=inputs, stale=stale) as out:
+        source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
+        run = analyse_with_causes(source, prepared, report, settings, causes)
+        drawn = spectrum_drawing(run, title)
+        spectrum = run.table.extras["cause_objects"]["spectrum"]
+        out.pending["spectrum.csv"].write_text(
+            spectrum.to_frame().to_csv(index=False, float_format="%.6g"), encoding="utf-8"
+        )
+        out.pending["summary.json"].write_text(summary_json(run.summary()), encoding="utf-8")
+        save_figure(drawn, out.pending[f"spectrum.{fmt}"], fmt)
+        files = out.commit()
+    return run, spectrum, dict(files)
 
 
 def write_analysis(
@@ -320,6 +433,7 @@ def record_into(
     on_step: StepProgress | None = None,
     mask: Mask | str | None = None,
     timing_options: dict[str, Any] | None = None,
+    causes: CauseSettings | None = None,
     **options: Any,
 ) -> RecordOutcome:
     """Analyse ``log``, judge it against a specification and write the calibration record.
@@ -360,7 +474,10 @@ def record_into(
         OutputSet(folder, [*RECORD_NAMES, *names], inputs=inputs, force=force, stale=stale) as out,
     ):
         source, prepared, report = read_and_prepare(log, settings, on_progress=on_progress)
-        run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
+        if causes is None:
+            run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
+        else:  # the record states the counter type and dead time (stability.causes)
+            run = analyse_with_causes(source, prepared, report, settings, causes, on_step=on_step)
         judgement = judge(run.table, spec, reference=info.reference)
         timing = None
         if mask is not None:

@@ -69,9 +69,12 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
             "stability.dynamic",
             "stability.simulate",
             "stability.aging",
+            "stability.spectrum",
+            "stability.periodic",
+            "stability.environment",
         ),
     ),
-    (7, ("stability.summary", "stability.run")),
+    (7, ("stability.summary", "stability.run", "stability.causes")),
     (8, ("stability.figures",)),
     (9, ("stability.reports",)),
     (

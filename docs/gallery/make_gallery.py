@@ -22,11 +22,13 @@ from pathlib import Path
 
 from PIL import Image
 
+from stability.causes import CauseSettings, periodic_marks, run_with_causes
 from stability.dynamic import dynamic_stability
 from stability.figures import run_series_figure, stability_figure, timeline_figure
 from stability.reports.record import build_record, record_pages
 from stability.run import run_analysis
 from stability.spec import judge, load_info, load_spec
+from stability.workflow import environment_drawing, spectrum_drawing
 
 HERE = Path(__file__).resolve().parent
 DEMO = HERE.parent.parent / "datasets" / "demo"
@@ -34,6 +36,10 @@ DEMO = HERE.parent.parent / "datasets" / "demo"
 #: How the demo analyses the counter log and the 1 PPS log (as cli/demo_cmd.py does).
 COUNTER_SETTINGS = {"nominal": "10MHz", "stats": "oadev,mdev,hdev", "drift": "log"}
 PPS_SETTINGS = {"stats": "tdev,mtie,oadev", "drift": "none"}
+#: The README's worked example on the air-conditioned bench log (section "Where the
+#: instability comes from"): the same options as its `stability analyze` command.
+AIRCON_LOG = "ocxo-aircon-counter.csv.gz"
+AIRCON_CAUSES = {"regress": "temperature", "lag_range": (0.0, 1800.0)}
 
 #: Resolution of the gallery's figures (dots per inch) and of the record pages.
 FIGURE_DPI, PAGE_DPI = 100, 75
@@ -82,6 +88,14 @@ def main(argv: list[str] | None = None) -> int:
         "record-page-1.png": (pages[0], PAGE_DPI),
         "record-page-2.png": (pages[1], PAGE_DPI),
     }  # fmt: skip
+    aircon = run_with_causes(args.data / AIRCON_LOG, None, CauseSettings(**AIRCON_CAUSES))
+    marks = periodic_marks(aircon.table)
+    figures["aircon-sigma-tau.png"] = (
+        stability_figure(aircon.table, model_curve=aircon.model_curves(), marks=marks),
+        FIGURE_DPI,
+    )
+    figures["aircon-spectrum.png"] = (spectrum_drawing(aircon), FIGURE_DPI)
+    figures["aircon-environment.png"] = (environment_drawing(aircon), FIGURE_DPI)
     for name, (drawn, dpi) in figures.items():
         figure = getattr(drawn, "figure", drawn)
         size = save_small(figure, HERE / name, dpi)

@@ -8,6 +8,8 @@
 ``hat``          the three-cornered hat (:func:`hat_figure`)
 ``phase_noise``  stability from a phase-noise table (:func:`phase_noise_figure`)
 ``timeline``     stability over time (:func:`timeline_figure`)
+``spectrum``     the Welch spectrum with its band, models and lines (:func:`spectrum_figure`)
+``environment``  frequency and an auxiliary quantity (:func:`environment_figure`)
 ``overlay``      several analyses on one plot (:func:`overlay_figure`)
 ``fleet``        a fleet's curves, band and spread (:mod:`stability.figures.fleet`)
 ``save``         writing PNG, SVG or PDF atomically (:func:`save_figure`)
@@ -26,6 +28,7 @@ drawn. Importing this package loads matplotlib; nothing on the reading and
 analysis path imports it.
 """
 
+from .environment import EnvironmentDrawn, environment_figure
 from .hat import HatDrawn, hat_figure
 from .history import HistoryDrawn as HistoryDrawn
 from .history import history_figure as history_figure
@@ -43,6 +46,7 @@ from .sigma_tau import (
     stability_figure,
     stability_series,
 )
+from .spectrum import SpectrumDrawn, spectrum_figure
 from .style import STATISTIC_STYLES, VERDICT_COLORS, Drawn, statistic_style
 from .timeline import TimelineDrawn, timeline_figure
 
@@ -57,6 +61,8 @@ __all__ = [
     "hat_figure",
     "phase_noise_figure",
     "timeline_figure",
+    "spectrum_figure",
+    "environment_figure",
     "overlay_figure",
     "overlay_footer",
     "save_figure",
@@ -72,6 +78,8 @@ __all__ = [
     "HatDrawn",
     "PhaseNoiseDrawn",
     "TimelineDrawn",
+    "SpectrumDrawn",
+    "EnvironmentDrawn",
     "OverlayDrawn",
     "FORMATS",
     "SLOPES",

@@ -78,6 +78,7 @@ from .style import (
     statistic_style,
     style_axes,
 )
+from .tau_marks import Mark, draw_tau_marks, mark_lines
 
 __all__ = [
     "SLOPES",
@@ -126,6 +127,8 @@ class StabilityDrawn(Drawn):
         The confidence level of the error bars, as written on the figure.
     reference
         (tau, deviation) of the reference's stated stability as drawn, or None.
+    marks
+        The tau spans shaded, as ``(tau_low, tau_high, label)``.
     """
 
     series: dict[str, Series]
@@ -135,6 +138,7 @@ class StabilityDrawn(Drawn):
     noise_labels: dict[str, tuple[tuple[float, str], ...]] | None = None
     confidence: float = math.nan
     reference: tuple[np.ndarray, np.ndarray] | None = None
+    marks: tuple[Mark, ...] = ()
 
 
 # ---------------------------------------------------------------------- drawing
@@ -329,6 +333,7 @@ def _estimate_column(groups: list[list[str]], extras: dict[str, Any]) -> float:
         lines += sum(1 for n in names if extras["model_curve"] and n in extras["model_curve"])
     rows = extras["limits"][0]
     lines += (1 + len({r[2] for r in rows})) if rows else 0
+    lines += mark_lines(extras["marks"], _LEGEND_WIDTH)
     return 0.3 + 0.16 * lines + len(groups) * (_KEY + 0.15)
 
 
@@ -419,6 +424,7 @@ def stability_figure(
     analysis_time: datetime | None = None,
     into: Any = None,
     axes: Any = None,
+    marks: Sequence[Mark] = (),
 ) -> StabilityDrawn:
     """The sigma-tau plot of an analysis.
 
@@ -460,6 +466,8 @@ def stability_figure(
         as on the figure of its own; each legend goes beside its panel, at
         the right, the key of slopes is left out, and there is no title or
         footer unless given.
+    marks
+        Tau spans ``(low, high, label)`` shaded on the fractional panel, labelled in the legend.
 
     Returns
     -------
@@ -480,6 +488,7 @@ def stability_figure(
         "reference": ref_curve,
         "reference_panel": next(g[0] for g in groups if target in g),
         "reference_drawn": None,
+        "marks": list(marks),
     }
     if axes is not None:
         given = given_axes(axes, len(groups), "panels", into)
@@ -487,6 +496,7 @@ def stability_figure(
             _draw_panel(ax, table, names, series, extras)
             for ax, names in zip(given, groups, strict=True)
         ]
+        _draw_marks(panels, marks if fractional else (), extras)
         for panel in panels:
             _legend_beside(panel, table.confidence)
         written = _write_noise_labels(panels, table, series, labelled)
@@ -507,6 +517,7 @@ def stability_figure(
     for rect, names in zip(layout.panels, groups, strict=True):
         ax = frame.target.add_axes(frame.rect(*rect))
         panels.append(_draw_panel(ax, table, names, series, extras))
+    _draw_marks(panels, marks if fractional else (), extras)
     keys = _side_column(frame, layout, panels, table.confidence)
     written = _write_noise_labels(panels, table, series, labelled)
     if title:
@@ -514,6 +525,11 @@ def stability_figure(
     if footer:
         put_footer(frame.target, footer)
     return _drawn(frame.figure, panels, series, rows, keys, written, table, extras)
+
+
+def _draw_marks(panels: list[_Panel], marks: Sequence[Mark], extras: dict[str, Any]) -> None:
+    extras["marks_drawn"] = draw_tau_marks(panels[0].ax, marks, _LEGEND_WIDTH)
+    panels[0].entries += len(extras["marks_drawn"])
 
 
 def _write_noise_labels(
@@ -565,6 +581,7 @@ def _drawn(
         noise_labels={k: tuple(v) for k, v in written.items()},
         confidence=float(table.confidence),
         reference=extras["reference_drawn"],
+        marks=extras.get("marks_drawn", ()),
     )
 
 

@@ -243,6 +243,12 @@ PHASE_COLOR = OKABE_ITO["bluish green"]
 DRIFT_COLOR = OKABE_ITO["vermillion"]
 OUTLIER_COLOR = "#b23a3a"
 GAP_COLOR = "#d9d9d9"
+#: Shading of the taus a periodic component affects (sigma-tau plot), and of the
+#: band of a spectrum; lines found in a spectrum are marked in LINE_COLOR.
+MARK_COLOR = "#e8dcc0"
+BAND_ALPHA = 0.35
+LINE_COLOR = OKABE_ITO["reddish purple"]
+AUX_COLOR = OKABE_ITO["orange"]
 GUIDE_COLOR = "#9a9a9a"
 NOTE_COLOR = "#808080"
 LIMIT_COLOR = "#444444"

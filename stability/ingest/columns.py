@@ -26,6 +26,7 @@ from ..errors import InputError
 from ..units import format_frequency
 from . import timestamps as ts
 from . import values as vals
+from .auxiliary import aux_quantity_of
 from .hints import ReadHints
 from .report import ColumnInfo, LogReport
 from .sniff import Dialect, RawSource, _field_kind, split_fields
@@ -331,12 +332,20 @@ def _value_column(
             path=path,
             hint=f"pass --column with the value column's number or name ({_listing(names)})",
         )
-    v = channels[0]
-    if len(channels) > 1:
+    # a column whose header names an auxiliary quantity (temperature_C ...) is not the value
+    plain = [c for c in channels if aux_quantity_of(names[c]) is None] or channels
+    v = plain[0]
+    if len(plain) > 1:
         rep.note(
-            f"The log has {len(channels)} value columns "
-            f"({', '.join(display[c] for c in channels)}); analysing the first, "
+            f"The log has {len(plain)} value columns "
+            f"({', '.join(display[c] for c in plain)}); analysing the first, "
             f"{display[v]!r} (choose another with --column)."
+        )
+    aux = [c for c in channels if c not in plain]
+    if aux:
+        rep.note(
+            f"Auxiliary column(s) {', '.join(repr(display[c]) for c in aux)} beside the values "
+            "(read with --aux or --regress)."
         )
     return v
 
@@ -462,6 +471,8 @@ def columns_info(plan: ColumnPlan, vk: vals.ValueKind, rep: LogReport) -> list[C
             detail = f"{vk.kind}, {vk.unit or 'no unit'}"
         elif role == "channel":
             k = vals.kind_from_name(name)
+            q = aux_quantity_of(name)
             detail = f"{k.kind}, {k.unit or 'no unit'}" if k else ""
+            detail = f"auxiliary: {q[0]}, {q[1]}" if q else detail
         out.append(ColumnInfo(i + 1, name, role, detail))
     return out

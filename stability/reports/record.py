@@ -178,6 +178,24 @@ def _measurement_summary(run: Any) -> dict[str, Any]:
         "u_drift_per_day": None if od is None else od.u_drift_per_day,
         "offset_drift_method": None if od is None else od.method,
         "notes": list(prep.notes),
+        **_counter_summary(run),
+    }
+
+
+def _counter_summary(run: Any) -> dict[str, Any]:
+    """The counter type and dead time as stated (``stability.causes``), and what was done."""
+    causes = run.table.extras.get("causes") or {}
+    dead = causes.get("dead_time")
+    sens = causes.get("sensitivity")
+    return {
+        "counter_type": causes.get("counter"),
+        "counter_note": causes.get("counter_note"),
+        "dead_time_s": None if dead is None else dead["dead_time_s"],
+        "dead_time_ratio": None if dead is None else dead["ratio_T_over_tau"],
+        "dead_time_corrected": [] if dead is None else dead["statistics_corrected"],
+        "environment_removed": None
+        if not sens or not sens.get("removed")
+        else f"{sens['quantity']}, {sens['coefficient_per_unit']:.3g} per {sens['unit']}",
     }
 
 

@@ -94,6 +94,25 @@ def _plus_minus(value: Any, u: Any) -> str:
 
 
 # ---------------------------------------------------------------------- page 1
+def _counter_text(meas: dict[str, Any]) -> str:
+    kind = meas.get("counter_type")
+    if not kind:
+        return "not stated"
+    if kind == "lambda":
+        return "lambda (averaging): its Allan deviation behaves like the modified Allan deviation"
+    return {"pi": "pi (plain gate)", "omega": "omega (least squares)"}.get(kind, kind)
+
+
+def _dead_time_text(meas: dict[str, Any]) -> str:
+    if meas.get("dead_time_s") is None:
+        return "not stated: no correction applied"
+    done = ", ".join(meas.get("dead_time_corrected") or []) or "nothing"
+    return (
+        f"{number_text(meas['dead_time_s'], 's', 3)} (r = T/tau = {meas['dead_time_ratio']:.5g}); "
+        f"{done} corrected with Barnes' bias functions"
+    )
+
+
 def _identification(flow: PageFlow, record: dict[str, Any]) -> None:
     ident, meas = record["identification"], record["measurement"]
     device = ident["device"]
@@ -140,6 +159,8 @@ def _identification(flow: PageFlow, record: dict[str, Any]) -> None:
                 "drift removed",
                 f"{meas['drift_model']} model" if meas["drift_model"] != "none" else "none",
             ),
+            ("counter type", _counter_text(meas)),
+            ("counter dead time", _dead_time_text(meas)),
             ("frequency offset", _plus_minus(meas["offset"], meas["u_offset"])),
             (
                 "linear drift estimate",

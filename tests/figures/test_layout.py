@@ -31,13 +31,17 @@ from matplotlib.text import Text
 from matplotlib.transforms import Bbox
 
 from stability import Measurement, analyze
+from stability.causes import CauseSettings, periodic_marks, run_with_causes
 from stability.dynamic import dynamic_stability
+from stability.environment import lagged, regress
 from stability.figures import (
+    environment_figure,
     hat_figure,
     overlay_figure,
     phase_noise_figure,
     run_series_figure,
     series_figure,
+    spectrum_figure,
     stability_figure,
     timeline_figure,
 )
@@ -51,6 +55,7 @@ from stability.reports.record_timing import timing_pages
 from stability.run import run_analysis
 from stability.simulate import h_from_deviation, simulate
 from stability.spec import Info, Reference, Spec, judge
+from stability.spectrum import welch_spectrum
 from stability.timing import analyze_time_error
 
 START = datetime(2026, 3, 2, 18, 4, tzinfo=UTC)
@@ -417,6 +422,29 @@ def test_the_checks_catch_what_they_check():
     ax4.set_xticks([1, 2])
     with pytest.raises(AssertionError, match="labelled ticks"):
         check_layout(fig4, "broken")
+
+
+def test_spectrum_environment_and_marked_stability_plot_fit():
+    # invented: white FM, a 300 s cycle of the room, -1e-11 per K through a 60 s lag
+    t = np.arange(8192.0)
+    room = 21.0 + 0.3 * np.sin(2 * np.pi * t / 300.0)
+    y = simulate(8192, 1.0, levels={0: h_from_deviation(0, 1e-12, 1.0)}, seed=6)
+    y = y - 1e-11 * lagged(room, 1.0, 60.0)
+    m = Measurement.from_frequency(y, 1.0, start=START)
+    run = run_with_causes(m, None, CauseSettings(), stats="oadev,mdev")
+    objects = run.table.extras["cause_objects"]
+    spectrum, lines = objects["spectrum"], objects["lines"]
+    assert lines
+    models = {"model of the Allan deviation": run.table.extras["power_law_model"].h}
+    drawn = spectrum_figure(spectrum, models=models, lines=lines, title="invented.csv")
+    check_layout(drawn.figure, "spectrum with S_x")
+    with_carrier = welch_spectrum(Measurement.from_frequency(y, 1.0, nominal=10e6))
+    check_layout(spectrum_figure(with_carrier).figure, "spectrum with L(f)")
+    marked = stability_figure(run.table, marks=periodic_marks(run.table))
+    check_layout(marked.figure, "sigma-tau with a periodic component marked")
+    sens = regress(m, room, lag_range=(0, 600))
+    env = environment_figure(y, room, 1.0, sens, aux_unit="degC", title="invented.csv")
+    check_layout(env.figure, "frequency and temperature")
 
 
 def test_every_validation_page_fits(monkeypatch):
