@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from dataclasses import dataclass, field
+from dataclasses import InitVar, dataclass, field
 from datetime import datetime
 from typing import Any
 
@@ -105,7 +105,7 @@ def _check_tau0(tau0: Any) -> float:
     return value
 
 
-_META = ("nominal", "start", "lines", "provenance", "notes")
+_META = ("nominal", "start", "lines", "provenance", "notes", "adopt")
 
 
 def _check_meta(meta: dict[str, Any]) -> None:
@@ -151,6 +151,11 @@ class Measurement:
         Where the data came from.
     notes
         What reading and preparation did, in plain sentences.
+
+    The constructor copies the arrays it is given; ``adopt=True`` hands them
+    over instead (phase, segments and lines are then made read-only and, for the
+    phase, shifted in place): for a reader that built them for this measurement
+    alone and keeps no other reference, so that a long record is not held twice.
     """
 
     phase: np.ndarray
@@ -163,9 +168,11 @@ class Measurement:
     lines: np.ndarray | None = None
     provenance: Provenance = field(default_factory=Provenance)
     notes: list[str] = field(default_factory=list)
+    adopt: InitVar[bool] = False
 
-    def __post_init__(self) -> None:
+    def __post_init__(self, adopt: bool) -> None:
         phase = _as_float_array(self.phase, "phase")
+        adopt = bool(adopt) and phase is self.phase
         self.tau0 = _check_tau0(self.tau0)
         if self.kind not in ("phase", "frequency"):
             raise InputError(f"kind must be 'phase' or 'frequency', got {self.kind!r}")
@@ -178,7 +185,7 @@ class Measurement:
             if seg.size and seg[0] == seg[-1]:
                 seg = None
             else:
-                seg = seg.copy()
+                seg = seg if adopt and seg is self.segments else seg.copy()
                 seg.flags.writeable = False
             self.segments = seg
         if not math.isfinite(float(self.frequency_offset)):
@@ -192,11 +199,18 @@ class Measurement:
         finite = np.isfinite(phase)
         if not finite.any():
             raise InputError("phase holds no finite sample: every value is missing")
-        phase = phase - phase[np.argmax(finite)]
+        first = phase[np.argmax(finite)]
+        del finite
+        if not adopt:
+            phase = phase - first
+        elif first != 0.0:
+            phase -= first
         phase.flags.writeable = False
         self.phase = phase
         if self.lines is not None:
-            lines = np.asarray(self.lines, dtype=np.int64).copy()
+            lines = np.asarray(self.lines, dtype=np.int64)
+            if not (adopt and lines is self.lines):
+                lines = lines.copy()
             lines.flags.writeable = False
             self.lines = lines
 
@@ -207,7 +221,7 @@ class Measurement:
 
         NaN marks a missing sample; the first finite sample is subtracted.
         ``meta`` sets the other attributes (nominal, start, provenance, notes,
-        lines).
+        lines); ``adopt=True`` hands ``x`` and ``lines`` over instead of copying them.
         """
         _check_meta(meta)
         arr = _as_float_array(x, "phase")
@@ -222,28 +236,38 @@ class Measurement:
         Phase is the running sum ``x[k+1] = x[k] + tau0 * (y[k] - mean(y))``;
         the mean goes to ``frequency_offset``. A NaN in ``y`` starts a new
         segment: the terms spanning it are dropped, those on either side kept.
+        ``y`` is never changed; ``adopt=True`` hands ``lines`` over instead of copying it.
         """
         _check_meta(meta)
         arr = _as_float_array(y, "frequency")
         tau0 = _check_tau0(tau0)
+        if not meta.pop("adopt", False) and meta.get("lines") is not None:
+            meta["lines"] = np.array(meta["lines"], dtype=np.int64)  # the caller's stays theirs
         good = np.isfinite(arr)
         if not good.any():
             raise InputError("frequency holds no finite sample: every value is missing")
-        offset = float(np.mean(arr[good]))
-        steps = np.where(good, arr - offset, 0.0) * tau0
+        whole = bool(good.all())
+        offset = float(np.mean(arr if whole and arr.flags.c_contiguous else arr[good]))
+        # x[1:] = cumsum(where(good, y - offset, 0) * tau0), built in place
         x = np.empty(arr.size + 1)
         x[0] = 0.0
-        np.cumsum(steps, out=x[1:])
+        steps = np.subtract(arr, offset, out=x[1:])
+        if not whole:
+            steps[~good] = 0.0
+        steps *= tau0
+        np.cumsum(steps, out=steps)
         segments = None
-        if not good.all():
+        if not whole:
             segments = np.zeros(arr.size + 1, dtype=np.int64)
             np.cumsum(~good, out=segments[1:])
+        del good
         return cls(
             phase=x,
             tau0=tau0,
             segments=segments,
             frequency_offset=offset,
             kind="frequency",
+            adopt=True,  # x, segments and the lines (copied above unless handed over) are ours
             **meta,
         )
 

@@ -220,8 +220,10 @@ def _read(
     series, nominal = canonical_series(
         rows, readings, vk, hints, src.path, vname, rep, other_columns_hint(plan)
     )
+    lines = rows.lines
+    del rows, readings  # the readings live on as the series: freed before the measurement
     finish_report(rep, plan, vk, placement.size, hasher.result())
-    m = make_measurement(series, rows.lines, placement, vk, nominal, total_rows, rep)
+    m = make_measurement(series, lines, placement, vk, nominal, total_rows, rep)
     return m, rep
 
 
