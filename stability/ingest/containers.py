@@ -47,6 +47,7 @@ __all__ = [
     "decompress",
     "read_plain",
     "valid_utf8",
+    "valid_utf8_file",
     "check_room",
     "too_large",
 ]
@@ -272,6 +273,22 @@ def valid_utf8(data: bytes) -> bool:
         decoder.decode(b"", final=True)
     except UnicodeDecodeError:
         return False
+    return True
+
+
+def valid_utf8_file(p: Path) -> bool:
+    """Whether the file is UTF-8, read and checked in pieces (its text is never held whole)."""
+    decoder = codecs.getincrementaldecoder("utf-8")()
+    try:
+        with open(p, "rb") as fh:
+            while piece := fh.read(CHUNK):  # loop over pieces of a megabyte
+                if not piece.isascii() or decoder.getstate()[0]:  # ASCII alone is UTF-8
+                    decoder.decode(piece)
+        decoder.decode(b"", final=True)
+    except UnicodeDecodeError:
+        return False
+    except OSError as exc:
+        raise InputError(f"cannot read the file: {exc.strerror or exc}", path=str(p)) from None
     return True
 
 

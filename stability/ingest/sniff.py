@@ -36,6 +36,7 @@ from .containers import (
     read_plain,
     too_large,
     valid_utf8,
+    valid_utf8_file,
 )
 from .limits import expansion_limit
 from .spreadsheet import refuse_workbook, sheet_text, workbook_kind
@@ -220,11 +221,8 @@ def open_source(
     encoding = _encoding(head)
     if encoding == "utf-8" and container == "plain":
         # confirm on the whole file only when it is small; large files are checked by pandas
-        if size <= 64 * 1024 * 1024:
-            raw = read_plain(p)
-            kept = raw
-            if not valid_utf8(raw):
-                encoding = "latin-1"
+        if size <= 64 * 1024 * 1024 and not valid_utf8_file(p):
+            encoding = "latin-1"
     sample_text = head.decode(encoding, errors="replace")
     _check_text(sample_text, str(p))
     endings = _line_endings(sample_text)
