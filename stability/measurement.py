@@ -201,7 +201,7 @@ class Measurement:
             raise InputError("phase holds no finite sample: every value is missing")
         first = phase[np.argmax(finite)]
         del finite
-        if not adopt:
+        if not adopt or (first != 0.0 and not phase.flags.writeable):
             phase = phase - first
         elif first != 0.0:
             phase -= first
@@ -309,9 +309,14 @@ class Measurement:
         return count
 
     def replace(self, **changes: Any) -> Measurement:
-        """A copy with some attributes changed (notes are copied, not shared)."""
+        """A copy with some attributes changed (notes are copied, not shared).
+
+        The read-only arrays that are not changed (phase, segments, lines) are
+        shared with the copy, not copied.
+        """
         changes.setdefault("notes", list(self.notes))
-        return dataclasses.replace(self, **changes)
+        kept = not changes.keys() & {"phase", "segments", "lines"}
+        return dataclasses.replace(self, adopt=kept, **changes)
 
     def __repr__(self) -> str:
         src = self.provenance.path or "memory"

@@ -529,7 +529,7 @@ def run_series_figure(run: AnalysisRun, **options: Any) -> SeriesDrawn:
     removed = prep.removed_drift
     fit = removed if removed is not None else prep.linear_drift
     drift = None
-    if fit is not None and fit.y_model.shape == (run.measurement.n - 1,):
+    if fit is not None and fit.samples == run.measurement.n - 1:
         drift = fit.y_model
     label = f"drift removed ({removed.model} model)" if removed is not None else None
     stated = run.table.extras.get("offset_drift")

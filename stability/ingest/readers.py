@@ -176,7 +176,8 @@ def _read(
     d = _sniff(src, rep)
     check_memory(src, d)
     plan = plan_columns(src, d, hints, rep)
-    sample = column_samples(src, d)[plan.value_col]
+    samples = column_samples(src, d)
+    sample = samples[plan.value_col]
     vname = plan.display[plan.value_col]
     vk, suffix = decide_kind(
         sample, plan.names[plan.value_col], d, hints, src.path, other_columns_hint(plan)
@@ -205,7 +206,7 @@ def _read(
         plan = _local_time(rows, plan, hints.timezone, src.path, rep)
     if exact:
         rows = _exact_differences(rows, d, rep)
-    evidence = preamble_evidence(src, d) + column_evidence(column_samples(src, d), plan)
+    evidence = preamble_evidence(src, d) + column_evidence(samples, plan)
     stated = [(e.source, e.says, e.tau0) for e in evidence]
     rows, placement = place_on_grid(rows, plan, hints, src.path, rep, stated)
     check_tau0(

@@ -271,9 +271,10 @@ def _remove_frequency(
         Outlier(int(i), line_of(m, int(i)), float(full[i]), float(full[i]), float(zi), "removed")
         for i, zi in zip(idx.tolist(), z.tolist(), strict=True)
     ]
-    cleaned = full.copy()
+    cleaned = full  # a temporary of its own: marked in place
     cleaned[idx] = np.nan
-    new = Measurement.from_frequency(cleaned, m.tau0, lines=m.lines, **carry_meta(m))
+    # the lines are m's read-only array: shared, not copied
+    new = Measurement.from_frequency(cleaned, m.tau0, lines=m.lines, adopt=True, **carry_meta(m))
     return new, samples
 
 
