@@ -289,7 +289,9 @@ class Measurement:
 
     def frequency(self) -> np.ndarray:
         """Fractional frequency y[k] = (x[k+1] - x[k]) / tau0 + offset, NaN across gaps."""
-        y = np.diff(self.phase) / self.tau0 + self.frequency_offset
+        y = np.diff(self.phase)
+        y /= self.tau0  # in place: one array of the record's length
+        y += self.frequency_offset
         if self.segments is not None:
             y[np.diff(self.segments) != 0] = np.nan
         return y

@@ -39,15 +39,25 @@ def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
     columns = max(1, int(columns))
     block = max(1, math.ceil(n / columns))
     n_blocks = math.ceil(n / block)
-    padded = np.full(n_blocks * block, np.nan)
-    padded[:n] = values
+    has_missing = bool(np.isnan(values).any())
+    if n_blocks * block == n:
+        padded = values
+    else:  # a short last bucket, filled up with NaN, or with its last sample when none is
+        # missing (argmin and argmax take the first of equal values: the real sample)
+        padded = np.full(n_blocks * block, np.nan if has_missing else values[-1])
+        padded[:n] = values
     blocks = padded.reshape(n_blocks, block)
-    missing = np.isnan(blocks)
-    any_missing = missing.any(axis=1)
-    any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
-    all_missing = missing.all(axis=1)
-    i_min = np.argmin(np.where(missing, np.inf, blocks), axis=1)
-    i_max = np.argmax(np.where(missing, -np.inf, blocks), axis=1)
+    if has_missing:
+        missing = np.isnan(blocks)
+        any_missing = missing.any(axis=1)
+        any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
+        all_missing = missing.all(axis=1)
+        i_min = np.argmin(np.where(missing, np.inf, blocks), axis=1)
+        i_max = np.argmax(np.where(missing, -np.inf, blocks), axis=1)
+        del missing
+    else:  # the same positions, without two masked copies of the record
+        any_missing = all_missing = np.zeros(n_blocks, dtype=bool)
+        i_min, i_max = np.argmin(blocks, axis=1), np.argmax(blocks, axis=1)
     rows = np.arange(n_blocks)
     first = np.minimum(i_min, i_max)
     second = np.maximum(i_min, i_max)

@@ -150,11 +150,17 @@ def _joined_phase(
     themselves missing stay missing.
     """
     good = np.isfinite(y)
+    whole = bool(good.all())
     if centre is None:
-        centre = float(np.mean(y[good])) if good.any() else 0.0
+        centre = float(np.mean(y if whole else y[good])) if good.any() else 0.0
+    # x[1:] = cumsum(where(good, y - centre, 0) * tau0), built in place
     x = np.empty(y.size + 1)
     x[0] = 0.0
-    np.cumsum(np.where(good, y - centre, 0.0) * tau0, out=x[1:])
+    steps = np.subtract(y, centre, out=x[1:])
+    if not whole:
+        steps[~good] = 0.0
+    steps *= tau0
+    np.cumsum(steps, out=steps)
     x[missing] = np.nan
     return x
 
@@ -163,13 +169,22 @@ def _without_line(phase: np.ndarray) -> tuple[np.ndarray, float]:
     """Phase minus its least-squares line, and the line's slope (the frequency offset part)."""
     k = np.arange(phase.size, dtype=float)
     good = np.isfinite(phase)
+    whole = bool(good.all())
     if int(np.count_nonzero(good)) < 2:
         return phase - np.nanmean(phase), 0.0
-    kk, xx = k[good], phase[good]
-    dk = kk - kk.mean()
+    kk, xx = (k, phase) if whole else (k[good], phase[good])
+    del good
+    k_mean, x_mean = kk.mean(), xx.mean()
+    dk = kk - k_mean
+    centred = xx - x_mean
     # einsum, not np.dot: 1-D dot goes to a threaded BLAS (see deviations._kernels.dot)
-    slope = float(np.einsum("i,i->", dk, xx - xx.mean()) / np.einsum("i,i->", dk, dk))
-    return phase - (xx.mean() + slope * (k - kk.mean())), slope
+    slope = float(np.einsum("i,i->", dk, centred) / np.einsum("i,i->", dk, dk))
+    del centred, kk, xx
+    line = dk if whole else np.subtract(k, k_mean)  # k - mean(k), reused when every k is used
+    del k
+    line *= slope
+    line += x_mean  # x_mean + slope * (k - mean(k)), in place
+    return np.subtract(phase, line, out=line), slope
 
 
 # ---------------------------------------------------------------------- validation
