@@ -20,6 +20,10 @@ import numpy as np
 __all__ = ["envelope", "gap_runs", "runs"]
 
 
+#: Bytes of a group of buckets masked at once by :func:`envelope`.
+_ROWS_BYTES = 1 << 22
+
+
 def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
     """Indices and values of a min/max decimation of ``values`` into ``columns`` buckets.
 
@@ -48,14 +52,18 @@ def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
         padded[:n] = values
     blocks = padded.reshape(n_blocks, block)
     if has_missing:
-        missing = np.isnan(blocks)
-        any_missing = missing.any(axis=1)
+        any_missing, all_missing = np.empty(n_blocks, bool), np.empty(n_blocks, bool)
+        i_min, i_max = np.empty(n_blocks, np.int64), np.empty(n_blocks, np.int64)
+        rows_at_once = max(1, _ROWS_BYTES // (8 * block))  # masked copies stay small
+        for lo in range(0, n_blocks, rows_at_once):  # loop over groups of buckets
+            part = blocks[lo : lo + rows_at_once]
+            missing = np.isnan(part)
+            hi = lo + part.shape[0]
+            any_missing[lo:hi], all_missing[lo:hi] = missing.any(axis=1), missing.all(axis=1)
+            i_min[lo:hi] = np.argmin(np.where(missing, np.inf, part), axis=1)
+            i_max[lo:hi] = np.argmax(np.where(missing, -np.inf, part), axis=1)
         any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
-        all_missing = missing.all(axis=1)
-        i_min = np.argmin(np.where(missing, np.inf, blocks), axis=1)
-        i_max = np.argmax(np.where(missing, -np.inf, blocks), axis=1)
-        del missing
-    else:  # the same positions, without two masked copies of the record
+    else:  # the same positions, without masked copies of the record
         any_missing = all_missing = np.zeros(n_blocks, dtype=bool)
         i_min, i_max = np.argmin(blocks, axis=1), np.argmax(blocks, axis=1)
     rows = np.arange(n_blocks)

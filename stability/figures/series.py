@@ -175,12 +175,12 @@ def _without_line(phase: np.ndarray) -> tuple[np.ndarray, float]:
     kk, xx = (k, phase) if whole else (k[good], phase[good])
     del good
     k_mean, x_mean = kk.mean(), xx.mean()
-    dk = kk - k_mean
+    dk = np.subtract(kk, k_mean, out=kk if whole else None)  # every k used: k itself centred
     centred = xx - x_mean
     # einsum, not np.dot: 1-D dot goes to a threaded BLAS (see deviations._kernels.dot)
     slope = float(np.einsum("i,i->", dk, centred) / np.einsum("i,i->", dk, dk))
     del centred, kk, xx
-    line = dk if whole else np.subtract(k, k_mean)  # k - mean(k), reused when every k is used
+    line = dk if whole else np.subtract(k, k_mean)  # k - mean(k), as centred above
     del k
     line *= slope
     line += x_mean  # x_mean + slope * (k - mean(k)), in place
@@ -344,9 +344,14 @@ def _panels(frame: Frame, count: int, titled: bool, footed: bool) -> list[Axes]:
     return axes
 
 
-def _missing_readings(measurement: Measurement, outliers: np.ndarray) -> tuple[np.ndarray, int]:
-    """Frequency samples to shade as gaps, and the readings missing in them."""
-    y_missing = ~np.isfinite(measurement.frequency())
+def _missing_readings(
+    measurement: Measurement, outliers: np.ndarray, frequency: np.ndarray
+) -> tuple[np.ndarray, int]:
+    """Frequency samples to shade as gaps, and the readings missing in them.
+
+    ``frequency`` is ``measurement.frequency()``.
+    """
+    y_missing = ~np.isfinite(frequency)
     if measurement.kind == "frequency":
         lost = y_missing.copy()
         lost[outliers] = False
@@ -421,12 +426,15 @@ def series_figure(
         measurement, drift_curve, outlier_indices, steps, texts, max_columns
     )
     tau0 = measurement.tau0
-    y = measurement.frequency()
+    frequency_analysed = measurement.frequency()  # computed once, read by the steps below
+    frequency_analysed.flags.writeable = False
+    y = frequency_analysed
     if drift is not None and drift_removed:
         good = np.isfinite(y) & np.isfinite(drift)
         y = y + (drift - (float(np.mean(drift[good])) if good.any() else 0.0))
+        del good
     phase_missing = np.isnan(measurement.phase)
-    residual, _ = _without_line(_joined_phase(measurement.frequency(), tau0, phase_missing))
+    residual, _ = _without_line(_joined_phase(frequency_analysed, tau0, phase_missing))
     timed = measurement.kind == "phase"
     tie, offset = None, None
     if timed and frequency_offset is not None and np.isfinite(frequency_offset):
@@ -474,7 +482,7 @@ def series_figure(
             label = "phase residual" + (" after the drift model" if drift_removed else "")
             ax.set_ylabel(f"phase residual ({p_unit})", fontsize=LABEL_SIZE)
         ax.plot(*curves[name], color=PHASE_COLOR, linewidth=0.6, label=label)
-    lost, missing = _missing_readings(measurement, outliers)
+    lost, missing = _missing_readings(measurement, outliers, frequency_analysed)
     runs = gap_runs(lost, max_columns)
     gaps = np.column_stack([axis(runs[:, 0]), axis(runs[:, 1])])
     if len(gaps):
