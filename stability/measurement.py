@@ -310,15 +310,19 @@ class Measurement:
             count += int(self.segments[-1] - self.segments[0])
         return count
 
-    def replace(self, **changes: Any) -> Measurement:
+    def replace(self, *, adopt: bool = False, **changes: Any) -> Measurement:
         """A copy with some attributes changed (notes are copied, not shared).
 
         The read-only arrays that are not changed (phase, segments, lines) are
-        shared with the copy, not copied.
+        shared with the copy, not copied. New arrays are copied, unless
+        ``adopt=True`` hands them over (the caller keeps no other reference).
         """
         changes.setdefault("notes", list(self.notes))
-        kept = not changes.keys() & {"phase", "segments", "lines"}
-        return dataclasses.replace(self, adopt=kept, **changes)
+        for name in ("phase", "segments", "lines"):
+            given = changes.get(name)
+            if isinstance(given, np.ndarray) and not adopt:
+                changes[name] = given.copy()  # the caller's array stays the caller's
+        return dataclasses.replace(self, adopt=True, **changes)
 
     def __repr__(self) -> str:
         src = self.provenance.path or "memory"

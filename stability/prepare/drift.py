@@ -295,6 +295,6 @@ def _remove_fit(m: Measurement, fit: DriftFit) -> tuple[Measurement, DriftFit]:
     integral = _drift_integral(model, fit.coefficients, days)
     # Remove the drift minus its record mean: zero at both ends of the record.
     correction = (integral - integral[-1] * days / days[-1]) * SECONDS_PER_DAY
-    new = m.replace(phase=m.phase - correction)
+    new = m.replace(phase=np.subtract(m.phase, correction, out=correction), adopt=True)
     new.notes.append(f"Removed {fit.description}; the mean frequency offset was kept.")
     return new, fit

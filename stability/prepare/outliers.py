@@ -332,4 +332,4 @@ def _remove_phase(
     phase[inner] = np.nan
     segments = np.zeros(n, dtype=np.int64) if m.segments is None else m.segments.copy()
     segments += np.cumsum(np.bincount(ends[split], minlength=n)[:n])
-    return m.replace(phase=phase, segments=segments), samples
+    return m.replace(phase=phase, segments=segments, adopt=True), samples  # ours: handed over
