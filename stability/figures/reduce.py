@@ -44,28 +44,17 @@ def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
     block = max(1, math.ceil(n / columns))
     n_blocks = math.ceil(n / block)
     has_missing = bool(np.isnan(values).any())
-    if n_blocks * block == n:
-        padded = values
-    else:  # a short last bucket, filled up with NaN, or with its last sample when none is
-        # missing (argmin and argmax take the first of equal values: the real sample)
-        padded = np.full(n_blocks * block, np.nan if has_missing else values[-1])
-        padded[:n] = values
-    blocks = padded.reshape(n_blocks, block)
+    whole = n // block  # full buckets, read as a view; a short last one is filled up with
+    # NaN, or with its last sample when none is missing (argmin and argmax take the first
+    # of equal values: a real sample)
+    parts = [_extremes(values[: whole * block].reshape(whole, block), has_missing)]
+    if whole < n_blocks:
+        last = np.full((1, block), np.nan if has_missing else values[-1])
+        last[0, : n - whole * block] = values[whole * block :]
+        parts.append(_extremes(last, has_missing))
+    any_missing, all_missing, i_min, i_max = (np.concatenate(a) for a in zip(*parts, strict=True))
     if has_missing:
-        any_missing, all_missing = np.empty(n_blocks, bool), np.empty(n_blocks, bool)
-        i_min, i_max = np.empty(n_blocks, np.int64), np.empty(n_blocks, np.int64)
-        rows_at_once = max(1, _ROWS_BYTES // (8 * block))  # masked copies stay small
-        for lo in range(0, n_blocks, rows_at_once):  # loop over groups of buckets
-            part = blocks[lo : lo + rows_at_once]
-            missing = np.isnan(part)
-            hi = lo + part.shape[0]
-            any_missing[lo:hi], all_missing[lo:hi] = missing.any(axis=1), missing.all(axis=1)
-            i_min[lo:hi] = np.argmin(np.where(missing, np.inf, part), axis=1)
-            i_max[lo:hi] = np.argmax(np.where(missing, -np.inf, part), axis=1)
         any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
-    else:  # the same positions, without masked copies of the record
-        any_missing = all_missing = np.zeros(n_blocks, dtype=bool)
-        i_min, i_max = np.argmin(blocks, axis=1), np.argmax(blocks, axis=1)
     rows = np.arange(n_blocks)
     first = np.minimum(i_min, i_max)
     second = np.maximum(i_min, i_max)
@@ -74,13 +63,38 @@ def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
     val = np.empty((n_blocks, 3))
     idx[:, 0] = base + first
     idx[:, 1] = base + second
-    val[:, 0] = blocks[rows, first]
-    val[:, 1] = blocks[rows, second]
+    val[:, 0] = values[base + first]
+    val[:, 1] = values[base + second]
     brk = any_missing | np.concatenate([any_missing[1:], [False]])
     idx[:, 2] = np.where(brk, np.nan, idx[:, 1])
     val[:, 2] = np.where(brk, np.nan, val[:, 1])
     val[all_missing, :2] = np.nan
     return idx.ravel(), val.ravel()
+
+
+def _extremes(
+    blocks: np.ndarray, has_missing: bool
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Per bucket (row): any missing, all missing, position of the minimum and the maximum.
+
+    Missing samples are never chosen; buckets are masked in groups, so the masked
+    copies stay small.
+    """
+    count = blocks.shape[0]
+    if not has_missing:
+        none = np.zeros(count, dtype=bool)
+        return none, none, np.argmin(blocks, axis=1), np.argmax(blocks, axis=1)
+    any_missing, all_missing = np.empty(count, bool), np.empty(count, bool)
+    i_min, i_max = np.empty(count, np.int64), np.empty(count, np.int64)
+    rows_at_once = max(1, _ROWS_BYTES // (8 * max(1, blocks.shape[1])))
+    for lo in range(0, count, rows_at_once):  # loop over groups of buckets
+        part = blocks[lo : lo + rows_at_once]
+        missing = np.isnan(part)
+        hi = lo + part.shape[0]
+        any_missing[lo:hi], all_missing[lo:hi] = missing.any(axis=1), missing.all(axis=1)
+        i_min[lo:hi] = np.argmin(np.where(missing, np.inf, part), axis=1)
+        i_max[lo:hi] = np.argmax(np.where(missing, -np.inf, part), axis=1)
+    return any_missing, all_missing, i_min, i_max
 
 
 def gap_runs(mask: np.ndarray, max_runs: int) -> np.ndarray:

@@ -166,7 +166,10 @@ def _joined_phase(
 
 
 def _without_line(phase: np.ndarray) -> tuple[np.ndarray, float]:
-    """Phase minus its least-squares line, and the line's slope (the frequency offset part)."""
+    """Phase minus its least-squares line, and the line's slope (the frequency offset part).
+
+    ``phase`` (a temporary of the caller) is overwritten with the result.
+    """
     k = np.arange(phase.size, dtype=float)
     good = np.isfinite(phase)
     whole = bool(good.all())
@@ -184,7 +187,7 @@ def _without_line(phase: np.ndarray) -> tuple[np.ndarray, float]:
     del k
     line *= slope
     line += x_mean  # x_mean + slope * (k - mean(k)), in place
-    return np.subtract(phase, line, out=line), slope
+    return np.subtract(phase, line, out=phase), slope
 
 
 # ---------------------------------------------------------------------- validation
