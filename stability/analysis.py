@@ -281,7 +281,8 @@ def _drift_model_source(
     t = np.arange(measurement.n, dtype=np.float64) * measurement.tau0
     t *= t
     t *= 0.5 * slope
-    detrended = measurement.replace(phase=measurement.phase - t)
+    # phase - t, written over t and handed over: segments and lines stay shared
+    detrended = measurement.replace(phase=np.subtract(measurement.phase, t, out=t), adopt=True)
     if base is not None and not measurement.has_gaps and len(base):
         return detrended, _detrended_oadev(detrended, base, slope, measurement.phase)
     try:

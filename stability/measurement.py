@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from dataclasses import dataclass, field
+from dataclasses import InitVar, dataclass, field
 from datetime import datetime
 from typing import Any
 
@@ -121,7 +121,7 @@ def _check_tau0(tau0: Any) -> float:
     return value
 
 
-_META = ("nominal", "start", "lines", "provenance", "notes", "auxiliary")
+_META = ("nominal", "start", "lines", "provenance", "notes", "auxiliary", "adopt")
 
 
 def _check_meta(meta: dict[str, Any]) -> None:
@@ -173,6 +173,11 @@ class Measurement(Displayable):
         is unknown): the absolute time error is ``phase + origin``.
     auxiliary
         Optional auxiliary series by quantity name (``temperature`` ...).
+
+    The constructor copies the arrays it is given; ``adopt=True`` hands them
+    over instead (phase, segments and lines are then made read-only and, for the
+    phase, shifted in place): for a reader that built them for this measurement
+    alone and keeps no other reference, so that a long record is not held twice.
     """
 
     phase: np.ndarray
@@ -187,9 +192,11 @@ class Measurement(Displayable):
     notes: list[str] = field(default_factory=list)
     origin: float = 0.0
     auxiliary: dict[str, Auxiliary] | None = None
+    adopt: InitVar[bool] = False
 
-    def __post_init__(self) -> None:
+    def __post_init__(self, adopt: bool) -> None:
         phase = _as_float_array(self.phase, "phase")
+        adopt = bool(adopt) and phase is self.phase
         self.tau0 = _check_tau0(self.tau0)
         if self.kind not in ("phase", "frequency"):
             raise InputError(f"kind must be 'phase' or 'frequency', got {self.kind!r}")
@@ -202,7 +209,7 @@ class Measurement(Displayable):
             if seg.size and seg[0] == seg[-1]:
                 seg = None
             else:
-                seg = seg.copy()
+                seg = seg if adopt and seg is self.segments else seg.copy()
                 seg.flags.writeable = False
             self.segments = seg
         if not math.isfinite(float(self.frequency_offset)):
@@ -216,15 +223,21 @@ class Measurement(Displayable):
         finite = np.isfinite(phase)
         if not finite.any():
             raise InputError("phase holds no finite sample: every value is missing")
-        first = float(phase[np.argmax(finite)])
-        self.origin = float(self.origin) + first
+        first = phase[np.argmax(finite)]
+        del finite
+        self.origin = float(self.origin) + float(first)
         if not math.isfinite(self.origin):
             raise InputError("origin must be finite")
-        phase = phase - first
+        if not adopt or (first != 0.0 and not phase.flags.writeable):
+            phase = phase - first
+        elif first != 0.0:
+            phase -= first
         phase.flags.writeable = False
         self.phase = phase
         if self.lines is not None:
-            lines = np.asarray(self.lines, dtype=np.int64).copy()
+            lines = np.asarray(self.lines, dtype=np.int64)
+            if not (adopt and lines is self.lines):
+                lines = lines.copy()
             lines.flags.writeable = False
             self.lines = lines
 
@@ -235,7 +248,7 @@ class Measurement(Displayable):
 
         NaN marks a missing sample; the first finite sample is subtracted.
         ``meta`` sets the other attributes (nominal, start, provenance, notes,
-        lines).
+        lines); ``adopt=True`` hands ``x`` and ``lines`` over instead of copying them.
         """
         _check_meta(meta)
         arr = _as_float_array(x, "phase")
@@ -250,28 +263,38 @@ class Measurement(Displayable):
         Phase is the running sum ``x[k+1] = x[k] + tau0 * (y[k] - mean(y))``;
         the mean goes to ``frequency_offset``. A NaN in ``y`` starts a new
         segment: the terms spanning it are dropped, those on either side kept.
+        ``y`` is never changed; ``adopt=True`` hands ``lines`` over instead of copying it.
         """
         _check_meta(meta)
         arr = _as_float_array(y, "frequency")
         tau0 = _check_tau0(tau0)
+        if not meta.pop("adopt", False) and meta.get("lines") is not None:
+            meta["lines"] = np.array(meta["lines"], dtype=np.int64)  # the caller's stays theirs
         good = np.isfinite(arr)
         if not good.any():
             raise InputError("frequency holds no finite sample: every value is missing")
-        offset = float(np.mean(arr[good]))
-        steps = np.where(good, arr - offset, 0.0) * tau0
+        whole = bool(good.all())
+        offset = float(np.mean(arr if whole and arr.flags.c_contiguous else arr[good]))
+        # x[1:] = cumsum(where(good, y - offset, 0) * tau0), built in place
         x = np.empty(arr.size + 1)
         x[0] = 0.0
-        np.cumsum(steps, out=x[1:])
+        steps = np.subtract(arr, offset, out=x[1:])
+        if not whole:
+            steps[~good] = 0.0
+        steps *= tau0
+        np.cumsum(steps, out=steps)
         segments = None
-        if not good.all():
+        if not whole:
             segments = np.zeros(arr.size + 1, dtype=np.int64)
             np.cumsum(~good, out=segments[1:])
+        del good
         return cls(
             phase=x,
             tau0=tau0,
             segments=segments,
             frequency_offset=offset,
             kind="frequency",
+            adopt=True,  # x, segments and the lines (copied above unless handed over) are ours
             **meta,
         )
 
@@ -293,7 +316,9 @@ class Measurement(Displayable):
 
     def frequency(self) -> np.ndarray:
         """Fractional frequency y[k] = (x[k+1] - x[k]) / tau0 + offset, NaN across gaps."""
-        y = np.diff(self.phase) / self.tau0 + self.frequency_offset
+        y = np.diff(self.phase)
+        y /= self.tau0  # in place: one array of the record's length
+        y += self.frequency_offset
         if self.segments is not None:
             y[np.diff(self.segments) != 0] = np.nan
         return y
@@ -312,10 +337,19 @@ class Measurement(Displayable):
             count += int(self.segments[-1] - self.segments[0])
         return count
 
-    def replace(self, **changes: Any) -> Measurement:
-        """A copy with some attributes changed (notes are copied, not shared)."""
+    def replace(self, *, adopt: bool = False, **changes: Any) -> Measurement:
+        """A copy with some attributes changed (notes are copied, not shared).
+
+        The read-only arrays that are not changed (phase, segments, lines) are
+        shared with the copy, not copied. New arrays are copied, unless
+        ``adopt=True`` hands them over (the caller keeps no other reference).
+        """
         changes.setdefault("notes", list(self.notes))
-        return dataclasses.replace(self, **changes)
+        for name in ("phase", "segments", "lines"):
+            given = changes.get(name)
+            if isinstance(given, np.ndarray) and not adopt:
+                changes[name] = given.copy()  # the caller's array stays the caller's
+        return dataclasses.replace(self, adopt=True, **changes)
 
     def __repr__(self) -> str:
         src = self.provenance.path or "memory"

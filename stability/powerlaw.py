@@ -433,23 +433,28 @@ def offset_and_drift(
     # Sums over the sample index k (time t = k tau0) without building a time array
     # per sample beyond one index vector: offset = mean(y), slope from the centred
     # cross sum (ordinary least squares).
-    k = np.arange(y.size, dtype=np.float64)
     if count == y.size:
-        yy, kk = y, k
-    else:
-        yy, kk = y[ok], k[ok]
+        yy, kk = y, np.arange(y.size, dtype=np.float64)
+    else:  # the known samples and their indices (the same numbers as arange(n)[ok])
+        yy, kk = y[ok], np.flatnonzero(ok).astype(np.float64)
+    del ok
     offset = float(yy.mean())
     k_mean = float(kk.mean())
     skk = float(np.einsum("i,i->", kk, kk)) - count * k_mean * k_mean
     # sum k (y - mean) equals the centred cross sum and keeps its digits under a
     # large offset.
-    sky = float(np.einsum("i,i->", kk, yy - offset))
+    centred = yy - offset
+    sky = float(np.einsum("i,i->", kk, centred))
     sxx = skk * tau0 * tau0
     slope = sky / skk / tau0 if skk > 0 else math.nan
     span = float(kk[-1] - kk[0]) * tau0 + tau0
     if _usable(model):
         return _with_model(offset, slope, span, model, detrended)
-    resid = yy - offset - slope * tau0 * (kk - k_mean)
+    # resid = (y - offset) - slope tau0 (k - mean k), built in the arrays at hand
+    line = np.subtract(kk, k_mean, out=kk)  # kk is not needed again
+    line *= slope * tau0
+    resid = np.subtract(centred, line, out=centred)
+    del line
     s2 = float(np.einsum("i,i->", resid, resid)) / max(1, yy.size - 2)
     return OffsetDrift(
         offset=offset,

@@ -142,3 +142,22 @@ def test_replace_and_metadata():
     assert "n=4" in repr(meas) and "log.csv" in repr(meas)
     with pytest.raises(InputError, match="tau0"):
         meas.replace(tau0=-1.0)
+
+
+def test_the_constructors_copy_unless_the_arrays_are_handed_over():
+    """A measurement never shares the caller's arrays, unless told ``adopt=True``."""
+    x = np.array([5.0, 6.0, np.nan, 8.0])
+    lines = np.array([2, 3, 0, 5], dtype=np.int64)
+    m = Measurement.from_phase(x, 1.0, lines=lines)
+    assert x.flags.writeable and lines.flags.writeable  # the caller's arrays untouched
+    assert not np.shares_memory(m.phase, x) and not np.shares_memory(m.lines, lines)
+    y = np.array([1e-9, 2e-9, np.nan, 4e-9])
+    f = Measurement.from_frequency(y, 1.0, lines=lines)
+    assert not np.shares_memory(f.lines, lines) and y[0] == 1e-9
+    given = Measurement.from_phase(x, 1.0, lines=lines, adopt=True)
+    assert np.shares_memory(given.phase, x) and np.shares_memory(given.lines, lines)
+    assert not given.phase.flags.writeable
+    np.testing.assert_array_equal(given.phase, m.phase)  # shifted in place: same values
+    adopted = Measurement.from_frequency(y, 1.0, lines=lines.copy(), adopt=True)
+    np.testing.assert_array_equal(adopted.phase, f.phase)
+    np.testing.assert_array_equal(adopted.segments, f.segments)

@@ -44,7 +44,7 @@ from ..errors import InputError
 from ..measurement import Measurement
 from ..run import AnalysisRun
 from .labels import check_text, default_footer, default_title
-from .reduce import envelope, gap_runs
+from .reduce import envelope, gap_runs, joined_phase, without_line
 from .style import (
     DRIFT_COLOR,
     FREQUENCY_COLOR,
@@ -139,38 +139,6 @@ def _phase_scale(*arrays: np.ndarray) -> tuple[float, str]:
         if top >= factor:
             return factor, unit
     return 1e-15 if top > 0 else 1.0, "fs" if top > 0 else "s"
-
-
-def _joined_phase(
-    y: np.ndarray, tau0: float, missing: np.ndarray, centre: float | None = None
-) -> np.ndarray:
-    """Phase integrated from frequency less ``centre`` (default its mean), from zero.
-
-    A missing frequency sample adds nothing, so the record joins up across
-    segment breaks (phase steps and outliers cut out); phase samples that are
-    themselves missing stay missing.
-    """
-    good = np.isfinite(y)
-    if centre is None:
-        centre = float(np.mean(y[good])) if good.any() else 0.0
-    x = np.empty(y.size + 1)
-    x[0] = 0.0
-    np.cumsum(np.where(good, y - centre, 0.0) * tau0, out=x[1:])
-    x[missing] = np.nan
-    return x
-
-
-def _without_line(phase: np.ndarray) -> tuple[np.ndarray, float]:
-    """Phase minus its least-squares line, and the line's slope (the frequency offset part)."""
-    k = np.arange(phase.size, dtype=float)
-    good = np.isfinite(phase)
-    if int(np.count_nonzero(good)) < 2:
-        return phase - np.nanmean(phase), 0.0
-    kk, xx = k[good], phase[good]
-    dk = kk - kk.mean()
-    # einsum, not np.dot: 1-D dot goes to a threaded BLAS (see deviations._kernels.dot)
-    slope = float(np.einsum("i,i->", dk, xx - xx.mean()) / np.einsum("i,i->", dk, dk))
-    return phase - (xx.mean() + slope * (k - kk.mean())), slope
 
 
 # ---------------------------------------------------------------------- validation
@@ -349,9 +317,14 @@ def _given_panels(axes: Any, count: int, into: Any) -> tuple[Frame, list[Axes]]:
     return Frame(target, width, height, False), given
 
 
-def _missing_readings(measurement: Measurement, outliers: np.ndarray) -> tuple[np.ndarray, int]:
-    """Frequency samples to shade as gaps, and the readings missing in them."""
-    y_missing = ~np.isfinite(measurement.frequency())
+def _missing_readings(
+    measurement: Measurement, outliers: np.ndarray, frequency: np.ndarray
+) -> tuple[np.ndarray, int]:
+    """Frequency samples to shade as gaps, and the readings missing in them.
+
+    ``frequency`` is ``measurement.frequency()``.
+    """
+    y_missing = ~np.isfinite(frequency)
     if measurement.kind == "frequency":
         lost = y_missing.copy()
         lost[outliers] = False
@@ -431,19 +404,22 @@ def series_figure(
         measurement, drift_curve, outlier_indices, steps, texts, max_columns
     )
     tau0 = measurement.tau0
-    y = measurement.frequency()
+    frequency_analysed = measurement.frequency()  # computed once, read by the steps below
+    frequency_analysed.flags.writeable = False
+    y = frequency_analysed
     if drift is not None and drift_removed:
         good = np.isfinite(y) & np.isfinite(drift)
         y = y + (drift - (float(np.mean(drift[good])) if good.any() else 0.0))
+        del good
     phase_missing = np.isnan(measurement.phase)
-    residual, _ = _without_line(_joined_phase(measurement.frequency(), tau0, phase_missing))
+    residual, _ = without_line(joined_phase(frequency_analysed, tau0, phase_missing))
     timed = measurement.kind == "phase"
     tie, offset = None, None
     if timed and frequency_offset is not None and np.isfinite(frequency_offset):
         offset = float(frequency_offset)
-        tie = _joined_phase(y, tau0, phase_missing, offset)
+        tie = joined_phase(y, tau0, phase_missing, offset)
     elif timed:
-        tie, slope = _without_line(_joined_phase(y, tau0, phase_missing))
+        tie, slope = without_line(joined_phase(y, tau0, phase_missing))
         offset = float(np.nanmean(y) + slope / tau0)
     shown = [a for a in (tie, residual if (not timed or drift_removed) else None) if a is not None]
     p_factor, p_unit = _phase_scale(*shown)
@@ -488,7 +464,7 @@ def series_figure(
             label = "phase residual" + (" after the drift model" if drift_removed else "")
             ax.set_ylabel(f"phase residual ({p_unit})", fontsize=LABEL_SIZE)
         ax.plot(*curves[name], color=PHASE_COLOR, linewidth=0.6, label=label)
-    lost, missing = _missing_readings(measurement, outliers)
+    lost, missing = _missing_readings(measurement, outliers, frequency_analysed)
     runs = gap_runs(lost, max_columns)
     gaps = np.column_stack([axis(runs[:, 0]), axis(runs[:, 1])])
     if len(gaps):
@@ -560,7 +536,7 @@ def run_series_figure(run: AnalysisRun, **options: Any) -> SeriesDrawn:
     removed = prep.removed_drift
     fit = removed if removed is not None else prep.linear_drift
     drift = None
-    if fit is not None and fit.y_model.shape == (run.measurement.n - 1,):
+    if fit is not None and fit.samples == run.measurement.n - 1:
         drift = fit.y_model
     label = f"drift removed ({removed.model} model)" if removed is not None else None
     stated = run.table.extras.get("offset_drift")

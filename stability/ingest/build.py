@@ -94,14 +94,15 @@ class GridPlacement:
     size
         Length of the grid.
     position
-        Grid index of each data row.
+        Grid index of each data row, or None when row i lands in slot i for every
+        row (nothing inserted or dropped).
     start
         Time of the first sample (a pandas Timestamp), or None without date-time stamps.
     """
 
     tau0: float
     size: int
-    position: np.ndarray
+    position: np.ndarray | None
     start: Any = None
 
 
@@ -133,11 +134,12 @@ def place_on_grid(
             else "as given (the log has no time stamps)"
         )
         rep.tau0 = hints.tau0
-        return rows, GridPlacement(hints.tau0, rows.values.size, np.arange(rows.values.size))
+        return rows, GridPlacement(hints.tau0, rows.values.size, None)
     rep.time_column = " + ".join(plan.display[c] for c in plan.time_cols)
     rep.time_format = plan.time_fmt.description
     check_stamps(rows.ticks, plan.time_fmt, rows.lines, path, rep.time_column, hints.allow_unusual)
     seconds, start = ts.to_seconds(rows.ticks, plan.time_fmt, 0)
+    rows.ticks = None  # not needed once they are seconds: freed before the grid is built
     if plan.time_fmt.style == "datetime" and not plan.time_fmt.aware:
         _refuse_daylight_saving(seconds, start, rows.lines, hints, path, rep.time_column)
     tolerance = DEFAULT_STAMP_TOLERANCE if hints.stamp_tolerance is None else hints.stamp_tolerance
@@ -202,7 +204,7 @@ def _no_tau0(
 
 def _report_spacing(grid: Grid, tau0: float | None, rep: LogReport) -> None:
     rep.median_spacing = grid.median_spacing
-    stamps = f"{grid.position.size} stamps"
+    stamps = f"{grid.placed} stamps"
     if tau0 is None:
         if abs(grid.tau0 - grid.median_spacing) <= 1e-9 * grid.tau0:
             rep.tau0_source = f"from column {rep.time_column!r} (median spacing of {stamps})"
@@ -268,7 +270,7 @@ def _report_gaps(grid: Grid, kept_lines: np.ndarray, rep: LogReport) -> None:
         {"after_line": int(kept_lines[i]) if i >= 0 else None, "missing": m}
         for i, m in ((_pos_in_kept(grid.keep, i), m) for i, m in grid.gaps)
     ]
-    rep.gap_samples = int(grid.size - grid.position.size)
+    rep.gap_samples = int(grid.size - grid.placed)
     if rep.gap_samples:
         rep.note(f"{rep.gap_samples} missing sample(s) in the time stamps inserted as gaps.")
 
@@ -337,12 +339,15 @@ def canonical_series(
     """
     nominal = hints.nominal
     if vk.kind == "frequency":
-        nominal = _frequency_nominal(rows.values * vk.scale, nominal, path, column, rep, more_hint)
+        hz = rows.values if vk.scale == 1.0 else rows.values * vk.scale
+        nominal = _frequency_nominal(hz, nominal, path, column, rep, more_hint)
+        del hz
+        series = readings * vk.scale  # then in place: one array of the log's length
         if rows.delta is not None and rows.ref_text is not None:
-            off = vals.decimal_offset(rows.ref_text, vk.scale, nominal)
-            series = (off + readings * vk.scale) / nominal
+            series += vals.decimal_offset(rows.ref_text, vk.scale, nominal)
         else:
-            series = (readings * vk.scale - nominal) / nominal
+            series -= nominal
+        series /= nominal
     elif vk.kind == "fractional":
         _check_fractional(rows, vk, path, column, more_hint, given=hints.kind == "fractional")
         series = readings * vk.scale
@@ -426,26 +431,47 @@ def _frequency_nominal(
     hz: np.ndarray, given: float | None, path: str, column: str, rep: LogReport, more_hint: str
 ) -> float:
     """The nominal frequency of absolute frequency readings: checked if given, else inferred."""
-    finite = hz[np.isfinite(hz)]
     if given is not None:
-        _check_given_nominal(finite, given, path, column)
+        _check_given_nominal(hz[np.isfinite(hz)], given, path, column)
         rep.nominal_source = "given"
         return given
-    guess = vals.infer_nominal(float(np.median(finite)))
-    if guess is None or np.any(np.abs(finite - guess) > vals.NOMINAL_TOLERANCE * guess):
-        raise InputError(
-            f"absolute frequency readings near {format_frequency(float(np.median(finite)))}"
-            " match no standard nominal frequency",
-            path=path,
-            column=column,
-            hint="pass --nominal, e.g. --nominal 10MHz" + more_hint,
-        )
+    guess = _nominal_near(hz)
+    if guess is None:
+        finite = hz[np.isfinite(hz)]
+        guess = vals.infer_nominal(float(np.median(finite)))
+        if guess is None or np.any(np.abs(finite - guess) > vals.NOMINAL_TOLERANCE * guess):
+            raise InputError(
+                f"absolute frequency readings near {format_frequency(float(np.median(finite)))}"
+                " match no standard nominal frequency",
+                path=path,
+                column=column,
+                hint="pass --nominal, e.g. --nominal 10MHz" + more_hint,
+            )
     rep.nominal_source = "inferred: nearest standard value to the readings"
     rep.note(
         f"Nominal frequency {format_frequency(guess)} inferred from the readings"
         " (pass --nominal to set it)."
     )
     return guess
+
+
+def _nominal_near(hz: np.ndarray) -> float | None:
+    """The standard nominal of the median reading, found without sorting; None if unsure.
+
+    When every finite reading lies within :data:`~stability.ingest.values.NOMINAL_TOLERANCE`
+    of the nominal nearest one of them, the median lies there too, and the
+    standard nominals lie much further apart than twice the tolerance: that
+    nominal is the one nearest the median.
+    """
+    first = np.flatnonzero(np.isfinite(hz[:1000]))
+    if not first.size:
+        return None
+    guess = vals.infer_nominal(float(hz[first[0]]))
+    if guess is None:
+        return None
+    with np.errstate(invalid="ignore"):
+        far = np.abs(hz - guess) > vals.NOMINAL_TOLERANCE * guess  # NaN is never far
+    return None if far.any() else guess
 
 
 def _check_given_nominal(readings: np.ndarray, nominal: float, path: Any, column: Any) -> None:
@@ -512,14 +538,18 @@ def make_measurement(
         Fewer than two samples on the grid.
     """
     n_grid = placement.size
-    grid_vals = np.full(n_grid, np.nan)
-    grid_vals[placement.position] = series
-    grid_lines = np.zeros(n_grid, dtype=np.int64)
-    grid_lines[placement.position] = lines
+    if placement.position is None:  # every row in its own slot: the arrays are the grid's
+        grid_vals, grid_lines = series, np.asarray(lines, dtype=np.int64)
+    else:
+        grid_vals = np.full(n_grid, np.nan)
+        grid_vals[placement.position] = series
+        grid_lines = np.zeros(n_grid, dtype=np.int64)
+        grid_lines[placement.position] = lines
     meta = dict(
         nominal=nominal,
         start=placement.start,
         lines=grid_lines,
+        adopt=True,  # the arrays were made for this measurement: handed over, not copied
         provenance=Provenance(
             path=rep.path,
             sha256=rep.sha256,

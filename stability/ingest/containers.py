@@ -47,6 +47,7 @@ __all__ = [
     "decompress",
     "read_plain",
     "valid_utf8",
+    "valid_utf8_file",
     "check_room",
     "too_large",
 ]
@@ -272,6 +273,26 @@ def valid_utf8(data: bytes) -> bool:
         decoder.decode(b"", final=True)
     except UnicodeDecodeError:
         return False
+    return True
+
+
+def valid_utf8_file(p: Path) -> bool:
+    """Whether the file is UTF-8, read and checked in pieces (its text is never held whole)."""
+    decoder = codecs.getincrementaldecoder("utf-8")()
+    buffer = bytearray(4 * CHUNK)  # one buffer, filled again and again
+    view = memoryview(buffer)
+    try:
+        with open(p, "rb", buffering=0) as fh:
+            while size := fh.readinto(buffer):  # loop over pieces of four megabytes
+                piece = view[:size]
+                ascii = buffer.isascii() if size == len(buffer) else bytes(piece).isascii()
+                if not ascii or decoder.getstate()[0]:  # ASCII alone is UTF-8
+                    decoder.decode(piece)
+        decoder.decode(b"", final=True)
+    except UnicodeDecodeError:
+        return False
+    except OSError as exc:
+        raise InputError(f"cannot read the file: {exc.strerror or exc}", path=str(p)) from None
     return True
 
 

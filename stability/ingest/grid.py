@@ -44,7 +44,8 @@ class Grid:
     keep
         Boolean mask over the input rows (False for dropped duplicates).
     position
-        Grid index of each kept row.
+        Grid index of each kept row, or None when every row has a slot of its own,
+        in order (row i in slot i: nothing inserted or dropped).
     size
         Length of the grid.
     tau0
@@ -65,7 +66,7 @@ class Grid:
     """
 
     keep: np.ndarray
-    position: np.ndarray
+    position: np.ndarray | None
     size: int
     tau0: float
     median_spacing: float
@@ -74,6 +75,11 @@ class Grid:
     off_grid: tuple[np.ndarray, np.ndarray]
     jitter: tuple[np.ndarray, np.ndarray] = (np.zeros(0, np.int64), np.zeros(0))
     ambiguous: int = 0
+
+    @property
+    def placed(self) -> int:
+        """How many rows are placed on the grid."""
+        return self.size if self.position is None else int(self.position.size)
 
 
 #: A grid may hold at most this many missing samples per sample read (beyond a
@@ -210,7 +216,8 @@ def build_grid(
             column=column,
             hint="sort the log by time or remove the out-of-order rows",
         )
-    positive = dt if dt.size and dt.min() > 0 else dt[dt > 0]
+    low, high = (float(dt.min()), float(dt.max())) if dt.size else (0.0, 0.0)
+    positive = dt if low > 0 else dt[dt > 0]
     if positive.size == 0:
         raise InputError(
             "all time stamps are equal: the sample interval cannot be found",
@@ -218,19 +225,22 @@ def build_grid(
             column=column,
             hint="pass --tau0",
         )
-    median = float(np.median(positive))
+    median = _median(positive)
     if tau0 is None and not allow_unusual and not usual_interval(median):
         raise _unusual_spacing(median, positive, dt, lines, path, column)
     step = tau0 if tau0 is not None else stamp_interval(median, dt)
     tol = tolerance * step
     n = seconds.size
-    offset = dt - step
-    if bool((np.abs(offset) < 0.5 * step).all()):
+    # |dt - step| < step / 2 for every step when it holds for the extremes (the
+    # rounded difference never reverses the order of two steps)
+    if abs(low - step) < 0.5 * step and abs(high - step) < 0.5 * step:
         # The common case, every step rounds to one slot: nothing to insert or drop.
+        offset = np.subtract(dt, step, out=dt)  # dt is not needed again
+        del dt, positive
         jitter, off = _displaced(offset, step, tol)
         return Grid(
             keep=np.ones(n, dtype=bool),
-            position=np.arange(n, dtype=np.int64),
+            position=None,
             size=n,
             tau0=float(step),
             median_spacing=median,
@@ -343,12 +353,35 @@ def _unusual_spacing(
     )
 
 
+def _median(values: np.ndarray) -> float:
+    """``np.median(values)`` of finite values, without sorting a copy when it can.
+
+    Stamps a fixed interval apart give steps of a few distinct values (the
+    rounding of the seconds). The median of a sample of the steps is taken as a
+    candidate and confirmed by counting: when both middle ranks of the sorted
+    steps hold exactly that value, it is the median (the mean of two equal
+    middle values is that value). Otherwise the full median is computed.
+    """
+    n = values.size
+    if n > 1 << 16:
+        guess = np.median(values[:: n // (1 << 14)])
+        below = int(np.count_nonzero(values < guess))
+        equal = int(np.count_nonzero(values == guess))
+        middle = ((n - 1) // 2, n // 2)  # the middle rank(s), 0-based
+        if all(below <= r < below + equal for r in middle):
+            return float(guess)
+    return float(np.median(values))
+
+
 def _displaced(offset: np.ndarray, step: float, tol: float) -> tuple[np.ndarray, np.ndarray]:
     """Steps whose stamp is off its slot: (within the tolerance, beyond it).
 
     A displaced stamp shows twice (off on the way in, back on the way out); it
     is counted once, at the row that is off.
     """
+    if not offset.size or max(-float(offset.min()), float(offset.max())) <= _JITTER_FLOOR * step:
+        empty = np.zeros(0, dtype=np.int64)
+        return empty, empty  # nothing flagged: no array of the log's length
     size = np.abs(offset)
     flagged = size > _JITTER_FLOOR * step
     if not flagged.any():

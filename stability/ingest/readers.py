@@ -295,12 +295,17 @@ def measurement_from_rows(
     series, nominal = canonical_series(
         rows, readings, vk, hints, src.path, vname, rep, other_columns_hint(plan)
     )
-    finish_report(rep, plan, vk, placement.size, sha256())
-    m = make_measurement(series, rows.lines, placement, vk, nominal, total_rows, rep)
+    origin = 0.0
     if rows.delta is not None and rows.ref_text is not None and vk.kind in ("phase", "carrier"):
         # readings were taken relative to the first one: keep it as the time-error origin
         first = float(rows.ref_text) * vk.scale
-        m = m.replace(origin=m.origin + (first / nominal if vk.kind == "carrier" else first))
+        origin = first / nominal if vk.kind == "carrier" else first
+    lines = rows.lines
+    del rows, readings  # the readings live on as the series: freed before the measurement
+    finish_report(rep, plan, vk, placement.size, sha256())
+    m = make_measurement(series, lines, placement, vk, nominal, total_rows, rep)
+    if origin:
+        m = m.replace(origin=m.origin + origin)
     return m, rep
 
 

@@ -36,6 +36,7 @@ from .containers import (
     read_plain,
     too_large,
     valid_utf8,
+    valid_utf8_file,
 )
 from .limits import expansion_limit
 from .spreadsheet import refuse_workbook, sheet_text, workbook_kind
@@ -146,13 +147,17 @@ def _encoding(head: bytes) -> str:
     return "latin-1"
 
 
+#: Control characters that do not occur in text: below 32, except tab, LF, form feed, CR.
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0e-\x1f]")
+
+
 def _check_text(text: str, path: str) -> None:
     if not text.strip():
         raise InputError(
             "the file is empty", path=path, hint="give a log with a header or data rows"
         )
     sample = text[:65536]
-    control = sum(1 for ch in sample if ord(ch) < 32 and ch not in "\t\r\n\x0c")
+    control = len(_CONTROL.findall(sample))
     if "\x00" in sample or control > 0.05 * len(sample):
         raise InputError(
             "not a text log: the file holds binary data",
@@ -220,11 +225,8 @@ def open_source(
     encoding = _encoding(head)
     if encoding == "utf-8" and container == "plain":
         # confirm on the whole file only when it is small; large files are checked by pandas
-        if size <= 64 * 1024 * 1024:
-            raw = read_plain(p)
-            kept = raw
-            if not valid_utf8(raw):
-                encoding = "latin-1"
+        if size <= 64 * 1024 * 1024 and not valid_utf8_file(p):
+            encoding = "latin-1"
     sample_text = head.decode(encoding, errors="replace")
     _check_text(sample_text, str(p))
     endings = _line_endings(sample_text)

@@ -233,13 +233,19 @@ def parse_times(column: pd.Series, fmt: TimeFormat) -> tuple[np.ndarray, np.ndar
     return vals, np.isfinite(vals)
 
 
+#: Rows converted at a time where a whole-length temporary would otherwise be made.
+_BLOCK = 1 << 18
+
+
 def to_seconds(
     ticks: np.ndarray, fmt: TimeFormat, first: int
 ) -> tuple[np.ndarray, datetime | None]:
     """Seconds since the first good stamp (``ticks[first]``) and that stamp as a datetime."""
     t0 = ticks[first]
     if fmt.style == "datetime":
-        rel = (ticks - t0).astype(np.float64)
+        rel = np.empty(ticks.size, dtype=np.float64)
+        for lo in range(0, ticks.size, _BLOCK):  # blocks: no int64 array of the log's length
+            rel[lo : lo + _BLOCK] = ticks[lo : lo + _BLOCK] - t0
         rel *= 1e-9  # in place: one array of the log's length fewer
         start = pd.Timestamp(int(t0), unit="ns").to_pydatetime(warn=False)
         if fmt.aware:

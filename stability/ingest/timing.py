@@ -120,6 +120,23 @@ def _rough_seconds(ticks: np.ndarray, fmt: TimeFormat) -> np.ndarray:
         return (ticks.astype(np.float64) - offset) * fmt.scale
 
 
+def _extremes_within(ticks: np.ndarray, fmt: TimeFormat) -> bool:
+    """Whether the earliest and latest stamps already show every stamp passes.
+
+    The conversion to rough seconds never reverses the order of two stamps, so
+    the extremes of the seconds are the seconds of the extreme stamps: when
+    those lie in the readable years and within a century of each other, so do
+    all. No array of the log's length is made.
+    """
+    if fmt.style != "datetime" and not fmt.scale > 0:
+        return False
+    ends = _rough_seconds(np.array([ticks.min(), ticks.max()], dtype=ticks.dtype), fmt)
+    first, last = float(ends[0]), float(ends[1])
+    if not (math.isfinite(first) and math.isfinite(last)) or last - first > SPAN_MAX:
+        return False
+    return fmt.style not in ("epoch", "mjd") or (_FIRST_S <= first and last <= _LAST_S)
+
+
 def check_stamps(
     ticks: np.ndarray,
     fmt: TimeFormat,
@@ -136,6 +153,8 @@ def check_stamps(
     parse); the span is checked by :func:`check_span`.
     """
     if ticks.size == 0:
+        return
+    if _extremes_within(ticks, fmt):
         return
     seconds = _rough_seconds(ticks, fmt)
     if fmt.style in ("epoch", "mjd"):

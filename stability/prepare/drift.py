@@ -98,6 +98,8 @@ def _least_squares_polynomial(
     ``(D^T D)^-1 = C G^-1 C^T``, the same solution and covariance factor as a
     least-squares solve on ``D``.
 
+    ``target`` is overwritten (it becomes the residuals).
+
     Returns
     -------
     (beta, (D^T D)^-1, SSE)
@@ -142,7 +144,7 @@ def _least_squares_polynomial(
     rhs = np.array([inner(p, target) for p in basis])
     gram_inverse = np.linalg.inv(gram)
     gamma = gram_inverse @ rhs
-    resid = target - gamma[0]
+    resid = np.subtract(target, gamma[0], out=target)
     for k in range(1, size):
         term = basis[k]
         assert term is not None
@@ -176,15 +178,18 @@ def _fit_polynomial(m: Measurement, model: str, y: np.ndarray | None = None) -> 
         coef, errors = nan_fit
         return _finish(m, model, "least squares on frequency", coef, errors, *([math.nan] * 2), y)
     # Scaled time u in [0, 1] and scaled values keep the normal equations well conditioned.
+    # (Built in place where the array is a temporary of this function: the same numbers.)
     gapless = n_used == y.size
-    u = np.divide(t if gapless else t[good], span)
+    u = np.divide(t, span, out=t) if gapless else np.divide(t[good], span)
+    del t
     values = y if gapless else y[good]
     centre = float(np.mean(values))
     scale = float(np.std(values)) or 1.0
-    target = np.subtract(values, centre)
+    target = np.subtract(values, centre, out=None if gapless else values)
+    del values
     target /= scale
     beta, gram_inverse, sse = _least_squares_polynomial(u, target, degree)
-    del u, values, target
+    del u, target
     dof = n_used - (degree + 1)
     if dof > 0:
         cov_u = sse / dof * gram_inverse
@@ -290,6 +295,6 @@ def _remove_fit(m: Measurement, fit: DriftFit) -> tuple[Measurement, DriftFit]:
     integral = _drift_integral(model, fit.coefficients, days)
     # Remove the drift minus its record mean: zero at both ends of the record.
     correction = (integral - integral[-1] * days / days[-1]) * SECONDS_PER_DAY
-    new = m.replace(phase=m.phase - correction)
+    new = m.replace(phase=np.subtract(m.phase, correction, out=correction), adopt=True)
     new.notes.append(f"Removed {fit.description}; the mean frequency offset was kept.")
     return new, fit

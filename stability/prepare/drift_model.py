@@ -10,7 +10,7 @@ cross-check estimators). NIST SP 1065 (2008), data preprocessing: frequency drif
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, Literal
 
 import numpy as np
@@ -88,10 +88,13 @@ class DriftFit:
         RMS of the frequency residuals from the model.
     span_days
         Record length in days.
+    samples, tau0
+        Frequency samples of the record and their interval, seconds.
     t
-        Mid-time of each frequency sample, seconds from the first phase sample.
+        Mid-time of each frequency sample, seconds from the first phase sample
+        (made on each access: a fit holds no array of the record's length).
     y_model
-        Model fractional frequency at ``t``.
+        Model fractional frequency at ``t`` (made on each access).
     """
 
     model: str
@@ -103,8 +106,18 @@ class DriftFit:
     n_used: int
     residual_rms: float
     span_days: float
-    t: np.ndarray = field(repr=False)
-    y_model: np.ndarray = field(repr=False)
+    samples: int
+    tau0: float
+
+    @property
+    def t(self) -> np.ndarray:
+        return _mid_times(self.samples, self.tau0)
+
+    @property
+    def y_model(self) -> np.ndarray:
+        t = self.t
+        t /= SECONDS_PER_DAY
+        return _evaluate(self.model, self.coefficients, t)
 
     def frequency_at(self, t: Any) -> np.ndarray:
         """Model fractional frequency at times ``t`` (seconds from the first sample)."""
@@ -206,12 +219,17 @@ def _drift_integral(model: str, coef: dict[str, float], days: np.ndarray) -> np.
     return out
 
 
+def _mid_times(samples: int, tau0: float) -> np.ndarray:
+    """Mid-times of ``samples`` frequency samples ``tau0`` apart (s)."""
+    t = np.arange(samples, dtype=float)
+    t += 0.5
+    t *= tau0
+    return t
+
+
 def _times(measurement: Measurement) -> tuple[np.ndarray, float]:
     """Mid-times of the frequency samples (s) and the record length (s)."""
-    t = np.arange(measurement.n - 1, dtype=float)
-    t += 0.5
-    t *= measurement.tau0
-    return t, measurement.span
+    return _mid_times(measurement.n - 1, measurement.tau0), measurement.span
 
 
 def _validate_fit_args(measurement: Any, model: Any, function: str) -> tuple[Measurement, str]:
@@ -230,7 +248,9 @@ def _finish(
     y: np.ndarray,
 ) -> DriftFit:
     t, span = _times(m)
-    y_model = _evaluate(model, coef, t / SECONDS_PER_DAY)
+    t /= SECONDS_PER_DAY  # in place: the same numbers as t / SECONDS_PER_DAY
+    y_model = _evaluate(model, coef, t)
+    del t
     good = np.isfinite(y)
     n_used = int(np.count_nonzero(good))
     resid = y + m.frequency_offset
@@ -248,6 +268,6 @@ def _finish(
         n_used=n_used,
         residual_rms=rms,
         span_days=span / SECONDS_PER_DAY,
-        t=t,
-        y_model=y_model,
+        samples=m.n - 1,
+        tau0=m.tau0,
     )

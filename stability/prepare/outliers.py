@@ -271,9 +271,10 @@ def _remove_frequency(
         Outlier(int(i), line_of(m, int(i)), float(full[i]), float(full[i]), float(zi), "removed")
         for i, zi in zip(idx.tolist(), z.tolist(), strict=True)
     ]
-    cleaned = full.copy()
+    cleaned = full  # a temporary of its own: marked in place
     cleaned[idx] = np.nan
-    new = Measurement.from_frequency(cleaned, m.tau0, lines=m.lines, **carry_meta(m))
+    # the lines are m's read-only array: shared, not copied
+    new = Measurement.from_frequency(cleaned, m.tau0, lines=m.lines, adopt=True, **carry_meta(m))
     return new, samples
 
 
@@ -331,4 +332,4 @@ def _remove_phase(
     phase[inner] = np.nan
     segments = np.zeros(n, dtype=np.int64) if m.segments is None else m.segments.copy()
     segments += np.cumsum(np.bincount(ends[split], minlength=n)[:n])
-    return m.replace(phase=phase, segments=segments), samples
+    return m.replace(phase=phase, segments=segments, adopt=True), samples  # ours: handed over

@@ -239,15 +239,23 @@ def require_variation(measurement: Measurement) -> None:
         When every fractional-frequency step is the same to rounding.
     """
     m = check_measurement(measurement, "require_variation")
-    known = np.flatnonzero(np.isfinite(m.phase))
-    # the mean step between consecutive known samples, also across missing ones
-    # (a log read with every other slot empty has no step between neighbours)
-    step = np.diff(m.phase[known]) / np.diff(known)
-    if m.segments is not None:
-        step = step[np.diff(m.segments[known]) == 0]  # the zero steps across frequency gaps
+    finite = np.isfinite(m.phase)
+    if finite.all() and m.segments is None:
+        # no sample missing: the steps between neighbours (as below, without the copies)
+        step = np.diff(m.phase)
+        scale = max(-float(m.phase.min()), float(m.phase.max()), 0.0)
+    else:
+        known = np.flatnonzero(finite)
+        # the mean step between consecutive known samples, also across missing ones
+        # (a log read with every other slot empty has no step between neighbours)
+        step = np.diff(m.phase[known]) / np.diff(known)
+        if m.segments is not None:
+            step = step[np.diff(m.segments[known]) == 0]  # the zero steps across frequency gaps
+        scale = float(np.max(np.abs(m.phase[finite]), initial=0.0))
+        del known
+    del finite
     if step.size < 2:
         return
-    scale = float(np.max(np.abs(m.phase[np.isfinite(m.phase)]), initial=0.0))
     if float(np.ptp(step)) > 64.0 * np.finfo(np.float64).eps * scale:
         return
     value = float(np.median(step)) / m.tau0 + m.frequency_offset

@@ -11,11 +11,14 @@ times, each in a fresh child process so that its peak resident memory
 * ``pyarrow.csv.read_csv`` when pyarrow is installed (multi-threaded);
 * ``stability.read_log`` with ``engine="auto"``, and with ``engine="pandas"``.
 
-Prints each time and peak memory side by side, and read_log's ratios to the
-fast pandas idiom (the goal: at most 1.0 in time and memory). Run by hand::
+The readers run in rounds, one after another in each round, so that a busy
+moment of a shared machine falls on all of them alike; each figure is the
+median over the rounds, and read_log's ratios to the fast pandas idiom are
+the medians of the ratios within each round (the goal: at most 1.0 in time
+and memory). Run by hand::
 
-    python tests/benchmarks/bench_ingest.py 1.0     # 10**7 rows
-    python tests/benchmarks/bench_ingest.py 0.1     # 10**6 rows
+    python tests/benchmarks/bench_ingest.py 1.0 5   # 10**7 rows, 5 rounds
+    python tests/benchmarks/bench_ingest.py 0.1 5   # 10**6 rows
 """
 
 from __future__ import annotations
@@ -106,37 +109,50 @@ def _has_pyarrow() -> bool:
     return importlib.util.find_spec("pyarrow") is not None
 
 
-def main(scale: float = 1.0) -> dict:
-    """Generate ``10**7 * scale`` rows, time every reader, print and return the figures."""
+def main(scale: float = 1.0, repeats: int = 3) -> dict:
+    """Generate ``10**7 * scale`` rows, time every reader in ``repeats`` rounds, print medians."""
     rows = max(10, int(round(1e7 * scale)))
     runs = [r for r in _RUNS if r[0] != "pyarrow" or _has_pyarrow()]
+    rounds: list[dict] = []
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "counter.csv"
         write_log(path, rows)
         size_mb = path.stat().st_size / 1e6
-        got = {which: _run(which, path) for which, _ in runs}
-    for which in ("read_log:auto", "read_log:pandas"):
-        if got[which]["n"] != rows + 1:  # frequency samples give one more phase sample
-            raise RuntimeError(f"{which} returned {got[which]['n']} samples, expected {rows}")
-    ref = got["parse_dates"]
-    print(f"ingest: {rows} rows ({size_mb:.0f} MB)")
+        for _ in range(max(1, repeats)):  # loop over rounds: each reader once per round
+            rounds.append({which: _run(which, path) for which, _ in runs})
+    for got in rounds:
+        for which in ("read_log:auto", "read_log:pandas"):
+            if got[which]["n"] != rows + 1:  # frequency samples give one more phase sample
+                raise RuntimeError(f"{which} returned {got[which]['n']} samples, expected {rows}")
+
+    def median(which: str, key: str) -> float:
+        return float(np.median([got[which][key] for got in rounds]))
+
+    def ratio(which: str, key: str) -> float:
+        return float(np.median([got[which][key] / got["parse_dates"][key] for got in rounds]))
+
+    print(f"ingest: {rows} rows ({size_mb:.0f} MB), medians of {len(rounds)} round(s)")
     print(f"  {'reader':34s} {'seconds':>8s} {'peak MB':>8s} {'time x':>7s} {'memory x':>8s}")
     for which, label in runs:
-        r = got[which]
         print(
-            f"  {label:34s} {r['seconds']:8.2f} {r['peak_mb']:8.0f} "
-            f"{r['seconds'] / ref['seconds']:7.2f} {r['peak_mb'] / ref['peak_mb']:8.2f}"
+            f"  {label:34s} {median(which, 'seconds'):8.2f} {median(which, 'peak_mb'):8.0f} "
+            f"{ratio(which, 'seconds'):7.2f} {ratio(which, 'peak_mb'):8.2f}"
         )
-    print("  (ratios to pandas read_csv(parse_dates); goal for read_log: at most 1.0)")
+    print("  (ratios to pandas read_csv(parse_dates) within each round, their median;")
+    print("   goal for read_log: at most 1.0)")
     return {
         "rows": rows,
         "file_mb": size_mb,
-        **{f"{which}_seconds": got[which]["seconds"] for which, _ in runs},
-        **{f"{which}_peak_mb": got[which]["peak_mb"] for which, _ in runs},
-        "time_ratio": got["read_log:auto"]["seconds"] / ref["seconds"],
-        "memory_ratio": got["read_log:auto"]["peak_mb"] / ref["peak_mb"],
+        "rounds": len(rounds),
+        **{f"{which}_seconds": median(which, "seconds") for which, _ in runs},
+        **{f"{which}_peak_mb": median(which, "peak_mb") for which, _ in runs},
+        "time_ratio": ratio("read_log:auto", "seconds"),
+        "memory_ratio": ratio("read_log:auto", "peak_mb"),
     }
 
 
 if __name__ == "__main__":
-    main(float(sys.argv[1]) if len(sys.argv) > 1 else 1.0)
+    main(
+        float(sys.argv[1]) if len(sys.argv) > 1 else 1.0,
+        int(sys.argv[2]) if len(sys.argv) > 2 else 3,
+    )
