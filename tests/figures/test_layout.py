@@ -459,3 +459,20 @@ def test_time_error_figures_fit():
     check_layout(mask_figure(plain).figure, "MTIE and TDEV without a mask")
     for k, page in enumerate(timing_pages(result), start=1):
         check_layout(page, f"record page {k} of the time error against a mask")
+
+
+def test_record_pages_of_a_mask_alone_fit():
+    # invented 1 PPS log judged against a time-error mask alone (record --mask, no --spec)
+    rng = np.random.default_rng(12)
+    k = np.arange(20000)
+    x = 30e-9 + 5e-9 * np.sin(2 * np.pi * k / 3600) + 2e-9 * rng.standard_normal(k.size)
+    x[[700, 9000]] = np.nan
+    run = run_analysis(Measurement.from_phase(x, 1.0, start=START), stats="oadev,tdev")
+    timing = analyze_time_error(run.source, mask="g8272-prtc-a", remove_offset=True)
+    info = Info(device={"id": "RX-7", "description": "invented timing receiver"})
+    record = build_record(run, None, info, timing)
+    pages = record_pages(run, None, record, timing=timing)
+    assert len(pages) == 6  # page 1, the mask, the TIE, stability, results, data over time
+    for k, page in enumerate(pages, start=1):
+        check_layout(page, f"record page {k} of a mask alone")
+
