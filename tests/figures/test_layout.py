@@ -476,3 +476,20 @@ def test_record_pages_of_a_mask_alone_fit():
     for k, page in enumerate(pages, start=1):
         check_layout(page, f"record page {k} of a mask alone")
 
+
+def test_time_error_figures_fit_on_given_axes_and_regions():
+    rng = np.random.default_rng(13)  # invented white phase noise, 2 ns
+    result = analyze_time_error(
+        Measurement.from_phase(2e-9 * rng.standard_normal(5000), 1.0), mask="g8272-prtc-a"
+    )
+    fig = Figure(figsize=(10, 4), dpi=100)
+    result.plot(ax=list(fig.subplots(1, 2, gridspec_kw={"wspace": 0.35})))
+    check_layout(fig, "MTIE and TDEV on given axes")
+    fig = Figure(figsize=(8, 4), dpi=100)
+    result.plot_tie(ax=fig.subplots())
+    check_layout(fig, "TIE on a given axis")
+    page = Figure(figsize=(9, 9), dpi=100)
+    top, bottom = page.subfigures(2, 1)
+    result.plot(figure=top)
+    result.plot(view="tie", figure=bottom)
+    check_layout(page, "MTIE, TDEV and TIE in regions of a page")
