@@ -239,3 +239,22 @@ def repr_text(result) -> str:
     printer = Printer()
     result._repr_pretty_(printer, False)
     return printer.out
+
+
+def test_the_mask_enters_the_settings_by_its_limits_not_its_place(made, tmp_path):
+    from stability.reports.record_timing import time_error_settings
+
+    text = (
+        'name = "house"\n[[curve]]\nstatistic = "tdev"\nunit = "ns"\n'
+        "segment = [ { from = 1, to = 1000, limit = 20 } ]\n"
+    )
+    here, there, tighter = tmp_path / "a.toml", tmp_path / "b.toml", tmp_path / "c.toml"
+    here.write_text(text)
+    there.write_text(text)
+    tighter.write_text(text.replace("limit = 20", "limit = 10"))
+    meas = made["outcome"].run.source
+    hashes = [
+        time_error_settings(analyze_time_error(meas, mask=str(p)))["mask_limits_hash"]
+        for p in (here, there, tighter)
+    ]
+    assert hashes[0] == hashes[1] != hashes[2]

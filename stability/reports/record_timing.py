@@ -8,7 +8,9 @@ settings hash), and ``record.pdf`` the pages of :func:`timing_pages`: the
 mask's verdict in one word, the verdict and least margin per statistic, the
 max|TE| check, the MTIE and TDEV panels with the mask in the verdict colours,
 the time-error metrics, the caution on recalled limits and what a verdict
-covers, and the TIE over the record with the worst MTIE window shaded.
+covers, and the TIE over the record with the worst MTIE window shaded. A
+record judged against the mask alone shows the mask and its verdicts on page 1
+(:func:`mask_section`), where a specification's limits would be.
 """
 
 from __future__ import annotations
@@ -19,7 +21,7 @@ from matplotlib.figure import Figure
 
 from ..figures import VERDICT_COLORS
 from ..figures.timing import mask_figure, tie_figure
-from ..files import jsonable
+from ..files import jsonable, settings_hash
 from ..timing import MASK_CAUTION, TimeErrorAnalysis
 from ..units import format_duration
 from .tables import format_tau, format_value
@@ -28,7 +30,11 @@ from .typeset import A4, MARGIN, Column, PageFlow, Table
 
 __all__ = ["timing_record", "timing_pages", "time_error_settings", "mask_section"]
 
-SOFT = "#555555"
+_SOFT = "#555555"
+
+
+def _limits(mask: Any) -> dict[str, Any]:
+    return {k: v for k, v in mask.to_dict().items() if k != "path"}
 
 
 def time_error_settings(timing: TimeErrorAnalysis) -> dict[str, Any]:
@@ -38,7 +44,8 @@ def time_error_settings(timing: TimeErrorAnalysis) -> dict[str, Any]:
     return jsonable(
         {
             "mask": None if mask is None else mask.name,
-            "mask_path": None if mask is None else mask.path,
+            # the limits themselves, wherever the file lies (a changed mask is another setting)
+            "mask_limits_hash": None if mask is None else settings_hash(_limits(mask)),
             "remove_offset": timing.offset is not None,
             "sawtooth": None if saw is None else saw.column,
             "sawtooth_sign": None if saw is None else saw.sign,
@@ -166,5 +173,5 @@ def mask_section(flow: PageFlow, record: dict[str, Any]) -> None:
         "Margin = measured / limit (below 1 passes). The MTIE and TDEV figures, the "
         "time-error metrics and the TIE over the record follow on their own pages.",
         size=7.5,
-        color=SOFT,
+        color=_SOFT,
     )
