@@ -258,3 +258,21 @@ def test_the_mask_enters_the_settings_by_its_limits_not_its_place(made, tmp_path
         for p in (here, there, tighter)
     ]
     assert hashes[0] == hashes[1] != hashes[2]
+
+
+def test_a_record_with_both_says_it_holds_two_judgements(made, tmp_path):
+    run = made["outcome"].run
+    spec = tmp_path / "spec.toml"
+    spec.write_text('statistic = "oadev"\n[[limit]]\ntau_s = 1\nmax = 1e-7\n')
+    outcome = record_into(made["log"], tmp_path / "both", spec, INFO, mask=MASK, **READ)
+    data = json.loads(outcome.files["record.json"].read_text())
+    assert data["judgements"] == ["specification", "time_error_mask"]
+    assert data["overall_verdict_of"] == "specification"
+    assert data["overall_verdict"] == str(outcome.judgement.overall)
+    assert outcome.judgements == ("specification", "time_error_mask")
+    first = _flat(pypdf.PdfReader(outcome.files["record.pdf"]).pages[0].extract_text())
+    assert first.startswith("Frequency stability calibration record")
+    assert "This record contains two judgements: oadev against the specification" in first
+    assert f"against the mask {MASK} (verdict {outcome.timing.judgement.verdict}, on its own " \
+        "page)" in first  # fmt: skip
+    assert run.source.provenance.sha256 == data["input"]["sha256"]

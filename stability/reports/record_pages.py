@@ -223,7 +223,7 @@ def judgements_text(record: dict[str, Any]) -> str:
         parts.append(
             f"the time error of the log as read against the mask {timing['mask']} ({where})"
         )
-    count = "one judgement" if len(judged) == 1 else f"{len(judged)} judgements"
+    count = "one judgement" if len(judged) == 1 else "two judgements"
     text = f"This record contains {count}: " + " and ".join(parts) + "."
     if spec is None:
         text += (

@@ -475,6 +475,13 @@ def test_record_pages_of_a_mask_alone_fit():
     assert len(pages) == 6  # page 1, the mask, the TIE, stability, results, data over time
     for k, page in enumerate(pages, start=1):
         check_layout(page, f"record page {k} of a mask alone")
+    # with a specification too: its pages first, the mask's last
+    spec = Spec("tdev", confidence=0.95, interpolate=True, limits=[(1.0, 3e-9), (1000.0, 1e-9)])
+    judgement = judge(run.table, spec)
+    record = build_record(run, judgement, info, timing)
+    pages = record_pages(run, judgement, record, timing=timing)
+    for k, page in enumerate(pages, start=1):
+        check_layout(page, f"record page {k} of a specification and a mask")
 
 
 def test_time_error_figures_fit_on_given_axes_and_regions():
