@@ -426,10 +426,11 @@ def history_show(
     Example: stability history show --record 3 --pdf record-3.pdf
     """
     with _store(history) as store:
-        row, _, stored_pdf = store.record(record)
+        row, text, stored_pdf = store.record(record)
         typer.echo(
             f"record {row.number}: device {row.device_id}, calibrated {_day(row.calibrated_at)}, "
-            f"verdict {row.overall_verdict}, offset {_pm(row.offset, row.u_offset)}"
+            f"verdict {row.overall_verdict}{_verdict_of(text)}, "
+            f"offset {_pm(row.offset, row.u_offset)}"
         )
         typer.echo(
             f"input SHA-256 {row.input_sha256}, settings {row.settings_hash}, "
@@ -449,6 +450,19 @@ def history_show(
         written = write_stored_record(store, record, pdf=pdf, json_path=json_file, force=force)
     for path in written.values():
         typer.echo(f"wrote {path}")
+
+
+def _verdict_of(text: str) -> str:
+    """ " (of the time-error mask NAME)" for a record judged against a mask alone, else ""."""
+    try:
+        data = json.loads(text)
+    except ValueError:
+        return ""
+    if not isinstance(data, dict) or data.get("overall_verdict_of") != "time_error_mask":
+        return ""
+    section = data.get("time_error_mask")
+    name = section.get("mask") if isinstance(section, dict) else None
+    return f" (of the time-error mask {name}; no specification)" if name else ""
 
 
 @command(subject="history")

@@ -4,7 +4,9 @@ Runs the analysis as ``analyze`` does (the same reading, preparation and
 analysis options), judges the results against the specification
 (:func:`stability.spec.judge`), and writes the analysis outputs (with the
 limits drawn on the stability figure) plus ``record.pdf`` and ``record.json``.
-An existing record is never overwritten without ``--force``.
+With ``--mask`` the time error of the log as read is judged against a mask
+as well, or alone when ``--spec`` is left out (a time-error record); one of
+the two is required. An existing record is never overwritten without ``--force``.
 """
 
 from __future__ import annotations
@@ -39,10 +41,11 @@ from .reporting import counter_warning, record_lines
 __all__ = ["record"]
 
 SpecOpt = Annotated[
-    Path,
+    Path | None,
     typer.Option(
         "--spec",
-        help="Specification file (TOML): statistic, confidence, limits.",
+        help="Specification file (TOML): statistic, confidence, limits. May be left out "
+        "with --mask: a time-error record, judged against the mask alone.",
         metavar="FILE",
         show_default=False,
     ),
@@ -81,7 +84,7 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
     type=str | None,
     default=None,
     help="Two-sided confidence level of the intervals, between 0 and 1 "
-    "(default: the specification's own level).",
+    "(default: the specification's own level; without --spec, 0.683).",
 )
 
 
@@ -101,8 +104,8 @@ RECORD_CONFIDENCE = CONFIDENCE.but(
 )
 def record(
     log: LogArg,
-    spec: SpecOpt,
     info: InfoOpt,
+    spec: SpecOpt = None,
     force: ForceOpt = False,
     history: HistoryOpt = None,
     *,
@@ -112,13 +115,18 @@ def record(
 
     With --mask the time error of the log as read (after --sawtooth, when
     given) is also judged against a time-error mask (bundled or a file) and
-    the record carries that verdict.
+    the record carries that verdict; without --spec the record is judged
+    against the mask alone (a time-error record).
 
     Example: stability record counter.csv --spec spec.toml --info info.toml --out rec/
     """
     folder = opts.folder(Path.cwd() / f"{log.name}-stability")
     stats = opts.settings.analysis.stats
     given = opts.given
+    if spec is None and given["mask"] is None:
+        raise UsageProblem(
+            "a record needs --spec FILE, --mask NAME|FILE or both: what it is judged against"
+        )
     if given["mask"] is None and given["sawtooth"] is not None:
         raise UsageProblem("--sawtooth applies to the time error judged against a --mask")
     causes = cause_settings(opts)

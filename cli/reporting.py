@@ -102,6 +102,14 @@ def counter_warning(causes: CauseSettings) -> None:
 def record_lines(outcome: RecordOutcome) -> list[str]:
     """The verdict lines printed after a record is made."""
     judgement, info = outcome.judgement, outcome.info
+    if judgement is None:  # a time-error record: judged against the mask alone
+        lines = [
+            f"device {info.device_id}: the time error of the log as read against a mask "
+            "(no specification)"
+        ]
+        lines += [f"  {line}" for line in mask_lines(outcome.timing)]
+        lines.append(f"overall verdict: {outcome.verdict} (the mask's)")
+        return lines
     unit = statistic_unit(judgement.statistic)
     level = 100 * judgement.confidence
     lines = [

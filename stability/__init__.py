@@ -30,6 +30,7 @@ from .errors import AnalysisError, InputError, SpecError, StabilityError, Stabil
 # when imported, and are imported on the first plot() or display, not here.
 _display.add_provider(f"{__name__}.figures")
 _display.add_provider(f"{__name__}.reports.html")
+_display.add_provider(f"{__name__}.reports.timing_display")
 _display.add_provider(f"{__name__}.history.display")
 
 #: Public name -> module that defines it (relative to this package), or

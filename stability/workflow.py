@@ -35,8 +35,9 @@ from .history import HistoryStore, StoredRecord, open_history
 from .measurement import Measurement
 from .outputs import OutputSet
 from .reports.html import facts_table, judgement_html, judgement_text, result_box
-from .reports.record import RECORD_NAMES, write_record_files
+from .reports.record import RECORD_NAMES, judgements_of, write_record_files
 from .reports.tables import table_csv, table_markdown
+from .reports.timing_display import time_error_html, time_error_text
 from .run import (
     AnalysisRun,
     ReadProgress,
@@ -389,14 +390,28 @@ class RecordOutcome(Displayable):
     """A calibration record made by :func:`record_into` (shows itself in a notebook)."""
 
     run: AnalysisRun
-    judgement: Judgement
+    #: The specification's judgement (None: a record judged against a mask alone).
+    judgement: Judgement | None
     info: Info
-    spec_path: Path
+    #: The specification file (None: no specification).
+    spec_path: Path | None
     files: dict[str, Path]
     #: Where the record was stored in the calibration history (None: history not asked for).
     history: StoredRecord | None = None
     #: The time error judged against the mask (None: no --mask).
     timing: TimeErrorAnalysis | None = None
+
+    @property
+    def judgements(self) -> tuple[str, ...]:
+        """What the record judges: ``specification`` and/or ``time_error_mask``."""
+        return tuple(judgements_of(self.judgement, self.timing))
+
+    @property
+    def verdict(self) -> str:
+        """The record's overall verdict: the specification's, else the mask's."""
+        if self.judgement is not None:
+            return str(self.judgement.overall)
+        return str(self.timing.judgement.verdict)  # type: ignore[union-attr]
 
 
 def _store_in_history(
@@ -419,7 +434,7 @@ def _store_in_history(
 def record_into(
     log: str | os.PathLike[str],
     folder: str | os.PathLike[str],
-    spec_path: str | os.PathLike[str],
+    spec_path: str | os.PathLike[str] | None,
     info_path: str | os.PathLike[str],
     settings: RunSettings | None = None,
     *,
@@ -436,7 +451,7 @@ def record_into(
     causes: CauseSettings | None = None,
     **options: Any,
 ) -> RecordOutcome:
-    """Analyse ``log``, judge it against a specification and write the calibration record.
+    """Analyse ``log``, judge it against a specification and/or a mask, write the record.
 
     The specification's statistic is added to the statistics when missing, and its
     confidence level is used unless ``confidence`` is given. The seven files (the
@@ -457,16 +472,32 @@ def record_into(
     carries that verdict too; ``timing_options`` are that function's keywords
     (``remove_offset``, ``cte_window``, ``bandwidth``, ``sawtooth_sign``,
     ``sawtooth_applies_to``) plus ``sawtooth``, the log's sawtooth column.
+
+    ``spec_path`` may be None when ``mask`` is given: a time-error record,
+    judged against the mask alone. The analysis runs with the given statistics
+    and confidence level and its outputs are written all the same, without
+    limits; the record's overall verdict is the mask's, and a history stores
+    that verdict (with no specification and no per-tau checks of its own).
     """
     fmt = check_plot_format(plot_format)
     settings = resolve_settings(settings, options)
-    spec = load_spec(spec_path)
+    if spec_path is None and mask is None:
+        raise InputError(
+            "a calibration record judges against a specification, a time-error mask or both; "
+            "neither was given",
+            hint="pass --spec FILE, --mask NAME|FILE or both",
+        )
+    spec = load_spec(spec_path) if spec_path is not None else None
     info = load_info(info_path)
     mask_file = [mask] if isinstance(mask, str | os.PathLike) and Path(mask).is_file() else []
     mask = load_mask(mask) if isinstance(mask, str | os.PathLike) else mask
     names, stale = output_names(fmt)
-    inputs = [log, spec_path, info_path, *([history] if history is not None else []), *mask_file]
-    settings = spec_settings(settings, spec, confidence)
+    given = [p for p in (spec_path, info_path, history) if p is not None]
+    inputs = [log, *given, *mask_file]
+    if spec is not None:
+        settings = spec_settings(settings, spec, confidence)
+    elif confidence is not None:
+        settings = settings.replace(confidence=confidence)
     store = open_history(history) if history is not None else None
     # the record's own files first: they are what --force is about
     with (
@@ -478,7 +509,9 @@ def record_into(
             run = analyse_prepared(source, prepared, report, settings, on_step=on_step)
         else:  # the record states the counter type and dead time (stability.causes)
             run = analyse_with_causes(source, prepared, report, settings, causes, on_step=on_step)
-        judgement = judge(run.table, spec, reference=info.reference)
+        judgement = None
+        if spec is not None:
+            judgement = judge(run.table, spec, reference=info.reference)
         timing = None
         if mask is not None:
             extra = dict(timing_options or {})
@@ -491,8 +524,8 @@ def record_into(
             run,
             _paths(out.pending, fmt),
             fmt,
-            judgement.plot_limits(),
-            judgement.statistic,
+            judgement.plot_limits() if judgement is not None else None,
+            judgement.statistic if judgement is not None else None,
             titled=True,
             title=title,
             noise_labels=noise_labels,
@@ -506,9 +539,8 @@ def record_into(
         else:
             stored, files = _store_in_history(store, out, force)
     paths = {**_paths(files, fmt), **{name: files[name] for name in RECORD_NAMES}}
-    return RecordOutcome(
-        run, judgement, info, Path(spec_path), paths, history=stored, timing=timing
-    )
+    spec_file = Path(spec_path) if spec_path is not None else None
+    return RecordOutcome(run, judgement, info, spec_file, paths, history=stored, timing=timing)
 
 
 def _outcome_facts(outcome: RecordOutcome) -> list[tuple[str, str]]:
@@ -517,24 +549,35 @@ def _outcome_facts(outcome: RecordOutcome) -> list[tuple[str, str]]:
         ("device", outcome.info.device_id),
         ("folder", str(folder)),
         ("files", ", ".join(sorted(p.name for p in outcome.files.values()))),
-        ("specification", outcome.spec_path.name),
+        ("judgements", ", ".join(j.replace("_", " ") for j in outcome.judgements)),
+        ("overall verdict", outcome.verdict),
     ]
+    if outcome.spec_path is not None:
+        facts.append(("specification", outcome.spec_path.name))
+    if outcome.timing is not None and outcome.timing.judgement is not None:
+        facts.append(("time-error mask", outcome.timing.judgement.mask.name))
     if outcome.history is not None:
         facts.append(("stored in the history", f"record {outcome.history.number}"))
     return facts
 
 
 def _outcome_html(outcome: RecordOutcome) -> str:
-    return result_box(
-        "Calibration record",
-        facts_table(_outcome_facts(outcome)),
-        judgement_html(outcome.judgement),
-    )
+    parts = [facts_table(_outcome_facts(outcome))]
+    if outcome.judgement is not None:
+        parts.append(judgement_html(outcome.judgement))
+    if outcome.timing is not None:
+        parts.append(time_error_html(outcome.timing))
+    return result_box("Calibration record", *parts)
 
 
 def _outcome_text(outcome: RecordOutcome) -> str:
     facts = "\n".join(f"  {k}: {v}" for k, v in _outcome_facts(outcome))
-    return f"Calibration record\n{facts}\n{judgement_text(outcome.judgement)}"
+    parts = [f"Calibration record\n{facts}"]
+    if outcome.judgement is not None:
+        parts.append(judgement_text(outcome.judgement))
+    if outcome.timing is not None:
+        parts.append(time_error_text(outcome.timing))
+    return "\n".join(parts)
 
 
 register_html(RecordOutcome, _outcome_html)

@@ -77,13 +77,15 @@ def test_providers_register_every_result_type():
     from stability.phase_noise import PhaseNoiseStability
     from stability.run import AnalysisRun
     from stability.spec import Judgement
+    from stability.timing import TimeErrorAnalysis
 
     for kind in (Measurement, StabilityTable, AnalysisRun, HatResult, PhaseNoiseStability,
-                 DynamicResult, DeviceReview):  # fmt: skip
+                 DynamicResult, DeviceReview, TimeErrorAnalysis):  # fmt: skip
         assert display.registered(kind)["plot"], kind.__name__
     for kind in (Measurement, StabilityTable, AnalysisRun, Judgement, HatResult,
-                 PhaseNoiseStability, DynamicResult, DeviceReview):  # fmt: skip
+                 PhaseNoiseStability, DynamicResult, DeviceReview, TimeErrorAnalysis):  # fmt: skip
         assert display.registered(kind)["html"], kind.__name__
+    assert display.registered(TimeErrorAnalysis)["text"]
 
 
 def test_import_stays_light_until_a_result_draws():

@@ -230,3 +230,43 @@ def test_record_outcome_shows_where_the_record_went_and_its_verdicts(tmp_path):
     assert "files record.json, record.pdf, table.md" in text and str(tmp_path) in text
     assert f"overall: {judgement.overall.value}" in text
     assert stability.display.text(outcome).startswith("Calibration record")
+
+
+def test_time_error_analysis_shows_metrics_verdicts_margins_and_the_caution(tmp_path):
+    from stability.timing import MASK_CAUTION, analyze_time_error, read_mask_text
+
+    rng = np.random.default_rng(14)  # invented: 2 ns white phase over a slow 5 ns wander
+    k = np.arange(6000)
+    x = 30e-9 + 5e-9 * np.sin(2 * np.pi * k / 3600) + 2e-9 * rng.standard_normal(k.size)
+    result = analyze_time_error(Measurement.from_phase(x, 1.0), mask="g8272-prtc-b")
+    fragment = result._repr_html_()
+    text, tags = parsed(fragment)
+    assert "Time-error analysis: 6000 samples at 1 s" in text and "table" in tags
+    for name, value, _ in result.metrics.rows():
+        assert f"{name} {format_value(value, 's')}" in text, name
+    j = result.judgement
+    assert "mask g8272-prtc-b" in text and f"verdict: {j.verdict}" in text
+    word = str(j.verdict)
+    assert f'color:{VERDICT_COLORS[word]};font-weight:bold">{word}' in fragment
+    for name in ("mtie", "tdev"):
+        least = j.least_margin(name)
+        assert f"{least.margin:.3g}" in text and format_tau(least.tau) in text
+        badge = f"background:{VERDICT_COLORS[str(j.verdict_of(name))]};color:#ffffff;"
+        assert badge in fragment
+    assert "from memory" in text and " ".join(MASK_CAUTION.split()) in text
+    plain = stability.display.text(result)
+    assert plain.startswith("Time-error analysis\ntime error of 6000 samples")
+    assert f"verdict: {j.verdict}" in plain and "least margin" in plain
+    assert "limits: from memory" in plain and plain.rstrip().endswith(MASK_CAUTION)
+    # no mask: the metrics alone; a mask's own words are escaped
+    bare = parsed(analyze_time_error(Measurement.from_phase(x, 1.0))._repr_html_())[0]
+    assert "No mask was judged" in bare and "max|TE|" in bare
+    own = read_mask_text(
+        'name = "<b>house</b>"\ntitle = "a & b"\n[[curve]]\nstatistic = "tdev"\nunit = "ns"\n'
+        "segment = [ { from = 1, to = 1000, limit = 20 } ]\n",
+        "house.toml",
+    )
+    fragment = analyze_time_error(Measurement.from_phase(x, 1.0), mask=own)._repr_html_()
+    assert "<b>house</b>" not in fragment and "&lt;b&gt;house&lt;/b&gt;" in fragment
+    assert "a &amp; b" in fragment
+    parsed(fragment)

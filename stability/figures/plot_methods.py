@@ -26,11 +26,13 @@ from ..qualify import model_curves
 from ..run import AnalysisRun
 from ..spec import Judgement
 from ..table import StabilityTable
+from ..timing import TimeErrorAnalysis
 from .hat import HatDrawn, hat_figure
 from .phase_noise import PhaseNoiseDrawn, phase_noise_figure
 from .series import SeriesDrawn, run_series_figure, series_figure
 from .sigma_tau import StabilityDrawn, run_stability_figure, stability_figure
 from .timeline import TimelineDrawn, timeline_figure
+from .timing import MaskDrawn, TieDrawn, mask_figure, tie_figure
 
 __all__ = [
     "plot_measurement",
@@ -40,6 +42,8 @@ __all__ = [
     "plot_hat",
     "plot_phase_noise",
     "plot_dynamic",
+    "plot_time_error",
+    "plot_tie",
 ]
 
 
@@ -112,6 +116,20 @@ def plot_dynamic(
     return timeline_figure(result, axes=ax, into=figure, **options)
 
 
+def plot_time_error(
+    result: TimeErrorAnalysis, ax: Any = None, figure: Any = None, **options: Any
+) -> MaskDrawn:
+    """:meth:`TimeErrorAnalysis.plot`: :func:`mask_figure`, MTIE and TDEV against the mask."""
+    return mask_figure(result, axes=ax, into=figure, **options)
+
+
+def plot_tie(
+    result: TimeErrorAnalysis, ax: Any = None, figure: Any = None, **options: Any
+) -> TieDrawn:
+    """``TimeErrorAnalysis.plot(view="tie")``: :func:`tie_figure`, the TIE over the record."""
+    return tie_figure(result, axes=ax, into=figure, **options)
+
+
 register_plot(Measurement, plot_measurement)
 register_plot(StabilityTable, plot_table)
 register_plot(AnalysisRun, plot_run)
@@ -119,3 +137,5 @@ register_plot(AnalysisRun, plot_run_series, view="series")
 register_plot(HatResult, plot_hat)
 register_plot(PhaseNoiseStability, plot_phase_noise)
 register_plot(DynamicResult, plot_dynamic)
+register_plot(TimeErrorAnalysis, plot_time_error)
+register_plot(TimeErrorAnalysis, plot_tie, view="tie")

@@ -7,7 +7,9 @@ envelope, with the worst MTIE window of one tau shaded. :func:`mask_figure`
 draws MTIE and TDEV side by side on log-log axes with the mask's limit line;
 each judged tau takes the verdict colour of the calibration record
 (:data:`~stability.figures.style.VERDICT_COLORS`), and the taus the record is
-too short for are drawn as open markers on the limit line.
+too short for are drawn as open markers on the limit line. Both draw a figure
+of their own, into a region of a page (``into=``, the calibration record) or
+on a caller's axes (``axes=``, :meth:`TimeErrorAnalysis.plot`).
 """
 
 from __future__ import annotations
@@ -38,6 +40,7 @@ from .style import (
     Drawn,
     elapsed_unit,
     frame_for,
+    given_axes,
     log_axes,
     new_figure,
     put_footer,
@@ -101,12 +104,17 @@ def tie_figure(
     title: str | None = None,
     footer: str | None = None,
     analysis_time: Any = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> TieDrawn:
     """TIE over the record with the worst MTIE window at ``window_tau`` shaded.
 
     ``window_tau`` defaults to the longest tau up to a tenth of the record, so
     the stretch that sets the long-tau MTIE is visible; a window too narrow to
-    see is also marked by a line at its start.
+    see is also marked by a line at its start. ``into`` (a ``Figure`` or
+    ``SubFigure``, a region of a record page) draws the whole figure there and
+    ``axes`` (one ``Axes``) draws the panel on a caller's axes; either carries
+    no title or footer unless given.
     """
     _validate(result, title, footer)
     te = result.te_used
@@ -116,8 +124,16 @@ def tie_figure(
     index, values = envelope(tie / factor, _COLUMNS)
     xf, xunit = elapsed_unit(result.span)
     x = index * result.tau0 / xf
-    fig = new_figure(8.0, 4.2, layout="fixed")
-    ax = fig.add_subplot(1, 1, 1)
+    own = into is None and axes is None
+    if axes is not None:
+        (ax,) = given_axes(axes, 1, "panel (the time interval error)", into)
+        fig = ax.get_figure(root=False)
+    elif into is not None:
+        fig = frame_for(into, 1.0, 1.0).target
+        ax = fig.subplots(gridspec_kw={"left": 0.1, "right": 0.98, "bottom": 0.13, "top": 0.9})
+    else:
+        fig = new_figure(8.0, 4.2, layout="fixed")
+        ax = fig.add_subplot(1, 1, 1)
     style_axes(ax, minor_grid=False)
     ax.plot(x, values, color=PHASE_COLOR, linewidth=0.7)
     worst = result.mtie.worst(window_tau)
@@ -129,23 +145,24 @@ def tie_figure(
         if span[1] - span[0] < 0.004 * (result.span / xf):
             ax.axvline(span[0], color=NOTE_COLOR, linewidth=0.8)
         value = result.mtie.value[list(result.mtie.m).index(m)]
-        fig.text(
-            0.99,
-            0.955,
-            f"shaded: worst window at \u03c4 = {format_duration(tau)}, "
-            f"MTIE {format_seconds(value)}",
-            fontsize=NOTE_SIZE,
-            color=NOTE_COLOR,
-            ha="right",
-            va="top",
+        note = (
+            f"shaded: worst window at \u03c4 = {format_duration(tau)}, MTIE {format_seconds(value)}"
         )
+        if own:
+            fig.text(0.99, 0.955, note, fontsize=NOTE_SIZE, color=NOTE_COLOR, ha="right", va="top")
+        else:
+            ax.set_title(note, fontsize=NOTE_SIZE, color=NOTE_COLOR, loc="right")
     ax.set_xlabel(f"elapsed time ({xunit})", fontsize=LABEL_SIZE)
     what = "TIE, offset removed" if result.offset is not None else "TIE"
     ax.set_ylabel(f"{what} ({unit})", fontsize=LABEL_SIZE)
     ax.set_xlim(0, result.span / xf if result.span > 0 else 1)
-    fig.suptitle(title or "time interval error", fontsize=TITLE_SIZE, x=0.01, ha="left")
-    put_footer(fig, footer or tool_footer(analysis_time))
-    return TieDrawn(fig, (ax,), x, values, xunit, unit, span, worst[0] if worst else None)
+    if own or title:
+        fig.suptitle(title or "time interval error", fontsize=TITLE_SIZE, x=0.01, ha="left")
+    if own or footer:
+        put_footer(fig, footer or tool_footer(analysis_time))
+    return TieDrawn(
+        ax.get_figure(root=True), (ax,), x, values, xunit, unit, span, worst[0] if worst else None
+    )
 
 
 def _panel(ax: Any, result: TimeErrorAnalysis, name: str) -> tuple[Any, ...]:
@@ -202,34 +219,42 @@ def mask_figure(
     footer: str | None = None,
     analysis_time: Any = None,
     into: Any = None,
+    axes: Any = None,
 ) -> MaskDrawn:
     """MTIE and TDEV on log-log panels with the mask's limits and the verdict colours.
 
-    ``into`` (a matplotlib ``SubFigure``, a region of a record page) draws the
-    panels there without a title or footer of their own.
+    ``into`` (a matplotlib ``Figure`` or ``SubFigure``, a region of a record
+    page) draws the panels there, and ``axes`` (one ``Axes`` for MTIE, or two
+    for MTIE then TDEV) draws them on a caller's axes; either carries no title
+    or footer unless given.
     """
     _validate(result, title, footer)
-    names = ("mtie", "tdev")
-    if into is None:
+    names: tuple[str, ...] = ("mtie", "tdev")
+    own = into is None and axes is None
+    if axes is not None:
+        axes = given_axes(axes, 2, "panels (MTIE, then TDEV)", into, fewer=True)
+        names = names[: len(axes)]
+        fig = axes[0].get_figure(root=False)
+    elif into is None:
         fig = new_figure(10.0, 4.4, layout="constrained")
         axes = fig.subplots(1, 2)
     else:
-        frame_for(into, 1.0, 1.0)  # checks the region and gives its page a canvas
-        fig = into.get_figure(root=True)
-        axes = into.subplots(
+        fig = frame_for(into, 1.0, 1.0).target  # checks the region, gives its page a canvas
+        axes = fig.subplots(
             1, 2, gridspec_kw={"left": 0.1, "right": 0.98, "bottom": 0.14, "top": 0.9,
                                "wspace": 0.32}
         )  # fmt: skip
     drawn = {n: _panel(ax, result, n) for n, ax in zip(names, axes, strict=True)}
-    if into is None:
-        mask = result.judgement.mask.name if result.judgement is not None else None
+    mask = result.judgement.mask.name if result.judgement is not None else None
+    if own or title:
         head = title or "MTIE and TDEV"
-        if mask:
+        if mask and own:
             head += f"\nagainst {mask} (limits recalled from the Recommendation: check your copy)"
         fig.suptitle(head, fontsize=TITLE_SIZE, x=0.01, ha="left")
+    if own or footer:
         put_footer(fig, footer or tool_footer(analysis_time))
     return MaskDrawn(
-        fig,
+        fig.get_figure(root=True),
         tuple(axes),
         names,
         {n: d[0] for n, d in drawn.items()},

@@ -23,6 +23,14 @@ analysis time, the record number (:func:`record_number`) and "page k of n".
 Both files are written atomically and are never overwritten without
 ``force`` (:func:`write_record`).
 
+A record may judge a specification, a time-error mask
+(:mod:`stability.reports.record_timing`) or both, and says which
+(``judgements``). Judged against a mask alone (``judgement`` None), it holds
+everything but the specification's part: the mask's verdict is the overall
+verdict, page 1 shows the mask and its verdicts instead of the specification
+and limits, the mask's pages follow it, and the caution is
+:data:`MASK_RECORD_CAUTION`.
+
 References
 ----------
 .. [1] ISO/IEC 17025:2017, *General requirements for the competence of testing
@@ -56,13 +64,15 @@ from ..run import AnalysisRun
 from ..spec import Info, Judgement, reference_contribution
 from ..timing import TimeErrorAnalysis
 from .record_pages import ROWS_PER_PAGE, record_pages, table_pages
-from .record_timing import timing_record
+from .record_timing import time_error_settings, timing_record
 
 __all__ = [
     "CAUTION",
+    "MASK_RECORD_CAUTION",
     "SCHEMA_VERSION",
     "RECORD_NAMES",
     "build_record",
+    "judgements_of",
     "record_json",
     "record_number",
     "record_pages",
@@ -82,15 +92,33 @@ CAUTION = (
     "(for example ISO/IEC 17025); this tool does not replace them."
 )
 
+#: The caution of a record judged against a time-error mask alone (no specification).
+MASK_RECORD_CAUTION = (
+    "The results cover the stated measurement conditions only and include no systematic "
+    "effects of the reference or the counter. The mask is judged on the measured values (no "
+    "confidence interval); the bundled limits are recalled from the ITU-T Recommendations, not "
+    "read from them: check them against your copy. Acceptance decisions follow the "
+    "laboratory's own accredited procedure and the conformance procedure of the "
+    "Recommendation; this tool does not replace them."
+)
+
 
 # ---------------------------------------------------------------------- content
-def _validate_record_args(run: Any, judgement: Any, info: Any) -> None:
+def _validate_record_args(run: Any, judgement: Any, info: Any, timing: Any = None) -> None:
     if not isinstance(run, AnalysisRun):
         raise InputError(
             f"run must be a stability.AnalysisRun, got {type(run).__name__}",
             hint="build one with stability.run_analysis",
         )
-    if not isinstance(judgement, Judgement):
+    if judgement is None:
+        if not isinstance(timing, TimeErrorAnalysis) or timing.judgement is None:
+            raise InputError(
+                "a record judges against a specification, a time-error mask or both; "
+                "neither was given",
+                hint="pass a judgement (stability.spec.judge), a time-error analysis judged "
+                "against a mask (stability.timing.analyze_time_error(..., mask=...)) or both",
+            )
+    elif not isinstance(judgement, Judgement):
         raise InputError(
             f"judgement must be a stability.spec.Judgement, got {type(judgement).__name__}",
             hint="build one with stability.spec.judge",
@@ -107,14 +135,17 @@ def _finite(value: Any) -> float | None:
     return number if math.isfinite(number) else None
 
 
-def record_rows(run: Any, judgement: Judgement, info: Info) -> list[dict[str, Any]]:
+def record_rows(run: Any, judgement: Judgement | None, info: Info) -> list[dict[str, Any]]:
     """The results table of the record: every (statistic, tau) row, intervals at the spec level.
 
     Rows of the specification's statistic carry the verdict where that tau was
     judged and, when the reference states a stability, the reference value,
-    the reference-limited flag and the device-only estimate.
+    the reference-limited flag and the device-only estimate. Without a
+    specification (a record judged against a time-error mask alone) the
+    intervals are at the table's level and no row carries a limit or verdict.
     """
-    level = judgement.confidence
+    level = judgement.confidence if judgement is not None else run.table.confidence
+    judged = judgement.statistic if judgement is not None else None
     rows: list[dict[str, Any]] = []
     reference = info.reference
     for result in run.table:
@@ -122,13 +153,13 @@ def record_rows(run: Any, judgement: Judgement, info: Info) -> list[dict[str, An
         low = np.atleast_1d(np.asarray(low, dtype=float))
         high = np.atleast_1d(np.asarray(high, dtype=float))
         ref = np.full(len(result), np.nan)
-        if result.statistic == judgement.statistic and reference and reference.has_stability:
+        if result.statistic == judged and reference and reference.has_stability:
             f_h = float(run.table.settings.get("f_h_hz") or 0.5 / run.measurement.tau0)
             ref, _ = reference.deviation(result.tau, f_h=f_h)
         limited, device = reference_contribution(result.deviation, ref)
         for i in range(len(result)):
             tau = float(result.tau[i])
-            check = judgement.verdict_at(tau) if result.statistic == judgement.statistic else None
+            check = judgement.verdict_at(tau) if result.statistic == judged else None
             alpha = float(result.alpha[i])
             rows.append(
                 {
@@ -199,18 +230,57 @@ def _counter_summary(run: Any) -> dict[str, Any]:
     }
 
 
+def judgements_of(judgement: Judgement | None, timing: TimeErrorAnalysis | None) -> list[str]:
+    """What a record judges: ``specification`` and/or ``time_error_mask``, in that order."""
+    judged = ["specification"] if judgement is not None else []
+    if timing is not None and timing.judgement is not None:
+        judged.append("time_error_mask")
+    return judged
+
+
 def build_record(
-    run: Any, judgement: Judgement, info: Info, timing: TimeErrorAnalysis | None = None
+    run: Any,
+    judgement: Judgement | None,
+    info: Info,
+    timing: TimeErrorAnalysis | None = None,
 ) -> dict[str, Any]:
     """Everything the record shows, as JSON types (the content of record.json).
 
     ``timing`` (a time-error analysis judged against a mask, ``record --mask``)
-    adds the ``time_error_mask`` section.
+    adds the ``time_error_mask`` section and its settings (``settings.time_error``).
+    ``judgements`` lists what the record judges; ``overall_verdict`` is the
+    specification's overall verdict when there is one, else the mask's
+    (``overall_verdict_of`` says which). A record judged against a mask alone
+    (``judgement`` None) has ``specification`` null, no limits or checks, and
+    its intervals at the table's own confidence level.
     """
 
-    _validate_record_args(run, judgement, info)
+    _validate_record_args(run, judgement, info, timing)
     provenance = run.source.provenance
-    limits = [c.to_dict() for c in judgement.listed]
+    judged = judgements_of(judgement, timing)
+    settings = dict(run.settings)
+    if timing is not None:
+        settings["time_error"] = time_error_settings(timing)
+    if judgement is not None:
+        spec_part = {
+            "specification": judgement.spec.to_dict(),
+            "confidence": judgement.confidence,
+            "limits": [c.to_dict() for c in judgement.listed],
+            "checks": [c.to_dict() for c in judgement.checks],
+            "overall_verdict": judgement.overall,
+            "reference_limited_taus": [c.tau_s for c in judgement.checks if c.reference_limited],
+            "notes": list(judgement.notes),
+        }
+    else:
+        spec_part = {
+            "specification": None,
+            "confidence": run.table.confidence,
+            "limits": [],
+            "checks": [],
+            "overall_verdict": str(timing.judgement.verdict),
+            "reference_limited_taus": [],
+            "notes": list(timing.notes),
+        }
     record = {
         "schema_version": SCHEMA_VERSION,
         "record_number": record_number(info, provenance.sha256, run.analysis_time),
@@ -222,18 +292,20 @@ def build_record(
             "rows": provenance.rows,
         },
         "identification": info.to_dict(),
-        "specification": judgement.spec.to_dict(),
+        "judgements": judged,
+        "overall_verdict_of": judged[0],
+        "specification": spec_part["specification"],
         "measurement": _measurement_summary(run),
-        "settings": run.settings,
-        "settings_hash": settings_hash(run.settings),
-        "confidence": judgement.confidence,
+        "settings": settings,
+        "settings_hash": settings_hash(settings),
+        "confidence": spec_part["confidence"],
         "results": record_rows(run, judgement, info),
-        "limits": limits,
-        "checks": [c.to_dict() for c in judgement.checks],
-        "overall_verdict": judgement.overall,
-        "reference_limited_taus": [c.tau_s for c in judgement.checks if c.reference_limited],
-        "notes": list(judgement.notes),
-        "caution": CAUTION,
+        "limits": spec_part["limits"],
+        "checks": spec_part["checks"],
+        "overall_verdict": spec_part["overall_verdict"],
+        "reference_limited_taus": spec_part["reference_limited_taus"],
+        "notes": spec_part["notes"],
+        "caution": CAUTION if judgement is not None else MASK_RECORD_CAUTION,
         "signatures": {
             "measured_by": info.measured_by,
             "checked_by": info.checked_by,
@@ -272,6 +344,9 @@ _ROWS_PER_PAGE = ROWS_PER_PAGE
 _table_pages = table_pages
 
 
+_KIND = {False: "Frequency stability", True: "Time-error"}
+
+
 def _save_pdf(pages: list[Figure], handle: IO[bytes], record: dict[str, Any]) -> None:
     """Write the pages into an open binary file (the step an interruption would hit)."""
     stamp = record.get("analysis_time")
@@ -280,7 +355,8 @@ def _save_pdf(pages: list[Figure], handle: IO[bytes], record: dict[str, Any]) ->
     except ValueError:
         when = datetime.now(UTC)
     metadata = {
-        "Title": f"Frequency stability record {record['identification']['device']['id']}",
+        "Title": f"{_KIND[record['specification'] is None]} record "
+        f"{record['identification']['device']['id']}",
         "Creator": f"stability {record['tool']['version']}",
         "CreationDate": when,
     }
@@ -296,14 +372,18 @@ def _save_pdf(pages: list[Figure], handle: IO[bytes], record: dict[str, Any]) ->
 
 def write_record_files(
     run: Any,
-    judgement: Judgement,
+    judgement: Judgement | None,
     info: Info,
     pdf_path: Path,
     json_path: Path,
     timing: TimeErrorAnalysis | None = None,
 ) -> None:
-    """Write record.pdf and record.json to the given (pending) paths of an output set."""
-    _validate_record_args(run, judgement, info)
+    """Write record.pdf and record.json to the given (pending) paths of an output set.
+
+    ``judgement`` may be None when ``timing`` is judged against a mask: the
+    record of a time error judged against the mask alone.
+    """
+    _validate_record_args(run, judgement, info, timing)
     record = build_record(run, judgement, info, timing)
     text = record_json(record)
     extra = {"timing": timing} if timing is not None else {}
@@ -315,21 +395,27 @@ def write_record_files(
 
 def write_record(
     run: Any,
-    judgement: Judgement,
+    judgement: Judgement | None,
     info: Info,
     folder: str | os.PathLike[str],
     *,
     force: bool = False,
+    timing: TimeErrorAnalysis | None = None,
 ) -> dict[str, Path]:
     """Write record.pdf and record.json into ``folder``, both or neither.
+
+    ``timing`` (judged against a mask) adds the time-error judgement; with it,
+    ``judgement`` may be None (a record judged against the mask alone).
 
     Raises
     ------
     InputError
         Before anything is written, when either file exists and ``force`` is false.
     """
-    _validate_record_args(run, judgement, info)
+    _validate_record_args(run, judgement, info, timing)
     inputs = [run.source.provenance.path] if run.source.provenance.path else []
     with OutputSet(folder, RECORD_NAMES, inputs=inputs, force=force) as out:
-        write_record_files(run, judgement, info, out.path("record.pdf"), out.path("record.json"))
+        write_record_files(
+            run, judgement, info, out.path("record.pdf"), out.path("record.json"), timing
+        )
         return out.commit()

@@ -2,10 +2,12 @@
 
 Every page is an A4 matplotlib figure typeset by :mod:`stability.reports.typeset`:
 
-1. identification and approval: the record number, device, reference,
-   instrument and lab, the measurement and what preparation did, the
-   specification, the limits table (limit, estimate, interval and verdict at
-   every listed tau, interpolated estimates marked), the overall verdict,
+1. identification and approval: the record number, which judgements the
+   record contains, device, reference, instrument and lab, the measurement
+   and what preparation did, the specification (or, for a record judged
+   against a time-error mask alone, the mask and its verdicts), the limits
+   table (limit, estimate, interval and verdict at every listed tau,
+   interpolated estimates marked), the overall verdict,
    the reference-limited taus, the caution, and the fields for "measured by",
    "checked by" and the date (filled from the information file, else lines to
    sign on);
@@ -14,7 +16,9 @@ Every page is an A4 matplotlib figure typeset by :mod:`stability.reports.typeset
    verdicts and the reference's stated stability;
 3. the results table, typeset in aligned columns with one number format per
    column, over as many pages as it needs;
-4. the data over time as analysed.
+4. the data over time as analysed;
+5. with a time-error mask, its pages (:func:`~.record_timing.timing_pages`):
+   last, or right after page 1 in a record judged against the mask alone.
 
 Each page carries one footer, drawn by :func:`add_footers`: input SHA-256,
 tool version, settings hash, analysis time, record number and "page k of n".
@@ -39,7 +43,7 @@ from ..figures import VERDICT_COLORS, run_series_figure, stability_figure
 from ..figures.ticks import power_of_ten
 from ..run import AnalysisRun
 from ..spec import Judgement
-from .record_timing import timing_pages
+from .record_timing import mask_section, timing_pages
 from .tables import format_tau, format_value, statistic_unit
 from .typeset import A4, MARGIN, Column, PageFlow, Table
 
@@ -54,6 +58,7 @@ __all__ = [
     "figure_page",
     "add_footers",
     "record_pages",
+    "judgements_text",
 ]
 
 #: Rows of the results table on one page.
@@ -209,10 +214,49 @@ def limits_table(record: dict[str, Any]) -> Table:
     return Table(tuple(columns), tuple(rows), fontsize=7.5, colors=tuple(colors))
 
 
+def _verdict_basis(record: dict[str, Any]) -> str:
+    """What the overall verdict judged, in one line."""
+    spec = record["specification"]
+    if spec is not None:
+        return (
+            f"overall verdict: {spec['statistic']} against the {len(record['limits'])} limit(s) "
+            f"of the specification at {100 * spec['confidence']:.3g} % confidence"
+        )
+    return (
+        f"overall verdict: the time error against the mask {record['time_error_mask']['mask']}, "
+        "judged on the measured values"
+    )
+
+
+def judgements_text(record: dict[str, Any]) -> str:
+    """Which judgements the record contains, said plainly (page 1 of every record)."""
+    judged = record["judgements"]
+    spec = record["specification"]
+    timing = record.get("time_error_mask")
+    parts = []
+    if spec is not None:
+        parts.append(f"{spec['statistic']} against the specification (the overall verdict above)")
+    if timing is not None:
+        where = (
+            "the overall verdict above" if spec is None
+            else f"verdict {timing['verdict']}, on its own page"
+        )  # fmt: skip
+        parts.append(
+            f"the time error of the log as read against the mask {timing['mask']} ({where})"
+        )
+    count = "one judgement" if len(judged) == 1 else "two judgements"
+    text = f"This record contains {count}: " + " and ".join(parts) + "."
+    if spec is None:
+        text += (
+            " No specification was given: the stability figure and the results table show "
+            "the analysis without limits or verdicts."
+        )
+    return text
+
+
 def _verdict(flow: PageFlow, record: dict[str, Any]) -> None:
     """The overall verdict in one large word, what it judged, and the reference-limited taus."""
     verdict = record["overall_verdict"]
-    spec = record["specification"]
     flow.need(0.55)
     word = flow.page.text(
         MARGIN / A4[0],
@@ -226,13 +270,10 @@ def _verdict(flow: PageFlow, record: dict[str, Any]) -> None:
     )
     box = word.get_window_extent(flow.page.canvas.get_renderer())
     left = MARGIN + box.width / flow.page.dpi + 0.25
-    what = (
-        f"overall verdict: {spec['statistic']} against the {len(record['limits'])} limit(s) "
-        f"of the specification at {100 * spec['confidence']:.3g} % confidence"
-    )
     flow.y -= 0.08
-    flow.text(left, what, width=A4[0] - MARGIN - left, size=9, color=_SOFT)
+    flow.text(left, _verdict_basis(record), width=A4[0] - MARGIN - left, size=9, color=_SOFT)
     flow.skip(0.5)
+    flow.paragraph(judgements_text(record), size=8.5)
     limited = record["reference_limited_taus"]
     if limited:
         flow.paragraph(
@@ -268,34 +309,13 @@ def _approval(flow: PageFlow, record: dict[str, Any]) -> None:
     flow.skip(0.6)
 
 
-#: Inches kept at the foot of the first page for the caution and the signatures.
-_APPROVAL = 1.9
-
-
-def identification_pages(record: dict[str, Any]) -> list[Figure]:
-    """Page 1 (and its continuation when the identification is long).
-
-    The caution and the signature fields always sit at the foot of the first
-    page: the room for them is kept before anything else is placed.
-    """
-    footer_room = 0.75
-    flow = PageFlow("Frequency stability calibration record", bottom=footer_room + _APPROVAL)
-    flow.page.text(
-        1 - MARGIN / A4[0],
-        1 - 0.45 / A4[1],
-        f"record {record['record_number']}",
-        fontsize=10,
-        ha="right",
-        va="top",
-        color=_SOFT,
-    )
+def _specification(flow: PageFlow, record: dict[str, Any]) -> None:
+    """The specification and its limits table."""
     spec = record["specification"]
     verdicts = ", ".join(
         f"{format_tau(c['tau_s'])}: {c['verdict']}" + (" (*)" if c["interpolated"] else "")
         for c in record["limits"]
     )
-    _verdict(flow, record)
-    _identification(flow, record)
     flow.title("Specification")
     flow.key_values(
         [
@@ -315,8 +335,49 @@ def identification_pages(record: dict[str, Any]) -> list[Figure]:
             size=7.5,
             color=_SOFT,
         )
+
+
+#: Inches kept at the foot of the first page for the caution and the signatures.
+_APPROVAL = 1.9
+#: Inches of caution text that room holds (three lines).
+_CAUTION = 0.5
+
+
+def identification_pages(record: dict[str, Any]) -> list[Figure]:
+    """Page 1 (and its continuation when the identification is long).
+
+    The caution and the signature fields always sit at the foot of the first
+    page: the room for them is kept before anything else is placed.
+    """
+    footer_room = 0.75
+    spec = record["specification"]
+    heading = (
+        "Frequency stability calibration record" if spec is not None
+        else "Time-error calibration record"
+    )  # fmt: skip
+    flow = PageFlow(heading, bottom=footer_room + _APPROVAL)
+    # a caution longer than three lines (a record of a mask alone) takes more of the foot
+    probe = flow.text(MARGIN, record["caution"], width=flow.width)
+    approval = _APPROVAL + max(0.0, probe.get_window_extent().height / flow.page.dpi - _CAUTION)
+    probe.remove()
+    flow.bottom = footer_room + approval
+    flow.page.text(
+        1 - MARGIN / A4[0],
+        1 - 0.45 / A4[1],
+        f"record {record['record_number']}",
+        fontsize=10,
+        ha="right",
+        va="top",
+        color=_SOFT,
+    )
+    _verdict(flow, record)
+    _identification(flow, record)
+    if spec is not None:
+        _specification(flow, record)
+    else:
+        mask_section(flow, record)
     foot = PageFlow(
-        flow.heading, first=flow.pages[0], top=footer_room + _APPROVAL - 0.1, bottom=footer_room
+        flow.heading, first=flow.pages[0], top=footer_room + approval - 0.1, bottom=footer_room
     )
     _approval(foot, record)
     return flow.pages
@@ -324,8 +385,12 @@ def identification_pages(record: dict[str, Any]) -> list[Figure]:
 
 # ---------------------------------------------------------------------- results table
 def results_table(record: dict[str, Any]) -> Table:
-    """Every (statistic, tau) row: one number format per column, noise labels whole."""
+    """Every (statistic, tau) row: one number format per column, noise labels whole.
+
+    A record without a specification has no limit, verdict or reference columns.
+    """
     level = f"{100 * record['confidence']:.3g} %"
+    judged = record["specification"] is not None
     columns = (
         Column("statistic"),
         Column("tau", "right"),
@@ -334,43 +399,54 @@ def results_table(record: dict[str, Any]) -> Table:
         Column(f"high ({level})", "right"),
         Column("edf", "right"),
         Column("noise"),
-        Column("limit", "right"),
-        Column("verdict"),
-        Column("ref.-limited"),
-        Column("device only", "right"),
     )
+    if judged:
+        columns += (
+            Column("limit", "right"),
+            Column("verdict"),
+            Column("ref.-limited"),
+            Column("device only", "right"),
+        )
     rows = []
     for row in record["results"]:
         unit = statistic_unit(row["statistic"])
         noise = row["noise"] + (f" ({row['noise_method']})" if row["noise_method"] else "")
-        rows.append(
-            (
-                row["statistic"],
-                format_tau(row["tau_s"]),
-                number_text(row["deviation"], unit),
-                number_text(row["ci_low"], unit),
-                number_text(row["ci_high"], unit),
-                edf_text(row["edf"]),
-                noise,
+        cells = (
+            row["statistic"],
+            format_tau(row["tau_s"]),
+            number_text(row["deviation"], unit),
+            number_text(row["ci_low"], unit),
+            number_text(row["ci_high"], unit),
+            edf_text(row["edf"]),
+            noise,
+        )
+        if judged:
+            cells += (
                 number_text(row["limit"], unit),
                 row["verdict"] or "",
                 "yes" if row["reference_limited"] else "",
                 number_text(row["device_only"], unit),
             )
-        )
+        rows.append(cells)
     return Table(columns, tuple(rows), fontsize=6.5)
 
 
 def table_pages(record: dict[str, Any]) -> list[Figure]:
     """The results table over as many pages as it needs (:data:`ROWS_PER_PAGE` rows each)."""
     flow = PageFlow("Results")
-    flow.paragraph(
+    text = (
         f"Intervals are two-sided at {100 * record['confidence']:.3g} % from the equivalent "
-        "degrees of freedom (edf). Verdicts: pass when the upper bound is at or below the "
-        "limit, fail when the lower bound is above it, inconclusive otherwise. Device only = "
-        "sqrt(measured² - reference²), shown beside the measured value, never in its place.",
-        size=7.5,
+        "degrees of freedom (edf). "
     )
+    if record["specification"] is not None:
+        text += (
+            "Verdicts: pass when the upper bound is at or below the limit, fail when the lower "
+            "bound is above it, inconclusive otherwise. Device only = sqrt(measured² - "
+            "reference²), shown beside the measured value, never in its place."
+        )
+    else:
+        text += "No specification was given: the rows carry no limits or verdicts."
+    flow.paragraph(text, size=7.5)
     flow.table(results_table(record), rows_per_page=ROWS_PER_PAGE)
     return flow.pages
 
@@ -385,6 +461,8 @@ def figure_page(title: str, caption: str, height: float) -> tuple[Figure, Any, P
 
 
 def _reference_curve(record: dict[str, Any]) -> tuple[np.ndarray, np.ndarray] | None:
+    if record["specification"] is None:
+        return None
     statistic = record["specification"]["statistic"]
     rows = [r for r in record["results"] if r["statistic"] == statistic and r["reference"]]
     if not rows:
@@ -393,19 +471,31 @@ def _reference_curve(record: dict[str, Any]) -> tuple[np.ndarray, np.ndarray] | 
 
 
 def record_pages(
-    run: AnalysisRun, judgement: Judgement, record: dict[str, Any], *, timing: Any = None
+    run: AnalysisRun, judgement: Judgement | None, record: dict[str, Any], *, timing: Any = None
 ) -> list[Figure]:
     """The pages of record.pdf as A4 figures, each with one footer.
 
-    ``timing`` (a time-error analysis judged against a mask) adds its page last.
+    ``timing`` (a time-error analysis judged against a mask) adds its pages:
+    last when there is a specification, else right after the first page (the
+    mask is then what the record judges).
     """
     pages = identification_pages(record)
-    checks = ", ".join(f"{format_tau(c.tau_s)} {c.verdict}" for c in judgement.listed)
+    mask_pages = timing_pages(timing) if timing is not None else []
+    if judgement is None:
+        pages.extend(mask_pages)
+    level = f"{100 * run.table.confidence:.3g} %"
+    if judgement is not None:
+        checks = ", ".join(f"{format_tau(c.tau_s)} {c.verdict}" for c in judgement.listed)
+        caption = (
+            f"Limits of {judgement.statistic} marked in their verdicts' colours ({checks}). "
+            f"Error bars are two-sided {level} confidence intervals."
+        )
+    else:
+        caption = (
+            "No specification was given: the statistics are shown without limits. "
+            f"Error bars are two-sided {level} confidence intervals."
+        )
     reference = _reference_curve(record)
-    caption = (
-        f"Limits of {judgement.statistic} marked in their verdicts' colours ({checks}). "
-        f"Error bars are two-sided {100 * run.table.confidence:.3g} % confidence intervals."
-    )
     if reference is not None:
         caption += (
             " The dash-dot line is the reference's stated stability at the measured taus "
@@ -416,8 +506,8 @@ def record_pages(
     stability_figure(
         run.table,
         model_curve=run.model_curves(),
-        limits=judgement.plot_limits(),
-        limits_statistic=judgement.statistic,
+        limits=judgement.plot_limits() if judgement is not None else None,
+        limits_statistic=judgement.statistic if judgement is not None else None,
         reference=reference,
         title="",
         footer="",
@@ -434,8 +524,8 @@ def record_pages(
     )
     run_series_figure(run, title="", footer="", into=region)
     pages.append(page)
-    if timing is not None:
-        pages.extend(timing_pages(timing))
+    if judgement is not None:
+        pages.extend(mask_pages)
     add_footers(pages, record)
     return pages
 

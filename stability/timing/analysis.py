@@ -27,6 +27,8 @@ import numpy as np
 from ..analysis import WORK_BUDGET, estimate
 from ..deviations.registry import get_statistic
 from ..deviations.time_error import mtie_windows
+from ..display import Displayable
+from ..display import plot as _plot
 from ..errors import AnalysisError, InputError
 from ..ingest import read_log
 from ..measurement import Measurement
@@ -128,8 +130,14 @@ class SawtoothEffect:
 
 
 @dataclass(frozen=True)
-class TimeErrorAnalysis:
-    """The time-error analysis of one record (complete when built)."""
+class TimeErrorAnalysis(Displayable):
+    """The time-error analysis of one record (complete when built).
+
+    It draws itself (:meth:`plot`: MTIE and TDEV against the mask, as
+    ``stability time-error`` draws ``mtie_tdev.png``; ``plot(view="tie")``: the
+    TIE over the record) and shows itself in a notebook (metrics, verdict,
+    least margins, the caution).
+    """
 
     tau0: float
     te: np.ndarray  # TE as logged (after any sawtooth correction), seconds
@@ -146,6 +154,26 @@ class TimeErrorAnalysis:
     @property
     def span(self) -> float:
         return (self.te.size - 1) * self.tau0
+
+    def plot(
+        self, ax: Any = None, *, figure: Any = None, view: str = "plot", **options: Any
+    ) -> Any:
+        """Draw the MTIE and TDEV figure with the mask, as ``stability time-error`` does.
+
+        ``ax``: one matplotlib ``Axes`` (the MTIE panel) or two (MTIE, then
+        TDEV) to draw on; ``figure``: a ``Figure`` or ``SubFigure`` to draw the
+        whole figure into; neither: a figure of its own (never pyplot).
+        ``view="tie"`` draws the TIE over the record instead, with the worst
+        MTIE window shaded (``window_tau=`` picks the tau; ``ax`` one ``Axes``).
+        Other options go to :func:`stability.figures.timing.mask_figure` or
+        :func:`~stability.figures.timing.tie_figure` (``title``, ``footer``).
+        Returns what was drawn (``MaskDrawn`` or ``TieDrawn``).
+        """
+        return _plot(self, ax=ax, figure=figure, view=view, **options)
+
+    def plot_tie(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The TIE over the record, as ``tie.png``: ``plot(view="tie")``."""
+        return _plot(self, ax=ax, figure=figure, view="tie", **options)
 
     def tdev_judged_to(self) -> float:
         return longest_tau("tdev", self.span)

@@ -487,3 +487,44 @@ def test_time_error_figures_fit():
     check_layout(mask_figure(plain).figure, "MTIE and TDEV without a mask")
     for k, page in enumerate(timing_pages(result), start=1):
         check_layout(page, f"record page {k} of the time error against a mask")
+
+
+def test_record_pages_of_a_mask_alone_fit():
+    # invented 1 PPS log judged against a time-error mask alone (record --mask, no --spec)
+    rng = np.random.default_rng(12)
+    k = np.arange(20000)
+    x = 30e-9 + 5e-9 * np.sin(2 * np.pi * k / 3600) + 2e-9 * rng.standard_normal(k.size)
+    x[[700, 9000]] = np.nan
+    run = run_analysis(Measurement.from_phase(x, 1.0, start=START), stats="oadev,tdev")
+    timing = analyze_time_error(run.source, mask="g8272-prtc-a", remove_offset=True)
+    info = Info(device={"id": "RX-7", "description": "invented timing receiver"})
+    record = build_record(run, None, info, timing)
+    pages = record_pages(run, None, record, timing=timing)
+    assert len(pages) == 6  # page 1, the mask, the TIE, stability, results, data over time
+    for k, page in enumerate(pages, start=1):
+        check_layout(page, f"record page {k} of a mask alone")
+    # with a specification too: its pages first, the mask's last
+    spec = Spec("tdev", confidence=0.95, interpolate=True, limits=[(1.0, 3e-9), (1000.0, 1e-9)])
+    judgement = judge(run.table, spec)
+    record = build_record(run, judgement, info, timing)
+    pages = record_pages(run, judgement, record, timing=timing)
+    for k, page in enumerate(pages, start=1):
+        check_layout(page, f"record page {k} of a specification and a mask")
+
+
+def test_time_error_figures_fit_on_given_axes_and_regions():
+    rng = np.random.default_rng(13)  # invented white phase noise, 2 ns
+    result = analyze_time_error(
+        Measurement.from_phase(2e-9 * rng.standard_normal(5000), 1.0), mask="g8272-prtc-a"
+    )
+    fig = Figure(figsize=(10, 4), dpi=100)
+    result.plot(ax=list(fig.subplots(1, 2, gridspec_kw={"wspace": 0.35})))
+    check_layout(fig, "MTIE and TDEV on given axes")
+    fig = Figure(figsize=(8, 4), dpi=100)
+    result.plot_tie(ax=fig.subplots())
+    check_layout(fig, "TIE on a given axis")
+    page = Figure(figsize=(9, 9), dpi=100)
+    top, bottom = page.subfigures(2, 1)
+    result.plot(figure=top)
+    result.plot(view="tie", figure=bottom)
+    check_layout(page, "MTIE, TDEV and TIE in regions of a page")

@@ -12,6 +12,7 @@ Data: the invented demo logs and calibration history, and invented noise.
 from __future__ import annotations
 
 import glob
+import gzip
 import io
 from datetime import UTC, datetime
 from pathlib import Path
@@ -29,7 +30,7 @@ from matplotlib.lines import Line2D  # noqa: E402
 from matplotlib.text import Text  # noqa: E402
 
 import stability  # noqa: E402
-from stability import workflow  # noqa: E402
+from stability import workflow, workflow_timing  # noqa: E402
 from stability.errors import InputError  # noqa: E402
 from stability.figures import (  # noqa: E402
     HatDrawn,
@@ -39,6 +40,8 @@ from stability.figures import (  # noqa: E402
     StabilityDrawn,
     TimelineDrawn,
 )
+from stability.figures.style import VERDICT_COLORS  # noqa: E402
+from stability.figures.timing import MaskDrawn, TieDrawn  # noqa: E402
 from stability.history import import_records, open_history, review_device  # noqa: E402
 from stability.measurement import Measurement  # noqa: E402
 
@@ -285,4 +288,83 @@ def test_studies_draw_their_whole_figure_into_a_subfigure(hat_result, tmp_path):
         assert all(ax.get_figure(root=False) is region for ax in drawn.axes)
         assert not region.texts or all(t.get_text() == "" for t in region.texts)  # no footer
         assert region._suptitle is None  # a region of a page carries no title of its own
+    page.savefig(io.BytesIO(), format="png")
+
+
+@pytest.fixture(scope="module")
+def timing(tmp_path_factory):
+    """``time_error_into`` on the demo timing log (its first 2 h), the figures it saved kept."""
+    saved = {}
+    real = workflow_timing.save_figure
+
+    def keep(drawn, target, fmt):
+        saved["tie" if isinstance(drawn, TieDrawn) else "mtie_tdev"] = drawn
+        return real(drawn, target, fmt)
+
+    root = tmp_path_factory.mktemp("timing")
+    log = root / "pps.csv"
+    lines = gzip.decompress((DEMO / "gnss-timing-receiver-pps.csv.gz").read_bytes()).decode()
+    log.write_text("\n".join(lines.splitlines()[:7201]) + "\n")
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(workflow_timing, "save_figure", keep)
+        result, _ = workflow_timing.time_error_into(
+            log, root / "out", column="pps_te_ns", mask="g8272-prtc-a", sawtooth="qerr_ns"
+        )
+    return result, saved
+
+
+def _title_and_footer(drawn) -> dict:
+    figure = drawn.figure
+    # the title as given (the masked figure adds a line naming the mask itself)
+    title = figure._suptitle.get_text().split("\n")[0]
+    return {"title": title, "footer": figure.texts[-1].get_text()}
+
+
+def test_time_error_plot_draws_what_the_command_drew(timing):
+    result, saved = timing
+    command = saved["mtie_tdev"]
+    method = result.plot(**_title_and_footer(command))
+    assert isinstance(method, MaskDrawn) and method.figure is not command.figure
+    assert method.figure.canvas.manager is None  # its own figure, not pyplot's
+    drawn, expected = _artists(method.figure), _artists(command.figure)
+    assert len(drawn) == len(expected) > 30
+    assert drawn == expected
+    tie = result.plot(view="tie", **_title_and_footer(saved["tie"]))
+    assert isinstance(tie, TieDrawn)
+    assert _artists(tie.figure) == _artists(saved["tie"].figure)
+    assert _artists(result.plot_tie(**_title_and_footer(saved["tie"])).figure) == _artists(
+        saved["tie"].figure
+    )
+
+
+def test_time_error_plot_onto_given_axes(timing):
+    result, _ = timing
+    one = _on_axes(result)
+    assert isinstance(one, MaskDrawn) and one.statistics == ("mtie",)
+    assert one.axes[0].get_ylabel() == "MTIE (s)"
+    both = _on_axes(result, 2)
+    assert both.statistics == ("mtie", "tdev") and both.axes[1].get_ylabel() == "TDEV (s)"
+    # the judged taus in their verdict colours, the mask's limit line drawn
+    assert set(both.verdict_colors["mtie"]) <= set(VERDICT_COLORS.values())
+    assert both.limit["tdev"].size and both.axes[0].get_legend() is not None
+    tie = _on_axes(result, view="tie")
+    assert isinstance(tie, TieDrawn) and tie.axes[0].get_ylabel() == "TIE (ns)"
+    assert tie.window is not None  # the worst MTIE window shaded
+    figure = Figure()
+    three = figure.subplots(3, 1)
+    with pytest.raises(InputError, match="this figure has 2 panels"):
+        result.plot(ax=list(three))
+    with pytest.raises(InputError, match="either into"):
+        result.plot_tie(ax=three[0], figure=figure)
+
+
+def test_time_error_plot_into_a_subfigure(timing):
+    result, _ = timing
+    page = Figure(figsize=(10, 9))
+    top, bottom = page.subfigures(2, 1)
+    masked = result.plot(figure=top)
+    tie = result.plot_tie(figure=bottom)
+    assert masked.figure is page and tie.figure is page
+    assert all(ax.get_figure(root=False) is top for ax in masked.axes)
+    assert top._suptitle is None and not top.texts  # a region carries no title or footer
     page.savefig(io.BytesIO(), format="png")
