@@ -141,10 +141,9 @@ def mask_section(flow: PageFlow, record: dict[str, Any]) -> None:
     flow.title("Time-error mask")
     flow.key_values(
         [
-            ("mask", mask["name"]),
+            ("mask", f"{mask['name']} ({mask['path'] or 'bundled with the tool'})"),
             ("clock class", mask["title"]),
             ("standard", mask["standard"]),
-            ("file", mask["path"] or "bundled with the tool"),
             ("limits", mask["recalled"]),
             ("frequency offset", "removed before MTIE" if section["offset_removed"] else "kept"),
         ]
@@ -170,8 +169,7 @@ def mask_section(flow: PageFlow, record: dict[str, Any]) -> None:
     )  # fmt: skip
     flow.table(Table(columns, tuple(rows), fontsize=7.5, colors=colors))
     flow.paragraph(
-        "Margin = measured / limit (below 1 passes). The MTIE and TDEV figures, the "
-        "time-error metrics and the TIE over the record follow on their own pages.",
+        "Margin = measured / limit (below 1 passes); the figures, metrics and TIE follow.",
         size=7.5,
         color=_SOFT,
     )
