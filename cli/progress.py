@@ -35,7 +35,23 @@ def step_count(stats: Any) -> int:
     return len([n for n in names if str(n).strip()]) + 1
 
 
-class ProgressDisplay:
+class _Bar:
+    """A rich bar shown while the ``with`` block runs, stopped (and cleared) at its end."""
+
+    _bar: Progress | None = None
+
+    def __exit__(
+        self,
+        kind: type[BaseException] | None,
+        error: BaseException | None,
+        trace: TracebackType | None,
+    ) -> None:
+        if self._bar is not None:
+            self._bar.stop()
+            self._bar = None
+
+
+class ProgressDisplay(_Bar):
     """A progress bar on standard error, or nothing.
 
     Use as a context manager; :meth:`reading` and :meth:`steps` give the
@@ -68,16 +84,6 @@ class ProgressDisplay:
             self._bar.start()
         return self
 
-    def __exit__(
-        self,
-        kind: type[BaseException] | None,
-        error: BaseException | None,
-        trace: TracebackType | None,
-    ) -> None:
-        if self._bar is not None:
-            self._bar.stop()
-            self._bar = None
-
     def reading(self, name: str) -> Callable[[int, int], None] | None:
         """``on_progress(bytes_done, bytes_total)`` for reading the log ``name``, or None."""
         if self._bar is None:
@@ -105,7 +111,7 @@ class ProgressDisplay:
         return on_step
 
 
-class LogsProgress:
+class LogsProgress(_Bar):
     """A bar over the logs of a fleet with the time left, on a terminal only.
 
     :meth:`update` takes the ``on_result(done, total, result)`` calls of
@@ -134,16 +140,6 @@ class LogsProgress:
             self._bar.start()
             self._task = self._bar.add_task("logs", total=None)
         return self
-
-    def __exit__(
-        self,
-        kind: type[BaseException] | None,
-        error: BaseException | None,
-        trace: TracebackType | None,
-    ) -> None:
-        if self._bar is not None:
-            self._bar.stop()
-            self._bar = None
 
     def update(self, done: int, total: int, result: Any) -> None:
         """Move the bar on by one finished log (nothing when no bar is shown)."""
