@@ -200,7 +200,7 @@ def batch(
         bar.update(done, total, result)
 
     with LogsProgress(enabled=not opts.json) as bar:
-        frame = run_batch(
+        fleet = run_batch(
             jobs,
             folder,
             at=seconds,
@@ -213,6 +213,7 @@ def batch(
             on_start=started,
             on_result=finished,
         )
+    frame = fleet.table
     counts = fleet_counts(frame)
     if opts.json:
         echo(json.dumps(json.loads(frame.to_json(orient="records")), indent=2))

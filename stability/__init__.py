@@ -32,6 +32,7 @@ _display.add_provider(f"{__name__}.figures")
 _display.add_provider(f"{__name__}.reports.html")
 _display.add_provider(f"{__name__}.reports.timing_display")
 _display.add_provider(f"{__name__}.history.display")
+_display.add_provider(f"{__name__}.reports.cause_html")
 
 #: Public name -> module that defines it (relative to this package), or
 #: ``module:attribute`` where the public name differs from the defining one.
@@ -71,13 +72,14 @@ _LAZY = {
     "run_with_causes": ".causes",
     "CauseSettings": ".causes",
     "welch_spectrum": ".spectrum",
+    "causes_of": ".causes",
     "validate": ".validation",
 }
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers and editors only
     from . import simulate
     from .analysis import analyze, estimate
-    from .causes import CauseSettings, run_with_causes
+    from .causes import CauseSettings, causes_of, run_with_causes
     from .deviations import STATISTICS, get_statistic, statistic_names
     from .dynamic import dynamic_stability
     from .fleet import batch
@@ -151,6 +153,7 @@ __all__ = [
     "AnalysisRun",
     "run_with_causes",
     "CauseSettings",
+    "causes_of",
     "welch_spectrum",
     "identify",
     "separate",

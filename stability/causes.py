@@ -18,6 +18,9 @@ around it, each optional and each said in the results:
 Everything found goes to ``table.extras["causes"]``, which the summary carries
 as its ``causes`` field; the objects behind it (the Sensitivity, the Spectrum and
 the Lines) to ``table.extras["cause_objects"]``, for the figures.
+:func:`causes_of` gathers them as one result, :class:`Causes`, that draws the
+command's spectrum and environment figures and shows what was found in a
+notebook.
 """
 
 from __future__ import annotations
@@ -33,7 +36,15 @@ from typing import Any
 import numpy as np
 
 from .dead_time import check_counter, counter_note, dead_time_bias, gate_ratio, mu_of_alpha
-from .environment import DEFAULT_LAG_RANGE, aux_on_frequency_grid, regress, remove_effect
+from .display import Displayable
+from .display import plot as _plot
+from .environment import (
+    DEFAULT_LAG_RANGE,
+    Sensitivity,
+    aux_on_frequency_grid,
+    regress,
+    remove_effect,
+)
 from .errors import AnalysisError, InputError
 from .ingest.auxiliary import AUX_QUANTITIES, parse_aux_spec, read_auxiliary
 from .measurement import Measurement
@@ -52,6 +63,8 @@ __all__ = [
     "periodic_study",
     "periodic_marks",
     "cause_notes",
+    "Causes",
+    "causes_of",
 ]
 
 #: Statistics the dead-time correction applies to (Barnes' B2 is for the Allan variance).
@@ -402,3 +415,96 @@ def cause_notes(table: StabilityTable) -> list[str]:
         if not n.startswith(("Allan deviations", "Lambda", "Pi-", "Omega"))
     ]
     return out
+
+
+@dataclass(frozen=True)
+class Causes(Displayable):
+    """Where the instability of an analysed log comes from, as one result.
+
+    Made by :func:`causes_of` from a run of :func:`run_with_causes`; holds the
+    run and reads what the study found from its table's extras, so it adds no
+    copy of the data.
+
+    Attributes
+    ----------
+    run
+        The :class:`~stability.run.AnalysisRun` the causes were studied in.
+    """
+
+    run: AnalysisRun
+
+    def __repr__(self) -> str:
+        found = [
+            "a spectrum" if self.spectrum is not None else "no spectrum",
+            f"{len(self.lines)} periodic component(s)",
+        ]
+        if self.sensitivity is not None:
+            found.append(f"sensitivity to {self.sensitivity.quantity}")
+        return f"Causes({', '.join(found)})"
+
+    @property
+    def summary(self) -> dict[str, Any]:
+        """The ``causes`` field of the run's summary (settings, findings, notes)."""
+        return self.run.table.extras["causes"]
+
+    @property
+    def spectrum(self) -> Spectrum | None:
+        """The Welch spectrum (None for a log too short for one)."""
+        return self.run.table.extras["cause_objects"]["spectrum"]
+
+    @property
+    def lines(self) -> list[Line]:
+        """The periodic components found, strongest first."""
+        return list(self.run.table.extras["cause_objects"]["lines"])
+
+    @property
+    def sensitivity(self) -> Sensitivity | None:
+        """The fitted environmental sensitivity (None without a regression)."""
+        return self.run.table.extras["cause_objects"]["sensitivity"]
+
+    @property
+    def model(self) -> Any:
+        """The power-law model fitted to the Allan deviation (None without one)."""
+        return self.run.table.extras.get("power_law_model")
+
+    def notes(self) -> list[str]:
+        """What was found, in short neutral sentences (:func:`cause_notes`)."""
+        return cause_notes(self.run.table)
+
+    def plot(
+        self, ax: Any = None, *, figure: Any = None, view: str = "spectrum", **options: Any
+    ) -> Any:
+        """The command's figures of the causes.
+
+        Parameters
+        ----------
+        ax
+            Matplotlib ``Axes`` to draw the panels into (one or two), or None for a
+            figure of its own (never pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        view
+            ``"spectrum"``: the figure ``stability spectrum`` writes (the Welch
+            spectrum, the Allan-deviation model beside the spectrum's own fit, the
+            periodic components); ``"environment"``: the figure ``--regress``
+            writes (frequency and the quantity over time and against each other).
+        options
+            Those of the figure function (title, footer).
+        """
+        if view not in ("spectrum", "environment"):
+            raise InputError(f"view must be 'spectrum' or 'environment', got {view!r}")
+        name = "plot" if view == "spectrum" else view
+        return _plot(self, ax=ax, figure=figure, view=name, **options)
+
+
+def causes_of(run: AnalysisRun) -> Causes:
+    """The causes a run of :func:`run_with_causes` studied, as one displayable result."""
+    if not isinstance(run, AnalysisRun):
+        raise InputError(f"run must be a stability.AnalysisRun, got {type(run).__name__}")
+    extras = run.table.extras or {}
+    if "causes" not in extras or "cause_objects" not in extras:
+        raise InputError(
+            "this run did not study the causes",
+            hint="make it with stability.run_with_causes (or analyze --regress / spectrum)",
+        )
+    return Causes(run)

@@ -43,6 +43,8 @@ from typing import Any
 
 import numpy as np
 
+from .display import Displayable
+from .display import plot as _plot
 from .errors import AnalysisError, InputError
 from .measurement import Measurement
 from .spectrum import fit_spectrum, welch_spectrum
@@ -58,7 +60,7 @@ DEFAULT_LAG_RANGE = (0.0, 3600.0)
 
 
 @dataclass(frozen=True)
-class Sensitivity:
+class Sensitivity(Displayable):
     """The fitted sensitivity of fractional frequency to an auxiliary quantity.
 
     Attributes
@@ -82,6 +84,11 @@ class Sensitivity:
         Frequency samples used and those filled for the transforms.
     noise_model
         alpha -> h_alpha of the noise model that weights the regression.
+    tau0
+        Sample interval of the frequency series, s.
+    series
+        (fractional frequency as regressed, the quantity at its samples), missing
+        values left as NaN, for :meth:`plot`; None when not kept.
     """
 
     quantity: str
@@ -97,6 +104,8 @@ class Sensitivity:
     filled: int
     noise_model: dict[int, float]
     notes: list[str] = field(default_factory=list)
+    tau0: float = math.nan
+    series: tuple[np.ndarray, np.ndarray] | None = field(default=None, repr=False, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -116,6 +125,26 @@ class Sensitivity:
             "power-law noise model, first-order lag searched",
             "notes": list(self.notes),
         }
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """Frequency and the quantity over time, and against each other (``--regress``).
+
+        Draws the series the regression was fitted to with
+        :func:`stability.figures.environment_figure`, the figure ``stability
+        analyze --regress`` writes as ``environment.png``.
+
+        Parameters
+        ----------
+        ax
+            One or two matplotlib ``Axes`` (over time, then frequency against the
+            quantity) to draw into. None draws a figure of its own (never pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`~stability.figures.environment_figure` (aux_unit,
+            title, footer).
+        """
+        return _plot(self, ax=ax, figure=figure, **options)
 
     def describe(self) -> str:
         return (
@@ -305,7 +334,8 @@ def regress(
     """
     u_raw, (lo, hi) = _check(measurement, aux, lag_range)
     tau0 = measurement.tau0
-    y, y_filled = _filled(measurement.frequency(), "the frequency series")
+    y_raw = measurement.frequency()
+    y, y_filled = _filled(y_raw, "the frequency series")
     u, u_filled = _filled(u_raw, f"the {quantity} series")
     if np.ptp(u) == 0:
         raise AnalysisError(f"the {quantity} series does not vary: no sensitivity can be fitted")
@@ -354,6 +384,8 @@ def regress(
         filled=y_filled + u_filled,
         noise_model=h,
         notes=notes,
+        tau0=float(tau0),
+        series=(y_raw, u_raw),
     )
 
 

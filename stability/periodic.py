@@ -49,6 +49,7 @@ from typing import Any
 
 import numpy as np
 
+from .display import Displayable
 from .errors import InputError
 from .spectrum import Spectrum, fit_spectrum
 
@@ -77,7 +78,7 @@ PEAK_VALUE = math.sin(PEAK_U) ** 2 / PEAK_U
 
 
 @dataclass(frozen=True)
-class Line:
+class Line(Displayable):
     """A periodic component found in the spectrum.
 
     Attributes

@@ -47,6 +47,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .display import Displayable
+from .display import plot as _plot
 from .errors import AnalysisError, InputError
 from .intervals import check_confidence
 from .measurement import Measurement
@@ -76,7 +78,7 @@ _KEEP_Z = 2.0
 
 
 @dataclass(frozen=True)
-class SpectrumFit:
+class SpectrumFit(Displayable):
     """h_alpha fitted to a spectrum.
 
     Attributes
@@ -111,7 +113,7 @@ class SpectrumFit:
 
 
 @dataclass(frozen=True)
-class Spectrum:
+class Spectrum(Displayable):
     """A Welch spectrum of fractional frequency with its chi-squared band.
 
     Attributes
@@ -156,6 +158,14 @@ class Spectrum:
     bin_correlation: float = 1.0
     notes: list[str] = field(default_factory=list)
 
+    def __repr__(self) -> str:
+        fit = "" if self.fit is None else f", fit of {self.fit.bins} ordinates"
+        return (
+            f"Spectrum({self.f.size} frequencies {self.f[0]:.4g} to {self.f[-1]:.4g} Hz, "
+            f"{self.segments_used} segments of {self.segment_length} samples, "
+            f"{self.edf:.3g} dof{fit})"
+        )
+
     @property
     def s_x(self) -> np.ndarray:
         """One-sided PSD of phase (time error), s^2/Hz: S_y / (2 pi f)^2."""
@@ -170,6 +180,29 @@ class Spectrum:
     @property
     def resolution(self) -> float:
         return 1.0 / (self.segment_length * self.tau0)
+
+    def plot(self, ax: Any = None, *, figure: Any = None, **options: Any) -> Any:
+        """The spectrum as ``stability spectrum`` draws it: S_y with its band, then L(f) or S_x.
+
+        Parameters
+        ----------
+        ax
+            One or two matplotlib ``Axes`` (S_y, then L(f) or S_x) to draw into,
+            in a figure the caller lays out. None draws a figure of its own
+            (``matplotlib.figure.Figure``, never pyplot).
+        figure
+            A ``Figure`` or ``SubFigure`` to draw the whole figure into instead.
+        options
+            Those of :func:`stability.figures.spectrum_figure`: ``lines`` (periodic
+            components to mark, :func:`stability.periodic.find_lines`), ``models``
+            (default: the spectrum's own power-law fit), title, footer.
+
+        Returns
+        -------
+        stability.figures.SpectrumDrawn
+            The figure, its panels (``.axes``) and the data as drawn.
+        """
+        return _plot(self, ax=ax, figure=figure, **options)
 
     def fit_mask(self) -> np.ndarray:
         """Ordinates that follow the power law (used by fits and line searches)."""

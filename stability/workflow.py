@@ -21,14 +21,13 @@ from typing import Any
 
 from .causes import CauseSettings, analyse_with_causes, periodic_marks
 from .display import Displayable, register_html, register_text
-from .environment import aux_on_frequency_grid
-from .errors import AnalysisError, InputError
+from .errors import InputError
 from .figures import (
-    environment_figure,
+    run_environment_figure,
     run_series_figure,
+    run_spectrum_figure,
     run_stability_figure,
     save_figure,
-    spectrum_figure,
 )
 from .figures.labels import default_footer, default_title
 from .history import HistoryStore, StoredRecord, open_history
@@ -244,18 +243,9 @@ def analyze_into(
 
 
 def environment_drawing(run: AnalysisRun) -> Any:
-    """The environment figure of a run with a regression: frequency and the quantity."""
-    fitted = run.table.extras["cause_objects"]["sensitivity"]
-    source = run.source
-    return environment_figure(
-        source.frequency(),
-        aux_on_frequency_grid(source, fitted.quantity),
-        source.tau0,
-        fitted,
-        aux_unit=source.auxiliary[fitted.quantity].unit,
-        title=default_title(source, f"frequency and {fitted.quantity}"),
-        footer=default_footer(run.table, analysis_time=run.analysis_time),
-    )
+    """The environment figure of a run with a regression: frequency and the quantity
+    (:func:`stability.figures.run_environment_figure`, also ``Causes.plot(view="environment")``)."""
+    return run_environment_figure(run)
 
 
 def _draw_environment(target: Path, fmt: str, run: AnalysisRun) -> Path:
@@ -263,29 +253,9 @@ def _draw_environment(target: Path, fmt: str, run: AnalysisRun) -> Path:
 
 
 def spectrum_drawing(run: AnalysisRun, title: str | None = None) -> Any:
-    """The spectrum figure of a run made by :func:`stability.causes.run_with_causes`:
-    the Welch spectrum, the Allan-deviation model beside the spectrum's own fit, the
-    periodic components found."""
-    objects = run.table.extras["cause_objects"]
-    spectrum, lines = objects["spectrum"], objects["lines"]
-    if spectrum is None:
-        raise AnalysisError(
-            f"{run.measurement.n - 1} frequency samples are too few for a spectrum",
-            hint="use a longer log",
-        )
-    model = run.table.extras.get("power_law_model")
-    models = {}
-    if model is not None and any(v > 0 for v in model.h.values()):
-        models["model of the Allan deviation"] = dict(model.h)
-    if spectrum.fit is not None:
-        models["fit to this spectrum"] = dict(spectrum.fit.h)
-    return spectrum_figure(
-        spectrum,
-        models=models,
-        lines=lines,
-        title=title if title is not None else default_title(run.source, "spectrum"),
-        footer=default_footer(run.table, analysis_time=run.analysis_time),
-    )
+    """The spectrum figure of a run made by :func:`stability.causes.run_with_causes`
+    (:func:`stability.figures.run_spectrum_figure`, also ``Causes.plot()``)."""
+    return run_spectrum_figure(run, title=title)
 
 
 def spectrum_into(

@@ -306,7 +306,7 @@ def test_a_running_scheduler_takes_the_fleet(tmp_path):
             scheduler=cluster.scheduler_address,
             on_start=dashboards.append,
             on_result=lambda done, total, result: results.append(result),
-        )
+        ).table
         assert len(client.scheduler_info()["workers"]) == 1  # the cluster outlives the batch
     assert (frame["status"] == "ok").all() and len(frame) == 3
     assert {int(r["worker"].rsplit(":", 1)[1]) for r in results} == pids  # its worker did it

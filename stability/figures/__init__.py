@@ -20,6 +20,8 @@
 ``reduce``       min/max envelopes and merged gap spans of long records
 ``plot_methods`` the figures behind the results' ``plot`` methods (registered
                  with :mod:`stability.display` on import)
+``cause_figures`` the causes study's figures as the commands draw them, and the
+                 ``plot`` methods of a spectrum, a sensitivity and the causes
 
 Every figure function validates its input, draws on a new ``Figure`` with the
 Agg canvas (never pyplot's global state) and returns a frozen dataclass, a
@@ -28,6 +30,7 @@ drawn. Importing this package loads matplotlib; nothing on the reading and
 analysis path imports it.
 """
 
+from .cause_figures import run_environment_figure, run_spectrum_figure
 from .environment import EnvironmentDrawn, environment_figure
 from .hat import HatDrawn, hat_figure
 from .history import HistoryDrawn as HistoryDrawn
@@ -63,6 +66,8 @@ __all__ = [
     "timeline_figure",
     "spectrum_figure",
     "environment_figure",
+    "run_spectrum_figure",
+    "run_environment_figure",
     "overlay_figure",
     "overlay_footer",
     "save_figure",

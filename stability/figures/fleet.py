@@ -7,7 +7,9 @@ devices furthest from the population or the limit, named in the legend.
 :func:`distribution_figure` shows how the devices' deviations at one tau are
 spread (a histogram on a log scale), with the median and the limit at that
 tau. Both take plain numbers (the fleet's own code gathers them), draw on a
-new figure with the Agg canvas and return what they drew.
+new figure with the Agg canvas, into a ``Figure`` or ``SubFigure`` (``into=``)
+or onto a caller's ``Axes`` (``axes=``, the legend beside it), and return what
+they drew.
 """
 
 from __future__ import annotations
@@ -35,6 +37,7 @@ from .style import (
     Drawn,
     deviation_label,
     frame_for,
+    given_axes,
     log_axes,
     log_paper,
     put_footer,
@@ -121,7 +124,36 @@ def _limits(limits: Any) -> tuple[tuple[float, float], ...]:
     return tuple(r for r in rows if r[0] > 0 and r[1] > 0)
 
 
+def _panel(into: Any, axes: Any) -> tuple[Any, Any, Any]:
+    """(frame or None, the data panel, where the title and footer go) of a fleet figure.
+
+    A caller's ``axes`` (one panel) is drawn on as it is; otherwise the panel is
+    placed in a figure of its own or in ``into`` as the fleet page has it.
+    """
+    if axes is not None:
+        (ax,) = given_axes(axes, 1, "panel", into)
+        return None, ax, ax.get_figure(root=False)
+    frame = frame_for(into, _WIDTH, _HEIGHT)
+    return frame, frame.target.add_axes(frame.rect(*_PANEL)), frame.target
+
+
+def _texts(target: Any, title: str | None, footer: str | None) -> None:
+    if title:
+        target.suptitle(title, fontsize=TITLE_SIZE)
+    if footer:
+        put_footer(target, footer)
+
+
 def _legend(ax: Any, frame: Any) -> None:
+    if frame is None:  # a caller's axes: the legend beside the panel
+        ax.legend(
+            loc="upper left",
+            bbox_to_anchor=(1.02, 1.0),
+            fontsize=LEGEND_SIZE,
+            frameon=False,
+            borderaxespad=0.0,
+        )
+        return
     ax.legend(
         loc="upper left",
         bbox_to_anchor=frame.rect(_SIDE_X, _PANEL[1] + _PANEL[3], 0, 0)[:2],
@@ -142,6 +174,8 @@ def fleet_figure(
     named: Sequence[str] = (),
     title: str | None = None,
     footer: str | None = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> FleetDrawn:
     """Every device's curve, the median and 10-90 % band, the limit and the named devices.
 
@@ -159,13 +193,17 @@ def fleet_figure(
         Devices to draw in colour and name in the legend (at most five are named).
     title, footer
         Texts above and below the panel.
+    into
+        A ``Figure`` or ``SubFigure`` to draw the whole figure into.
+    axes
+        One ``Axes`` to draw the panel onto, in a figure the caller lays out
+        (the legend beside it).
     """
     drawn = _curves(curves)
     check_text(title=title, footer=footer)
     tau_b, med, low, high = (np.asarray(v, dtype=float) for v in band)
     shown_named = tuple(n for n in named if n in drawn)[: len(FLEET_NAMED_COLORS)]
-    frame = frame_for(None, _WIDTH, _HEIGHT)
-    ax = frame.target.add_axes(frame.rect(*_PANEL))
+    frame, ax, target = _panel(into, axes)
     style_axes(ax)
     if not drawn:
         _nothing(ax, "no device finished with a curve to draw")
@@ -219,13 +257,9 @@ def fleet_figure(
     if drawn:
         log_paper(ax)
         _legend(ax, frame)
-    fig = frame.figure
-    if title:
-        fig.suptitle(title, fontsize=TITLE_SIZE)
-    if footer:
-        put_footer(fig, footer)
+    _texts(target, title, footer)
     return FleetDrawn(
-        fig,
+        target.get_figure(root=True),
         (ax,),
         curves=drawn,
         band=(tau_b, med, low, high),
@@ -243,12 +277,15 @@ def distribution_figure(
     named: Sequence[str] = (),
     title: str | None = None,
     footer: str | None = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> DistributionDrawn:
     """How the devices' deviations at ``tau`` are spread, with the median and the limit.
 
     ``values`` maps device -> deviation at ``tau`` (NaN: not measured there,
     left out); the histogram's bins are equal on a log scale. ``named``
-    devices are marked under the bars in their colours.
+    devices are marked under the bars in their colours. ``into`` and ``axes``
+    as for :func:`fleet_figure`.
     """
     check_text(title=title, footer=footer)
     if not isinstance(values, Mapping):
@@ -256,7 +293,7 @@ def distribution_figure(
     kept = {str(k): float(v) for k, v in values.items() if v is not None and float(v) > 0}
     kept = {k: v for k, v in kept.items() if math.isfinite(v)}
     if not kept:
-        return _empty_distribution(tau, statistic, title, footer)
+        return _empty_distribution(tau, statistic, title, footer, _panel(into, axes))
     logs = np.log10(np.fromiter(kept.values(), dtype=float))
     lo, hi = float(logs.min()), float(logs.max())
     if limit is not None and limit > 0:
@@ -266,8 +303,7 @@ def distribution_figure(
     edges = 10.0 ** np.linspace(lo - pad, hi + pad, bins + 1)
     counts, _ = np.histogram(np.fromiter(kept.values(), dtype=float), bins=edges)
     median = float(np.median(np.fromiter(kept.values(), dtype=float)))
-    frame = frame_for(None, _WIDTH, _HEIGHT)
-    ax = frame.target.add_axes(frame.rect(*_PANEL))
+    frame, ax, target = _panel(into, axes)
     log_axes(ax, "x")
     style_axes(ax, minor_grid=False)
     ax.stairs(
@@ -306,13 +342,9 @@ def distribution_figure(
     ax.set_xlabel(f"{deviation_label([statistic])} at \u03c4 = {tau:g} s", fontsize=LABEL_SIZE)
     ax.set_ylabel("devices", fontsize=LABEL_SIZE)
     _legend(ax, frame)
-    fig = frame.figure
-    if title:
-        fig.suptitle(title, fontsize=TITLE_SIZE)
-    if footer:
-        put_footer(fig, footer)
+    _texts(target, title, footer)
     return DistributionDrawn(
-        fig,
+        target.get_figure(root=True),
         (ax,),
         values=kept,
         edges=edges,
@@ -323,20 +355,21 @@ def distribution_figure(
 
 
 def _empty_distribution(
-    tau: float, statistic: str, title: str | None, footer: str | None
+    tau: float, statistic: str, title: str | None, footer: str | None, panel: tuple
 ) -> DistributionDrawn:
-    frame = frame_for(None, _WIDTH, _HEIGHT)
-    ax = frame.target.add_axes(frame.rect(*_PANEL))
+    _, ax, target = panel
     style_axes(ax, minor_grid=False)
     _nothing(ax, f"no device was measured at \u03c4 = {tau:g} s")
     ax.set_xlabel(f"{deviation_label([statistic])} at \u03c4 = {tau:g} s", fontsize=LABEL_SIZE)
     ax.set_ylabel("devices", fontsize=LABEL_SIZE)
-    fig = frame.figure
-    if title:
-        fig.suptitle(title, fontsize=TITLE_SIZE)
-    if footer:
-        put_footer(fig, footer)
+    _texts(target, title, footer)
     empty = np.array([], dtype=float)
     return DistributionDrawn(
-        fig, (ax,), values={}, edges=empty, counts=empty, median=math.nan, limit=None
+        target.get_figure(root=True),
+        (ax,),
+        values={},
+        edges=empty,
+        counts=empty,
+        median=math.nan,
+        limit=None,
     )

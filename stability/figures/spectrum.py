@@ -38,10 +38,11 @@ from .style import (
     NOTE_COLOR,
     TITLE_SIZE,
     Drawn,
+    given_axes,
     log_axes,
-    new_figure,
     put_footer,
     style_axes,
+    target_for,
 )
 
 __all__ = ["SpectrumDrawn", "spectrum_figure", "SY_LABEL", "SX_LABEL", "LF_LABEL", "F_LABEL"]
@@ -67,7 +68,8 @@ class SpectrumDrawn(Drawn):
     lines
         (frequency, S_y at it) of each periodic component marked.
     right
-        ``"L(f)"`` or ``"S_x"``: what the right panel holds.
+        ``"L(f)"`` or ``"S_x"``: what the right panel holds (``""`` when only the
+        S_y panel was drawn, on one given axis).
     """
 
     f: np.ndarray
@@ -106,6 +108,30 @@ def _legend_below(ax: Axes) -> None:
     )
 
 
+def _right_panel(right: Axes, spectrum: Spectrum) -> str:
+    """L(f) at the nominal frequency, else S_x(f); which one it drew."""
+    f = spectrum.f
+    style_axes(right)
+    lf = spectrum.phase_noise()
+    if lf is not None:
+        log_axes(right, "x")
+        right.plot(f, lf, color=FREQUENCY_COLOR, linewidth=0.9, label="\u2112(f) from the log")
+        right.set_ylabel(LF_LABEL, fontsize=LABEL_SIZE)
+        what = "L(f)"
+        right.set_title(f"carrier {spectrum.nominal:g} Hz", fontsize=LABEL_SIZE, color=NOTE_COLOR)
+    else:
+        log_axes(right)
+        right.plot(
+            f, spectrum.s_x, color=FREQUENCY_COLOR, linewidth=0.9, label="S_x(f) from the log"
+        )
+        right.set_ylabel(SX_LABEL, fontsize=LABEL_SIZE)
+        what = "S_x"
+        right.set_title("no nominal frequency: phase PSD", fontsize=LABEL_SIZE, color=NOTE_COLOR)
+    right.set_xlabel(F_LABEL, fontsize=LABEL_SIZE)
+    _legend_below(right)
+    return what
+
+
 def spectrum_figure(
     spectrum: Spectrum,
     *,
@@ -114,6 +140,8 @@ def spectrum_figure(
     title: str | None = None,
     footer: str | None = None,
     analysis_time: datetime | None = None,
+    into: Any = None,
+    axes: Any = None,
 ) -> SpectrumDrawn:
     """Draw a Welch spectrum, its band, power-law models and periodic components.
 
@@ -128,11 +156,21 @@ def spectrum_figure(
         Periodic components to mark.
     title, footer, analysis_time
         Title (default "spectrum"), footer (default tool version and date).
+    into
+        A ``Figure`` or ``SubFigure`` to draw into (no title or footer unless given).
+    axes
+        One or two ``Axes`` to draw the panels into (S_y, then L(f) or S_x), for a
+        figure the caller lays out; as many panels are drawn as axes are given
+        (no title or footer unless given).
     """
     _validate(spectrum, models, lines, title, footer)
     f = spectrum.f
-    fig = new_figure(11.0, 5.6)
-    axes = tuple(fig.subplots(1, 2, squeeze=False)[0])
+    if axes is not None:
+        axes = given_axes(axes, 2, "panels (S_y, then L(f) or S_x)", into, fewer=True)
+        fig, own = axes[0].get_figure(root=False), False
+    else:
+        fig, own = target_for(into, 11.0, 5.6)
+        axes = tuple(fig.subplots(1, 2, squeeze=False)[0])
     ax = axes[0]
     style_axes(ax)
     log_axes(ax)
@@ -177,30 +215,16 @@ def spectrum_figure(
         color=NOTE_COLOR,
     )
     _legend_below(ax)
-    right = axes[1]
-    style_axes(right)
-    lf = spectrum.phase_noise()
-    if lf is not None:
-        log_axes(right, "x")
-        right.plot(f, lf, color=FREQUENCY_COLOR, linewidth=0.9, label="\u2112(f) from the log")
-        right.set_ylabel(LF_LABEL, fontsize=LABEL_SIZE)
-        what = "L(f)"
-        right.set_title(f"carrier {spectrum.nominal:g} Hz", fontsize=LABEL_SIZE, color=NOTE_COLOR)
-    else:
-        log_axes(right)
-        right.plot(
-            f, spectrum.s_x, color=FREQUENCY_COLOR, linewidth=0.9, label="S_x(f) from the log"
-        )
-        right.set_ylabel(SX_LABEL, fontsize=LABEL_SIZE)
-        what = "S_x"
-        right.set_title("no nominal frequency: phase PSD", fontsize=LABEL_SIZE, color=NOTE_COLOR)
-    right.set_xlabel(F_LABEL, fontsize=LABEL_SIZE)
-    _legend_below(right)
-    fig.suptitle(title or "spectrum", fontsize=TITLE_SIZE)
-    put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
+    what = ""
+    if len(axes) > 1:
+        what = _right_panel(axes[1], spectrum)
+    if own or title:
+        fig.suptitle(title or "spectrum", fontsize=TITLE_SIZE)
+    if own or footer:
+        put_footer(fig, footer if footer is not None else tool_footer(analysis_time))
     return SpectrumDrawn(
-        fig,
-        axes,
+        fig.get_figure(root=True),
+        tuple(axes),
         f=f,
         s_y=spectrum.s_y,
         low=spectrum.low,

@@ -2,8 +2,10 @@
 
 ::
 
-    frame = stability.fleet.batch("fleet.csv", "out/", nominal="10MHz")  # a manifest
-    frame = stability.fleet.batch(jobs_from_patterns(["logs/*.csv"]), "out/")
+    fleet = stability.fleet.batch("fleet.csv", "out/", nominal="10MHz")  # a manifest
+    fleet = stability.fleet.batch(jobs_from_patterns(["logs/*.csv"]), "out/")
+    fleet.table                       # the fleet table (pandas), as in fleet.csv
+    fleet.plot(view="distribution")   # the figures it wrote, drawn again
 
 Each log is done by :func:`stability.fleet.engine.run_fleet` on Dask into
 ``out/<device>/``; then the fleet's own outputs are written into ``out/`` as
@@ -11,7 +13,9 @@ one set (:class:`stability.outputs.OutputSet`: all or nothing, the folder
 locked, no output may be an input): ``fleet.csv`` (full precision),
 ``fleet.parquet`` (when pyarrow is installed), ``fleet.md``, ``fleet.png``,
 ``fleet_distribution.png`` and ``fleet.html``. A run stopped by Ctrl-C or
-SIGTERM writes none of them; its progress file lets the next run resume.
+SIGTERM writes none of them; its progress file lets the next run resume. It
+returns the :class:`~stability.fleet.result.Fleet`, whose figures are drawn by
+the functions that drew the files.
 """
 
 from __future__ import annotations
@@ -20,32 +24,23 @@ import dataclasses
 import importlib.util
 import math
 import os
-from collections.abc import Mapping, Sequence
+from collections.abc import Sequence
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-import pandas as pd
-
 from ..errors import InputError
 from ..figures import save_figure
-from ..figures.fleet import distribution_figure, fleet_figure
-from ..figures.labels import analysis_date, tool_footer
+from ..figures.labels import analysis_date
 from ..outputs import OutputSet
 from ..reports.fleet import fleet_html, fleet_markdown
 from ..run import resolve_settings
 from ..settings import RunSettings
-from .engine import FleetRun, OnResult, OnStart, run_fleet
+from .engine import OnResult, OnStart, run_fleet
 from .manifest import FleetJob, read_manifest
-from .table import curves_of, fleet_frame, population, rank_devices
+from .result import NAMED_DEVICES, Fleet, draw_distribution, draw_fleet, fleet_result
 
 __all__ = ["batch", "fleet_names", "NAMED_DEVICES"]
-
-#: How many devices the fleet figure names at most (and a quarter of the fleet at most).
-NAMED_DEVICES = 5
-#: Devices needed at a tau for the fleet figure's median and band there.
-_BAND_MINIMUM = 3
 
 
 def fleet_names() -> tuple[list[str], list[str]]:
@@ -75,47 +70,6 @@ def _jobs(
             hint="pass them to read_manifest or jobs_from_patterns",
         )
     return listed
-
-
-def _at(curves: Mapping[str, tuple[np.ndarray, np.ndarray]], tau: float) -> dict[str, float]:
-    out = {}
-    for name, (taus, dev) in curves.items():
-        hit = np.flatnonzero(np.isclose(taus, tau, rtol=1e-9, atol=0.0))
-        if hit.size:
-            out[name] = float(dev[hit[0]])
-    return out
-
-
-def _draw(
-    run: FleetRun, ranking: pd.DataFrame, at: float, title: str, moment: datetime
-) -> dict[str, Any]:
-    curves = curves_of(run.results)
-    # a quarter of the finished devices at most, so a small fleet is not all in colour
-    count = min(NAMED_DEVICES, max(1, len(curves) // 4))
-    named = list(ranking["device"].head(count))
-    spec = next(iter(run.specs.values())) if len(run.specs) == 1 else None
-    limits = spec.limits if spec is not None and spec.statistic == run.statistic else None
-    footer = tool_footer(moment)
-    fleet = fleet_figure(
-        curves,
-        population(curves, _BAND_MINIMUM),
-        statistic=run.statistic,
-        limits=limits,
-        named=named,
-        title=title,
-        footer=footer,
-    )
-    limit = float(spec.limit_at(at)) if limits is not None else None
-    spread = distribution_figure(
-        _at(curves, at),
-        at,
-        statistic=run.statistic,
-        limit=limit if limit is not None and math.isfinite(limit) else None,
-        named=named,
-        title=f"{title}: spread at \u03c4 = {at:g} s",
-        footer=footer,
-    )
-    return {"fleet.png": fleet, "fleet_distribution.png": spread}
 
 
 def _shared_settings(jobs: Sequence[FleetJob]) -> dict[str, Any]:
@@ -158,8 +112,8 @@ def batch(
     on_start: OnStart | None = None,
     on_result: OnResult | None = None,
     **options: Any,
-) -> pd.DataFrame:
-    """Analyse a fleet of logs on Dask and write the fleet outputs; return the fleet table.
+) -> Fleet:
+    """Analyse a fleet of logs on Dask and write the fleet outputs; return the fleet.
 
     Parameters
     ----------
@@ -192,9 +146,11 @@ def batch(
 
     Returns
     -------
-    pandas.DataFrame
-        The fleet table, as in ``fleet.csv``; a failed log has status
-        ``error`` and its message.
+    stability.fleet.Fleet
+        The fleet: ``.table`` is the fleet table as in ``fleet.csv`` (a failed
+        log has status ``error`` and its message), ``.plot()`` and
+        ``.plot(view="distribution")`` draw the two figures it wrote, and in a
+        notebook it shows the counts, the worst devices and the sortable table.
     """
     listed = _jobs(jobs, settings, options)
     try:
@@ -219,13 +175,16 @@ def batch(
             on_start=on_start,
             on_result=on_result,
         )
-        moment = datetime.now(UTC)
-        frame = fleet_frame(run.results, run.statistic, run.key_taus, run.judged)
-        ranking = rank_devices(frame)
-        heading = title or f"fleet of {len(listed)} logs: {run.statistic}"
-        drawn = _draw(run, ranking, at, heading, moment)
-        for name, figure in drawn.items():
-            save_figure(figure, out.path(name), "png")
+        fleet = fleet_result(
+            run,
+            at=at,
+            title=title or f"fleet of {len(listed)} logs: {run.statistic}",
+            generated=datetime.now(UTC),
+            settings=_shared_settings(listed),
+        )
+        frame, ranking, heading = fleet.table, fleet.ranking, fleet.title
+        save_figure(draw_fleet(fleet), out.path("fleet.png"), "png")
+        save_figure(draw_distribution(fleet), out.path("fleet_distribution.png"), "png")
         frame.to_csv(out.path("fleet.csv"), index=False, lineterminator="\n")
         if "fleet.parquet" in names:
             frame.to_parquet(out.path("fleet.parquet"), index=False)
@@ -237,11 +196,11 @@ def batch(
             "statistic": run.statistic,
             "key_taus": run.key_taus,
             "title": heading,
-            "generated": analysis_date(moment),
-            "settings": _shared_settings(listed),
+            "generated": analysis_date(fleet.generated),
+            "settings": fleet.settings,
         }
         out.write_text("fleet.md", fleet_markdown(frame, ranking, figures=captions, **common))
         images = {c: Path(out.path(n)).read_bytes() for c, n in captions.items()}
         out.write_text("fleet.html", fleet_html(frame, ranking, figures=images, **common))
         out.commit()
-    return frame
+    return fleet

@@ -7,6 +7,10 @@ that a browser opens without any network access: the figures are embedded as
 that sorts the table by a clicked column are inline, and every text from the
 logs is escaped. Both take the fleet table as the fleet's code made it (a
 pandas DataFrame with the columns of :mod:`stability.fleet.table`).
+:func:`fleet_fragment` and :func:`fleet_text` are a fleet's display in a
+notebook (``stability.fleet.Fleet``): the counts, the worst devices and the
+sortable table in one fragment (the same sorting script as the page, which
+binds each table once), and the same as plain text.
 """
 
 from __future__ import annotations
@@ -20,6 +24,7 @@ from typing import Any
 import pandas as pd
 
 from .._version import __version__
+from ..figures.style import VERDICT_COLORS
 
 __all__ = [
     "fleet_markdown",
@@ -28,6 +33,8 @@ __all__ = [
     "fleet_counts",
     "format_cell",
     "settings_line",
+    "fleet_fragment",
+    "fleet_text",
 ]
 
 CAUTION = (
@@ -186,7 +193,7 @@ p.caution{max-width:50em;color:#555}
 """
 
 _SCRIPT = """
-document.querySelectorAll('table.sortable').forEach(function (table) {
+document.querySelectorAll('table.sortable:not([data-sortable])').forEach(function (table) {
   table.setAttribute('data-sortable', 'ready');
   table.querySelectorAll('th').forEach(function (th, col) {
     th.addEventListener('click', function () {
@@ -287,3 +294,78 @@ def fleet_html(
         parts.append(f'<p class="caution">{html.escape(CAUTION)}</p>')
     parts.append(f"<script>{_SCRIPT}</script></body></html>")
     return "\n".join(parts) + "\n"
+
+
+def _fragment_style() -> str:
+    """The page's table style, scoped to a fleet's notebook display, verdicts in their colours."""
+    rules = [
+        ".stability-fleet table{border-collapse:collapse;font-size:0.85em}",
+        ".stability-fleet th,.stability-fleet td{border:1px solid #ccc;padding:2px 6px;"
+        "text-align:right;white-space:nowrap}",
+        ".stability-fleet th{background:#f0f0f0;cursor:pointer}",
+        ".stability-fleet td.t{text-align:left}",
+        ".stability-fleet tr.error td{background:#fbeaea}",
+    ]
+    for word in ("pass", "fail", "inconclusive"):
+        color = VERDICT_COLORS.get(word, "#555555")
+        rules.append(f".stability-fleet td.v-{word}{{color:{color};font-weight:bold}}")
+    return "".join(rules)
+
+
+def fleet_fragment(
+    frame: pd.DataFrame,
+    ranking: pd.DataFrame,
+    *,
+    statistic: str,
+    key_taus: Sequence[float],
+    title: str = "Fleet",
+    settings: Mapping[str, Any] | None = None,
+) -> str:
+    """A fleet's display in a notebook: counts, worst devices, the sortable table (escaped)."""
+    counts = fleet_counts(frame)
+    parts = [
+        f'<div class="stability-result stability-fleet" style="font-family:sans-serif">'
+        f"<style>{_fragment_style()}</style>",
+        f"<p><b>{html.escape(title)}</b></p>",
+        f"<p>{html.escape(_counts_line(counts))}.</p>",
+    ]
+    if settings:
+        parts.append(f"<p>{html.escape(settings_line(settings))}</p>")
+    failed = frame[frame["status"] == "error"] if "status" in frame else frame.iloc[:0]
+    if len(failed):
+        items = "".join(
+            f"<li>{html.escape(str(d))}: {html.escape(str(e))}</li>"
+            for d, e in zip(failed["device"], failed["error"], strict=True)
+        )
+        parts.append(f"<p><b>failed</b></p><ul>{items}</ul>")
+    if len(ranking):
+        parts.append("<p><b>Furthest from the limit or the fleet</b></p>")
+        ranked = ranking.copy()
+        ranked.insert(0, "rank", range(1, len(ranked) + 1))
+        parts.append(_html_table(ranked, [(c, c) for c in ranked.columns], "ranking"))
+    parts.append("<p><b>Every log</b> (click a heading to sort)</p>")
+    parts.append(_html_table(frame, _columns(frame, statistic, key_taus), "fleet"))
+    if "verdict" in frame:
+        parts.append(f"<p><i>{html.escape(CAUTION)}</i></p>")
+    parts.append(f"<script>{_SCRIPT}</script></div>")
+    return "".join(parts)
+
+
+def fleet_text(frame: pd.DataFrame, ranking: pd.DataFrame, *, title: str = "Fleet") -> str:
+    """A fleet as plain text: the counts, the failed logs and the worst devices."""
+    lines = [title, "  " + _counts_line(fleet_counts(frame))]
+    if "status" in frame:
+        for d, e in zip(
+            *(frame[frame["status"] == "error"][c] for c in ("device", "error")), strict=True
+        ):
+            lines.append(f"  failed {d}: {e}")
+    if len(ranking):
+        lines.append("  furthest from the limit or the fleet:")
+        for k, row in enumerate(ranking.itertuples(index=False), start=1):
+            cells = "  ".join(
+                f"{c} {format_cell(v)}"
+                for c, v in zip(ranking.columns, row, strict=True)
+                if c != "device"
+            )
+            lines.append(f"  {k:>3}. {row[0]}  {cells}")
+    return "\n".join(lines)

@@ -74,7 +74,7 @@ def _run(logs: list[Path], out: Path, workers: int) -> dict[str, float]:
         workers=workers,
         on_start=started,
         on_result=lambda done, total, result: results.append(dict(result)),
-    )
+    ).table
     end = time.perf_counter()
     failed = int((frame["status"] != "ok").sum())
     if failed:
