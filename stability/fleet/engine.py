@@ -111,7 +111,7 @@ def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any, str |
     except ImportError:
         raise InputError(
             "a fleet runs on Dask, which is not installed",
-            hint="pip install 'stability[fleet]' (dask[distributed])",
+            hint="pip install 'oscillator-stability[fleet]' (dask[distributed])",
         ) from None
 
     if scheduler is not None:
