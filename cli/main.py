@@ -73,22 +73,24 @@ def _root(
         raise typer.Exit(0)
 
 
+# in the order the help lists them: the main job, its causes and time error, comparisons
+# and studies, many logs and live runs, then tools (history is added below)
 app.command("analyze")(analyze_cmd.analyze)
 app.command("inspect")(inspect_cmd.inspect)
-app.command("overlay")(overlay_cmd.overlay)
 app.command("record")(record_cmd.record)
+app.command("spectrum")(spectrum_cmd.spectrum_command)
+app.command("time-error")(time_error_cmd.time_error)
+app.command("masks")(masks_cmd.masks)
+app.command("overlay")(overlay_cmd.overlay)
 app.command("separate")(separate_cmd.separate_command)
 app.command("phase-noise")(phase_noise_cmd.phase_noise_command)
 app.command("timeline")(timeline_cmd.timeline_command)
-app.command("simulate")(simulate_cmd.simulate_cmd)
-app.command("demo")(demo_cmd.demo)
 app.command("batch")(batch_cmd.batch)
-app.command("validate")(validate_cmd.validate_command)
-app.command("time-error")(time_error_cmd.time_error)
-app.command("masks")(masks_cmd.masks)
 app.command("watch")(watch_cmd.watch)
 app.command("capture")(capture_cmd.capture)
-app.command("spectrum")(spectrum_cmd.spectrum_command)
+app.command("simulate")(simulate_cmd.simulate_cmd)
+app.command("demo")(demo_cmd.demo)
+app.command("validate")(validate_cmd.validate_command)
 
 #: ``stability history`` and its subcommands (calibration history per device).
 history_app = typer.Typer(
