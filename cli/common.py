@@ -162,6 +162,9 @@ def guarded(subject: str | None, debug: bool) -> Iterator[None]:
         except Exception as exc:  # the last resort: a defect of the tool
             if debug:
                 traceback.print_exc(file=sys.stderr)
+            if Interrupted.received is not None:  # a stop signal broke a library mid-import
+                stop = Interrupted(Interrupted.received)
+                fail(_stopped(stop), 128 + _signum(stop))
             fail(
                 f"{where}internal error ({type(exc).__name__}: {exc}); "
                 "please report it with the output of --debug"
@@ -199,23 +202,28 @@ def _interrupted(cause: BaseException | None) -> int:
 
 
 def raise_interrupted(signum: int, frame: Any) -> None:
-    """Signal handler: SIGTERM and SIGHUP become :class:`Interrupted`, handled like Ctrl-C."""
+    """Signal handler: SIGINT, SIGTERM and SIGHUP become :class:`Interrupted` (a
+    ``KeyboardInterrupt``), and the process remembers that a stop was asked for."""
     raise Interrupted(signum)
 
 
 def run_program(app: Any) -> None:
-    """Run the app with SIGTERM and SIGHUP handled like Ctrl-C (one line, exit 128 + n).
+    """Run the app with Ctrl-C, SIGTERM and SIGHUP handled alike (one line, exit 128 + n).
 
     Also a Ctrl-C before the command starts (while the libraries load) ends with
     one line instead of a traceback.
     """
 
-    for signum in (signal.SIGTERM, signal.SIGHUP):
+    for signum in (signal.SIGINT, signal.SIGTERM, signal.SIGHUP):
         signal.signal(signum, raise_interrupted)
     try:
         app()
     except KeyboardInterrupt as exc:  # outside click's own handling (start-up, shutdown)
         sys.exit(_interrupted(exc))
+    except Exception:  # a stop signal that broke a library mid-import, at start-up
+        if Interrupted.received is None:
+            raise
+        sys.exit(_interrupted(Interrupted(Interrupted.received)))
 
 
 def _usage_line(exc: typer.TyperException) -> str:

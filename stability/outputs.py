@@ -55,11 +55,20 @@ _PENDING = re.compile(r"^\.+(?P<name>.+?)\.(?P<pid>\d+)\.[0-9a-f]{8}\.(pending|o
 
 
 class Interrupted(KeyboardInterrupt):
-    """A run stopped by a signal (SIGTERM, SIGHUP) while writing; ``signum`` says which."""
+    """A run stopped by a signal (SIGTERM, SIGHUP) while writing; ``signum`` says which.
+
+    ``Interrupted.received`` keeps the last signal raised this way in the process:
+    a signal that lands while a library's extension module initialises comes out
+    as that library's ``ImportError``, not as this exception, and the command's
+    error handler still has to call it a stop, not a defect.
+    """
+
+    received: int | None = None
 
     def __init__(self, signum: int) -> None:
         super().__init__(f"stopped by signal {signal.Signals(signum).name}")
         self.signum = signum
+        Interrupted.received = signum
 
 
 def same_file(a: Path, b: Path) -> bool:

@@ -7,11 +7,16 @@ Every log here is invented, generated in the test.
 
 from __future__ import annotations
 
+import signal
 from pathlib import Path
 
 import numpy as np
+import pytest
+import typer
 from typer.testing import CliRunner
 
+from stability.outputs import Interrupted
+from stability_cli.common import guarded
 from stability_cli.main import app
 
 runner = CliRunner()
@@ -125,3 +130,20 @@ def test_kind_that_contradicts_the_written_unit_is_refused(tmp_path):
     )
     assert result.exit_code == 1, result.output
     assert "contradicts the unit" in result.output
+
+
+def test_a_signal_that_breaks_a_library_import_is_a_stop_not_a_defect(monkeypatch, capsys):
+    # SIGTERM landing while an extension module initialises comes out of the import as
+    # "ImportError: initialization failed" (seen with a record stopped mid-run); the
+    # handler must still say "stopped", exit 128 + 15, and not ask for a bug report
+    monkeypatch.setattr(Interrupted, "received", None)
+    with pytest.raises(typer.Exit) as defect, guarded("log.csv", debug=False):
+        raise ImportError("initialization failed")
+    assert defect.value.exit_code == 1
+    assert "internal error" in capsys.readouterr().err
+    monkeypatch.setattr(Interrupted, "received", int(signal.SIGTERM))
+    with pytest.raises(typer.Exit) as stopped, guarded("log.csv", debug=False):
+        raise ImportError("initialization failed")
+    assert stopped.value.exit_code == 128 + signal.SIGTERM
+    err = capsys.readouterr().err
+    assert err.strip() == "error: stopped by SIGTERM; no partial output was left"
