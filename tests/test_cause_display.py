@@ -20,10 +20,8 @@ matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402  (tests may use pyplot; the library never does)
 import numpy as np  # noqa: E402
 import pytest  # noqa: E402
-from matplotlib.collections import Collection  # noqa: E402
+from figure_artists import artists
 from matplotlib.figure import Figure  # noqa: E402
-from matplotlib.lines import Line2D  # noqa: E402
-from matplotlib.text import Text  # noqa: E402
 from test_html_display import parsed  # noqa: E402
 
 import stability  # noqa: E402
@@ -81,27 +79,6 @@ def spectrum_command(tmp_path_factory):
     return causes_of(run), saved["spectrum"]
 
 
-def _plain(values) -> list:
-    arr = np.asarray(values, dtype=float)
-    return np.where(np.isnan(arr), None, arr).tolist()
-
-
-def _artists(figure: Figure) -> list[tuple]:
-    """Every line, collection and text of a figure, in drawing order (after a draw)."""
-    figure.canvas.draw()
-    out = []
-    for artist in figure.findobj(lambda a: isinstance(a, (Line2D, Collection, Text))):
-        if isinstance(artist, Line2D):
-            x, y = (np.asarray(v, dtype=float) for v in artist.get_data())
-            out.append(("line", artist.get_label(), artist.get_color(), _plain(x), _plain(y)))
-        elif isinstance(artist, Text):
-            out.append(("text", artist.get_text(), tuple(np.round(artist.get_position(), 9))))
-        else:
-            paths = [_plain(p.vertices) for p in artist.get_paths()]
-            out.append(("collection", type(artist).__name__, paths))
-    return out
-
-
 def _on_axes(result, count=1, **options):
     figure = Figure(figsize=(6, 4 * count))
     axes = list(figure.subplots(count, 1, squeeze=False)[:, 0])
@@ -118,7 +95,7 @@ def test_causes_plot_draws_what_the_spectrum_command_drew(spectrum_command, tmp_
     assert isinstance(method, SpectrumDrawn) and method.figure is not command.figure
     # saved as the command saved its own (the constrained layout settles on saving)
     save_figure(method, tmp_path / "spectrum.png", "png")
-    drawn, expected = _artists(method.figure), _artists(command.figure)
+    drawn, expected = artists(method.figure), artists(command.figure)
     assert len(drawn) == len(expected) > 20
     assert drawn == expected
     assert set(method.models) == {"model of the Allan deviation", "fit to this spectrum"}

@@ -23,8 +23,8 @@ import matplotlib.pyplot as plt  # noqa: E402  (tests may use pyplot; the librar
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
 import pytest  # noqa: E402
+from figure_artists import artists  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
-from test_cause_display import _artists  # noqa: E402
 from test_html_display import parsed  # noqa: E402
 
 import stability  # noqa: E402
@@ -139,7 +139,7 @@ def test_fleet_plot_draws_what_batch_saved(command):
         written = _saved(saved, stem)
         method = fleet.plot(view=view)
         assert isinstance(method, kind) and method.figure is not written.figure
-        drawn, expected = _artists(method.figure), _artists(written.figure)
+        drawn, expected = artists(method.figure), artists(written.figure)
         assert len(drawn) == len(expected) > 10
         assert drawn == expected, view
     curves = fleet.plot()

@@ -24,10 +24,8 @@ matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402  (tests may use pyplot; the library never does)
 import numpy as np  # noqa: E402
 import pytest  # noqa: E402
-from matplotlib.collections import Collection  # noqa: E402
+from figure_artists import artists
 from matplotlib.figure import Figure  # noqa: E402
-from matplotlib.lines import Line2D  # noqa: E402
-from matplotlib.text import Text  # noqa: E402
 
 import stability  # noqa: E402
 from stability import workflow, workflow_timing  # noqa: E402
@@ -75,49 +73,24 @@ def demo(tmp_path_factory):
     return run, saved
 
 
-def _plain(values) -> list:
-    """Numbers as nested lists, NaN written as None (NaN never equals itself)."""
-    arr = np.asarray(values, dtype=float)
-    return np.where(np.isnan(arr), None, arr).tolist()
-
-
-def _artists(figure: Figure) -> list[tuple]:
-    """Every line, collection and text of a figure: kind, data and words, in drawing order.
-
-    The figure is drawn first, as saving it did (axis labels find their place then).
-    """
-    figure.canvas.draw()
-    out = []
-    for artist in figure.findobj(lambda a: isinstance(a, (Line2D, Collection, Text))):
-        if isinstance(artist, Line2D):
-            x, y = (np.asarray(v, dtype=float) for v in artist.get_data())
-            out.append(("line", artist.get_label(), artist.get_color(), _plain(x), _plain(y)))
-        elif isinstance(artist, Text):
-            out.append(("text", artist.get_text(), tuple(np.round(artist.get_position(), 9))))
-        else:
-            paths = [_plain(p.vertices) for p in artist.get_paths()]
-            out.append(("collection", type(artist).__name__, artist.get_gid(), paths))
-    return out
-
-
 def test_run_plot_draws_what_the_command_drew(demo):
     run, saved = demo
     command = saved["sigma_tau"]
     method = run.plot()
     assert isinstance(method, StabilityDrawn)
     assert method.figure is not command.figure
-    drawn, expected = _artists(method.figure), _artists(command.figure)
+    drawn, expected = artists(method.figure), artists(command.figure)
     assert len(drawn) == len(expected) > 50
     assert drawn == expected
     assert method.noise_labels == command.noise_labels
     # the table's own plot is the same figure but for the date in the footer
     table_drawn = run.table.plot(analysis_time=run.analysis_time)
-    assert _artists(table_drawn.figure) == expected
+    assert artists(table_drawn.figure) == expected
 
 
 def test_run_plot_series_draws_what_the_command_drew(demo):
     run, saved = demo
-    assert _artists(run.plot_series().figure) == _artists(saved["series"].figure)
+    assert artists(run.plot_series().figure) == artists(saved["series"].figure)
 
 
 def _on_axes(result, count=1, **options):
@@ -326,13 +299,13 @@ def test_time_error_plot_draws_what_the_command_drew(timing):
     method = result.plot(**_title_and_footer(command))
     assert isinstance(method, MaskDrawn) and method.figure is not command.figure
     assert method.figure.canvas.manager is None  # its own figure, not pyplot's
-    drawn, expected = _artists(method.figure), _artists(command.figure)
+    drawn, expected = artists(method.figure), artists(command.figure)
     assert len(drawn) == len(expected) > 30
     assert drawn == expected
     tie = result.plot(view="tie", **_title_and_footer(saved["tie"]))
     assert isinstance(tie, TieDrawn)
-    assert _artists(tie.figure) == _artists(saved["tie"].figure)
-    assert _artists(result.plot_tie(**_title_and_footer(saved["tie"])).figure) == _artists(
+    assert artists(tie.figure) == artists(saved["tie"].figure)
+    assert artists(result.plot_tie(**_title_and_footer(saved["tie"])).figure) == artists(
         saved["tie"].figure
     )
 

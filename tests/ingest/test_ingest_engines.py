@@ -7,12 +7,11 @@ pyarrow engine takes clean files of the common layouts; on any other file the
 
 from __future__ import annotations
 
-import dataclasses
-import math
 from datetime import UTC, datetime, timedelta
 
 import numpy as np
 import pytest
+from deep_equal import assert_same
 
 from stability import InputError
 from stability.ingest import arrow_parsing, inspect_log, memory, read_log
@@ -23,28 +22,6 @@ RNG = np.random.default_rng(21)
 N = 500
 Y = RNG.normal(0.0, 2e-11, N)  # invented fractional frequency
 HZ = 10e6 + np.round(RNG.normal(0.0, 2e-4, N), 5)  # invented 10 MHz readings
-
-
-def _same(a, b, where=""):
-    """Recursive equality: arrays exactly (NaN equal to NaN), dataclasses field by field."""
-    if isinstance(a, np.ndarray) or isinstance(b, np.ndarray):
-        assert a.dtype == b.dtype and a.shape == b.shape, where
-        assert np.array_equal(a, b, equal_nan=a.dtype.kind == "f"), where
-    elif dataclasses.is_dataclass(a) and not isinstance(a, type):
-        for f in dataclasses.fields(a):
-            _same(getattr(a, f.name), getattr(b, f.name), f"{where}.{f.name}")
-    elif isinstance(a, dict):
-        assert a.keys() == b.keys(), where
-        for k in a:
-            _same(a[k], b[k], f"{where}[{k!r}]")
-    elif isinstance(a, list | tuple):
-        assert len(a) == len(b), where
-        for i, (x, y) in enumerate(zip(a, b, strict=True)):
-            _same(x, y, f"{where}[{i}]")
-    elif isinstance(a, float) and math.isnan(a):
-        assert math.isnan(b), where
-    else:
-        assert a == b, f"{where}: {a!r} != {b!r}"
 
 
 def _write(path, header, rows, sep="\n"):
@@ -94,10 +71,12 @@ def test_engines_give_the_same_measurement_and_report(tmp_path, monkeypatch, mak
     assert used, "the pyarrow engine was not used"
     auto = read_log(path)
     slow = read_log(path, engine="pandas")
-    _same(fast, slow, "measurement")
-    _same(auto, slow, "measurement")
-    _same(inspect_log(path, engine="pyarrow").to_dict(), inspect_log(path).to_dict(), "report")
-    _same(
+    assert_same(fast, slow, "measurement")
+    assert_same(auto, slow, "measurement")
+    assert_same(
+        inspect_log(path, engine="pyarrow").to_dict(), inspect_log(path).to_dict(), "report"
+    )
+    assert_same(
         inspect_log(path, engine="pyarrow").to_dict(),
         inspect_log(path, engine="pandas").to_dict(),
         "report",
@@ -111,7 +90,7 @@ def test_auto_gives_way_to_pandas_on_a_bad_line(tmp_path):
     rows.insert(30, "counter re-armed")
     p = _write(tmp_path / "bad.csv", "time,y", rows)
     auto, slow = read_log(p), read_log(p, engine="pandas")
-    _same(auto, slow, "measurement")
+    assert_same(auto, slow, "measurement")
     assert auto.provenance.details["bad_value_count"] == 1
     assert auto.provenance.details["junk_line_count"] == 1
     with pytest.raises(InputError, match="pyarrow engine cannot read this log: a row does not"):

@@ -15,12 +15,12 @@ says so.
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from datetime import UTC, datetime, timedelta
 
 import numpy as np
 import pytest
+from deep_equal import assert_same
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -31,28 +31,6 @@ from stability.ingest.arrow_parsing import arrow_rows
 pytest.importorskip("pyarrow")
 
 T0 = datetime(2026, 3, 2, 8, 0, 0, tzinfo=UTC)
-
-
-def _same(a, b, where=""):
-    """Recursive equality: arrays exactly (NaN equal to NaN), dataclasses field by field."""
-    if isinstance(a, np.ndarray) or isinstance(b, np.ndarray):
-        assert a.dtype == b.dtype and a.shape == b.shape, where
-        assert np.array_equal(a, b, equal_nan=a.dtype.kind == "f"), where
-    elif dataclasses.is_dataclass(a) and not isinstance(a, type):
-        for f in dataclasses.fields(a):
-            _same(getattr(a, f.name), getattr(b, f.name), f"{where}.{f.name}")
-    elif isinstance(a, dict):
-        assert a.keys() == b.keys(), where
-        for k in a:
-            _same(a[k], b[k], f"{where}[{k!r}]")
-    elif isinstance(a, list | tuple):
-        assert len(a) == len(b), where
-        for i, (x, y) in enumerate(zip(a, b, strict=True)):
-            _same(x, y, f"{where}[{i}]")
-    elif isinstance(a, float) and math.isnan(a):
-        assert math.isnan(b), where
-    else:
-        assert a == b, f"{where}: {a!r} != {b!r}"
 
 
 @st.composite
@@ -164,7 +142,7 @@ def _read(path, engine, tau0):
     max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
 @given(case=logs())
-def test_pyarrow_and_pandas_engines_read_the_same(tmp_path, case):
+def test_pyarrow_and_pandas_engines_read_theassert_same(tmp_path, case):
     path = tmp_path / "random.csv"
     tau0 = _write(path, case)
     given_tau0 = f"{tau0}s" if case["time"] == "none" else None
@@ -177,8 +155,8 @@ def test_pyarrow_and_pandas_engines_read_the_same(tmp_path, case):
         assert isinstance(fast, InputError) and str(fast) == str(slow), (fast, slow)
         assert isinstance(auto, InputError) and str(auto) == str(slow)
         return
-    _same(fast, slow, "measurement")
-    _same(auto, slow, "measurement")
+    assert_same(fast, slow, "measurement")
+    assert_same(auto, slow, "measurement")
     assert fast.phase.dtype == np.float64 and fast.lines.dtype == np.int64
     assert math.isfinite(fast.tau0)
 
@@ -207,7 +185,7 @@ def test_many_blocks_and_a_short_estimate_give_the_same_rows(tmp_path, monkeypat
     )
     fast = read_log(path, engine="pyarrow")
     assert used
-    _same(fast, slow, "measurement")
+    assert_same(fast, slow, "measurement")
     assert fast.n == 40_001
 
 
@@ -215,7 +193,7 @@ def test_stamps_typed_otherwise_further_down_give_way_to_pandas(tmp_path):
     """Whole seconds in the first blocks and decimals later: pandas decides the type."""
     path = _epoch_log(tmp_path / "mixed.csv", 30_000, float_from=25_000)
     slow = read_log(path, engine="pandas")
-    _same(read_log(path), slow, "measurement")
+    assert_same(read_log(path), slow, "measurement")
     with pytest.raises(InputError, match="pyarrow engine cannot read this log: a row does not"):
         read_log(path, engine="pyarrow")
 
@@ -243,8 +221,10 @@ def test_the_fallback_is_taken_where_equality_is_not_proven(tmp_path, row, why):
     if isinstance(slow, InputError):
         assert str(auto) == str(slow)
     else:
-        _same(auto, slow, "measurement")
-        _same(inspect_log(path).to_dict(), inspect_log(path, engine="pandas").to_dict(), "report")
+        assert_same(auto, slow, "measurement")
+        assert_same(
+            inspect_log(path).to_dict(), inspect_log(path, engine="pandas").to_dict(), "report"
+        )
     with pytest.raises(InputError, match=f"pyarrow engine cannot read this log: .*{why}"):
         read_log(path, engine="pyarrow")
 
