@@ -30,6 +30,7 @@ from __future__ import annotations
 import contextlib
 import os
 import sqlite3
+import time
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -162,16 +163,44 @@ def _check_header(target: Path, head: bytes) -> None:
         raise _refuse(target, "a damaged SQLite file (shorter than its 100-byte header)")
     if int.from_bytes(head[68:72], "big") != APPLICATION_ID:
         raise _refuse(target, "an SQLite database but not a stability calibration history")
+    size, stated = _sizes(target, head)
+    if size < stated:
+        raise _refuse(
+            target, f"a damaged calibration history (truncated: {size} bytes of {stated})"
+        )
+
+
+def _sizes(target: Path, head: bytes) -> tuple[int, int]:
+    """The file's size and the size its header states (0 when the header states none)."""
     page = int.from_bytes(head[16:18], "big")
     page = 65536 if page == 1 else page
     pages = int.from_bytes(head[28:32], "big")
     valid = head[92:96] == head[24:28]
-    if valid and pages and target.stat().st_size < page * pages:
-        raise _refuse(
-            target,
-            f"a damaged calibration history (truncated: {target.stat().st_size} bytes of "
-            f"{page * pages})",
-        )
+    return target.stat().st_size, page * pages if valid and pages else 0
+
+
+#: How long a file shorter than its header says may take to grow: another process
+#: writing the history (a checkpoint writes page 1 before it extends the file) shows
+#: that for a moment; a truncated file stays so.
+_SETTLE_S = 2.0
+
+
+def _read_head(target: Path) -> bytes:
+    """The first 100 bytes, read again while the file is shorter than they say (a writer
+    at work) for at most :data:`_SETTLE_S`."""
+    deadline = time.monotonic() + _SETTLE_S
+    while True:
+        try:
+            with open(target, "rb") as handle:
+                head = handle.read(100)
+        except OSError as exc:
+            raise InputError(f"cannot read: {exc.strerror or exc}", path=str(target)) from None
+        if len(head) < 100 or not head.startswith(_HEADER) or time.monotonic() > deadline:
+            return head
+        size, stated = _sizes(target, head)
+        if size >= stated:
+            return head
+        time.sleep(0.05)
 
 
 def _tidy(target: Path, existed: set[str]) -> None:
@@ -203,11 +232,7 @@ def inspect_file(path: str | os.PathLike[str]) -> int | None:
         return None
     if target.is_dir():
         raise _refuse(target, "is a folder, not a calibration history file")
-    try:
-        with open(target, "rb") as handle:
-            head = handle.read(100)
-    except OSError as exc:
-        raise InputError(f"cannot read: {exc.strerror or exc}", path=str(target)) from None
+    head = _read_head(target)
     _check_header(target, head)
     existed = {s for s in ("-wal", "-shm") if Path(f"{target}{s}").exists()}
     try:
