@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 
 from stability import InputError, Measurement, Provenance, StabilityError
+from stability.measurement import index_dtype
 
 
 def test_bad_input_messages():
@@ -147,7 +148,7 @@ def test_replace_and_metadata():
 def test_the_constructors_copy_unless_the_arrays_are_handed_over():
     """A measurement never shares the caller's arrays, unless told ``adopt=True``."""
     x = np.array([5.0, 6.0, np.nan, 8.0])
-    lines = np.array([2, 3, 0, 5], dtype=np.int64)
+    lines = np.array([2, 3, 0, 5], dtype=np.int32)
     m = Measurement.from_phase(x, 1.0, lines=lines)
     assert x.flags.writeable and lines.flags.writeable  # the caller's arrays untouched
     assert not np.shares_memory(m.phase, x) and not np.shares_memory(m.lines, lines)
@@ -161,3 +162,21 @@ def test_the_constructors_copy_unless_the_arrays_are_handed_over():
     adopted = Measurement.from_frequency(y, 1.0, lines=lines.copy(), adopt=True)
     np.testing.assert_array_equal(adopted.phase, f.phase)
     np.testing.assert_array_equal(adopted.segments, f.segments)
+
+
+def test_line_numbers_and_segments_are_stored_in_four_bytes_while_they_fit():
+    """int32 index arrays halve what a long record carries beside its phase;
+    numbers beyond int32 keep int64, and the values never change."""
+    x = np.array([5.0, 6.0, 7.0, 8.0])
+    wide = np.array([2, 3, 4, 5], dtype=np.int64)
+    m = Measurement.from_phase(x, 1.0, lines=wide, adopt=True)
+    assert m.lines.dtype == np.int32 and list(m.lines) == [2, 3, 4, 5]
+    beyond = np.array([2, 3, 4, 2**31 + 7], dtype=np.int64)
+    big = Measurement.from_phase(x, 1.0, lines=beyond)
+    assert big.lines.dtype == np.int64 and int(big.lines[-1]) == 2**31 + 7
+    y = np.array([1e-9, np.nan, 3e-9, np.nan, 5e-9])
+    f = Measurement.from_frequency(y, 1.0)
+    assert f.segments.dtype == np.int32 and list(f.segments) == [0, 0, 1, 1, 2, 2]
+    given = Measurement(phase=np.arange(6.0), tau0=1.0, segments=np.array([0, 0, 1, 1, 1, 2]))
+    assert given.segments.dtype == np.int32 and not given.segments.flags.writeable
+    assert index_dtype(2**31 - 1) is np.int32 and index_dtype(2**31) is np.int64

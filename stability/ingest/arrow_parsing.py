@@ -25,6 +25,7 @@ from typing import Any
 
 import numpy as np
 
+from ..measurement import index_dtype
 from . import values as vals
 from .columns import ColumnPlan
 from .memory import estimated_rows
@@ -231,7 +232,7 @@ class _Columns:
             if a is not None:
                 a.resize(n, refcheck=False)
         return ParsedRows(
-            lines=np.arange(first_line, first_line + n, dtype=np.int64),
+            lines=np.arange(first_line, first_line + n, dtype=index_dtype(first_line + n)),
             values=self.values,
             bad=self.bad,
             ticks=self.ticks,

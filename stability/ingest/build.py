@@ -350,7 +350,8 @@ def canonical_series(
         series /= nominal
     elif vk.kind == "fractional":
         _check_fractional(rows, vk, path, column, more_hint, given=hints.kind == "fractional")
-        series = readings * vk.scale
+        # unscaled readings are the series as they are: the measurement never changes them
+        series = readings if vk.scale == 1.0 else readings * vk.scale
     elif vk.kind == "carrier":
         if nominal is None:
             raise InputError(
@@ -394,6 +395,20 @@ def _check_time_error(series: np.ndarray, rows: DataRows, path: str, column: str
     )
 
 
+#: Rows a block of the range checks handles at once (a block-sized temporary, not the log's).
+_BLOCK = 1 << 18
+
+
+def _not_below_one(values: np.ndarray, scale: float) -> np.ndarray:
+    """Indices where ``|values * scale| >= 1``, found a block at a time."""
+    found = [np.empty(0, dtype=np.int64)]
+    with np.errstate(invalid="ignore", over="ignore"):
+        for lo in range(0, values.size, _BLOCK):
+            part = values[lo : lo + _BLOCK] * scale
+            found.append(np.flatnonzero(np.abs(part, out=part) >= 1.0) + lo)
+    return np.concatenate(found)
+
+
 def _check_fractional(
     rows: DataRows, vk: vals.ValueKind, path: str, column: str, more_hint: str, given: bool
 ) -> None:
@@ -404,8 +419,7 @@ def _check_fractional(
     ``--kind fractional`` (test data sets such as NBS14 are unitless numbers of
     hundreds) it is a warning and the readings are taken as given.
     """
-    with np.errstate(invalid="ignore", over="ignore"):
-        big = np.flatnonzero(np.abs(rows.values * vk.scale) >= 1.0)
+    big = _not_below_one(rows.values, vk.scale)
     if not big.size:
         return
     i = int(big[0])
@@ -539,11 +553,11 @@ def make_measurement(
     """
     n_grid = placement.size
     if placement.position is None:  # every row in its own slot: the arrays are the grid's
-        grid_vals, grid_lines = series, np.asarray(lines, dtype=np.int64)
+        grid_vals, grid_lines = series, lines
     else:
         grid_vals = np.full(n_grid, np.nan)
         grid_vals[placement.position] = series
-        grid_lines = np.zeros(n_grid, dtype=np.int64)
+        grid_lines = np.zeros(n_grid, dtype=lines.dtype)
         grid_lines[placement.position] = lines
     meta = dict(
         nominal=nominal,

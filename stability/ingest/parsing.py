@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
+from ..measurement import index_dtype
 from . import fixed_stamps as fs
 from . import timestamps as ts
 from . import values as vals
@@ -307,7 +308,7 @@ class _Parts:
     def add(self, chunk: pd.DataFrame) -> None:
         n = len(chunk)
         first = int(chunk.index[0]) + self.d.first_data_line if n else 0
-        self.lines.append(np.arange(n, dtype=np.int64) + first if n else np.empty(0, np.int64))
+        self.lines.append(np.arange(first, first + n, dtype=index_dtype(first + n)))
         self.last_line = max(self.last_line, first + n - 1)
         if self.stamps is None and self.plan.time_fmt is not None:
             t, ok = ts.parse_times(_time_text(chunk, self.plan), self.plan.time_fmt)

@@ -157,7 +157,7 @@ def test_pyarrow_and_pandas_engines_read_theassert_same(tmp_path, case):
         return
     assert_same(fast, slow, "measurement")
     assert_same(auto, slow, "measurement")
-    assert fast.phase.dtype == np.float64 and fast.lines.dtype == np.int64
+    assert fast.phase.dtype == np.float64 and fast.lines.dtype == np.int32
     assert math.isfinite(fast.tau0)
 
 
