@@ -1,4 +1,4 @@
-"""The spectrum computed block by block equals the whole-record form.
+"""The spectrum and the line search computed block by block equal the whole-record forms.
 
 Check values and their sources: the reference spectrum is scipy.signal.welch itself
 (Welch 1967, as scipy implements it: Hann window, 50 % overlap, mean of each segment
@@ -17,7 +17,9 @@ from scipy.signal import welch
 from scipy.stats import chi2
 
 from stability import Measurement
+from stability import periodic as periodic_module
 from stability import spectrum as spectrum_module
+from stability.periodic import find_lines
 from stability.simulate import power_law
 from stability.spectrum import welch_spectrum
 
@@ -77,3 +79,38 @@ def test_band_is_the_chi_squared_scaling():
     # [nu S / chi^2_{0.95}(nu), nu S / chi^2_{0.05}(nu)] at two-sided level 0.9
     np.testing.assert_allclose(spec.low, nu * spec.s_y / chi2.ppf(0.95, nu), rtol=1e-12)
     np.testing.assert_allclose(spec.high, nu * spec.s_y / chi2.ppf(0.05, nu), rtol=1e-12)
+
+
+def test_background_is_the_mean_of_the_neighbours():
+    rng = np.random.default_rng(4)
+    ratio = rng.exponential(size=300)
+    usable = rng.random(300) > 0.2
+    usable[:5] = False
+    ratio[~usable] = np.nan
+    mean, count = periodic_module._background(ratio, usable)
+    for i in range(ratio.size):
+        near = [
+            j
+            for j in range(ratio.size)
+            if periodic_module.GUARD < abs(i - j) <= periodic_module.NEIGHBOURS and usable[j]
+        ]
+        assert count[i] == len(near)
+        if near:
+            assert mean[i] == pytest.approx(np.mean(ratio[near]), rel=1e-12)
+        else:
+            assert np.isnan(mean[i])
+
+
+def test_lines_found_on_the_searched_stretch_alone():
+    # a sinusoidal FM inside the searched stretch (the third ordinate to a quarter of
+    # the Nyquist frequency) and one above it, in white FM with a gap
+    n = 2**15
+    t = np.arange(n)
+    y = power_law(0, n, h=2e-22, seed=5)
+    y += 3e-12 * np.sin(2 * np.pi * t / 1210.0) + 4e-12 * np.sin(2 * np.pi * t / 5.0)
+    y[20_000] = np.nan
+    spec = welch_spectrum(Measurement.from_frequency(y, 1.0))
+    lines = find_lines(spec)
+    assert len(lines) == 1  # 0.2 Hz lies above a quarter of the Nyquist frequency
+    assert abs(lines[0].frequency - 1 / 1210.0) < spec.resolution / 3
+    assert lines[0].amplitude == pytest.approx(3e-12, rel=0.1)
