@@ -345,13 +345,25 @@ class Measurement(Displayable):
         """True when any term of an estimator may have to be dropped."""
         return self.segments is not None or bool(np.isnan(self.phase).any())
 
-    def frequency(self) -> np.ndarray:
-        """Fractional frequency y[k] = (x[k+1] - x[k]) / tau0 + offset, NaN across gaps."""
-        y = np.diff(self.phase)
-        y /= self.tau0  # in place: one array of the record's length
+    def frequency(self, start: int = 0, stop: int | None = None) -> np.ndarray:
+        """Fractional frequency y[k] = (x[k+1] - x[k]) / tau0 + offset, NaN across gaps.
+
+        ``start`` and ``stop`` give the samples y[start:stop] alone (default: all
+        n - 1), from phase[start:stop + 1]: a block of a long record without the
+        whole frequency array.
+        """
+        count = self.n - 1
+        stop = count if stop is None else stop
+        if not 0 <= start <= stop <= count:
+            raise InputError(
+                f"frequency samples {start} to {stop} lie outside the record's 0 to {count}"
+            )
+        y = np.diff(self.phase[start : stop + 1])
+        y /= self.tau0  # in place: one array of the block's length
         y += self.frequency_offset
         if self.segments is not None:
-            y[np.diff(self.segments) != 0] = np.nan
+            # a boolean compare of the two shifted views: no integer diff array
+            y[self.segments[start + 1 : stop + 1] != self.segments[start:stop]] = np.nan
         return y
 
     def phase_with_offset(self) -> np.ndarray:

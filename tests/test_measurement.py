@@ -80,6 +80,23 @@ def test_frequency_round_trip_with_gaps():
     assert meas.frequency_offset == pytest.approx(np.nanmean(y), rel=1e-14)
 
 
+def test_frequency_block_equals_the_whole():
+    # y[start:stop] from phase[start:stop + 1] alone, NaN phase samples and frequency
+    # gaps (segment changes) at and across the block edges
+    x = np.cumsum(np.random.default_rng(2).normal(size=3001))
+    x[[0, 700, 701, 2999]] = np.nan
+    y = np.ones(3000)
+    y[[10, 1500, 1501]] = np.nan
+    for meas in (Measurement.from_phase(x, 2.0), Measurement.from_frequency(y, 2.0)):
+        whole = meas.frequency()
+        for start, stop in [(0, 3000), (0, 0), (699, 702), (1499, 1502), (1000, 2500)]:
+            np.testing.assert_array_equal(meas.frequency(start, stop), whole[start:stop])
+        with pytest.raises(InputError, match="samples 10 to 3001 lie outside the record's 0 to"):
+            meas.frequency(10, 3001)
+        with pytest.raises(InputError, match="outside"):
+            meas.frequency(5, 4)
+
+
 def test_phase_round_trip_and_nan():
     rng = np.random.default_rng(3)
     x = 0.3 + np.cumsum(1e-12 * rng.standard_normal(300))
