@@ -22,6 +22,7 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator
 from functools import lru_cache
 from typing import Any
 
@@ -37,7 +38,12 @@ __all__ = [
     "check_measurement",
     "check_threshold",
     "check_window",
+    "beyond",
+    "blocks",
     "centred_frequency",
+    "frequency_blocks",
+    "finite_count",
+    "max_abs",
     "local_residuals",
     "robust_spread",
     "no_spread",
@@ -49,6 +55,9 @@ SECONDS_PER_DAY = 86400.0
 #: Median absolute deviation of a unit Gaussian (NIST SP 1065 outlier rule).
 MAD_TO_SIGMA = 0.6745
 _CHUNK = 1 << 16
+#: Samples per block of the loops that stand in for whole-array arithmetic: 512 KiB
+#: of float64, cache-sized, and few enough blocks that the loop costs nothing.
+_BLOCK = 1 << 16
 #: Widest window whose local median uses the selection network (else a partition).
 _NETWORK_LIMIT = 17
 _NETWORK_CHUNK = 1 << 14
@@ -95,18 +104,47 @@ def check_window(window: Any) -> int:
     return int(window)
 
 
-def centred_frequency(measurement: Measurement) -> np.ndarray:
+def blocks(n: int, size: int | None = None) -> Iterator[tuple[int, int]]:
+    """``(start, stop)`` of the blocks of ``size`` (default :data:`_BLOCK`) that cover ``n``."""
+    step = _BLOCK if size is None else size
+    for start in range(0, n, step):
+        yield start, min(start + step, n)
+
+
+def centred_frequency(measurement: Measurement, out: np.ndarray | None = None) -> np.ndarray:
     """Fractional frequency minus ``frequency_offset``, NaN across gaps.
 
     Working without the (possibly large) offset keeps the digits of small
     fluctuations; add ``measurement.frequency_offset`` to get ``frequency()``.
+    ``out``: an array of ``n - 1`` to write into (a new array when None).
     """
-    y = np.diff(measurement.phase)
+    phase = measurement.phase
+    y = np.subtract(phase[1:], phase[:-1], out=out)  # np.diff, into ``out``
     y /= measurement.tau0
     segments = measurement.segments
     if segments is not None:
         y[segments[1:] != segments[:-1]] = np.nan
     return y
+
+
+def frequency_blocks(
+    measurement: Measurement, y: np.ndarray | None = None
+) -> Iterator[tuple[int, int, np.ndarray]]:
+    """:func:`centred_frequency` block by block: ``(start, stop, values)``.
+
+    Slices of ``y`` when it is given (it must be ``centred_frequency(measurement)``),
+    else made from the phase block by block: the same numbers either way.
+    """
+    phase, segments, tau0 = measurement.phase, measurement.segments, measurement.tau0
+    for start, stop in blocks(measurement.n - 1):
+        if y is not None:
+            yield start, stop, y[start:stop]
+            continue
+        values = np.subtract(phase[start + 1 : stop + 1], phase[start:stop])
+        values /= tau0
+        if segments is not None:
+            values[segments[start + 1 : stop + 1] != segments[start:stop]] = np.nan
+        yield start, stop, values
 
 
 @lru_cache(maxsize=32)
@@ -172,7 +210,7 @@ def _middle_pair(
     return lines[half - 1], lines[half]
 
 
-def local_residuals(y: np.ndarray, window: int) -> np.ndarray:
+def local_residuals(y: np.ndarray, window: int, out: np.ndarray | None = None) -> np.ndarray:
     """Residuals of ``y`` from the median of its ``window - 1`` nearest neighbours.
 
     The sample itself is left out of its median: when it is included the
@@ -189,51 +227,134 @@ def local_residuals(y: np.ndarray, window: int) -> np.ndarray:
     selection network of element-wise ``min``/``max`` over shifted slices
     (exact: the same numbers a sort picks), in blocks that stay in cache;
     wider windows partition each row.
+
+    ``out`` receives the residuals (a new array when None); it may be ``y``
+    itself, whose values are then read before they are overwritten, when the
+    caller no longer needs them.
     """
-    finite = np.isfinite(y)
-    count = int(np.count_nonzero(finite))
+    result = np.empty(y.shape) if out is None else out
+    count = finite_count(y)
     if count < 3:
-        return np.full(y.shape, np.nan)
+        result[...] = np.nan
+        return result
     half = window // 2
-    if count > half:  # mirror the ends, as np.pad(mode="reflect") does
-        padded = np.empty(count + 2 * half)
-        values = padded[half : half + count]
-        if count == y.size:
-            values[...] = y
+    if count <= half:  # np.pad reflects as often as it takes
+        finite = np.isfinite(y)
+        values = y[finite]
+        level = _median_levels(np.pad(values, half, mode="reflect"), window)
+        result[~finite] = np.nan
+        result[finite] = values - level
+        return result
+    # The finite values stream through in blocks, the neighbours of each block's
+    # last ``half`` values waiting for the next block, so no array of the record's
+    # length is made besides the result: a padded copy, a mask and (with gaps) a
+    # compressed copy were. Measured at 10^7 samples, above the input: 17 B per
+    # sample (25 with gaps) -> 8.2 with a new result, 0.2 written over the input.
+    pool = [np.empty(min(_NETWORK_CHUNK, count)) for _ in range(window + 1)]
+    left: np.ndarray | None = None  # the padded values just before ``pending``
+    pending = np.empty(0)  # finite values whose median waits for their right neighbours
+    where = np.empty(0, dtype=np.int64)  # their indices in y
+    for start, stop in blocks(y.size, _NETWORK_CHUNK):
+        block = y[start:stop]
+        finite = np.isfinite(block)
+        if finite.all():
+            values, index = block.copy(), np.arange(start, stop)
         else:
-            values[...] = y[finite]
-        padded[:half] = values[half:0:-1]
-        padded[half + count :] = values[-2 : -half - 2 : -1]
+            values, index = block[finite], start + np.flatnonzero(finite)
+            result[start:stop][~finite] = np.nan
+        pending = np.concatenate([pending, values])
+        where = np.concatenate([where, index])
+        if left is None:
+            if pending.size <= half:
+                continue
+            left = pending[half:0:-1]  # the start mirrored, as np.pad(mode="reflect") does
+        padded = np.concatenate([left, pending])
+        done = pending.size - half  # samples with all their right neighbours at hand
+        if done > 0:
+            level = _median_levels(padded[: done + 2 * half], window, pool)
+            _put(result, where[:done], np.subtract(pending[:done], level, out=level))
+            left = padded[done : done + half]
+            pending, where = pending[done:], where[done:]
+    assert left is not None  # count > half
+    tail = np.concatenate([left, pending])
+    padded = np.concatenate([tail, tail[-2 : -half - 2 : -1]])  # the end mirrored
+    level = _median_levels(padded, window, pool)
+    _put(result, where, np.subtract(pending, level, out=level))
+    return result
+
+
+def _put(result: np.ndarray, index: np.ndarray, values: np.ndarray) -> None:
+    """``result[index] = values``, through a slice when the indices are consecutive."""
+    if index.size and int(index[-1]) - int(index[0]) + 1 == index.size:
+        result[int(index[0]) : int(index[-1]) + 1] = values
     else:
-        padded = np.pad(y[finite], half, mode="reflect")
-        values = padded[half : half + count]
+        result[index] = values
+
+
+def _median_levels(
+    padded: np.ndarray, window: int, pool: list[np.ndarray] | None = None
+) -> np.ndarray:
+    """Median of the ``window - 1`` neighbours of each of ``padded[half:-half]``.
+
+    ``pool``: at least ``window + 1`` scratch arrays for the selection network,
+    each as long as a block of rows (made here when None).
+    """
+    half = window // 2
+    rows = padded.size - 2 * half
     offsets = [c for c in range(window) if c != half]
-    level = np.empty(count)
+    level = np.empty(rows)
     if window <= _NETWORK_LIMIT:
-        size = min(_NETWORK_CHUNK, count)
-        bases = [np.empty(size) for _ in range(window + 1)]
-        for start in range(0, count, size):  # blocks of rows stay in cache
-            stop = min(start + size, count)
+        size = min(_NETWORK_CHUNK, rows)
+        if pool is None or pool[0].size < size:
+            pool = [np.empty(size) for _ in range(window + 1)]
+        for start in range(0, rows, size):  # blocks of rows stay in cache
+            stop = min(start + size, rows)
             columns = [padded[start + c : stop + c] for c in offsets]
-            low, high = _middle_pair(columns, [b[: stop - start] for b in bases])
+            low, high = _middle_pair(columns, [b[: stop - start] for b in pool])
             np.add(low, high, out=level[start:stop])
         level *= 0.5
     else:
-        for start in range(0, count, _CHUNK):  # blocks of rows bound the memory
-            stop = min(start + _CHUNK, count)
-            rows = sliding_window_view(padded[start : stop + window - 1], window)[:, offsets]
-            rows.partition([half - 1, half], axis=1)
-            level[start:stop] = 0.5 * (rows[:, half - 1] + rows[:, half])
-    np.subtract(values, level, out=level)
-    if count == y.size:
-        return level
-    out = np.full(y.shape, np.nan)
-    out[finite] = level
+        for start in range(0, rows, _CHUNK):  # blocks of rows bound the memory
+            stop = min(start + _CHUNK, rows)
+            cut = sliding_window_view(padded[start : stop + window - 1], window)[:, offsets]
+            cut.partition([half - 1, half], axis=1)
+            level[start:stop] = 0.5 * (cut[:, half - 1] + cut[:, half])
+    return level
+
+
+def _finite_blocks(r: np.ndarray, centre: float | None = None) -> Iterator[np.ndarray]:
+    """The finite values of ``r`` block by block, or their distances from ``centre``.
+
+    Distances are new arrays; plain values may be views of ``r``.
+    """
+    for start, stop in blocks(r.size):
+        values = r[start:stop]
+        finite = np.isfinite(values)
+        if not finite.all():
+            values = values[finite]
+        if centre is not None:
+            values = np.subtract(values, centre)
+            np.abs(values, out=values)
+        yield values
+
+
+def _gather(r: np.ndarray, count: int, centre: float | None) -> np.ndarray:
+    """All the values :func:`_finite_blocks` gives, in one new array of ``count``."""
+    out = np.empty(count)
+    at = 0
+    for values in _finite_blocks(r, centre):
+        out[at : at + values.size] = values
+        at += values.size
     return out
 
 
-def _order_statistics(values: np.ndarray, ranks: list[int]) -> np.ndarray:
-    """The values at sorted positions ``ranks`` (close together) of a finite 1-D array.
+def _order_statistics(
+    r: np.ndarray, ranks: list[int], count: int, centre: float | None = None
+) -> np.ndarray:
+    """The values at sorted positions ``ranks`` (close together) of the finite values of ``r``.
+
+    ``count`` is the number of finite values; with ``centre`` the values are
+    their distances ``|r - centre|``, formed block by block.
 
     Exact, like a full partition, but on a long array only the values between
     two bounds are partitioned: the bounds are order statistics of an evenly
@@ -241,47 +362,80 @@ def _order_statistics(values: np.ndarray, ranks: list[int]) -> np.ndarray:
     ranks [4]_. With ``below`` values under the lower bound, the value of rank
     ``r`` is the value of rank ``r - below`` among those between the bounds,
     ties included; when the bounds miss (unusual data) the whole array is
-    partitioned instead.
+    partitioned instead. The values are visited in blocks, so apart from the
+    subsample and the values between the bounds nothing of the array's length
+    is made: a mask, the distances and (with gaps) a compressed copy were.
+    :func:`robust_spread` of 10^7 samples: 11 B per sample (19 with gaps) -> 1.1.
     """
-    n = values.size
+    n = count
     if n >= _SELECT_MIN:
         stride = n // _SELECT_SAMPLE
-        sample = np.sort(values[::stride])
+        picked = r[::stride]
+        picked = picked[np.isfinite(picked)]
+        if centre is not None:
+            picked = np.abs(np.subtract(picked, centre))
+        sample = np.sort(picked)
         m = sample.size
-        margin = 6.0 * math.sqrt(m) / 2.0 + 2.0  # sample ranks: 6 binomial sigmas at p = 1/2
-        low = sample[max(int(ranks[0] / n * m - margin), 0)]
-        high = sample[min(int(ranks[-1] / n * m + margin), m - 1)]
-        below = int(np.count_nonzero(values < low))
-        between = (values >= low) & (values <= high)
-        count = int(np.count_nonzero(between))
-        if below <= ranks[0] and ranks[-1] < below + count:
-            inner = values[between]
-            wanted = [r - below for r in ranks]
-            inner.partition(wanted)
-            return inner[wanted]
-    part = np.partition(values, ranks)
+        if m:
+            margin = 6.0 * math.sqrt(m) / 2.0 + 2.0  # sample ranks: 6 binomial sigmas at p = 1/2
+            low = sample[max(int(ranks[0] / n * m - margin), 0)]
+            high = sample[min(int(ranks[-1] / n * m + margin), m - 1)]
+            below = 0
+            pieces = []
+            for values in _finite_blocks(r, centre):
+                below += int(np.count_nonzero(values < low))
+                pieces.append(values[(values >= low) & (values <= high)])
+            inner = np.concatenate(pieces)
+            del pieces
+            if below <= ranks[0] and ranks[-1] < below + inner.size:
+                wanted = [q - below for q in ranks]
+                inner.partition(wanted)
+                return inner[wanted]
+            del inner
+    part = _gather(r, n, centre)
+    part.partition(ranks)
     return part[ranks]
 
 
-def _median(values: np.ndarray) -> float:
-    """Median of a finite 1-D array, the same number ``np.median`` gives."""
-    n = values.size
-    if n % 2:
-        return float(_order_statistics(values, [n // 2])[0])
-    pair = _order_statistics(values, [n // 2 - 1, n // 2])
+def _median(r: np.ndarray, count: int, centre: float | None = None) -> float:
+    """Median of the finite values of ``r`` (of their distances from ``centre``).
+
+    The same number ``np.median`` gives; ``count`` is the number of finite values.
+    """
+    if count % 2:
+        return float(_order_statistics(r, [count // 2], count, centre)[0])
+    pair = _order_statistics(r, [count // 2 - 1, count // 2], count, centre)
     return float((pair[0] + pair[1]) / 2.0)
 
 
 def robust_spread(r: np.ndarray) -> tuple[float, float]:
     """Median and MAD-based sigma of the finite values of ``r`` (NaN when none)."""
-    finite = np.isfinite(r)
-    values = r if finite.all() else r[finite]
-    if values.size == 0:
+    count = finite_count(r)
+    if count == 0:
         return math.nan, math.nan
-    centre = _median(values)
-    deviation = np.subtract(values, centre)
-    sigma = _median(np.abs(deviation, out=deviation)) / MAD_TO_SIGMA
+    centre = _median(r, count)
+    sigma = _median(r, count, centre) / MAD_TO_SIGMA
     return centre, sigma
+
+
+def finite_count(a: np.ndarray) -> int:
+    """Number of finite values of ``a``, counted block by block (no mask of its length)."""
+    return sum(int(np.count_nonzero(np.isfinite(a[s:e]))) for s, e in blocks(a.size))
+
+
+def beyond(dev: np.ndarray, limit: float) -> np.ndarray:
+    """``|dev| > limit``, False where ``dev`` is NaN, without the array ``|dev|``."""
+    with np.errstate(invalid="ignore"):
+        out = np.greater(dev, limit)
+        out |= np.less(dev, -limit)
+    return out
+
+
+def max_abs(a: np.ndarray) -> float:
+    """Largest ``|a|`` over the values that are not NaN (0 when none), with no copy of ``a``."""
+    high = float(np.fmax.reduce(a, initial=-math.inf))
+    low = float(np.fmin.reduce(a, initial=math.inf))
+    return max(high, -low, 0.0)
 
 
 def no_spread(sigma: float, magnitude: float) -> bool:

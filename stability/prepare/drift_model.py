@@ -17,7 +17,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..measurement import Measurement
-from ._common import SECONDS_PER_DAY, check_measurement
+from ._common import SECONDS_PER_DAY, check_measurement, frequency_blocks
 
 __all__ = ["DRIFT_MODELS", "DriftFit", "DriftModel", "check_drift_model"]
 
@@ -94,7 +94,8 @@ class DriftFit:
         Mid-time of each frequency sample, seconds from the first phase sample
         (made on each access: a fit holds no array of the record's length).
     y_model
-        Model fractional frequency at ``t`` (made on each access).
+        Model fractional frequency at ``t`` (made on each access;
+        :meth:`y_model_between` gives a part of it).
     """
 
     model: str
@@ -115,7 +116,11 @@ class DriftFit:
 
     @property
     def y_model(self) -> np.ndarray:
-        t = self.t
+        return self.y_model_between(0, self.samples)
+
+    def y_model_between(self, start: int, stop: int) -> np.ndarray:
+        """``y_model[start:stop]`` (the same numbers), made without the rest of the record."""
+        t = _mid_times(stop, self.tau0, start)
         t /= SECONDS_PER_DAY
         return _evaluate(self.model, self.coefficients, t)
 
@@ -219,9 +224,9 @@ def _drift_integral(model: str, coef: dict[str, float], days: np.ndarray) -> np.
     return out
 
 
-def _mid_times(samples: int, tau0: float) -> np.ndarray:
-    """Mid-times of ``samples`` frequency samples ``tau0`` apart (s)."""
-    t = np.arange(samples, dtype=float)
+def _mid_times(samples: int, tau0: float, start: int = 0) -> np.ndarray:
+    """Mid-times of frequency samples ``start`` to ``samples - 1``, ``tau0`` apart (s)."""
+    t = np.arange(start, samples, dtype=float)
     t += 0.5
     t *= tau0
     return t
@@ -245,19 +250,22 @@ def _finish(
     errors: dict[str, float],
     per_day: float,
     per_day_error: float,
-    y: np.ndarray,
+    y: np.ndarray | None,
 ) -> DriftFit:
-    t, span = _times(m)
-    t /= SECONDS_PER_DAY  # in place: the same numbers as t / SECONDS_PER_DAY
-    y_model = _evaluate(model, coef, t)
-    del t
-    good = np.isfinite(y)
-    n_used = int(np.count_nonzero(good))
-    resid = y + m.frequency_offset
-    resid -= y_model
-    if n_used < resid.size:
-        resid = resid[good]
-    rms = float(np.sqrt(np.mean(np.square(resid, out=resid)))) if n_used else math.nan
+    """The fit of ``m`` with its residual RMS; ``y`` is ``centred_frequency(m)`` or None."""
+    # The residuals are summed block by block: no array of the record's length.
+    n_used, squares = 0, 0.0
+    for start, stop, values in frequency_blocks(m, y):
+        good = np.isfinite(values)
+        resid = np.add(values, m.frequency_offset)
+        t = _mid_times(stop, m.tau0, start)
+        t /= SECONDS_PER_DAY  # in place: the same numbers as t / SECONDS_PER_DAY
+        resid -= _evaluate(model, coef, t)
+        if not good.all():
+            resid = resid[good]
+        n_used += resid.size
+        squares += float(np.einsum("i,i->", resid, resid))  # no BLAS: see DEVELOPERS.md
+    rms = math.sqrt(squares / n_used) if n_used else math.nan
     return DriftFit(
         model=model,
         method=method,
@@ -267,7 +275,7 @@ def _finish(
         per_day_error=per_day_error,
         n_used=n_used,
         residual_rms=rms,
-        span_days=span / SECONDS_PER_DAY,
+        span_days=m.span / SECONDS_PER_DAY,
         samples=m.n - 1,
         tau0=m.tau0,
     )

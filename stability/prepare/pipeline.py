@@ -25,6 +25,8 @@ References
 
 from __future__ import annotations
 
+import math
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -33,7 +35,7 @@ import numpy as np
 from ..display import Displayable
 from ..errors import AnalysisError
 from ..measurement import Measurement
-from ._common import centred_frequency, check_measurement, check_threshold
+from ._common import blocks, check_measurement, check_threshold
 from .average import _validate_average_args
 from .average import average as average_samples
 from .drift import DriftFit, _fit_drift, _remove_fit, check_drift_model
@@ -156,17 +158,15 @@ def prepare(
     if factor > 1:
         current = average_samples(current, factor)
         notes.append(current.notes[-1])
-    # The centred frequency is computed once and shared (read-only) by the steps below.
-    y = centred_frequency(current)
-    y.flags.writeable = False
-    steps = _find_phase_steps(current, _STEP_THRESHOLD, _STEP_WINDOW, y)
+    steps = _find_phase_steps(current, _STEP_THRESHOLD, _STEP_WINDOW)
     screen_model = model if model != "none" else "linear"
-    before = current
-    current, screening, screen_fit = _screen(current, threshold, screen_model, _WINDOW, y)
+    current, screening, screen_fit = _screen(current, threshold, screen_model, _WINDOW)
     notes.append(current.notes[-1])
-    reuse = screen_fit is not None and screen_model == "linear" and _same_data(before, current)
-    linear = screen_fit if reuse else None  # the same fit of the same data is not repeated
-    del y, before, screen_fit
+    # The screening changes the data exactly when it takes samples out; otherwise its
+    # linear fit is the fit of the same data and is not repeated.
+    reuse = screen_fit is not None and screen_model == "linear" and not screening.samples
+    linear = screen_fit if reuse else None
+    del screen_fit
     if linear is None:
         linear = _fit_drift(current, "linear")
     notes.append(f"Estimated {linear.description}.")
@@ -210,17 +210,6 @@ def prepare(
     return current, report
 
 
-def _same_data(a: Measurement, b: Measurement) -> bool:
-    """True when a drift fit to ``a`` is the fit to ``b``: the same samples, grid and offset."""
-    if a.tau0 != b.tau0 or a.frequency_offset != b.frequency_offset or a.n != b.n:
-        return False
-    if (a.segments is None) != (b.segments is None):
-        return False
-    if a.segments is not None and not np.array_equal(a.segments, b.segments):
-        return False
-    return bool(np.array_equal(a.phase, b.phase, equal_nan=True))
-
-
 def require_variation(measurement: Measurement) -> None:
     """Stop when the frequency never changes: there is no stability to estimate.
 
@@ -239,25 +228,20 @@ def require_variation(measurement: Measurement) -> None:
         When every fractional-frequency step is the same to rounding.
     """
     m = check_measurement(measurement, "require_variation")
-    finite = np.isfinite(m.phase)
-    if finite.all() and m.segments is None:
-        # no sample missing: the steps between neighbours (as below, without the copies)
-        step = np.diff(m.phase)
-        scale = max(-float(m.phase.min()), float(m.phase.max()), 0.0)
-    else:
-        known = np.flatnonzero(finite)
-        # the mean step between consecutive known samples, also across missing ones
-        # (a log read with every other slot empty has no step between neighbours)
-        step = np.diff(m.phase[known]) / np.diff(known)
-        if m.segments is not None:
-            step = step[np.diff(m.segments[known]) == 0]  # the zero steps across frequency gaps
-        scale = float(np.max(np.abs(m.phase[finite]), initial=0.0))
-        del known
-    del finite
-    if step.size < 2:
+    phase = m.phase
+    # the largest |phase| over the known samples, with no copy
+    scale = max(float(np.fmax.reduce(phase)), -float(np.fmin.reduce(phase)), 0.0)
+    limit = 64.0 * np.finfo(np.float64).eps * scale
+    count, low, high = 0, math.inf, -math.inf
+    for step in _frequency_steps(m):
+        if step.size:
+            count += step.size
+            low, high = min(low, float(step.min())), max(high, float(step.max()))
+            if high - low > limit:
+                return  # the frequency varies: seen in the first block of a real record
+    if count < 2:
         return
-    if float(np.ptp(step)) > 64.0 * np.finfo(np.float64).eps * scale:
-        return
+    step = np.concatenate(list(_frequency_steps(m)))  # every step the same: a short error path
     value = float(np.median(step)) / m.tau0 + m.frequency_offset
     raise AnalysisError(
         f"every reading gives the same fractional frequency ({value:.6g}) over "
@@ -266,3 +250,29 @@ def require_variation(measurement: Measurement) -> None:
         hint="check that the counter was measuring, not stuck or disconnected, "
         "and that its resolution is finer than the noise",
     )
+
+
+def _frequency_steps(m: Measurement) -> Iterator[np.ndarray]:
+    """The phase steps between consecutive known samples per sample interval, block by block.
+
+    A step spans the missing samples between two known ones (a log read with
+    every other slot empty has no step between neighbours); a step across a
+    frequency gap (a segment break) is left out. Blocks of the record, with the
+    last known sample carried over, stand in for ``diff(phase[known]) /
+    diff(known)``: the same numbers without arrays of the record's length.
+    With the early exit of :func:`require_variation`, 10^7 samples: 9 B per
+    sample (33 with gaps) -> 0.2.
+    """
+    phase, segments = m.phase, m.segments
+    last = -1  # the last known sample of the blocks before
+    for start, stop in blocks(m.n):
+        known = start + np.flatnonzero(np.isfinite(phase[start:stop]))
+        if last >= 0:
+            known = np.concatenate([[last], known])
+        if known.size == 0:
+            continue
+        last = int(known[-1])
+        step = np.diff(phase[known]) / np.diff(known)
+        if segments is not None:
+            step = step[np.diff(segments[known]) == 0]
+        yield step
