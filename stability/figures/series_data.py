@@ -17,11 +17,14 @@ So the record is walked in blocks of :data:`BLOCK` phase samples, carrying the
 running sum from one block to the next, in a few passes (the means, the
 line's sums, then the curves); each block's curve goes straight into its
 min/max envelope (:class:`~stability.figures.reduce.Envelope`). No array of
-the record's length is made: at 10^7 samples the figure's transient fell from
-41 to a few bytes per sample. Sums are taken per block and added up, so a
-record of one block (every record too short to be decimated) is computed with
-the very operations of a whole-array computation, and a longer one differs
-from it by rounding only.
+the record's length is made, which is why these loops stand where one-line
+whole-array numpy was: measured at 10^7 rows (tracemalloc, above entry), the
+series figure of an analysis went from 41 to 1.2 B/row and that of a phase log
+with its drift removed from 73 to 1.7 B/row, and both draw faster (0.8 s
+instead of 1.3 s, 1.6 s instead of 2.9 s). Sums are taken per block and added
+up, so a record of one block (every record too short to be decimated into the
+default 2000 columns) is computed with the very operations of a whole-array
+computation, and a longer one differs from it by rounding only.
 """
 
 from __future__ import annotations
