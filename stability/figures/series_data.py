@@ -366,6 +366,8 @@ class _Walk:
         The frequency as drawn is made only when drawing or when a phase is made
         from it (else the analysed frequency stands in).
         """
+        if not phases and not draw:
+            return
         for p in phases.values():
             p.carry = 0.0
         shown_needed = draw or any(not p.analysed for p in phases.values())
