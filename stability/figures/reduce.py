@@ -3,9 +3,9 @@
 Records longer than a few thousand samples are drawn through the minimum and
 maximum of each pixel column, in time order (:func:`envelope`), so that every
 excursion stays visible while the figure stays light [1]_; many short gaps
-are shaded as at most a given number of spans (:func:`gap_runs`). The phase drawn
-from frequency (:func:`joined_phase`) and its residual from a line
-(:func:`without_line`) are built in place, so a long record is not copied.
+are shaded as at most a given number of spans (:func:`gap_runs`). Both are
+also built piece by piece (:class:`Envelope`, :class:`GapRuns`), so that a
+curve computed block by block from a long record is never held whole.
 
 References
 ----------
@@ -19,7 +19,7 @@ import math
 
 import numpy as np
 
-__all__ = ["envelope", "gap_runs", "runs", "joined_phase", "without_line"]
+__all__ = ["Envelope", "GapRuns", "envelope", "gap_runs", "runs"]
 
 
 #: Bytes of a group of buckets masked at once by :func:`envelope`.
@@ -41,37 +41,73 @@ def envelope(values: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
         Float sample indices (NaN at breaks) and values, ready for plotting.
     """
     values = np.asarray(values, dtype=float)
-    n = values.size
-    columns = max(1, int(columns))
-    block = max(1, math.ceil(n / columns))
-    n_blocks = math.ceil(n / block)
-    has_missing = bool(np.isnan(values).any())
-    whole = n // block  # full buckets, read as a view; a short last one is filled up with
-    # NaN, or with its last sample when none is missing (argmin and argmax take the first
-    # of equal values: a real sample)
-    parts = [_extremes(values[: whole * block].reshape(whole, block), has_missing)]
-    if whole < n_blocks:
-        last = np.full((1, block), np.nan if has_missing else values[-1])
-        last[0, : n - whole * block] = values[whole * block :]
-        parts.append(_extremes(last, has_missing))
-    any_missing, all_missing, i_min, i_max = (np.concatenate(a) for a in zip(*parts, strict=True))
-    if has_missing:
-        any_missing[-1] = np.isnan(values[(n_blocks - 1) * block :]).any()
-    rows = np.arange(n_blocks)
-    first = np.minimum(i_min, i_max)
-    second = np.maximum(i_min, i_max)
-    base = rows * block
-    idx = np.empty((n_blocks, 3))
-    val = np.empty((n_blocks, 3))
-    idx[:, 0] = base + first
-    idx[:, 1] = base + second
-    val[:, 0] = values[base + first]
-    val[:, 1] = values[base + second]
-    brk = any_missing | np.concatenate([any_missing[1:], [False]])
-    idx[:, 2] = np.where(brk, np.nan, idx[:, 1])
-    val[:, 2] = np.where(brk, np.nan, val[:, 1])
-    val[all_missing, :2] = np.nan
-    return idx.ravel(), val.ravel()
+    reduced = Envelope(values.size, columns)
+    reduced.add(values)
+    return reduced.result()
+
+
+class Envelope:
+    """The :func:`envelope` of a record of ``length`` samples, fed in consecutive pieces.
+
+    Buckets hold ``ceil(length / columns)`` samples, as :func:`envelope`'s do;
+    only the samples of an unfinished bucket are kept between pieces, so the
+    pieces may be buffers the caller reuses.
+    """
+
+    def __init__(self, length: int, columns: int) -> None:
+        self.block = max(1, math.ceil(int(length) / max(1, int(columns))))
+        self._start = 0  # sample index of the first unfinished sample
+        self._tail = np.empty(0)  # the samples of an unfinished bucket
+        self._parts: list[tuple[np.ndarray, ...]] = []
+
+    def add(self, values: np.ndarray) -> None:
+        """Take the next samples of the record."""
+        values = np.asarray(values, dtype=float)
+        if self._tail.size:  # first finish the bucket the last piece began
+            need = self.block - self._tail.size
+            self._tail = np.concatenate([self._tail, values[:need]])
+            values = values[need:]
+            if self._tail.size < self.block:
+                return
+            self._buckets(self._tail.reshape(1, -1))
+            self._tail = np.empty(0)
+        whole = values.size // self.block
+        if whole:
+            self._buckets(values[: whole * self.block].reshape(whole, self.block))
+        self._tail = values[whole * self.block :].copy()
+
+    def result(self) -> tuple[np.ndarray, np.ndarray]:
+        """Indices and values as :func:`envelope` returns them."""
+        if self._tail.size:  # a short last bucket: its extremes among its own samples
+            self._buckets(self._tail.reshape(1, -1))
+            self._tail = np.empty(0)
+        if not self._parts:
+            return np.empty(0), np.empty(0)
+        any_missing, all_missing, first, second, v_first, v_second = (
+            np.concatenate(a) for a in zip(*self._parts, strict=True)
+        )
+        idx = np.empty((first.size, 3))
+        val = np.empty((first.size, 3))
+        idx[:, 0], idx[:, 1] = first, second
+        val[:, 0], val[:, 1] = v_first, v_second
+        brk = any_missing | np.concatenate([any_missing[1:], [False]])
+        idx[:, 2] = np.where(brk, np.nan, idx[:, 1])
+        val[:, 2] = np.where(brk, np.nan, val[:, 1])
+        val[all_missing, :2] = np.nan
+        return idx.ravel(), val.ravel()
+
+    def _buckets(self, blocks: np.ndarray) -> None:
+        """Reduce whole buckets (rows) starting at the first unfinished sample."""
+        any_missing, all_missing, i_min, i_max = _extremes(blocks, bool(np.isnan(blocks).any()))
+        rows = np.arange(blocks.shape[0])
+        first = np.minimum(i_min, i_max)
+        second = np.maximum(i_min, i_max)
+        base = self._start + rows * self.block
+        self._parts.append(
+            (any_missing, all_missing, base + first, base + second,
+             blocks[rows, first], blocks[rows, second])
+        )  # fmt: skip
+        self._start += blocks.size
 
 
 def _extremes(
@@ -79,8 +115,8 @@ def _extremes(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Per bucket (row): any missing, all missing, position of the minimum and the maximum.
 
-    Missing samples are never chosen; buckets are masked in groups, so the masked
-    copies stay small.
+    Missing samples are never chosen (argmin and argmax take the first of equal
+    values); buckets are masked in groups, so the masked copies stay small.
     """
     count = blocks.shape[0]
     if not has_missing:
@@ -105,69 +141,73 @@ def gap_runs(mask: np.ndarray, max_runs: int) -> np.ndarray:
     More than ``max_runs`` runs are merged per bucket of samples, so that a
     record with many short gaps is shaded with at most about that many spans.
     """
-    if not mask.any():
-        return np.empty((0, 2), dtype=np.int64)
-    found = runs(mask)
-    if len(found) > max_runs:
-        block = math.ceil(mask.size / max_runs)
-        n_blocks = math.ceil(mask.size / block)
-        padded = np.zeros(n_blocks * block, dtype=bool)
-        padded[: mask.size] = mask
-        found = np.minimum(runs(padded.reshape(n_blocks, block).any(axis=1)) * block, mask.size)
-    return found
+    mask = np.asarray(mask, dtype=bool)
+    found = GapRuns(mask.size, max_runs)
+    found.add(mask)
+    return found.result()
+
+
+class GapRuns:
+    """The :func:`gap_runs` of a mask of ``length`` samples, fed in consecutive pieces.
+
+    Runs are kept until there are more than ``max_runs`` of them; beyond that
+    only which buckets hold a true sample (a bucket being ``ceil(length /
+    max_runs)`` samples), as :func:`gap_runs` merges them.
+    """
+
+    def __init__(self, length: int, max_runs: int) -> None:
+        self.length, self.max_runs = int(length), int(max_runs)
+        self.block = max(1, math.ceil(self.length / max(1, self.max_runs)))
+        self._hit = np.zeros(math.ceil(self.length / self.block), dtype=bool)
+        self._found: list[np.ndarray] = []
+        self._count = 0
+        self._open: int | None = None  # start of a run still open at the end of the last piece
+        self._at = 0
+
+    def add(self, mask: np.ndarray) -> None:
+        """Take the next samples of the mask."""
+        mask = np.asarray(mask, dtype=bool)
+        if not mask.size:
+            return
+        at, self._at = self._at, self._at + mask.size
+        where = np.flatnonzero(mask)
+        if not where.size:
+            if self._open is not None:
+                self._close(np.array([[self._open, at]], dtype=np.int64))
+                self._open = None
+            return
+        self._hit[(where + at) // self.block] = True
+        del where
+        edges = np.diff(np.concatenate([[self._open is not None], mask, [False]]).view(np.int8))
+        starts = np.flatnonzero(edges == 1) + at
+        stops = np.flatnonzero(edges == -1) + at
+        if self._open is not None:
+            starts = np.concatenate([[self._open], starts])
+        self._open = None
+        if mask[-1]:  # the run goes on into the next piece
+            self._open, starts, stops = int(starts[-1]), starts[:-1], stops[:-1]
+        self._close(np.column_stack([starts, stops]).astype(np.int64, copy=False))
+
+    def result(self) -> np.ndarray:
+        """The runs as :func:`gap_runs` returns them."""
+        if self._open is not None:
+            self._close(np.array([[self._open, self._at]], dtype=np.int64))
+            self._open = None
+        if not self._count:
+            return np.empty((0, 2), dtype=np.int64)
+        if self._count > self.max_runs:
+            return np.minimum(runs(self._hit) * self.block, self.length)
+        return np.concatenate(self._found)
+
+    def _close(self, found: np.ndarray) -> None:
+        self._count += len(found)
+        if self._count > self.max_runs:
+            self._found = []  # too many to draw: the buckets in self._hit stand for them
+        elif len(found):
+            self._found.append(found)
 
 
 def runs(mask: np.ndarray) -> np.ndarray:
     """(k, 2) array of [start, stop) index ranges where ``mask`` is true."""
     edges = np.diff(np.concatenate([[0], mask.astype(np.int8), [0]]))
     return np.column_stack([np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)])
-
-
-def joined_phase(
-    y: np.ndarray, tau0: float, missing: np.ndarray, centre: float | None = None
-) -> np.ndarray:
-    """Phase integrated from frequency less ``centre`` (default its mean), from zero.
-
-    A missing frequency sample adds nothing, so the record joins up across
-    segment breaks (phase steps and outliers cut out); phase samples that are
-    themselves missing stay missing.
-    """
-    good = np.isfinite(y)
-    whole = bool(good.all())
-    if centre is None:
-        centre = float(np.mean(y if whole else y[good])) if good.any() else 0.0
-    # x[1:] = cumsum(where(good, y - centre, 0) * tau0), built in place
-    x = np.empty(y.size + 1)
-    x[0] = 0.0
-    steps = np.subtract(y, centre, out=x[1:])
-    if not whole:
-        steps[~good] = 0.0
-    steps *= tau0
-    np.cumsum(steps, out=steps)
-    x[missing] = np.nan
-    return x
-
-
-def without_line(phase: np.ndarray) -> tuple[np.ndarray, float]:
-    """Phase minus its least-squares line, and the line's slope (the frequency offset part).
-
-    ``phase`` (a temporary of the caller) is overwritten with the result.
-    """
-    k = np.arange(phase.size, dtype=float)
-    good = np.isfinite(phase)
-    whole = bool(good.all())
-    if int(np.count_nonzero(good)) < 2:
-        return phase - np.nanmean(phase), 0.0
-    kk, xx = (k, phase) if whole else (k[good], phase[good])
-    del good
-    k_mean, x_mean = kk.mean(), xx.mean()
-    dk = np.subtract(kk, k_mean, out=kk if whole else None)  # every k used: k itself centred
-    centred = xx - x_mean
-    # einsum, not np.dot: 1-D dot goes to a threaded BLAS (see deviations._kernels.dot)
-    slope = float(np.einsum("i,i->", dk, centred) / np.einsum("i,i->", dk, dk))
-    del centred, kk, xx
-    line = dk if whole else np.subtract(k, k_mean)  # k - mean(k), as centred above
-    del k
-    line *= slope
-    line += x_mean  # x_mean + slope * (k - mean(k)), in place
-    return np.subtract(phase, line, out=phase), slope

@@ -17,7 +17,9 @@ Phase panels are rebuilt from the analysed frequency, so a record split at a
 phase step or around an outlier joins up there instead of jumping; phase
 steps found by the preparation are marked by vertical lines. Gaps in the log
 are shaded and counted as missing readings (as the summary counts them).
-Long records are drawn as min/max envelopes (:mod:`stability.figures.reduce`).
+Long records are drawn as min/max envelopes (:mod:`stability.figures.reduce`),
+computed block by block from the phase (:mod:`stability.figures.series_data`),
+so that drawing holds no copy of the record.
 :func:`run_series_figure` draws an :class:`~stability.run.AnalysisRun`.
 
 References
@@ -28,7 +30,6 @@ References
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
@@ -42,9 +43,11 @@ from matplotlib.transforms import blended_transform_factory
 
 from ..errors import InputError
 from ..measurement import Measurement
+from ..prepare import DriftFit
 from ..run import AnalysisRun
 from .labels import check_text, default_footer, default_title
-from .reduce import envelope, gap_runs, joined_phase, without_line
+from .reduce import envelope, gap_runs
+from .series_data import drift_at, series_curves
 from .style import (
     DRIFT_COLOR,
     FREQUENCY_COLOR,
@@ -149,7 +152,7 @@ def _validate(
     steps: Any,
     texts: dict[str, Any],
     max_columns: Any,
-) -> tuple[np.ndarray | None, np.ndarray, np.ndarray]:
+) -> tuple[np.ndarray | DriftFit | None, np.ndarray, np.ndarray]:
     if not isinstance(measurement, Measurement):
         raise InputError(
             f"measurement must be a stability.Measurement, got {type(measurement).__name__}",
@@ -165,9 +168,16 @@ def _validate(
     )
 
 
-def _validate_drift(measurement: Measurement, drift_curve: Any) -> np.ndarray | None:
+def _validate_drift(measurement: Measurement, drift_curve: Any) -> np.ndarray | DriftFit | None:
     if drift_curve is None:
         return None
+    if isinstance(drift_curve, DriftFit):
+        if drift_curve.samples != measurement.n - 1:
+            raise InputError(
+                "drift_curve must be fitted to one value per frequency sample "
+                f"({measurement.n - 1}), got a fit to {drift_curve.samples}"
+            )
+        return drift_curve
     try:
         drift = np.asarray(drift_curve, dtype=float)
     except (TypeError, ValueError):
@@ -272,14 +282,6 @@ def _legend(ax: Axes, extra: list[tuple[Any, str]] = ()) -> None:
             return
 
 
-def _reduced(values: np.ndarray, decimate: bool, max_columns: int) -> Curve:
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        if decimate:
-            return envelope(values, max_columns)
-    return np.arange(values.size, dtype=float), values
-
-
 def _panels(frame: Frame, count: int, titled: bool, footed: bool) -> list[Axes]:
     top = frame.height - (0.55 if titled else 0.1) - _OVER
     bottom = (0.3 if footed else 0.05) + _UNDER
@@ -317,23 +319,6 @@ def _given_panels(axes: Any, count: int, into: Any) -> tuple[Frame, list[Axes]]:
     return Frame(target, width, height, False), given
 
 
-def _missing_readings(
-    measurement: Measurement, outliers: np.ndarray, frequency: np.ndarray
-) -> tuple[np.ndarray, int]:
-    """Frequency samples to shade as gaps, and the readings missing in them.
-
-    ``frequency`` is ``measurement.frequency()``.
-    """
-    y_missing = ~np.isfinite(frequency)
-    if measurement.kind == "frequency":
-        lost = y_missing.copy()
-        lost[outliers] = False
-        return lost, int(lost.sum())
-    nan_phase = np.isnan(measurement.phase)
-    nan_phase[outliers] = False
-    return nan_phase[:-1] | nan_phase[1:], int(nan_phase.sum())
-
-
 def series_figure(
     measurement: Measurement,
     *,
@@ -358,7 +343,9 @@ def series_figure(
         The data as analysed (removed outliers are missing samples).
     drift_curve
         The drift model, one fractional-frequency value per frequency sample
-        (``measurement.n - 1`` values), drawn over the frequency.
+        (``measurement.n - 1`` values), drawn over the frequency; or the fit
+        itself (a :class:`~stability.prepare.DriftFit` of the record), evaluated
+        where it is drawn, as its ``y_model``, without a copy of the record.
     drift_removed
         Whether ``measurement`` had that drift removed: the frequency panel
         then shows the data with the drift put back under its curve, and the
@@ -404,31 +391,25 @@ def series_figure(
         measurement, drift_curve, outlier_indices, steps, texts, max_columns
     )
     tau0 = measurement.tau0
-    frequency_analysed = measurement.frequency()  # computed once, read by the steps below
-    frequency_analysed.flags.writeable = False
-    y = frequency_analysed
-    if drift is not None and drift_removed:
-        good = np.isfinite(y) & np.isfinite(drift)
-        y = y + (drift - (float(np.mean(drift[good])) if good.any() else 0.0))
-        del good
-    phase_missing = np.isnan(measurement.phase)
-    residual, _ = without_line(joined_phase(frequency_analysed, tau0, phase_missing))
+    decimate = measurement.n - 1 > 4 * max_columns
+    data = series_curves(
+        measurement,
+        drift=drift,
+        drift_removed=drift_removed,
+        frequency_offset=frequency_offset,
+        outliers=outliers,
+        columns=max_columns,
+        decimate=decimate,
+    )
     timed = measurement.kind == "phase"
-    tie, offset = None, None
-    if timed and frequency_offset is not None and np.isfinite(frequency_offset):
-        offset = float(frequency_offset)
-        tie = joined_phase(y, tau0, phase_missing, offset)
-    elif timed:
-        tie, slope = without_line(joined_phase(y, tau0, phase_missing))
-        offset = float(np.nanmean(y) + slope / tau0)
-    shown = [a for a in (tie, residual if (not timed or drift_removed) else None) if a is not None]
-    p_factor, p_unit = _phase_scale(*shown)
+    offset = data.offset
+    shown = [c for c in (data.time_error, data.residual) if c is not None]
+    p_factor, p_unit = _phase_scale(*(values for _, values in shown))
     origin, scale, x_label, is_date = _time_axis(measurement)
 
     def axis(index: np.ndarray) -> np.ndarray:
         return origin + scale * tau0 * np.asarray(index, dtype=float)
 
-    decimate = y.size > 4 * max_columns
     given: list[Axes] | None = None
     if axes is not None:
         frame, given = _given_panels(axes, 1 + len(shown), into)
@@ -439,23 +420,26 @@ def series_figure(
     if footer is None and frame.own:
         footer = default_footer(measurement, analysis_time=analysis_time)
     axes = given if given is not None else _panels(frame, 1 + len(shown), bool(title), bool(footer))
-    y_idx, y_val = _reduced(y, decimate, max_columns)
+    y_idx, y_val = data.frequency
     frequency = (axis(y_idx), y_val)
     axes[0].plot(*frequency, color=FREQUENCY_COLOR, linewidth=0.6, label="fractional frequency")
     axes[0].set_ylabel("fractional frequency", fontsize=LABEL_SIZE)
     drift_drawn = None
     if drift is not None:
-        d_idx = np.arange(drift.size)
-        if decimate:
-            d_idx = np.unique(np.linspace(0, drift.size - 1, 2 * max_columns).round()).astype(int)
-        drift_drawn = (axis(d_idx), drift[d_idx])
+        size = measurement.n - 1
+        if decimate:  # 2 points per column of a long record, every sample of a short one
+            d_idx = np.unique(np.linspace(0, size - 1, 2 * max_columns).round()).astype(int)
+        else:
+            d_idx = np.arange(size)
+        drift_drawn = (axis(d_idx), drift_at(drift, d_idx))
         wording = drift_label or ("drift removed" if drift_removed else "linear drift estimate")
         axes[0].plot(*drift_drawn, color=DRIFT_COLOR, linewidth=1.2, label=wording)
     curves: dict[str, Curve] = {}
-    for ax, (name, values) in zip(
-        axes[1:], [("tie", tie), ("residual", residual)][0 if timed else 1 :], strict=False
+    for ax, (name, (idx, val)) in zip(
+        axes[1:],
+        [("tie", data.time_error), ("residual", data.residual)][0 if timed else 1 :],
+        strict=False,
     ):
-        idx, val = _reduced(values, decimate, max_columns)
         curves[name] = (axis(idx), val / p_factor)
         if name == "tie":
             label = f"TIE, frequency offset {scaled_text_signed(offset)} removed"
@@ -464,9 +448,8 @@ def series_figure(
             label = "phase residual" + (" after the drift model" if drift_removed else "")
             ax.set_ylabel(f"phase residual ({p_unit})", fontsize=LABEL_SIZE)
         ax.plot(*curves[name], color=PHASE_COLOR, linewidth=0.6, label=label)
-    lost, missing = _missing_readings(measurement, outliers, frequency_analysed)
-    runs = gap_runs(lost, max_columns)
-    gaps = np.column_stack([axis(runs[:, 0]), axis(runs[:, 1])])
+    missing = data.missing
+    gaps = np.column_stack([axis(data.gaps[:, 0]), axis(data.gaps[:, 1])])
     if len(gaps):
         _shade_gaps(tuple(axes), gaps)
     out_x = axis(outliers)
@@ -535,9 +518,7 @@ def run_series_figure(run: AnalysisRun, **options: Any) -> SeriesDrawn:
     prep = run.preparation
     removed = prep.removed_drift
     fit = removed if removed is not None else prep.linear_drift
-    drift = None
-    if fit is not None and fit.samples == run.measurement.n - 1:
-        drift = fit.y_model
+    drift = fit if fit is not None and fit.samples == run.measurement.n - 1 else None
     label = f"drift removed ({removed.model} model)" if removed is not None else None
     stated = run.table.extras.get("offset_drift")
     offset = getattr(stated, "offset", None)
