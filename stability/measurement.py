@@ -362,12 +362,21 @@ class Measurement(Displayable):
         """True when any term of an estimator may have to be dropped."""
         return self.segments is not None or bool(np.isnan(self.phase).any())
 
-    def frequency(self, start: int = 0, stop: int | None = None) -> np.ndarray:
+    def frequency(
+        self,
+        start: int = 0,
+        stop: int | None = None,
+        *,
+        centred: bool = False,
+        out: np.ndarray | None = None,
+    ) -> np.ndarray:
         """Fractional frequency y[k] = (x[k+1] - x[k]) / tau0 + offset, NaN across gaps.
 
         ``start`` and ``stop`` give the samples y[start:stop] alone (default: all
         n - 1), from phase[start:stop + 1]: a block of a long record without the
-        whole frequency array.
+        whole frequency array. ``centred=True`` leaves ``frequency_offset`` out
+        (the small fluctuations keep their digits); ``out`` is an array of
+        ``stop - start`` values to write into instead of a new one.
         """
         count = self.n - 1
         stop = count if stop is None else stop
@@ -375,9 +384,10 @@ class Measurement(Displayable):
             raise InputError(
                 f"frequency samples {start} to {stop} lie outside the record's 0 to {count}"
             )
-        y = np.diff(self.phase[start : stop + 1])
+        y = np.subtract(self.phase[start + 1 : stop + 1], self.phase[start:stop], out=out)
         y /= self.tau0  # in place: one array of the block's length
-        y += self.frequency_offset
+        if not centred:
+            y += self.frequency_offset
         if self.segments is not None:
             # a boolean compare of the two shifted views: no integer diff array
             y[self.segments[start + 1 : stop + 1] != self.segments[start:stop]] = np.nan

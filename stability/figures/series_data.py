@@ -87,16 +87,6 @@ def _drift_block(drift: Any, lo: int, hi: int) -> np.ndarray:
     return drift.frequency_at(t)
 
 
-def _frequency_block(measurement: Measurement, lo: int, hi: int) -> np.ndarray:
-    """``measurement.frequency()[lo:hi]``, from the phase samples lo..hi alone."""
-    y = np.diff(measurement.phase[lo : hi + 1])
-    y /= measurement.tau0
-    y += measurement.frequency_offset
-    if measurement.segments is not None:
-        y[np.diff(measurement.segments[lo : hi + 1]) != 0] = np.nan
-    return y
-
-
 def _blocks(n: int) -> Iterator[tuple[int, int, int]]:
     """(lo, hi, stop): phase samples [lo, hi) and their frequency samples [lo, stop)."""
     for lo in range(0, n, BLOCK):
@@ -282,7 +272,7 @@ def series_curves(
     mean_a, mean_d = _Mean(), _Mean()
     gaps, missing = GapRuns(n - 1, columns), 0
     for block in _blocks(n):
-        frequency = _frequency_block(measurement, block[0], block[2])
+        frequency = measurement.frequency(block[0], block[2])
         lost, count = _lost_block(measurement, outliers, block, frequency)
         gaps.add(lost)
         missing += count
@@ -354,7 +344,7 @@ class _Walk:
     def mean_shown(self) -> float:
         mean = _Mean()
         for lo, _, stop in _blocks(self.measurement.n):
-            shown = self._shown(_frequency_block(self.measurement, lo, stop), lo, stop)
+            shown = self._shown(self.measurement.frequency(lo, stop), lo, stop)
             mean.add(shown, np.isfinite(shown))
         return mean.value()
 
@@ -372,7 +362,7 @@ class _Walk:
             p.carry = 0.0
         shown_needed = draw or any(not p.analysed for p in phases.values())
         for lo, hi, stop in _blocks(self.measurement.n):
-            analysed = _frequency_block(self.measurement, lo, stop)
+            analysed = self.measurement.frequency(lo, stop)
             shown = self._shown(analysed, lo, stop) if shown_needed else analysed
             missing = np.isnan(self.measurement.phase[lo:hi])
             yield (

@@ -118,13 +118,7 @@ def centred_frequency(measurement: Measurement, out: np.ndarray | None = None) -
     fluctuations; add ``measurement.frequency_offset`` to get ``frequency()``.
     ``out``: an array of ``n - 1`` to write into (a new array when None).
     """
-    phase = measurement.phase
-    y = np.subtract(phase[1:], phase[:-1], out=out)  # np.diff, into ``out``
-    y /= measurement.tau0
-    segments = measurement.segments
-    if segments is not None:
-        y[segments[1:] != segments[:-1]] = np.nan
-    return y
+    return measurement.frequency(centred=True, out=out)
 
 
 def frequency_blocks(
@@ -135,16 +129,11 @@ def frequency_blocks(
     Slices of ``y`` when it is given (it must be ``centred_frequency(measurement)``),
     else made from the phase block by block: the same numbers either way.
     """
-    phase, segments, tau0 = measurement.phase, measurement.segments, measurement.tau0
     for start, stop in blocks(measurement.n - 1):
         if y is not None:
             yield start, stop, y[start:stop]
-            continue
-        values = np.subtract(phase[start + 1 : stop + 1], phase[start:stop])
-        values /= tau0
-        if segments is not None:
-            values[segments[start + 1 : stop + 1] != segments[start:stop]] = np.nan
-        yield start, stop, values
+        else:
+            yield start, stop, measurement.frequency(start, stop, centred=True)
 
 
 @lru_cache(maxsize=32)
