@@ -155,6 +155,17 @@ def _finite_mean(values: np.ndarray, good: np.ndarray) -> float:
     return total / int(np.count_nonzero(good))
 
 
+def _phase_buffer(y: np.ndarray) -> np.ndarray | None:
+    """The writeable float64 array whose ``[1:]`` view is ``y``, or None."""
+    base = y.base
+    if not isinstance(base, np.ndarray) or base.shape != (y.size + 1,):
+        return None
+    if base.dtype != np.float64 or not (base.flags.writeable and base.flags.c_contiguous):
+        return None
+    start = base.__array_interface__["data"][0] + base.itemsize
+    return base if y.flags.c_contiguous and y.__array_interface__["data"][0] == start else None
+
+
 def _check_tau0(tau0: Any) -> float:
     try:
         value = float(tau0)
@@ -311,12 +322,16 @@ class Measurement(Displayable):
         Phase is the running sum ``x[k+1] = x[k] + tau0 * (y[k] - mean(y))``;
         the mean goes to ``frequency_offset``. A NaN in ``y`` starts a new
         segment: the terms spanning it are dropped, those on either side kept.
-        ``y`` is never changed; ``adopt=True`` hands ``lines`` over instead of copying it.
+        ``y`` is not changed, unless handed over: ``adopt=True`` hands ``lines``
+        over instead of copying it, and when ``y`` is the view ``buffer[1:]`` of
+        a float64 array one longer, the phase is built in ``buffer`` itself (a
+        record is then never held twice while it becomes phase; ``y`` is gone).
         """
         _check_meta(meta)
         arr = _as_float_array(y, "frequency")
         tau0 = _check_tau0(tau0)
-        if not meta.pop("adopt", False) and meta.get("lines") is not None:
+        adopt = meta.pop("adopt", False)
+        if not adopt and meta.get("lines") is not None:
             meta["lines"] = np.array(meta["lines"])  # the caller's stays theirs
         good = np.isfinite(arr)
         if not good.any():
@@ -324,7 +339,8 @@ class Measurement(Displayable):
         whole = bool(good.all())
         offset = float(np.mean(arr)) if whole else _finite_mean(arr, good)
         # x[1:] = cumsum(where(good, y - offset, 0) * tau0), built in place
-        x = np.empty(arr.size + 1)
+        x = _phase_buffer(arr) if adopt else None
+        x = np.empty(arr.size + 1) if x is None else x
         x[0] = 0.0
         steps = np.subtract(arr, offset, out=x[1:])
         if not whole:

@@ -197,3 +197,24 @@ def test_line_numbers_and_segments_are_stored_in_four_bytes_while_they_fit():
     given = Measurement(phase=np.arange(6.0), tau0=1.0, segments=np.array([0, 0, 1, 1, 1, 2]))
     assert given.segments.dtype == np.int32 and not given.segments.flags.writeable
     assert index_dtype(2**31 - 1) is np.int32 and index_dtype(2**31) is np.int64
+
+
+def test_a_handed_over_frequency_in_a_buffer_one_longer_becomes_the_phase_in_place():
+    """The screening hands its cleaned frequency over as ``buffer[1:]``: the phase is
+    built in that buffer (no second array of the record's length), with the numbers
+    a fresh array gives; any other frequency array is left as it was."""
+    buffer = np.empty(6)
+    y = buffer[1:]
+    y[:] = [1e-9, 2e-9, np.nan, 4e-9, 5e-9]
+    fresh = Measurement.from_frequency(y.copy(), 1.0)
+    built = Measurement.from_frequency(y, 1.0, adopt=True)
+    assert np.shares_memory(built.phase, buffer)
+    np.testing.assert_array_equal(built.phase, fresh.phase)
+    np.testing.assert_array_equal(built.segments, fresh.segments)
+    assert built.frequency_offset == fresh.frequency_offset
+    plain = np.array([1e-9, 2e-9, 3e-9])
+    Measurement.from_frequency(plain, 1.0, adopt=True)
+    assert plain.tolist() == [1e-9, 2e-9, 3e-9]
+    longer = np.zeros(8)
+    Measurement.from_frequency(longer[1:6], 1.0, adopt=True)  # not a buffer one longer
+    assert not longer.any()

@@ -214,7 +214,9 @@ def _screen(
         new = m.replace()
         new.notes.append("Outlier screening was off.")
         return new, OutlierReport(None, math.nan, math.nan, window, drift, 0), None
-    y = centred_frequency(m)  # the one array of the record's length the screening makes
+    # the one array of the record's length the screening makes, one sample longer: the
+    # screened record's phase is built in it (Measurement.from_frequency, adopt=True)
+    y = centred_frequency(m, out=np.empty(m.n)[1:])
     fit = _fit_drift(m, drift, y)
     size = abs(m.frequency_offset) + max_abs(y)
     # The level y + offset - y_model is made in place block by block and the residuals
