@@ -113,6 +113,7 @@ def qualify_result(
     known: Known | None = None,
     model: PowerLawModel | None = None,
     bias_correction: bool = True,
+    drift: float = 0.0,
 ) -> StatisticResult:
     """A new result with the noise, EDF, bias and interval columns of one statistic filled.
 
@@ -123,7 +124,9 @@ def qualify_result(
     with ``model``, the power-law model of the data when known. ``known``
     holds OADEV and MDEV estimates already made for the data. With
     ``bias_correction=False`` the raw estimates are reported (bias factor 1)
-    and their intervals are those of the raw estimator.
+    and their intervals are those of the raw estimator. ``drift`` is a linear
+    frequency drift (1/s) taken out of ``measurement`` for the identification
+    (``result`` is then an estimate of the detrended data).
     """
     stat = get_statistic(result.statistic)
     if not stat.has_interval:
@@ -133,7 +136,9 @@ def qualify_result(
         )
         return dataclasses.replace(result, confidence=confidence, notes=(*result.notes, note))
     if noise is None:
-        raw = identify(measurement, stat.noise_source or stat.name, result.m, known=known)
+        raw = identify(
+            measurement, stat.noise_source or stat.name, result.m, known=known, drift=drift
+        )
         noise = weigh_evidence(raw, measurement.tau0, effective_points(measurement), model)
     alpha = np.array(noise.alpha, dtype=float)  # a copy: the identification may be shared
     notes = [*result.notes, *(f"{stat.name}: {n}" for n in noise.notes)]
@@ -213,7 +218,7 @@ def qualify(
     table: StabilityTable,
     *,
     model_source: StatisticResult | None = None,
-    drift_model_source: tuple[Measurement, StatisticResult] | None = None,
+    drift_model_source: tuple[float, StatisticResult] | None = None,
     f_h: float | None = None,
     offset_source: Measurement | None = None,
     bias_correction: bool = True,
@@ -224,10 +229,11 @@ def qualify(
     the table holds none (the caller computes it; qualification does not call
     the estimators' orchestration). ``offset_source`` is the measurement whose
     frequency offset and drift are reported (default: the analysed one).
-    ``drift_model_source`` is (linearly detrended data, its raw OADEV): the
-    noise model behind the offset and drift uncertainties is fitted to it, so
-    that a drift in the data is not read as random-walk noise (without it the
-    table's own model is used).
+    ``drift_model_source`` is (a linear frequency drift of the data in 1/s,
+    the raw OADEV of the data with that drift removed): the noise model
+    behind the offset and drift uncertainties is fitted to it, so that a drift
+    in the data is not read as random-walk noise (without it the table's own
+    model is used).
     """
     measurement = table.measurement
     known = _known_estimates(table.results)
@@ -270,8 +276,10 @@ def qualify(
         model = _fit(source, f_h)
         drift_model = model
         if drift_model_source is not None:
-            detrended, raw_oadev = drift_model_source
-            drift_model = _fit(qualify_result(raw_oadev, detrended, table.confidence), f_h)
+            slope, raw_oadev = drift_model_source
+            drift_model = _fit(
+                qualify_result(raw_oadev, measurement, table.confidence, drift=slope), f_h
+            )
     if model is None:
         warnings.warn(
             "too few Allan deviation points to fit a power-law noise model",

@@ -85,10 +85,13 @@ def comb_sum_squares(
     count: int,
     start: int = 0,
     block: int = BLOCK,
+    shift: float = 0.0,
 ) -> float:
-    """Sum over i in [start, start+count) of (sum_k coefs[k] x[i + offsets[k]])**2.
+    """Sum over i in [start, start+count) of (sum_k coefs[k] x[i + offsets[k]] - shift)**2.
 
-    Unbroken path only (no NaN in the touched samples).
+    Unbroken path only (no NaN in the touched samples). ``shift`` is what the
+    combination gives on a part of the phase taken out of the data, e.g. the
+    second difference drift tau^2 of a drift t^2 / 2.
     """
     if count <= 0:
         return 0.0
@@ -100,6 +103,8 @@ def comb_sum_squares(
         hi = min(lo + size, start + count)
         b = buf[: hi - lo]
         _fill(b, x, lo, hi, offsets, coefs, tmp[: hi - lo])
+        if shift:
+            b -= shift
         total += dot(b, b)
     return total
 
@@ -138,10 +143,14 @@ def _valid_block(
     hi: int,
     buf: np.ndarray,
     tmp: np.ndarray,
+    shift: float = 0.0,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Terms i in [lo, hi), the invalid ones (see :func:`comb_terms`) set to 0, and their mask."""
+    """Terms i in [lo, hi) less ``shift``, the invalid ones (see :func:`comb_terms`) set to 0,
+    and their mask."""
     b = buf[: hi - lo]
     _fill(b, x, lo, hi, offsets, coefs, tmp[: hi - lo])
+    if shift:
+        b -= shift
     bad = np.isnan(b)
     if seg is not None:
         first, last = min(offsets), max(offsets)
@@ -157,11 +166,13 @@ def gappy_sum_squares(
     coefs: Sequence[float],
     count: int,
     block: int = BLOCK,
+    shift: float = 0.0,
 ) -> tuple[float, int]:
     """Sum of squares of the valid terms of :func:`comb_terms` and how many there are.
 
     The same numbers as summing ``comb_terms(...)`` without its NaN, computed in
-    cache-sized blocks: nothing of the input's size is allocated.
+    cache-sized blocks: nothing of the input's size is allocated. ``shift`` is
+    subtracted from every term (see :func:`comb_sum_squares`).
     """
     if count <= 0:
         return 0.0, 0
@@ -170,7 +181,7 @@ def gappy_sum_squares(
     total, used = 0.0, 0
     for lo in range(0, count, size):
         hi = min(lo + size, count)
-        b, bad = _valid_block(x, seg, offsets, coefs, lo, hi, buf, tmp)
+        b, bad = _valid_block(x, seg, offsets, coefs, lo, hi, buf, tmp, shift)
         total += dot(b, b)
         used += (hi - lo) - int(np.count_nonzero(bad))
     return total, used
@@ -184,8 +195,11 @@ def gappy_window_sums_squares(
     count: int,
     width: int,
     block: int = BLOCK,
+    shift: float = 0.0,
 ) -> tuple[float, int]:
     """:func:`window_sums_squares` of the ``count`` terms of :func:`comb_terms`, in blocks.
+
+    ``shift`` is subtracted from every term (see :func:`comb_sum_squares`).
 
     Each window sum follows from the previous one by adding the term that enters
     and subtracting the one that leaves (a running sum, as in the unbroken
@@ -201,14 +215,16 @@ def gappy_window_sums_squares(
     level, inside = 0.0, 0
     for lo in range(0, width, size):  # the first window
         hi = min(lo + size, width)
-        b, bad = _valid_block(x, seg, offsets, coefs, lo, hi, enter, tmp)
+        b, bad = _valid_block(x, seg, offsets, coefs, lo, hi, enter, tmp, shift)
         level += float(b.sum())
         inside += int(np.count_nonzero(bad))
     total, used = (level * level, 1) if inside == 0 else (0.0, 0)
     for lo in range(0, windows - 1, size):  # windows 1 .. windows - 1
         hi = min(lo + size, windows - 1)
-        came, came_bad = _valid_block(x, seg, offsets, coefs, lo + width, hi + width, enter, tmp)
-        went, went_bad = _valid_block(x, seg, offsets, coefs, lo, hi, leave, tmp)
+        came, came_bad = _valid_block(
+            x, seg, offsets, coefs, lo + width, hi + width, enter, tmp, shift
+        )
+        went, went_bad = _valid_block(x, seg, offsets, coefs, lo, hi, leave, tmp, shift)
         np.subtract(came, went, out=came)
         np.cumsum(came, out=came)
         came += level

@@ -40,19 +40,28 @@ def _finish(total: float, n: int, scale: float) -> tuple[float, int]:
     return math.sqrt(total / (scale * n)), n
 
 
-def oadev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
+def oadev(
+    x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None, *, drift: float = 0.0
+) -> tuple[float, int]:
     """Overlapping Allan deviation (SP 1065 eq. 11).
 
     AVAR = sum_{i=1}^{N-2m} (x_{i+2m} - 2x_{i+m} + x_i)^2 / (2 tau^2 (N - 2m)).
+
+    ``drift`` is a linear frequency drift (1/s) taken out of the data: the
+    estimate of the phase x - drift t^2 / 2, whose terms are those of x less
+    drift tau^2 (the second difference of drift t^2 / 2 at step tau), formed
+    term by term without a detrended copy of the phase.
     """
     tau = m * tau0
     count = x.size - 2 * m
     offsets = (0, m, 2 * m)
     if count <= 0:
         return math.nan, 0
+    shift = drift * tau * tau
     if is_unbroken(x, seg):
-        return _finish(comb_sum_squares(x, offsets, _D2, count), count, 2 * tau * tau)
-    total, used = gappy_sum_squares(x, seg, offsets, _D2, count)
+        total = comb_sum_squares(x, offsets, _D2, count, shift=shift)
+        return _finish(total, count, 2 * tau * tau)
+    total, used = gappy_sum_squares(x, seg, offsets, _D2, count, shift=shift)
     return _finish(total, used, 2 * tau * tau)
 
 
@@ -64,7 +73,9 @@ def adev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
     return dev, n
 
 
-def mdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> tuple[float, int]:
+def mdev(
+    x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None, *, drift: float = 0.0
+) -> tuple[float, int]:
     """Modified Allan deviation (SP 1065 eq. 14).
 
     MVAR = sum_{j=1}^{N-3m+1} [sum_{i=j}^{j+m-1} (x_{i+2m} - 2x_{i+m} + x_i)]^2
@@ -72,16 +83,22 @@ def mdev(x: np.ndarray, tau0: float, m: int, seg: np.ndarray | None = None) -> t
 
     The inner sum moves by one third difference per step, so each tau costs
     O(N): v_{j+1} = v_j + (x_{j+3m} - 3x_{j+2m} + 3x_{j+m} - x_j).
+    ``drift`` is taken out as in :func:`oadev`: each of the m second differences
+    of a window loses drift tau^2 (the third differences are unchanged).
     """
     tau = m * tau0
     count = x.size - 3 * m + 1
     if count <= 0:
         return math.nan, 0
     scale = 2.0 * m * m * tau * tau
+    shift = drift * tau * tau
     if not is_unbroken(x, seg):
-        total, n = gappy_window_sums_squares(x, seg, (0, m, 2 * m), _D2, x.size - 2 * m, m)
+        total, n = gappy_window_sums_squares(
+            x, seg, (0, m, 2 * m), _D2, x.size - 2 * m, m, shift=shift
+        )
         return _finish(total, n, scale)
     v0 = float(np.sum(x[2 * m : 3 * m]) - 2.0 * np.sum(x[m : 2 * m]) + np.sum(x[:m]))
+    v0 -= m * shift
     total = v0 * v0
     rest = count - 1
     if rest > 0:
