@@ -224,6 +224,20 @@ def _model_source(measurement: Measurement, stats: list[Statistic], memo: dict):
 _CANCELLATION_LIMIT = 1e8
 
 
+#: Samples per block of :func:`_lag_differences_sum`.
+_BLOCK = 1 << 16
+
+
+def _lag_differences_sum(x: np.ndarray, start: int, m: int) -> float:
+    """sum_{k=start}^{start+m-1} (x_{k+m} - x_k), in blocks: at the longest taus m is
+    a quarter of the record (3.4 B/row at 1e7 rows as one array)."""
+    total = 0.0
+    for lo in range(start, start + m, _BLOCK):
+        hi = min(lo + _BLOCK, start + m)
+        total += float(np.sum(x[lo + m : hi + m] - x[lo:hi]))
+    return total
+
+
 def _detrended_oadev(
     measurement: Measurement, base: StatisticResult, slope: float
 ) -> StatisticResult:
@@ -245,8 +259,8 @@ def _detrended_oadev(
         m = int(m)
         count = n - 2 * m
         tau = m * tau0
-        tail = float(np.sum(x[count + m : count + 2 * m] - x[count : count + m]))
-        head = float(np.sum(x[m : 2 * m] - x[:m]))
+        tail = _lag_differences_sum(x, count, m)
+        head = _lag_differences_sum(x, 0, m)
         mean_d = (tail - head) / (count * tau)
         avar = float(dev) ** 2
         drift_part = abs(slope * tau * mean_d) + 0.5 * (slope * tau) ** 2

@@ -17,7 +17,7 @@ import stability.measurement as measurement_module
 import stability.noise as noise
 import stability.powerlaw as powerlaw
 from stability import Measurement
-from stability.deviations import _kernels
+from stability.deviations import _kernels, total
 from stability.deviations.allan import mdev, oadev
 from stability.noise import identify
 
@@ -170,3 +170,37 @@ def test_shifted_kernels_in_small_blocks_equal_the_whole_terms():
     whole = _kernels.comb_terms(clean, None, offsets, coefs, count) - shift
     blocked = _kernels.comb_sum_squares(clean, offsets, coefs, count, 0, BLOCK, shift)
     assert blocked == pytest.approx(float(whole @ whole), rel=1e-12)
+
+
+def _reflected_totvar_sums(meas: Measurement, m: int) -> tuple[float, int]:
+    """TOTVAR's sum of squared terms and their count from the odd-reflected record
+    written out whole (SP 1065 eq. 25), a reflected sample taking its end's segment."""
+    x = meas.phase
+    n, last = x.size, x.size - 1
+    seg = np.zeros(n, dtype=np.int64) if meas.segments is None else meas.segments
+    ext = np.concatenate((2 * x[0] - x[m:0:-1], x, 2 * x[last] - x[last - 1 : last - m - 1 : -1]))
+    ext_seg = np.concatenate((np.full(m, seg[0]), seg, np.full(m, seg[last])))
+    i = np.arange(1, n - 1) + m  # the record's samples 1 .. N-2 in the extension
+    terms = ext[i - m] - 2 * ext[i] + ext[i + m]
+    ok = np.isfinite(terms) & (ext_seg[i - m] == ext_seg[i + m])
+    return float(terms[ok] @ terms[ok]), int(ok.sum())
+
+
+@pytest.mark.parametrize("record", ["frequency", "phase", "unbroken"])
+def test_total_deviation_edges_in_small_blocks_equal_the_reflected_record(monkeypatch, record):
+    if record == "frequency":
+        meas = _frequency_record()[1]
+    elif record == "phase":
+        meas = _phase_record()
+    else:
+        meas = Measurement.from_frequency(np.random.default_rng(6).standard_normal(103), 1.0)
+    edge_blocks = total._edge_blocks
+    monkeypatch.setattr(total, "_edge_blocks", lambda x, seg, m: edge_blocks(x, seg, m, BLOCK))
+    for m in (1, 2, 7, 15, 30, 51):
+        dev, used = total.totdev(meas.phase, meas.tau0, m, meas.segments)
+        sums, count = _reflected_totvar_sums(meas, m)
+        assert used == count
+        if count == 0:  # every term spans a gap
+            assert np.isnan(dev)
+            continue
+        assert dev == pytest.approx(np.sqrt(sums / (2 * (m * meas.tau0) ** 2 * count)), rel=1e-12)
