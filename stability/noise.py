@@ -256,6 +256,7 @@ def _gap_steps(x: np.ndarray, seg: np.ndarray | None) -> np.ndarray:
     sample), not a frequency array or a mask of the record's length.
     """
     found = []
+    index = np.int32 if x.size < 2**31 else np.int64
     for lo in range(0, x.size - 1, _BLOCK):
         hi = min(lo + _BLOCK, x.size - 1)
         bad = np.isnan(x[lo:hi])
@@ -264,8 +265,8 @@ def _gap_steps(x: np.ndarray, seg: np.ndarray | None) -> np.ndarray:
             bad |= seg[lo:hi] != seg[lo + 1 : hi + 1]
         where = np.flatnonzero(bad)
         if where.size:
-            found.append(where + lo)
-    return np.concatenate(found) if found else np.empty(0, dtype=np.int64)
+            found.append((where + lo).astype(index))
+    return np.concatenate(found) if found else np.empty(0, dtype=index)
 
 
 def _decimated(x: np.ndarray, m: int, first: int, count: int, tau0: float, drift: float):
@@ -279,6 +280,16 @@ def _decimated(x: np.ndarray, m: int, first: int, count: int, tau0: float, drift
     ramp *= ramp
     ramp *= 0.5 * drift
     return np.subtract(z, ramp, out=ramp)
+
+
+def _check_drift(drift: Any) -> float:
+    try:
+        value = float(drift)
+    except (TypeError, ValueError):
+        raise InputError(f"drift must be a number (1/s), got {drift!r}") from None
+    if not math.isfinite(value):
+        raise InputError(f"drift must be finite, got {drift!r}")
+    return value
 
 
 def _block_means(
@@ -306,7 +317,7 @@ def _block_means(
     j = skip + int(np.searchsorted(dropped - np.arange(dropped.size), skip, side="right"))
     out = np.empty(want)
     got = 0
-    while got < want:
+    while got < want and j < blocks:
         stop = min(j + _BLOCK, blocks)
         ends = _decimated(x, m, j, stop - j + 1, tau0, drift)
         means = np.diff(ends)
@@ -318,6 +329,7 @@ def _block_means(
         out[got : got + take] = means[:take]
         got += take
         j = stop
+    out = out[:got]
     return out[np.isfinite(out)]
 
 
@@ -420,7 +432,7 @@ def identify(
     uncertain = np.zeros(count, dtype=bool)
     neighbour = np.full(count, np.nan)
     method = [""] * count
-    drift = float(drift)
+    drift = _check_drift(drift)
     gaps = _gap_steps(x, seg)
     unbroken = gaps.size == 0
     notes: list[str] = []

@@ -46,6 +46,8 @@ LABELS = {2: "WPM", 1: "FPM", 0: "WFM", -1: "FFM", -2: "RWFM"}
         (lambda: identify(_meas(), "oadev", [0]), "ms"),
         (lambda: identify(_meas(), "oadev", [1.5]), "ms"),
         (lambda: identify(_meas(), "oadev", ["x"]), "ms"),
+        (lambda: identify(_meas(), "oadev", [1], drift="x"), "drift"),
+        (lambda: identify(_meas(), "oadev", [1], drift=math.inf), "drift"),
         (lambda: rn_expected(4, 0), "alpha"),
     ],
 )
