@@ -1,8 +1,8 @@
 """Block-by-block computations of the analysis equal their whole-array forms.
 
-The frequency of a measurement, the least-squares offset and drift, the block
-means of the noise identification and the drift taken out of the estimators
-are computed in blocks so that no array of the record's length is made. Each is
+The least-squares offset and drift, the block means of the noise
+identification, the drift taken out of the estimators and the edge terms of
+the total deviation are computed in blocks so that no array of the record's length is made. Each is
 checked here against the plain whole-array computation, with the block size
 made small, a length that is not a multiple of it, and gaps (NaN samples and
 frequency gaps) on and beside the block edges.
@@ -13,7 +13,6 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-import stability.measurement as measurement_module
 import stability.noise as noise
 import stability.powerlaw as powerlaw
 from stability import Measurement
@@ -46,22 +45,6 @@ def _whole_frequency(meas: Measurement) -> np.ndarray:
     if meas.segments is not None:
         y[np.diff(meas.segments) != 0] = np.nan
     return y
-
-
-@pytest.mark.parametrize("record", ["frequency", "phase"])
-def test_frequency_in_blocks_equals_the_whole_array(monkeypatch, record):
-    meas = _frequency_record()[1] if record == "frequency" else _phase_record()
-    expected = _whole_frequency(meas)
-    monkeypatch.setattr(measurement_module, "FREQUENCY_BLOCK", BLOCK)
-    np.testing.assert_array_equal(meas.frequency(), expected)
-    pieces = [(lo, block.copy()) for lo, block in meas.frequency_blocks()]
-    assert [lo for lo, _ in pieces] == list(range(0, expected.size, BLOCK))
-    np.testing.assert_array_equal(np.concatenate([b for _, b in pieces]), expected)
-
-
-def test_frequency_of_frequency_input_gives_back_the_readings():
-    y, meas = _frequency_record()
-    np.testing.assert_allclose(meas.frequency(), y, rtol=1e-12, equal_nan=True)
 
 
 def _ols(y: np.ndarray, tau0: float) -> tuple[float, float, float]:
