@@ -44,9 +44,13 @@ __all__ = [
     "usual_interval",
 ]
 
-#: Bytes of arrays held per row (or grid sample) at the peak of reading (measured with
-#: tests/benchmarks/bench_ingest.py: about 14 float64 or int64 arrays of the log's length).
-BYTES_PER_ROW = 112
+#: Bytes per row (or grid sample) that reading and then analysing a log hold at their
+#: peak, beyond the fixed cost of the program. Measured: reading with the pyarrow engine
+#: peaks at about 33 B a row (stamps, readings, int32 line numbers and the grid's
+#: steps), a whole ``stability analyze`` at 29 to 33 B a row above its fixed cost at
+#: 10^8 and 10^7 rows (tests/benchmarks/bench_memory.py); 40 leaves a margin. The
+#: text of a log read whole into memory (the pandas engine) is counted on top.
+BYTES_PER_ROW = 40
 #: An archive may expand to this many times its stored size (``max_expansion``).
 DEFAULT_MAX_EXPANSION = 100.0
 #: A small archive may always expand to this many bytes, whatever the ratio.

@@ -95,9 +95,10 @@ def main(scale: float = 1.0, log: Path | None = None, stats: str | None = None) 
         analyse(small, "warm")  # bytecode and page caches, as for a user's second run
         _, fixed = analyse(small, "small")
         took, peak = analyse(log, "big")
+        size = log.stat().st_size
     phase = 8.0 * (rows + 1)
     ratio = (peak - fixed) / phase
-    print(f"rows {rows}: {log.stat().st_size / 1e9:.2f} GB log, phase array {phase / 1e9:.3f} GB")
+    print(f"rows {rows}: {size / 1e9:.2f} GB log, phase array {phase / 1e9:.3f} GB")
     print(
         f"peak {peak / 1e9:.3f} GB, fixed overhead {fixed / 1e9:.3f} GB (10**4-row run), "
         f"{took:.1f} s"
