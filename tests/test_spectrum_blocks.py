@@ -110,3 +110,12 @@ def test_lines_found_on_the_searched_stretch_alone():
     assert len(lines) == 1  # 0.2 Hz lies above a quarter of the Nyquist frequency
     assert abs(lines[0].frequency - 1 / 1210.0) < spec.resolution / 3
     assert lines[0].amplitude == pytest.approx(3e-12, rel=0.1)
+
+
+@pytest.mark.parametrize("length", [16, 17, 1000, 10_007])
+def test_the_window_is_scipys_periodic_hann(length):
+    """The spectrum builds its own window (scipy.signal's import is not paid for it):
+    the same numbers as scipy.signal.get_window("hann", length), bit for bit."""
+    from scipy.signal import get_window
+
+    np.testing.assert_array_equal(spectrum_module.hann_window(length), get_window("hann", length))
