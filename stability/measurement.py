@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from collections.abc import Iterator
 from dataclasses import InitVar, dataclass, field
 from datetime import datetime
 from typing import Any
@@ -408,6 +409,21 @@ class Measurement(Displayable):
             # a boolean compare of the two shifted views: no integer diff array
             y[self.segments[start + 1 : stop + 1] != self.segments[start:stop]] = np.nan
         return y
+
+    def frequency_blocks(
+        self, size: int, *, centred: bool = False, reuse: bool = False
+    ) -> Iterator[tuple[int, int, np.ndarray]]:
+        """:meth:`frequency` block by block: ``(start, stop, y[start:stop])``, blocks of ``size``.
+
+        No array of the record's length is made. ``reuse=True`` writes every
+        block into one buffer (a block is then only valid until the next one).
+        """
+        count = self.n - 1
+        buffer = np.empty(min(size, max(count, 0))) if reuse else None
+        for start in range(0, count, size):
+            stop = min(start + size, count)
+            out = None if buffer is None else buffer[: stop - start]
+            yield start, stop, self.frequency(start, stop, centred=centred, out=out)
 
     def phase_with_offset(self) -> np.ndarray:
         """Phase with the removed mean frequency offset added back (for MTIE, TIE)."""

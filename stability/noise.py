@@ -81,7 +81,7 @@ import pandas as pd
 from .deviations.allan import mdev, oadev
 from .deviations.registry import STATISTICS
 from .errors import InputError
-from .measurement import Measurement
+from .measurement import Measurement, index_dtype
 from .noise_methods import (
     _DEGENERATE_RTOL,
     ACF_MIN_POINTS,
@@ -256,7 +256,7 @@ def _gap_steps(x: np.ndarray, seg: np.ndarray | None) -> np.ndarray:
     sample), not a frequency array or a mask of the record's length.
     """
     found = []
-    index = np.int32 if x.size < 2**31 else np.int64
+    index = index_dtype(x.size)
     for lo in range(0, x.size - 1, _BLOCK):
         hi = min(lo + _BLOCK, x.size - 1)
         bad = np.isnan(x[lo:hi])

@@ -491,11 +491,8 @@ def _frequency_blocks(measurement: Any) -> Callable[[], Iterator[tuple[int, np.n
     buffer of :data:`_FIT_BLOCK` samples made from the phase (see :func:`_line`)."""
 
     def blocks() -> Iterator[tuple[int, np.ndarray]]:
-        count = measurement.n - 1
-        buf = np.empty(min(_FIT_BLOCK, max(count, 0)))
-        for lo in range(0, count, _FIT_BLOCK):
-            hi = min(lo + _FIT_BLOCK, count)
-            yield lo, measurement.frequency(lo, hi, out=buf[: hi - lo])
+        for lo, _, values in measurement.frequency_blocks(_FIT_BLOCK, reuse=True):
+            yield lo, values
 
     return blocks
 

@@ -323,9 +323,7 @@ def _segments_holding_gaps(
     each marks the start and the end of its range in a difference array over segments.
     """
     marks = np.zeros(count + 1, dtype=np.int64)
-    samples = measurement.n - 1
-    for first in range(0, samples, _SCAN):
-        y = measurement.frequency(first, min(first + _SCAN, samples))
+    for first, _, y in measurement.frequency_blocks(_SCAN, reuse=True):
         bad = np.flatnonzero(~np.isfinite(y)) + first
         del y
         low = np.maximum(-((length - 1 - bad) // step), 0)

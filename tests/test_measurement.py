@@ -218,3 +218,24 @@ def test_a_handed_over_frequency_in_a_buffer_one_longer_becomes_the_phase_in_pla
     longer = np.zeros(8)
     Measurement.from_frequency(longer[1:6], 1.0, adopt=True)  # not a buffer one longer
     assert not longer.any()
+
+
+@pytest.mark.parametrize("reuse", [False, True])
+def test_frequency_blocks_join_up_to_the_whole_frequency(reuse):
+    """Blocks of 7 (a length that is not a multiple of it, gaps on block edges) give the
+    numbers of frequency() and of frequency(centred=True); with ``reuse`` one buffer."""
+    y = np.linspace(1e-9, 2e-9, 30)
+    y[[6, 7, 13, 29]] = np.nan
+    m = Measurement.from_frequency(y, 2.0)
+    for centred in (False, True):
+        whole = m.frequency(centred=centred)
+        parts = [
+            (start, stop, values.copy())
+            for start, stop, values in m.frequency_blocks(7, centred=centred, reuse=reuse)
+        ]
+        assert [(a, b) for a, b, _ in parts] == [(0, 7), (7, 14), (14, 21), (21, 28), (28, 30)]
+        np.testing.assert_array_equal(np.concatenate([v for _, _, v in parts]), whole)
+    buffers = {
+        id(v.base) if v.base is not None else id(v) for _, _, v in m.frequency_blocks(7, reuse=True)
+    }
+    assert len(buffers) == 1

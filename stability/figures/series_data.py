@@ -79,12 +79,8 @@ def drift_at(drift: Any, index: np.ndarray) -> np.ndarray:
 
 
 def _drift_block(drift: Any, lo: int, hi: int) -> np.ndarray:
-    if isinstance(drift, np.ndarray):
-        return drift[lo:hi]
-    t = np.arange(lo, hi, dtype=float)
-    t += 0.5
-    t *= drift.tau0
-    return drift.frequency_at(t)
+    """:func:`drift_at` of frequency samples [lo, hi) (a view of an array's values)."""
+    return drift[lo:hi] if isinstance(drift, np.ndarray) else drift_at(drift, np.arange(lo, hi))
 
 
 def _blocks(n: int) -> Iterator[tuple[int, int, int]]:

@@ -129,11 +129,11 @@ def frequency_blocks(
     Slices of ``y`` when it is given (it must be ``centred_frequency(measurement)``),
     else made from the phase block by block: the same numbers either way.
     """
-    for start, stop in blocks(measurement.n - 1):
-        if y is not None:
-            yield start, stop, y[start:stop]
-        else:
-            yield start, stop, measurement.frequency(start, stop, centred=True)
+    if y is None:
+        yield from measurement.frequency_blocks(_BLOCK, centred=True)
+        return
+    for start, stop in blocks(y.size):
+        yield start, stop, y[start:stop]
 
 
 @lru_cache(maxsize=32)

@@ -50,7 +50,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import StabilityWarning
-from ..measurement import Measurement
+from ..measurement import Measurement, index_dtype
 from ._common import (
     beyond,
     blocks,
@@ -382,7 +382,7 @@ def _mark_phase(m: Measurement, inner: np.ndarray, splits: np.ndarray) -> Measur
     n = m.n
     phase = m.phase.copy()
     phase[inner] = np.nan
-    segments = np.zeros(n, dtype=np.int64) if m.segments is None else m.segments.copy()
+    segments = np.zeros(n, dtype=index_dtype(n)) if m.segments is None else m.segments.copy()
     cuts = [*splits.tolist(), n]  # ascending: each split adds a segment from there on
     for count, (first, last) in enumerate(zip(cuts[:-1], cuts[1:], strict=True), start=1):
         segments[first:last] += count

@@ -35,7 +35,7 @@ import numpy as np
 from ..display import Displayable
 from ..errors import AnalysisError
 from ..measurement import Measurement
-from ._common import blocks, check_measurement, check_threshold
+from ._common import blocks, check_measurement, check_threshold, max_abs
 from .average import _validate_average_args
 from .average import average as average_samples
 from .drift import DriftFit, _fit_drift, _remove_fit, check_drift_model
@@ -229,8 +229,7 @@ def require_variation(measurement: Measurement) -> None:
     """
     m = check_measurement(measurement, "require_variation")
     phase = m.phase
-    # the largest |phase| over the known samples, with no copy
-    scale = max(float(np.fmax.reduce(phase)), -float(np.fmin.reduce(phase)), 0.0)
+    scale = max_abs(phase)  # the largest |phase| over the known samples
     limit = 64.0 * np.finfo(np.float64).eps * scale
     count, low, high = 0, math.inf, -math.inf
     for step in _frequency_steps(m):
